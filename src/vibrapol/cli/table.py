@@ -1,0 +1,36 @@
+"""Per-mode Raman table (frequency, invariants, activity, depolarization ratios) of any source."""
+
+from __future__ import annotations
+
+import argparse
+
+from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.invariants import DEGENERACY_TOL_CM1
+from vibrapol.ramantable import raman_table
+from vibrapol.report import FORMATTERS
+from vibrapol.sources import read_modes, readers
+
+HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Arguments of ``vibrapol table``."""
+    parser.add_argument("source", help="quantum-chemistry output file or vibrapol *.modes.json")
+    parser.add_argument("--kind", choices=sorted(readers()), help="input kind (default: from the content)")
+    parser.add_argument("--format", choices=sorted(FORMATTERS), default="text", help="output format (default: text)")
+    parser.add_argument(
+        "--degeneracy-tol-cm1",
+        type=float,
+        default=DEGENERACY_TOL_CM1,
+        help=f"modes closer than this are one degenerate set (default: {DEGENERACY_TOL_CM1})",
+    )
+    add_output_arguments(parser, "table")
+
+
+def run(args: argparse.Namespace) -> int:
+    """Read the source, compute the table, print or write it."""
+    check_output(args)
+    modes = read_modes(args.source, kind=args.kind)
+    table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
+    emit(args, FORMATTERS[args.format](table))
+    return 0

@@ -1,0 +1,231 @@
+"""The :class:`ModeSet`: one molecule's vibrational modes and Raman tensors, immutable.
+
+Every source (quantum-chemistry output, the embedded engine, vibrapol's own JSON) produces a
+``ModeSet``; every later step reads one.  Units are fixed inside the package (design.md):
+Å, Da, cm⁻¹, Å³ for α, Å² for ∂α/∂x and Å² Da⁻¹ᐟ² for ∂α/∂Q.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from ase.data import atomic_masses_common, chemical_symbols
+
+from vibrapol.errors import ShapeError
+
+#: Where the default masses come from (recorded in provenance when they are used).
+DEFAULT_MASSES_NOTE = "most abundant isotope of each element (ase.data.atomic_masses_common)"
+
+#: Tolerance for |LLᵀ − I| when checking that normal modes are orthonormal.
+ORTHONORMAL_TOL = 1e-3
+
+
+def default_masses(atomic_numbers: np.ndarray) -> np.ndarray:
+    """Mass of the most abundant isotope of each element, in Da."""
+    z = np.asarray(atomic_numbers, dtype=int)
+    masses = atomic_masses_common[z]
+    if np.any(~np.isfinite(masses)):
+        bad = sorted({chemical_symbols[i] for i in z[~np.isfinite(masses)]})
+        raise ShapeError(f"no default isotope mass for {', '.join(bad)}; give the masses explicitly")
+    return np.array(masses, dtype=float)
+
+
+@dataclass(frozen=True)
+class Provenance:
+    """Where a :class:`ModeSet` came from.
+
+    Attributes
+    ----------
+    source_file : str
+        File the data was read from ('' when computed in memory).
+    source_kind : str
+        Name of the reader (or ``"engine"``).
+    program, program_version : str
+        Quantum-chemistry program and version when known.
+    method, basis : str
+        Electronic-structure method and basis set when known.
+    masses : str
+        Where the atomic masses came from.
+    notes : tuple of str
+        Anything else a reader of the results should know (conversions made, quirks handled).
+    """
+
+    source_file: str = ""
+    source_kind: str = ""
+    program: str = ""
+    program_version: str = ""
+    method: str = ""
+    basis: str = ""
+    masses: str = ""
+    notes: tuple[str, ...] = ()
+
+    def with_note(self, note: str) -> Provenance:
+        """Return a copy with one more note."""
+        return dataclasses.replace(self, notes=(*self.notes, note))
+
+
+def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:
+    arr = np.array(value, dtype=dtype, copy=True)
+    if arr.ndim != len(shape) or any(s is not None and s != a for s, a in zip(shape, arr.shape)):
+        want = "(" + ", ".join("any" if s is None else str(s) for s in shape) + ")"
+        raise ShapeError(f"{name} should be an array of shape {want}, got shape {arr.shape}")
+    if dtype is float and not np.all(np.isfinite(arr)):
+        raise ShapeError(f"{name} contains NaN or infinite values")
+    arr.setflags(write=False)
+    return arr
+
+
+def _optional(value: Any, name: str, shape: tuple[int | None, ...]) -> np.ndarray | None:
+    return None if value is None else _array(value, name, shape)
+
+
+@dataclass(frozen=True, eq=False)
+class ModeSet:
+    """Vibrational modes of one molecule with what is known of their Raman tensors.
+
+    Parameters
+    ----------
+    atomic_numbers : array of int, shape (N,)
+    coordinates_ang : array, shape (N, 3)
+        Cartesian coordinates in Å, in the frame of the normal modes and tensors.
+    freqs_cm1 : array, shape (n_modes,)
+        Harmonic wavenumbers in cm⁻¹; an imaginary frequency is stored as a negative number.
+    modes : array, shape (n_modes, 3N)
+        Mass-weighted orthonormal normal-mode vectors L (rows), coordinates atom-major.
+    masses_da : array, shape (N,), optional
+        Atomic masses in Da; default: :func:`default_masses`.
+    dalpha_dx : array, shape (3N, 3, 3), optional
+        Cartesian polarizability derivatives ∂α/∂x in Å².
+    dalpha_dq : array, shape (n_modes, 3, 3), optional
+        Normal-coordinate derivatives ∂α/∂Q in Å² Da⁻¹ᐟ².  Derived from ``dalpha_dx`` when
+        only that is given.
+    a2, gamma2 : array, shape (n_modes,), optional
+        Invariants a² and γ² of ∂α/∂Q in Å⁴ Da⁻¹, for sources that print only the activity and
+        the depolarization ratio (no tensors).
+    polarizability_ang3 : array, shape (3, 3), optional
+        Static polarizability α in Å³.
+    energy_hartree : float, optional
+        Electronic energy, for weighting conformers.
+    provenance : Provenance
+
+    Notes
+    -----
+    A ``ModeSet`` is never mutated: arrays are private read-only copies and every "change" is a
+    new object (``dataclasses.replace``).
+    """
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    freqs_cm1: np.ndarray
+    modes: np.ndarray
+    masses_da: np.ndarray | None = None
+    dalpha_dx: np.ndarray | None = None
+    dalpha_dq: np.ndarray | None = None
+    a2: np.ndarray | None = None
+    gamma2: np.ndarray | None = None
+    polarizability_ang3: np.ndarray | None = None
+    energy_hartree: float | None = None
+    provenance: Provenance = field(default_factory=Provenance)
+
+    def __post_init__(self) -> None:
+        set_ = object.__setattr__
+        z = _array(self.atomic_numbers, "atomic_numbers", (None,), dtype=int)
+        n_atoms = z.shape[0]
+        if n_atoms == 0:
+            raise ShapeError("a ModeSet needs at least one atom")
+        set_(self, "atomic_numbers", z)
+        set_(self, "coordinates_ang", _array(self.coordinates_ang, "coordinates_ang", (n_atoms, 3)))
+        freqs = _array(self.freqs_cm1, "freqs_cm1", (None,))
+        n_modes = freqs.shape[0]
+        set_(self, "freqs_cm1", freqs)
+        set_(self, "modes", _array(self.modes, "modes", (n_modes, 3 * n_atoms)))
+        provenance = self.provenance
+        if self.masses_da is None:
+            set_(self, "masses_da", _array(default_masses(z), "masses_da", (n_atoms,)))
+            if not provenance.masses:
+                provenance = dataclasses.replace(provenance, masses=DEFAULT_MASSES_NOTE)
+        else:
+            masses = _array(self.masses_da, "masses_da", (n_atoms,))
+            if np.any(masses <= 0):
+                raise ShapeError("masses_da must all be positive")
+            set_(self, "masses_da", masses)
+        set_(self, "provenance", provenance)
+        set_(self, "dalpha_dx", _optional(self.dalpha_dx, "dalpha_dx", (3 * n_atoms, 3, 3)))
+        dq = _optional(self.dalpha_dq, "dalpha_dq", (n_modes, 3, 3))
+        if dq is None and self.dalpha_dx is not None:
+            from vibrapol.vibrations import project_dalpha
+
+            dq = project_dalpha(self.dalpha_dx, self.modes, self.masses_da)
+            dq.setflags(write=False)
+        set_(self, "dalpha_dq", dq)
+        set_(self, "a2", _optional(self.a2, "a2", (n_modes,)))
+        set_(self, "gamma2", _optional(self.gamma2, "gamma2", (n_modes,)))
+        if (self.a2 is None) != (self.gamma2 is None):
+            raise ShapeError("give both a2 and gamma2, or neither")
+        set_(self, "polarizability_ang3", _optional(self.polarizability_ang3, "polarizability_ang3", (3, 3)))
+        if n_modes:
+            overlap = self.modes @ self.modes.T
+            err = np.max(np.abs(overlap - np.eye(n_modes)))
+            if err > ORTHONORMAL_TOL:
+                raise ShapeError(
+                    f"modes must be mass-weighted orthonormal vectors (max |LLᵀ − I| = {err:.2g}); "
+                    "convert printed Cartesian displacements with vibrations.modes_from_displacements"
+                )
+
+    # -- derived quantities -------------------------------------------------------------
+    @property
+    def n_atoms(self) -> int:
+        """Number of atoms."""
+        return int(self.atomic_numbers.shape[0])
+
+    @property
+    def n_modes(self) -> int:
+        """Number of vibrational modes."""
+        return int(self.freqs_cm1.shape[0])
+
+    @property
+    def symbols(self) -> list[str]:
+        """Chemical symbols of the atoms."""
+        return [chemical_symbols[z] for z in self.atomic_numbers]
+
+    @property
+    def has_raman(self) -> bool:
+        """True when Raman invariants can be computed (tensors or a², γ²)."""
+        return self.dalpha_dq is not None or self.a2 is not None
+
+    def raman_invariants(self) -> tuple[np.ndarray, np.ndarray]:
+        """Per-mode invariants (a², γ²) in Å⁴ Da⁻¹, from the tensors when present.
+
+        Raises
+        ------
+        VibrapolError
+            When the source carries no Raman data at all.
+        """
+        from vibrapol.invariants import tensor_invariants
+
+        if self.dalpha_dq is not None:
+            return tensor_invariants(self.dalpha_dq)
+        if self.a2 is not None and self.gamma2 is not None:
+            return self.a2.copy(), self.gamma2.copy()
+        from vibrapol.errors import VibrapolError
+
+        where = self.provenance.source_file or "this mode set"
+        raise VibrapolError(f"{where} has no Raman data (no polarizability derivatives or activities)")
+
+    def displacements(self) -> np.ndarray:
+        """Cartesian displacement of each mode, L/√m, normalised to unit length, shape (n, N, 3)."""
+        d = self.modes / np.repeat(np.sqrt(self.masses_da), 3)[None, :]
+        d /= np.linalg.norm(d, axis=1, keepdims=True)
+        return d.reshape(self.n_modes, self.n_atoms, 3)
+
+    def subset(self, indices: np.ndarray | list[int]) -> ModeSet:
+        """A new ModeSet with only the given modes (in the given order)."""
+        idx = np.asarray(indices, dtype=int)
+        pick = {}
+        for name in ("dalpha_dq", "a2", "gamma2"):
+            value = getattr(self, name)
+            pick[name] = None if value is None else value[idx]
+        return dataclasses.replace(self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick)

@@ -1,0 +1,122 @@
+"""The per-mode Raman table: invariants, activity, depolarization ratios, polarized or not."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol import invariants as inv
+from vibrapol.modeset import ModeSet, Provenance
+
+#: A band is called polarized when ρ_linear < 3/4 − POLARIZED_MARGIN (and it has activity).
+#: Non-totally-symmetric modes have ρ_linear = 3/4 exactly (D. A. Long, The Raman Effect, 2002,
+#: ch. 5); printed ratios carry 3–4 decimals, so 0.01 separates "3/4 within print precision"
+#: from a genuinely polarized band.
+POLARIZED_MARGIN = 0.01
+
+
+@dataclass(frozen=True, eq=False)
+class RamanTable:
+    """Per-mode Raman quantities of one :class:`ModeSet`.
+
+    Attributes
+    ----------
+    freqs_cm1 : ndarray (n,)
+    a2, gamma2 : ndarray (n,)
+        Invariants of ∂α/∂Q, Å⁴ Da⁻¹.
+    activity : ndarray (n,)
+        S = 45a² + 7γ², Å⁴ Da⁻¹.
+    rho_linear, rho_natural : ndarray (n,)
+        Depolarization ratios of the mode's degenerate set (NaN for inactive modes).
+    polarized : ndarray of bool (n,)
+        ρ_linear < 3/4 − :data:`POLARIZED_MARGIN` and the mode is Raman-active.
+    degenerate_set : ndarray of int (n,)
+        Index (1-based, ascending frequency) of the degenerate set the mode belongs to.
+    irreps : tuple of str
+        Irreducible representation of each mode ('' when symmetry is not known).
+    point_group : str
+        Schoenflies symbol ('' when not known).
+    provenance : Provenance
+    """
+
+    freqs_cm1: np.ndarray
+    a2: np.ndarray
+    gamma2: np.ndarray
+    activity: np.ndarray
+    rho_linear: np.ndarray
+    rho_natural: np.ndarray
+    polarized: np.ndarray
+    degenerate_set: np.ndarray
+    irreps: tuple[str, ...]
+    point_group: str
+    provenance: Provenance
+
+    @property
+    def n_modes(self) -> int:
+        """Number of modes in the table."""
+        return int(self.freqs_cm1.shape[0])
+
+    def sets(self) -> list[tuple[int, ...]]:
+        """Mode indices of each degenerate set."""
+        return [tuple(np.flatnonzero(self.degenerate_set == k)) for k in np.unique(self.degenerate_set)]
+
+
+def raman_table(
+    modes: ModeSet,
+    *,
+    sets: list[tuple[int, ...]] | None = None,
+    degeneracy_tol_cm1: float = inv.DEGENERACY_TOL_CM1,
+    irreps: tuple[str, ...] | None = None,
+    point_group: str = "",
+) -> RamanTable:
+    """Compute the per-mode Raman table of ``modes``.
+
+    Parameters
+    ----------
+    modes : ModeSet
+        Must carry ∂α (tensors) or (a², γ²).
+    sets : list of tuple of int, optional
+        Degenerate sets (from symmetry).  Default: grouping by frequency within
+        ``degeneracy_tol_cm1`` (:func:`vibrapol.invariants.degenerate_sets`).
+    irreps, point_group : optional
+        Symmetry labels to carry into the table.
+
+    Notes
+    -----
+    a², γ² and the activity are per mode; ρ is computed from the invariants summed over each
+    degenerate set and given to every member, since only the sum is independent of the basis
+    chosen inside the set (D. A. Long, The Raman Effect, 2002, ch. 5).  Modes whose set activity
+    is below :data:`vibrapol.invariants.INACTIVE_FRACTION` of the largest get ρ = NaN.
+    """
+    a2, gamma2 = modes.raman_invariants()
+    s = inv.activity(a2, gamma2)
+    if sets is None:
+        sets = inv.degenerate_sets(modes.freqs_cm1, degeneracy_tol_cm1)
+    set_index = np.zeros(modes.n_modes, dtype=int)
+    rho_l = np.full(modes.n_modes, np.nan)
+    rho_n = np.full(modes.n_modes, np.nan)
+    set_a2 = inv.sum_over_sets(a2, sets)
+    set_g2 = inv.sum_over_sets(gamma2, sets)
+    set_s = inv.activity(set_a2, set_g2)
+    inactive = inv.inactive_mask(set_s)
+    for k, members in enumerate(sets):
+        idx = list(members)
+        set_index[idx] = k + 1
+        if not inactive[k]:
+            rho_l[idx] = inv.rho_linear(set_a2[k], set_g2[k])
+            rho_n[idx] = inv.rho_natural(set_a2[k], set_g2[k])
+    polarized = np.nan_to_num(rho_l, nan=1.0) < 0.75 - POLARIZED_MARGIN
+    return RamanTable(
+        freqs_cm1=modes.freqs_cm1.copy(),
+        a2=a2,
+        gamma2=gamma2,
+        activity=s,
+        rho_linear=rho_l,
+        rho_natural=rho_n,
+        polarized=polarized,
+        degenerate_set=set_index,
+        irreps=tuple(irreps) if irreps is not None else ("",) * modes.n_modes,
+        point_group=point_group,
+        provenance=modes.provenance,
+    )

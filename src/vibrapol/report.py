@@ -1,0 +1,130 @@
+"""Tables as text, CSV, JSON, Markdown and LaTeX."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+from vibrapol.ramantable import RamanTable
+from vibrapol.units import CODATA_VERSION
+
+#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –).
+TABLE_COLUMNS = (
+    "mode",
+    "frequency_cm1",
+    "irrep",
+    "a2",
+    "gamma2",
+    "activity",
+    "rho_linear",
+    "rho_natural",
+    "polarized",
+    "degenerate_set",
+)
+
+
+def _fmt(value: float, digits: int) -> str:
+    return "" if value is None or not math.isfinite(value) else f"{value:.{digits}f}"
+
+
+def table_rows(table: RamanTable) -> list[dict[str, object]]:
+    """One dictionary per mode with the keys of :data:`TABLE_COLUMNS` (NaN ρ → None)."""
+    rows = []
+    for i in range(table.n_modes):
+        rho_l = float(table.rho_linear[i])
+        rho_n = float(table.rho_natural[i])
+        rows.append(
+            {
+                "mode": i + 1,
+                "frequency_cm1": float(table.freqs_cm1[i]),
+                "irrep": table.irreps[i],
+                "a2": float(table.a2[i]),
+                "gamma2": float(table.gamma2[i]),
+                "activity": float(table.activity[i]),
+                "rho_linear": rho_l if math.isfinite(rho_l) else None,
+                "rho_natural": rho_n if math.isfinite(rho_n) else None,
+                "polarized": bool(table.polarized[i]),
+                "degenerate_set": int(table.degenerate_set[i]),
+            }
+        )
+    return rows
+
+
+def table_csv(table: RamanTable) -> str:
+    """CSV with exactly :data:`TABLE_COLUMNS`; empty ρ for Raman-inactive modes."""
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(TABLE_COLUMNS)
+    for row in table_rows(table):
+        writer.writerow(
+            [
+                row["mode"],
+                f"{row['frequency_cm1']:.4f}",
+                row["irrep"],
+                f"{row['a2']:.6g}",
+                f"{row['gamma2']:.6g}",
+                f"{row['activity']:.6g}",
+                "" if row["rho_linear"] is None else f"{row['rho_linear']:.6f}",
+                "" if row["rho_natural"] is None else f"{row['rho_natural']:.6f}",
+                "true" if row["polarized"] else "false",
+                row["degenerate_set"],
+            ]
+        )
+    return buf.getvalue()
+
+
+def _header(table: RamanTable) -> dict[str, str]:
+    p = table.provenance
+    program = " ".join(x for x in (p.program, p.program_version) if x)
+    method = "/".join(x for x in (p.method, p.basis) if x)
+    return {
+        "source": p.source_file or "(in memory)",
+        "program": program,
+        "method": method,
+        "point_group": table.point_group,
+    }
+
+
+def table_json(table: RamanTable) -> str:
+    """JSON document: header fields, units, and one record per mode."""
+    doc = {
+        "header": _header(table),
+        "units": {
+            "frequency_cm1": "cm-1",
+            "a2": "angstrom^4/amu",
+            "gamma2": "angstrom^4/amu",
+            "activity": "angstrom^4/amu",
+        },
+        "constants": CODATA_VERSION,
+        "modes": table_rows(table),
+    }
+    return json.dumps(doc, indent=1, allow_nan=False) + "\n"
+
+
+def table_text(table: RamanTable) -> str:
+    """A readable fixed-width table with a header naming source, method and point group."""
+    h = _header(table)
+    lines = [
+        f"source: {h['source']}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   point group: {h['point_group']}",
+        "a2, gamma2, activity in Å⁴/amu; rho for 90° scattering (linear / natural incident light)",
+        "",
+        f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
+        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4}",
+    ]
+    for row in table_rows(table):
+        lines.append(
+            f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6} {row['a2']:>11.4g}"
+            f" {row['gamma2']:>11.4g} {row['activity']:>11.4g}"
+            f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
+            f" {'P' if row['polarized'] else '':>3} {row['degenerate_set']:>4}"
+        )
+    n_pol = int(table.polarized.sum())
+    lines.append("")
+    lines.append(f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)")
+    return "\n".join(lines) + "\n"
+
+
+FORMATTERS = {"text": table_text, "csv": table_csv, "json": table_json}

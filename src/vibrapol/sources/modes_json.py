@@ -1,0 +1,112 @@
+"""vibrapol's own mode file, ``*.modes.json`` (schema in docs/modes-json.md).
+
+The file is human-readable JSON with the unit of every array in its field name.  Floats are
+written with Python's shortest round-trip representation, so writing and reading a
+:class:`ModeSet` is lossless.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from vibrapol.errors import InputFormatError, VibrapolError
+from vibrapol.fileio import write_atomic
+from vibrapol.modeset import ModeSet, Provenance
+from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.units import CODATA_VERSION
+
+FORMAT_NAME = "vibrapol.modes"
+SCHEMA_VERSION = 1
+
+#: ModeSet attribute → JSON field name (units in the names).
+_ARRAY_FIELDS = {
+    "freqs_cm1": "freqs_cm1",
+    "modes": "modes_mass_weighted",
+    "dalpha_dx": "dalpha_dx_ang2",
+    "dalpha_dq": "dalpha_dq_ang2_per_sqrt_da",
+    "a2": "a2_ang4_per_da",
+    "gamma2": "gamma2_ang4_per_da",
+    "polarizability_ang3": "polarizability_ang3",
+}
+
+
+def _list(value: np.ndarray | None) -> Any:
+    return None if value is None else np.asarray(value).tolist()
+
+
+def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
+    """The JSON-ready dictionary of a ModeSet (schema version 1)."""
+    out: dict[str, Any] = {
+        "format": FORMAT_NAME,
+        "schema_version": SCHEMA_VERSION,
+        "constants": CODATA_VERSION,
+        "provenance": {k: (list(v) if isinstance(v, tuple) else v) for k, v in dataclasses.asdict(modes.provenance).items()},
+        "atoms": {
+            "atomic_numbers": modes.atomic_numbers.tolist(),
+            "masses_da": modes.masses_da.tolist(),
+            "coordinates_ang": modes.coordinates_ang.tolist(),
+        },
+        "energy_hartree": modes.energy_hartree,
+    }
+    for attr, key in _ARRAY_FIELDS.items():
+        out[key] = _list(getattr(modes, attr))
+    return out
+
+
+def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
+    """Build a ModeSet from :func:`modeset_to_dict` output, checking format and version."""
+    if not isinstance(data, dict) or data.get("format") != FORMAT_NAME:
+        raise InputFormatError(f"{where}: not a vibrapol modes file (missing \"format\": \"{FORMAT_NAME}\")")
+    version = data.get("schema_version")
+    if version != SCHEMA_VERSION:
+        raise InputFormatError(
+            f"{where}: schema version {version!r} is not supported (this vibrapol reads {SCHEMA_VERSION})"
+        )
+    try:
+        atoms = data["atoms"]
+        prov = dict(data.get("provenance") or {})
+        prov["notes"] = tuple(prov.get("notes", ()))
+        kwargs = {attr: data.get(key) for attr, key in _ARRAY_FIELDS.items()}
+        return ModeSet(
+            atomic_numbers=atoms["atomic_numbers"],
+            masses_da=atoms.get("masses_da"),
+            coordinates_ang=atoms["coordinates_ang"],
+            energy_hartree=data.get("energy_hartree"),
+            provenance=Provenance(**prov),
+            **kwargs,
+        )
+    except VibrapolError as exc:
+        raise InputFormatError(f"{where}: {exc}") from exc
+    except (KeyError, TypeError, ValueError) as exc:
+        raise InputFormatError(f"{where}: malformed vibrapol modes file ({exc!r})") from exc
+
+
+def write_modes_json(modes: ModeSet, path: str | Path, force: bool = False) -> Path:
+    """Write ``modes`` to ``path`` atomically (refuses to overwrite unless ``force``)."""
+    text = json.dumps(modeset_to_dict(modes), indent=1, allow_nan=False) + "\n"
+    return write_atomic(path, text, force=force)
+
+
+def read_modes_json(path: str | Path) -> ModeSet:
+    """Read a ``*.modes.json`` file."""
+    text = read_text(path)
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise InputFormatError(f"{path}: invalid JSON at line {exc.lineno} ({exc.msg})") from exc
+    modes = modeset_from_dict(data, where=str(path))
+    if not modes.provenance.source_file:
+        modes = dataclasses.replace(modes, provenance=dataclasses.replace(modes.provenance, source_file=str(path)))
+    return modes
+
+
+def _sniff(head: str, tail: str) -> bool:
+    return head.lstrip().startswith("{") and f'"{FORMAT_NAME}"' in head[:2000]
+
+
+register(Reader("modes-json", "vibrapol's own *.modes.json", _sniff, read_modes_json))

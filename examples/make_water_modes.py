@@ -97,7 +97,8 @@ def main(out: Path) -> None:
             basis=BASIS,
             masses="most abundant isotopes (O-16, H-1)",
             notes=(
-                "analytic Hessian; alpha by finite field ±0.001 au; dalpha/dx by central differences, 0.005 Å",
+                "analytic Hessian; alpha by finite field ±0.001 au; "
+                "dalpha/dx by central differences, 0.005 Å",
             ),
         ),
     )

@@ -20,5 +20,7 @@ def qc_output(name: str) -> Path:
     """Path of a real output in ../shared/qc-outputs, skipping the test when it is absent."""
     path = QC_OUTPUTS / name
     if not path.is_file():
-        pytest.skip(f"real output {name} not available (../shared/qc-outputs is absent in this checkout)")
+        pytest.skip(
+            f"real output {name} not available (../shared/qc-outputs is absent in this checkout)"
+        )
     return path

@@ -13,7 +13,9 @@ from vibrapol.modeset import ModeSet, Provenance
 from vibrapol.sources import read_modes, sniff
 from vibrapol.sources.modes_json import modeset_to_dict, write_modes_json
 
-EXAMPLE = __import__("pathlib").Path(__file__).resolve().parents[1] / "examples" / "water.modes.json"
+EXAMPLE = (
+    __import__("pathlib").Path(__file__).resolve().parents[1] / "examples" / "water.modes.json"
+)
 
 
 def small_modeset(**over):
@@ -35,7 +37,9 @@ def small_modeset(**over):
 def test_default_masses_are_most_abundant_isotopes():
     ms = small_modeset()
     # O-16 15.99491461957 Da and H-1 1.00782503223 Da (AME / ASE atomic_masses_common).
-    np.testing.assert_allclose(ms.masses_da, [15.99491461957, 1.00782503223, 1.00782503223], rtol=1e-12)
+    np.testing.assert_allclose(
+        ms.masses_da, [15.99491461957, 1.00782503223, 1.00782503223], rtol=1e-12
+    )
     assert "isotope" in ms.provenance.masses
 
 
@@ -53,7 +57,11 @@ def test_arrays_are_read_only_copies():
 @pytest.mark.parametrize(
     ("field", "value", "message"),
     [
-        ("coordinates_ang", np.zeros((2, 3)), r"coordinates_ang should be an array of shape \(3, 3\)"),
+        (
+            "coordinates_ang",
+            np.zeros((2, 3)),
+            r"coordinates_ang should be an array of shape \(3, 3\)",
+        ),
         ("modes", np.zeros((3, 8)), r"modes should be an array of shape \(3, 9\)"),
         ("dalpha_dx", np.zeros((9, 3)), r"dalpha_dx should be an array of shape \(9, 3, 3\)"),
         ("freqs_cm1", [1.0, np.nan, 2.0], "NaN"),
@@ -93,7 +101,9 @@ def test_json_with_wrong_shapes_is_an_input_error(tmp_path):
     doc["modes_mass_weighted"] = doc["modes_mass_weighted"][:2]
     path = tmp_path / "bad.modes.json"
     path.write_text(json.dumps(doc))
-    with pytest.raises(InputFormatError, match=r"bad.modes.json: .*modes should be an array of shape"):
+    with pytest.raises(
+        InputFormatError, match=r"bad.modes.json: .*modes should be an array of shape"
+    ):
         read_modes(path)
 
 

@@ -50,7 +50,9 @@ def test_frequencies_match_pyscf_harmonic_analysis(pyscf_job):
     assert ours.linear == linear
     # frequencies within 0.01 cm⁻¹ (issue requirement); PySCF uses its own CODATA constants.
     np.testing.assert_allclose(ours.freqs_cm1, np.sort(ref["freq_wavenumber"]), atol=0.01)
-    np.testing.assert_allclose(ours.reduced_masses_da, ref["reduced_mass"][np.argsort(ref["freq_wavenumber"])], rtol=1e-6)
+    np.testing.assert_allclose(
+        ours.reduced_masses_da, ref["reduced_mass"][np.argsort(ref["freq_wavenumber"])], rtol=1e-6
+    )
 
 
 def test_unprojected_frequencies_match_ase(pyscf_job):

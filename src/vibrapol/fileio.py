@@ -38,9 +38,13 @@ def write_atomic(path: str | Path, data: str | bytes, force: bool = False) -> Pa
     """
     p = check_writable(path, force)
     mode = "wb" if isinstance(data, bytes) else "w"
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent if str(p.parent) else ".")
+    fd, tmp = tempfile.mkstemp(
+        prefix=f".{p.name}.", suffix=".tmp", dir=p.parent if str(p.parent) else "."
+    )
     try:
-        with os.fdopen(fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": ""})) as fh:
+        with os.fdopen(
+            fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": ""})
+        ) as fh:
             fh.write(data)
         os.replace(tmp, p)
     except BaseException:

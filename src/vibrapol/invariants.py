@@ -92,7 +92,9 @@ def rho_natural_from_linear(rho_lin: np.ndarray) -> np.ndarray:
     return 2.0 * r / (1.0 + r)
 
 
-def invariants_from_activity(activity_: np.ndarray, rho_lin: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def invariants_from_activity(
+    activity_: np.ndarray, rho_lin: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
     """Recover (a², γ²) from a printed activity S and linear depolarization ratio ρ_l.
 
     From S = 45a² + 7γ² and ρ_l = 3γ²/(45a² + 4γ²): γ² = Sρ_l / (3(1 + ρ_l)), 45a² = S − 7γ².
@@ -149,7 +151,9 @@ def inactive_mask(activities: np.ndarray, fraction: float = INACTIVE_FRACTION) -
     return np.abs(s) <= fraction * scale if scale > 0 else np.ones(s.shape, dtype=bool)
 
 
-def degenerate_sets(freqs_cm1: np.ndarray, tol_cm1: float = DEGENERACY_TOL_CM1) -> list[tuple[int, ...]]:
+def degenerate_sets(
+    freqs_cm1: np.ndarray, tol_cm1: float = DEGENERACY_TOL_CM1
+) -> list[tuple[int, ...]]:
     """Group modes whose wavenumbers lie within ``tol_cm1`` of their neighbour.
 
     Modes are sorted by frequency and a new set starts wherever the gap to the previous mode

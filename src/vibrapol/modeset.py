@@ -29,7 +29,9 @@ def default_masses(atomic_numbers: np.ndarray) -> np.ndarray:
     masses = atomic_masses_common[z]
     if np.any(~np.isfinite(masses)):
         bad = sorted({chemical_symbols[i] for i in z[~np.isfinite(masses)]})
-        raise ShapeError(f"no default isotope mass for {', '.join(bad)}; give the masses explicitly")
+        raise ShapeError(
+            f"no default isotope mass for {', '.join(bad)}; give the masses explicitly"
+        )
     return np.array(masses, dtype=float)
 
 
@@ -69,7 +71,9 @@ class Provenance:
 
 def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:
     arr = np.array(value, dtype=dtype, copy=True)
-    if arr.ndim != len(shape) or any(s is not None and s != a for s, a in zip(shape, arr.shape)):
+    if arr.ndim != len(shape) or any(
+        s is not None and s != a for s, a in zip(shape, arr.shape, strict=False)
+    ):
         want = "(" + ", ".join("any" if s is None else str(s) for s in shape) + ")"
         raise ShapeError(f"{name} should be an array of shape {want}, got shape {arr.shape}")
     if dtype is float and not np.all(np.isfinite(arr)):
@@ -110,6 +114,10 @@ class ModeSet:
     energy_hartree : float, optional
         Electronic energy, for weighting conformers.
     provenance : Provenance
+    activity : array, shape (n_modes,), optional
+        Raman activity S = 45a² + 7γ² in Å⁴ Da⁻¹, only for sources that give the activity but
+        no depolarization ratio and no tensors (a² and γ² are then unknown, so is ρ).  Not
+        allowed together with tensors or a², γ², which determine the activity themselves.
 
     Notes
     -----
@@ -129,6 +137,7 @@ class ModeSet:
     polarizability_ang3: np.ndarray | None = None
     energy_hartree: float | None = None
     provenance: Provenance = field(default_factory=Provenance)
+    activity: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         set_ = object.__setattr__
@@ -165,14 +174,24 @@ class ModeSet:
         set_(self, "gamma2", _optional(self.gamma2, "gamma2", (n_modes,)))
         if (self.a2 is None) != (self.gamma2 is None):
             raise ShapeError("give both a2 and gamma2, or neither")
-        set_(self, "polarizability_ang3", _optional(self.polarizability_ang3, "polarizability_ang3", (3, 3)))
+        set_(self, "activity", _optional(self.activity, "activity", (n_modes,)))
+        if self.activity is not None and (self.a2 is not None or self.dalpha_dq is not None):
+            raise ShapeError(
+                "give activity only when a2, gamma2 and the tensors are unknown (they determine it)"
+            )
+        set_(
+            self,
+            "polarizability_ang3",
+            _optional(self.polarizability_ang3, "polarizability_ang3", (3, 3)),
+        )
         if n_modes:
             overlap = self.modes @ self.modes.T
             err = np.max(np.abs(overlap - np.eye(n_modes)))
             if err > ORTHONORMAL_TOL:
                 raise ShapeError(
                     f"modes must be mass-weighted orthonormal vectors (max |LLᵀ − I| = {err:.2g}); "
-                    "convert printed Cartesian displacements with vibrations.modes_from_displacements"
+                    "convert printed Cartesian displacements with "
+                    "vibrations.modes_from_displacements"
                 )
 
     # -- derived quantities -------------------------------------------------------------
@@ -196,6 +215,11 @@ class ModeSet:
         """True when Raman invariants can be computed (tensors or a², γ²)."""
         return self.dalpha_dq is not None or self.a2 is not None
 
+    @property
+    def has_activity(self) -> bool:
+        """True when the Raman activity of every mode is known (perhaps without a², γ²)."""
+        return self.has_raman or self.activity is not None
+
     def raman_invariants(self) -> tuple[np.ndarray, np.ndarray]:
         """Per-mode invariants (a², γ²) in Å⁴ Da⁻¹, from the tensors when present.
 
@@ -213,7 +237,14 @@ class ModeSet:
         from vibrapol.errors import VibrapolError
 
         where = self.provenance.source_file or "this mode set"
-        raise VibrapolError(f"{where} has no Raman data (no polarizability derivatives or activities)")
+        if self.activity is not None:
+            raise VibrapolError(
+                f"{where} gives Raman activities but no depolarization ratios or tensors: "
+                "a² and γ² are unknown"
+            )
+        raise VibrapolError(
+            f"{where} has no Raman data (no polarizability derivatives or activities)"
+        )
 
     def displacements(self) -> np.ndarray:
         """Cartesian displacement of each mode, L/√m, normalised to unit length, shape (n, N, 3)."""
@@ -225,7 +256,9 @@ class ModeSet:
         """A new ModeSet with only the given modes (in the given order)."""
         idx = np.asarray(indices, dtype=int)
         pick = {}
-        for name in ("dalpha_dq", "a2", "gamma2"):
+        for name in ("dalpha_dq", "a2", "gamma2", "activity"):
             value = getattr(self, name)
             pick[name] = None if value is None else value[idx]
-        return dataclasses.replace(self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick)
+        return dataclasses.replace(
+            self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick
+        )

@@ -24,11 +24,12 @@ class RamanTable:
     ----------
     freqs_cm1 : ndarray (n,)
     a2, gamma2 : ndarray (n,)
-        Invariants of ∂α/∂Q, Å⁴ Da⁻¹.
+        Invariants of ∂α/∂Q, Å⁴ Da⁻¹ (NaN when the source gives only activities).
     activity : ndarray (n,)
         S = 45a² + 7γ², Å⁴ Da⁻¹.
     rho_linear, rho_natural : ndarray (n,)
-        Depolarization ratios of the mode's degenerate set (NaN for inactive modes).
+        Depolarization ratios of the mode's degenerate set (NaN for inactive modes, and for
+        all modes when the source gives only activities).
     polarized : ndarray of bool (n,)
         ρ_linear < 3/4 − :data:`POLARIZED_MARGIN` and the mode is Raman-active.
     degenerate_set : ndarray of int (n,)
@@ -59,7 +60,9 @@ class RamanTable:
 
     def sets(self) -> list[tuple[int, ...]]:
         """Mode indices of each degenerate set."""
-        return [tuple(np.flatnonzero(self.degenerate_set == k)) for k in np.unique(self.degenerate_set)]
+        return [
+            tuple(np.flatnonzero(self.degenerate_set == k)) for k in np.unique(self.degenerate_set)
+        ]
 
 
 def raman_table(
@@ -75,7 +78,8 @@ def raman_table(
     Parameters
     ----------
     modes : ModeSet
-        Must carry ∂α (tensors) or (a², γ²).
+        Must carry ∂α (tensors), (a², γ²), or at least the activities (then a², γ² and ρ are
+        NaN and no band is called polarized).
     sets : list of tuple of int, optional
         Degenerate sets (from symmetry).  Default: grouping by frequency within
         ``degeneracy_tol_cm1`` (:func:`vibrapol.invariants.degenerate_sets`).
@@ -89,8 +93,13 @@ def raman_table(
     chosen inside the set (D. A. Long, The Raman Effect, 2002, ch. 5).  Modes whose set activity
     is below :data:`vibrapol.invariants.INACTIVE_FRACTION` of the largest get ρ = NaN.
     """
-    a2, gamma2 = modes.raman_invariants()
-    s = inv.activity(a2, gamma2)
+    if modes.activity is not None and not modes.has_raman:
+        s = modes.activity.copy()
+        a2 = np.full(modes.n_modes, np.nan)
+        gamma2 = np.full(modes.n_modes, np.nan)
+    else:
+        a2, gamma2 = modes.raman_invariants()
+        s = inv.activity(a2, gamma2)
     if sets is None:
         sets = inv.degenerate_sets(modes.freqs_cm1, degeneracy_tol_cm1)
     set_index = np.zeros(modes.n_modes, dtype=int)
@@ -98,7 +107,7 @@ def raman_table(
     rho_n = np.full(modes.n_modes, np.nan)
     set_a2 = inv.sum_over_sets(a2, sets)
     set_g2 = inv.sum_over_sets(gamma2, sets)
-    set_s = inv.activity(set_a2, set_g2)
+    set_s = inv.sum_over_sets(s, sets)
     inactive = inv.inactive_mask(set_s)
     for k, members in enumerate(sets):
         idx = list(members)

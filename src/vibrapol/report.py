@@ -7,6 +7,8 @@ import io
 import json
 import math
 
+import numpy as np
+
 from vibrapol.ramantable import RamanTable
 from vibrapol.units import CODATA_VERSION
 
@@ -25,27 +27,40 @@ TABLE_COLUMNS = (
 )
 
 
+def _fmt_g(value: float | None) -> str:
+    return "" if value is None or not math.isfinite(value) else f"{value:.4g}"
+
+
 def _fmt(value: float, digits: int) -> str:
     return "" if value is None or not math.isfinite(value) else f"{value:.{digits}f}"
 
 
+def _finite_or_none(value: float) -> float | None:
+    return value if math.isfinite(value) else None
+
+
 def table_rows(table: RamanTable) -> list[dict[str, object]]:
-    """One dictionary per mode with the keys of :data:`TABLE_COLUMNS` (NaN ρ → None)."""
+    """One dictionary per mode with the keys of :data:`TABLE_COLUMNS`.
+
+    NaN ρ → None.  When the source gives only activities, a², γ², ρ and ``polarized`` are
+    None (unknown).
+    """
     rows = []
     for i in range(table.n_modes):
         rho_l = float(table.rho_linear[i])
         rho_n = float(table.rho_natural[i])
+        known = math.isfinite(float(table.a2[i]))
         rows.append(
             {
                 "mode": i + 1,
                 "frequency_cm1": float(table.freqs_cm1[i]),
                 "irrep": table.irreps[i],
-                "a2": float(table.a2[i]),
-                "gamma2": float(table.gamma2[i]),
+                "a2": _finite_or_none(float(table.a2[i])),
+                "gamma2": _finite_or_none(float(table.gamma2[i])),
                 "activity": float(table.activity[i]),
                 "rho_linear": rho_l if math.isfinite(rho_l) else None,
                 "rho_natural": rho_n if math.isfinite(rho_n) else None,
-                "polarized": bool(table.polarized[i]),
+                "polarized": bool(table.polarized[i]) if known else None,
                 "degenerate_set": int(table.degenerate_set[i]),
             }
         )
@@ -63,12 +78,12 @@ def table_csv(table: RamanTable) -> str:
                 row["mode"],
                 f"{row['frequency_cm1']:.4f}",
                 row["irrep"],
-                f"{row['a2']:.6g}",
-                f"{row['gamma2']:.6g}",
+                "" if row["a2"] is None else f"{row['a2']:.6g}",
+                "" if row["gamma2"] is None else f"{row['gamma2']:.6g}",
                 f"{row['activity']:.6g}",
                 "" if row["rho_linear"] is None else f"{row['rho_linear']:.6f}",
                 "" if row["rho_natural"] is None else f"{row['rho_natural']:.6f}",
-                "true" if row["polarized"] else "false",
+                "" if row["polarized"] is None else str(row["polarized"]).lower(),
                 row["degenerate_set"],
             ]
         )
@@ -108,7 +123,8 @@ def table_text(table: RamanTable) -> str:
     h = _header(table)
     lines = [
         f"source: {h['source']}",
-        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   point group: {h['point_group']}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   "
+        f"point group: {h['point_group']}",
         "a2, gamma2, activity in Å⁴/amu; rho for 90° scattering (linear / natural incident light)",
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
@@ -116,14 +132,18 @@ def table_text(table: RamanTable) -> str:
     ]
     for row in table_rows(table):
         lines.append(
-            f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6} {row['a2']:>11.4g}"
-            f" {row['gamma2']:>11.4g} {row['activity']:>11.4g}"
+            f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6}"
+            f" {_fmt_g(row['a2']):>11} {_fmt_g(row['gamma2']):>11} {row['activity']:>11.4g}"
             f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
             f" {'P' if row['polarized'] else '':>3} {row['degenerate_set']:>4}"
         )
     n_pol = int(table.polarized.sum())
     lines.append("")
-    lines.append(f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)")
+    lines.append(
+        f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)"
+    )
+    if table.n_modes and not np.isfinite(table.a2).any():
+        lines.append("a2, gamma2 and rho unknown: the source gives Raman activities only")
     return "\n".join(lines) + "\n"
 
 

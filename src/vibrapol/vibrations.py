@@ -117,7 +117,9 @@ def harmonic_analysis(
     if h.shape == (n, 3, n, 3):
         h = h.reshape(3 * n, 3 * n)
     if h.shape != (3 * n, 3 * n):
-        raise ShapeError(f"Hessian for {n} atoms should be a ({3 * n}, {3 * n}) array, got {h.shape}")
+        raise ShapeError(
+            f"Hessian for {n} atoms should be a ({3 * n}, {3 * n}) array, got {h.shape}"
+        )
     if coords.shape != (n, 3):
         raise ShapeError(f"coordinates should be an ({n}, 3) array, got {coords.shape}")
     h = 0.5 * (h + h.T)
@@ -147,7 +149,7 @@ def harmonic_analysis(
 
 
 def force_constants_mdyn_ang(freqs_cm1: np.ndarray, reduced_masses_da: np.ndarray) -> np.ndarray:
-    """k = 4π²c²ν̃²μ in mdyn Å⁻¹ (sign of the frequency kept)."""
+    """K = 4π²c²ν̃²μ in mdyn Å⁻¹ (sign of the frequency kept)."""
     from vibrapol.units import C_CM_S, DALTON_KG
 
     nu = np.asarray(freqs_cm1, dtype=float)

@@ -36,7 +36,10 @@ def build_parser() -> argparse.ArgumentParser:
         module = importlib.import_module(module_name)
         p = sub.add_parser(name, help=module.HELP, description=module.__doc__)
         p.add_argument(
-            "--traceback", action="store_true", default=argparse.SUPPRESS, help="show the full stack on errors"
+            "--traceback",
+            action="store_true",
+            default=argparse.SUPPRESS,
+            help="show the full stack on errors",
         )
         module.add_arguments(p)
         p.set_defaults(_run=module.run)

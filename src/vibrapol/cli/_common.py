@@ -10,7 +10,9 @@ from vibrapol.fileio import check_writable, write_atomic
 
 def add_output_arguments(parser: argparse.ArgumentParser, what: str = "output") -> None:
     """Add ``-o/--output`` and ``--force``."""
-    parser.add_argument("-o", "--output", metavar="FILE", help=f"write the {what} here (default: standard output)")
+    parser.add_argument(
+        "-o", "--output", metavar="FILE", help=f"write the {what} here (default: standard output)"
+    )
     parser.add_argument("--force", action="store_true", help="overwrite an existing output file")
 
 

@@ -16,8 +16,12 @@ HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol table``."""
     parser.add_argument("source", help="quantum-chemistry output file or vibrapol *.modes.json")
-    parser.add_argument("--kind", choices=sorted(readers()), help="input kind (default: from the content)")
-    parser.add_argument("--format", choices=sorted(FORMATTERS), default="text", help="output format (default: text)")
+    parser.add_argument(
+        "--kind", choices=sorted(readers()), help="input kind (default: from the content)"
+    )
+    parser.add_argument(
+        "--format", choices=sorted(FORMATTERS), default="text", help="output format (default: text)"
+    )
     parser.add_argument(
         "--degeneracy-tol-cm1",
         type=float,

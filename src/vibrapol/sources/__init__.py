@@ -6,9 +6,8 @@ kind of a file from its content (never from its name alone) and :func:`read_mode
 
 from __future__ import annotations
 
-from vibrapol.sources.registry import Reader, read_modes, readers, register, sniff
-
 # Importing the modules registers their readers (order = sniffing priority).
 from vibrapol.sources import modes_json as _modes_json  # noqa: E402, F401, I001
+from vibrapol.sources.registry import Reader, read_modes, readers, register, sniff
 
 __all__ = ["Reader", "read_modes", "readers", "register", "sniff"]

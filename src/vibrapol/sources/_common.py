@@ -29,7 +29,9 @@ def check_printed(
     p = np.asarray(printed, dtype=float)
     if c.shape != p.shape:
         warnings.warn(
-            f"{where}: {quantity}: {c.size} computed values but {p.size} printed", PrintedValueMismatch, stacklevel=2
+            f"{where}: {quantity}: {c.size} computed values but {p.size} printed",
+            PrintedValueMismatch,
+            stacklevel=2,
         )
         return False
     ok = np.isfinite(c) & np.isfinite(p)
@@ -37,7 +39,8 @@ def check_printed(
     if np.any(bad):
         i = int(np.flatnonzero(bad)[0])
         warnings.warn(
-            f"{where}: {quantity} computed from the derivatives disagrees with the printed value for "
+            f"{where}: {quantity} computed from the derivatives disagrees with the printed "
+            "value for "
             f"{int(bad.sum())} mode(s) (first: mode {i + 1}, {c[i]:.6g} vs printed {p[i]:.6g})",
             PrintedValueMismatch,
             stacklevel=2,
@@ -65,7 +68,9 @@ def find_line(lines: list[str], marker: str, start: int = 0, where: str = "") ->
     for i in range(start, len(lines)):
         if marker in lines[i]:
             return i
-    raise InputFormatError(f"{where}: block {marker.strip()!r} not found (truncated or different output?)")
+    raise InputFormatError(
+        f"{where}: block {marker.strip()!r} not found (truncated or different output?)"
+    )
 
 
 def iter_lines_with(lines: list[str], marker: str) -> Iterator[int]:

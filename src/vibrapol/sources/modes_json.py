@@ -32,6 +32,7 @@ _ARRAY_FIELDS = {
     "a2": "a2_ang4_per_da",
     "gamma2": "gamma2_ang4_per_da",
     "polarizability_ang3": "polarizability_ang3",
+    "activity": "activity_ang4_per_da",
 }
 
 
@@ -45,7 +46,10 @@ def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
         "format": FORMAT_NAME,
         "schema_version": SCHEMA_VERSION,
         "constants": CODATA_VERSION,
-        "provenance": {k: (list(v) if isinstance(v, tuple) else v) for k, v in dataclasses.asdict(modes.provenance).items()},
+        "provenance": {
+            k: (list(v) if isinstance(v, tuple) else v)
+            for k, v in dataclasses.asdict(modes.provenance).items()
+        },
         "atoms": {
             "atomic_numbers": modes.atomic_numbers.tolist(),
             "masses_da": modes.masses_da.tolist(),
@@ -61,11 +65,14 @@ def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
 def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
     """Build a ModeSet from :func:`modeset_to_dict` output, checking format and version."""
     if not isinstance(data, dict) or data.get("format") != FORMAT_NAME:
-        raise InputFormatError(f"{where}: not a vibrapol modes file (missing \"format\": \"{FORMAT_NAME}\")")
+        raise InputFormatError(
+            f'{where}: not a vibrapol modes file (missing "format": "{FORMAT_NAME}")'
+        )
     version = data.get("schema_version")
     if version != SCHEMA_VERSION:
         raise InputFormatError(
-            f"{where}: schema version {version!r} is not supported (this vibrapol reads {SCHEMA_VERSION})"
+            f"{where}: schema version {version!r} is not supported "
+            f"(this vibrapol reads {SCHEMA_VERSION})"
         )
     try:
         atoms = data["atoms"]
@@ -101,7 +108,9 @@ def read_modes_json(path: str | Path) -> ModeSet:
         raise InputFormatError(f"{path}: invalid JSON at line {exc.lineno} ({exc.msg})") from exc
     modes = modeset_from_dict(data, where=str(path))
     if not modes.provenance.source_file:
-        modes = dataclasses.replace(modes, provenance=dataclasses.replace(modes.provenance, source_file=str(path)))
+        modes = dataclasses.replace(
+            modes, provenance=dataclasses.replace(modes.provenance, source_file=str(path))
+        )
     return modes
 
 

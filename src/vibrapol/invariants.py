@@ -107,7 +107,8 @@ def invariants_from_activity(
     s = np.asarray(activity_, dtype=float)
     r = np.nan_to_num(np.asarray(rho_lin, dtype=float), nan=0.0)
     gamma2 = s * r / (3.0 * (1.0 + r))
-    a2 = (s - 7.0 * gamma2) / 45.0
+    # 45a² = S − 7γ² = S(3 − 4ρ)/(3(1 + ρ)): written this way a² is exactly 0 at ρ = 3/4.
+    a2 = s * (3.0 - 4.0 * r) / (135.0 * (1.0 + r))
     return np.clip(a2, 0.0, None), gamma2
 
 

@@ -139,11 +139,15 @@ def table_text(table: RamanTable) -> str:
         )
     n_pol = int(table.polarized.sum())
     lines.append("")
-    lines.append(
-        f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)"
-    )
     if table.n_modes and not np.isfinite(table.a2).any():
-        lines.append("a2, gamma2 and rho unknown: the source gives Raman activities only")
+        lines.append(
+            f"{table.n_modes} modes; a2, gamma2 and rho unknown: the source gives Raman "
+            "activities only"
+        )
+    else:
+        lines.append(
+            f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)"
+        )
     return "\n".join(lines) + "\n"
 
 

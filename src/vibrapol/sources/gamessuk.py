@@ -1,0 +1,455 @@
+"""Reader for GAMESS-UK Raman outputs (``RUNTYPE RAMAN``).
+
+What the program prints after the Raman step, and what vibrapol does with it:
+
+- ``molecular geometry (angstrom)``: coordinates in Å in the program's reoriented frame (the
+  frame of the modes and derivatives; the input geometry "prior to orientation" is another
+  frame), the nucleus of each atom (``c-12``) and its mass (10 decimals): all three are used;
+- ``cartesians to normal mode coordinates transformation matrix``: all 3N modes, the overall
+  rotations and translations included, as Cartesian displacements normalised so that
+  Σ m d² = 1 (6 decimals).  vibrapol drops the 6 (5) modes with the largest overlap with the
+  rigid-body motions of that geometry and converts the rest with
+  :func:`vibrapol.vibrations.modes_from_displacements`.  Its frequencies carry 2 decimals; the
+  same vibrations were printed with 4 decimals after the Hessian step (``harmonic frequencies
+  (cm**-1) and normalised normal coordinates``), which are used when they agree;
+- the Cartesian polarizability derivatives, twice: in atomic units (bohr²) and in Å² as a
+  3×3 tensor per coordinate.  vibrapol converts the a.u. block with its own constants (the
+  program's Å² block used an older bohr) and checks the Å² block against it;
+- ``raman data``: per mode (all 3N, in the order of the mode block) the isotropic part a′
+  (signed), the anisotropy γ′, the activity 45a′² + 7γ′² and ρ for linearly polarized light.
+
+cclib 1.8.1 reads this program's lower-precision first mode block (no rotations, so not in
+the order of the Raman rows) and no masses, so everything here is read by our own blocks.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+from ase.data import atomic_numbers
+
+from vibrapol import invariants as inv
+from vibrapol.errors import InputFormatError
+from vibrapol.modeset import ModeSet, Provenance
+from vibrapol.sources._common import check_printed, find_line, floats
+from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.units import BOHR2_TO_ANG2
+from vibrapol.vibrations import modes_from_displacements, rigid_body_vectors
+
+PROGRAM = "GAMESS-UK"
+
+#: Tolerances against the printed ``raman data``.  Everything there has 8 decimals (half a unit
+#: 5e-9), so the rounding of the inputs dominates: the modes carry 6 decimals, which moves a′
+#: and γ′ (Å² amu⁻¹ᐟ²) by up to ≈ 1e-5 on the dvb output.  An activity moves by about
+#: 2(45|a′| + 7γ′)·1e-5: ≈ 1e-4 for weak modes, ≈ 3e-6 of the value for strong ones.
+INVARIANT_ATOL = 5e-5
+ACTIVITY_ATOL = 5e-4
+ACTIVITY_RTOL = 2e-5
+RHO_ATOL = 1e-4
+#: The two derivative blocks: the a.u. one carries 7 decimals (half a unit 5e-8 bohr²), the Å²
+#: one 8; the program converted with bohr = 0.52917725 Å (older CODATA), 1.5e-7 relative off
+#: the bohr² of CODATA 2018/2022.  vibrapol converts the a.u. block with its own constants.
+DERIVATIVE_ATOL = 5e-8
+DERIVATIVE_RTOL = 1e-6
+#: ρ is compared only where the printed activity is at least this (Å⁴/amu); the program prints
+#: ρ = 0 for its inactive modes.
+RHO_MIN_ACTIVITY = 1e-2
+#: A mode counts as a rotation/translation when more than this fraction of its mass-weighted
+#: vector lies in the rigid-body space (the printed modes have either ≈ 1 or ≈ 0).
+RIGID_OVERLAP = 0.5
+
+_AXES = "xyz"
+MODE_BLOCK = "cartesians to normal mode coordinates transformation matrix"
+
+
+@dataclass(frozen=True, eq=False)
+class Geometry:
+    """The ``molecular geometry (angstrom)`` block."""
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    masses_da: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class RamanRows:
+    """The ``raman data`` block: one row per printed mode (rotations included).
+
+    Attributes are arrays (n_printed,): ``freqs_cm1``, ``isotropic`` (a′, Å² amu⁻¹ᐟ², signed),
+    ``anisotropy`` (γ′), ``activities`` (Å⁴/amu) and ``rho_linear``.
+    """
+
+    freqs_cm1: np.ndarray
+    isotropic: np.ndarray
+    anisotropy: np.ndarray
+    activities: np.ndarray
+    rho_linear: np.ndarray
+
+
+def sniff(head: str, tail: str) -> bool:
+    """True for a GAMESS-UK output (its banner spells the name out)."""
+    return "G A M E S S - U K" in head
+
+
+def _last_line(lines: list[str], marker: str, where: str, before: int | None = None) -> int:
+    hits = [i for i, line in enumerate(lines[:before]) if marker in line]
+    if not hits:
+        raise InputFormatError(
+            f"{where}: block {marker!r} not found (truncated output, or not a RUNTYPE RAMAN job?)"
+        )
+    return hits[-1]
+
+
+def read_geometry(lines: list[str], where: str = "", before: int | None = None) -> Geometry:
+    """Atoms, coordinates (Å) and masses from the last ``molecular geometry (angstrom)`` block.
+
+    Layout (values invented; inner spacing narrowed to fit here)::
+
+                     molecular geometry (angstrom)
+                     *****************************
+
+      atom            x                 y                 z           nucleus  atomic weight
+
+         1      0.0000000000      0.0000000000      0.1234567890   o-16     15.9949146200
+         2      0.7654321000      0.0000000000     -0.4567890120   h-1       1.0078250000
+    """
+    start = _last_line(lines, "molecular geometry (angstrom)", where, before)
+    z, coords, masses = [], [], []
+    for line in lines[start + 1 :]:
+        parts = line.split()
+        if len(parts) == 6 and parts[0].isdigit():
+            element = parts[4].split("-")[0].capitalize()
+            if element not in atomic_numbers:
+                raise InputFormatError(f"{where}: unknown nucleus {parts[4]!r} in the geometry")
+            z.append(atomic_numbers[element])
+            coords.append(floats(" ".join(parts[1:4]), where))
+            masses.append(float(parts[5]))
+        elif z and not line.strip():
+            break
+    if not z:
+        raise InputFormatError(f"{where}: the molecular geometry (angstrom) block is empty")
+    return Geometry(np.array(z), np.array(coords), np.array(masses))
+
+
+def read_mode_vectors(
+    lines: list[str], n_atoms: int, where: str = ""
+) -> tuple[np.ndarray, np.ndarray]:
+    """All printed modes of the transformation-matrix block: (freqs_cm1, displacements (n, 3N)).
+
+    Layout (groups of up to eight modes; values invented)::
+
+                        cartesians to normal mode coordinates transformation matrix
+                        ===========================================================
+
+
+                         1          2          3
+
+
+                       -0.02       0.01    1650.12
+
+
+      1  o        x   0.000000   0.250000   0.000000
+                  y   0.235702   0.000000   0.000000
+                  z   0.000000   0.000000  -0.068041
+      2  h        x   ...
+    """
+    start = _last_line(lines, MODE_BLOCK, where)
+    n_coords = 3 * n_atoms
+    freqs: list[float] = []
+    columns: list[np.ndarray] = []
+    i: int | None = start + 1  # the underline; a group starts with its mode numbers
+    while len(freqs) < n_coords:
+        i = _next_nonblank(lines, i)
+        header = lines[i].split() if i is not None else []
+        if not header or not all(t.isdigit() for t in header):
+            break
+        i = _next_nonblank(lines, i)
+        group = floats(lines[i], where) if i is not None else []
+        rows: list[list[float]] = []
+        while i is not None and len(rows) < n_coords:
+            i = _next_nonblank(lines, i)
+            tokens = lines[i].split() if i is not None else []
+            axis = next((k for k, t in enumerate(tokens) if t in _AXES), None)
+            if axis is None:
+                break
+            rows.append(floats(" ".join(tokens[axis + 1 :]), where))
+        if not group or len(group) != len(header) or len(rows) != n_coords:
+            raise InputFormatError(f"{where}: normal-mode block cut short (truncated output?)")
+        if any(len(row) != len(group) for row in rows):
+            raise InputFormatError(f"{where}: normal-mode block has rows of unequal length")
+        freqs.extend(group)
+        columns.append(np.array(rows).T)
+    if len(freqs) < n_coords - 6:
+        raise InputFormatError(
+            f"{where}: normal-mode block has {len(freqs)} modes for {n_atoms} atoms (truncated?)"
+        )
+    return np.array(freqs), np.vstack(columns)
+
+
+def _next_nonblank(lines: list[str], i: int | None) -> int | None:
+    """Index of the first non-blank line after ``i`` (None at the end)."""
+    if i is None:
+        return None
+    for j in range(i + 1, len(lines)):
+        if lines[j].strip():
+            return j
+    return None
+
+
+def read_precise_frequencies(lines: list[str], where: str = "") -> np.ndarray | None:
+    """Vibrational frequencies (4 decimals) from the Hessian step, or None when absent.
+
+    Layout (values invented)::
+
+              harmonic frequencies (cm**-1) and normalised normal coordinates
+              ...
+         frequencies ----       1650.1234 3800.5678 3900.4321
+    """
+    try:
+        start = find_line(lines, "harmonic frequencies (cm**-1) and normalised normal coordinates")
+    except InputFormatError:
+        return None
+    values: list[float] = []
+    for line in lines[start:]:
+        if "frequencies ----" in line:
+            values.extend(floats(line.split("----", 1)[1], where))
+        elif "thermochemical analysis" in line or "cartesian polarizability" in line:
+            break
+    return np.array(values) if values else None
+
+
+def _component_table(lines: list[str], start: int, n_coords: int, where: str) -> np.ndarray:
+    """Entries 'a b k value' (component ab, coordinate k) after ``start`` into (3N, 3, 3)."""
+    out = np.full((n_coords, 3, 3), np.nan)
+    started = False
+    for line in lines[start + 1 :]:
+        tokens = line.split()
+        if len(tokens) >= 4 and len(tokens) % 4 == 0 and tokens[0] in _AXES:
+            started = True
+            for a, b, k, value in zip(*[iter(tokens)] * 4, strict=True):
+                out[int(k) - 1, _AXES.index(a), _AXES.index(b)] = floats(value, where)[0]
+            if not np.isnan(out).any():
+                return out
+        elif started and tokens:
+            break
+    raise InputFormatError(
+        f"{where}: polarizability derivative table incomplete (truncated output?)"
+    )
+
+
+def read_dalpha_dx_ang2(lines: list[str], n_atoms: int, where: str = "") -> np.ndarray | None:
+    """Cartesian polarizability derivatives in Å², shape (3N, 3, 3), or None when absent.
+
+    Layout (one 3×3 tensor per Cartesian coordinate; values invented)::
+
+                        * cartesian polarizability derivatives *
+                        *         units of angstrom**2         *
+
+          x    x      1       0.12345678      x    y      1       0.00000000      x    z      1 ...
+          y    x      1       0.00000000      y    y      1       2.34567890      y    z      1 ...
+          z    x      1 ...
+    """
+    hits = [i for i, line in enumerate(lines) if "units of angstrom**2" in line]
+    return _component_table(lines, hits[-1], 3 * n_atoms, where) if hits else None
+
+
+def read_dalpha_dx_au(lines: list[str], n_atoms: int, where: str = "") -> np.ndarray | None:
+    """The same derivatives in atomic units (bohr²), converted to Å²; None when absent.
+
+    Layout (component first, then three coordinates per line; values invented)::
+
+                        * cartesian polarizability derivatives *
+                        *           (atomic units)             *
+
+               x  x    1      0.4408000           x  x    2      0.0000000           x  x    3 ...
+    """
+    hits = [i for i, line in enumerate(lines) if "(atomic units)" in line and "*" in line]
+    hits = [i for i in hits if "polarizability derivatives" in lines[i - 1]]
+    if not hits:
+        return None
+    return _component_table(lines, hits[-1], 3 * n_atoms, where) * BOHR2_TO_ANG2
+
+
+def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
+    """The ``raman data`` block, or None when absent.
+
+    Layout (one row per printed mode, rotations first; values invented; spacing narrowed)::
+
+          **********************
+          *     raman data     *
+          **********************
+
+       mode       isotropic         anisotropic       intensity         depolarization ratio
+
+      -0.02       0.00000000        0.01234567        0.00106696        0.75000000
+
+    1650.12       0.51234567        0.81234567       16.43183264        0.23166352
+    """
+    hits = [i for i, line in enumerate(lines) if "*     raman data     *" in line]
+    if not hits:
+        return None
+    rows = []
+    for line in lines[hits[-1] + 3 :]:
+        if line.strip().startswith("*"):
+            break
+        tokens = line.split()
+        if len(tokens) == 5:
+            rows.append(floats(line, where))
+        elif tokens and tokens[0] != "mode":
+            raise InputFormatError(
+                f"{where}: unexpected line in the raman data block: {line.strip()!r}"
+            )
+    if not rows:
+        raise InputFormatError(f"{where}: the raman data block is empty (truncated output?)")
+    return RamanRows(*np.array(rows).T)
+
+
+def rigid_modes(displacements: np.ndarray, geometry: Geometry) -> np.ndarray:
+    """Indices of the printed modes that are overall rotations or translations.
+
+    The mass-weighted vector of each printed mode is projected onto the rigid-body motions of
+    the geometry; the ``n_printed − (3N − n_rigid)`` modes with the largest overlap are taken.
+    """
+    masses = geometry.masses_da
+    rigid = rigid_body_vectors(geometry.coordinates_ang, masses)
+    weighted = displacements * np.repeat(np.sqrt(masses), 3)[None, :]
+    weighted /= np.linalg.norm(weighted, axis=1, keepdims=True)
+    overlap = np.sum((weighted @ rigid.T) ** 2, axis=1)
+    n_drop = len(displacements) - (displacements.shape[1] - len(rigid))
+    drop = np.sort(np.argsort(overlap)[::-1][: max(n_drop, 0)])
+    keep = np.setdiff1d(np.arange(len(displacements)), drop)
+    if np.any(overlap[drop] < RIGID_OVERLAP) or np.any(overlap[keep] > RIGID_OVERLAP):
+        raise InputFormatError("rotations and translations cannot be told apart from vibrations")
+    return drop
+
+
+def read_metadata(lines: list[str]) -> dict[str, str]:
+    """Version, method and basis from the banner and the job options.
+
+    Layout::
+
+         *               ===   Opteron version  8.0  ===                *
+                                            Revision    6248
+         * SCF TYPE                                rhf      *
+         * basis selected is sto     sto3g      *
+    """
+    text = "\n".join(lines[:2000])
+    version = re.search(r"version\s+(\d+(?:\.\d+)*)\s+===", text)
+    revision = re.search(r"Revision\s+(\S+)", text)
+    scf = re.search(r"\* SCF TYPE\s+(\S+)", text)
+    basis = re.search(r"basis selected is\s+\S+\s+(\S+)", text)
+    program_version = version.group(1) if version else ""
+    if version and revision:
+        program_version += f" (revision {revision.group(1)})"
+    return {
+        "program_version": program_version,
+        "method": scf.group(1).upper() if scf else "",
+        "basis": basis.group(1) if basis else "",
+    }
+
+
+def read_gamessuk(path: str | Path) -> ModeSet:
+    """Read a GAMESS-UK Raman output into a :class:`~vibrapol.modeset.ModeSet`.
+
+    Warns
+    -----
+    PrintedValueMismatch
+        When |a′|, γ′, activities or ρ computed from the derivatives disagree with the
+        printed ``raman data``, or the two printed derivative blocks disagree.
+    """
+    where = str(path)
+    lines = read_text(path).splitlines()
+    geometry = read_geometry(lines, where, before=_last_line(lines, MODE_BLOCK, where))
+    n_atoms = len(geometry.atomic_numbers)
+    freqs_all, disps_all = read_mode_vectors(lines, n_atoms, where)
+    try:
+        drop = rigid_modes(disps_all, geometry)
+    except InputFormatError as exc:
+        raise InputFormatError(f"{where}: {exc}") from exc
+    vib = np.setdiff1d(np.arange(len(freqs_all)), drop)
+    freqs = freqs_all[vib]
+    notes = [
+        f"{len(freqs_all)} modes printed; {len(drop)} with rigid-body overlap > "
+        f"{RIGID_OVERLAP} dropped",
+        "displacements printed with sum(m d^2) = 1, converted to mass-weighted orthonormal modes",
+    ]
+    precise = read_precise_frequencies(lines, where)
+    if (
+        precise is not None
+        and precise.shape == freqs.shape
+        and np.allclose(precise, freqs, atol=0.0051, rtol=0)
+    ):
+        freqs = precise
+        notes.append("frequencies from the Hessian step (4 decimals)")
+    printed = read_raman_rows(lines, where)
+    if printed is not None and (
+        printed.freqs_cm1.shape != freqs_all.shape
+        or not np.allclose(printed.freqs_cm1, freqs_all, atol=0.0051, rtol=0)
+    ):
+        raise InputFormatError(f"{where}: the raman data rows do not match the printed modes")
+    dalpha_dx = read_dalpha_dx_au(lines, n_atoms, where)
+    dalpha_ang2 = read_dalpha_dx_ang2(lines, n_atoms, where)
+    if dalpha_dx is None:
+        dalpha_dx = dalpha_ang2
+    elif dalpha_ang2 is not None:
+        check_printed(
+            "polarizability derivative (angstrom^2 block vs the atomic-unit one)",
+            dalpha_dx.ravel(),
+            dalpha_ang2.ravel(),
+            where=where,
+            atol=DERIVATIVE_ATOL,
+            rtol=DERIVATIVE_RTOL,
+        )
+    a2 = gamma2 = None
+    if dalpha_dx is not None:
+        notes.append("derivatives from the atomic-unit block, converted with CODATA bohr")
+    elif printed is not None:
+        a2, gamma2 = printed.isotropic[vib] ** 2, printed.anisotropy[vib] ** 2
+        notes.append("no derivatives: a2, gamma2 from the printed isotropic and anisotropic parts")
+    result = ModeSet(
+        atomic_numbers=geometry.atomic_numbers,
+        coordinates_ang=geometry.coordinates_ang,
+        freqs_cm1=freqs,
+        modes=modes_from_displacements(disps_all[vib], geometry.masses_da),
+        masses_da=geometry.masses_da,
+        dalpha_dx=dalpha_dx,
+        a2=a2,
+        gamma2=gamma2,
+        provenance=Provenance(
+            source_file=where,
+            source_kind="gamess-uk",
+            program=PROGRAM,
+            masses="as printed (molecular geometry (angstrom), atomic weight)",
+            notes=tuple(notes),
+            **read_metadata(lines),
+        ),
+    )
+    if dalpha_dx is not None and printed is not None:
+        _check(result, printed, vib, where)
+    return result
+
+
+def _check(modes: ModeSet, printed: RamanRows, vib: np.ndarray, where: str) -> None:
+    """Warn where vibrapol's invariants, activities and ratios differ from the printed ones."""
+    a2, gamma2 = modes.raman_invariants()
+    s = inv.activity(a2, gamma2)
+    s_printed = printed.activities[vib]
+    check_printed(
+        "|a'|", np.sqrt(a2), np.abs(printed.isotropic[vib]), where=where, atol=INVARIANT_ATOL
+    )
+    check_printed(
+        "gamma'", np.sqrt(gamma2), printed.anisotropy[vib], where=where, atol=INVARIANT_ATOL
+    )
+    check_printed(
+        "Raman activity", s, s_printed, where=where, atol=ACTIVITY_ATOL, rtol=ACTIVITY_RTOL
+    )
+    compare = s_printed >= RHO_MIN_ACTIVITY
+    rho = np.where(compare, inv.rho_linear(a2, gamma2), np.nan)
+    rho_printed = np.where(compare, printed.rho_linear[vib], np.nan)
+    check_printed("depolarization ratio", rho, rho_printed, where=where, atol=RHO_ATOL)
+
+
+register(Reader("gamess-uk", "GAMESS-UK Raman output", sniff, read_gamessuk))

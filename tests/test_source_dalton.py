@@ -1,0 +1,139 @@
+"""The DALTON reader: fixture contract, and the real dvb output of DALTON 2015."""
+
+from __future__ import annotations
+
+import functools
+
+import cclib
+import numpy as np
+import pytest
+
+from _source_contract import SourceContract, read_quietly, rigid_overlap, rotation_rule_error
+from conftest import FIXTURES, qc_output
+from vibrapol.cli import main
+from vibrapol.errors import InputFormatError
+from vibrapol.ramantable import raman_table
+from vibrapol.sources import dalton
+
+REAL = "DALTON2015_dvb_raman.out"
+
+
+class TestDaltonContract(SourceContract):
+    kind = "dalton"
+    fixture = "dalton_water_raman.out"
+    real_file = REAL
+    sniff = dalton.sniff
+    read = dalton.read_dalton
+    # derivatives with 8 decimals, modes with 6: S moves by ~1e-5 here
+    fixture_atol = 1e-4
+    truncations = (
+        ("Column   6", 3),  # gradient cut, nothing after it
+        ("Normal Coordinates (bohrs*amu**(1/2))", 9),  # modes cut after the first atom
+        ("Beta(a)**2", 3),  # Raman table cut after two of three rows
+    )
+    garble = ("5.67316730", "**********")
+    tamper = ("32.850000", "33.850000")
+
+
+def test_fixture_modes_are_put_in_ascending_order():
+    lines = (FIXTURES / "dalton_water_raman.out").read_text().splitlines()
+    printed = dalton.read_frequencies(lines)
+    assert printed == pytest.approx([3749.91, 3650.48, 1602.35])  # highest first, as printed
+    modes = read_quietly(dalton.read_dalton, FIXTURES / "dalton_water_raman.out")
+    assert modes.freqs_cm1 == pytest.approx([1602.35, 3650.48, 3749.91])
+    # the inactive mode's printed 'Dep. Ratio' (0.512345) is noise and is not used
+    assert np.isnan(raman_table(modes).rho_linear[0])
+
+
+@functools.cache
+def real_modes():
+    return read_quietly(dalton.read_dalton, qc_output(REAL))
+
+
+@functools.cache
+def real_rows():
+    return dalton.read_raman_rows(qc_output(REAL).read_text().splitlines())
+
+
+def test_real_reads_54_vibrations_without_warnings():
+    modes = real_modes()
+    assert modes.n_atoms == 20 and modes.n_modes == 54
+    p = modes.provenance
+    assert (p.program_version, p.method, p.basis) == ("2015.0", "B3LYP", "STO-3G")
+
+
+def test_real_frequencies_equal_the_printed_ones():
+    # cclib reads the same 2-decimal frequency table (and sorts it ascending)
+    data = cclib.io.ccread(str(qc_output(REAL)))
+    assert real_modes().freqs_cm1 == pytest.approx(data.vibfreqs, abs=1e-9)
+    # DALTON2015_dvb_raman.out: mode 54 46.65 cm-1 (lowest), mode 1 3546.72 cm-1 (highest)
+    assert real_modes().freqs_cm1[[0, -1]] == pytest.approx([46.65, 3546.72], abs=1e-9)
+
+
+def test_real_invariants_activities_and_ratios_equal_the_printed_ones():
+    table = raman_table(real_modes())
+    rows = real_rows()
+    up = slice(None, None, -1)  # printed highest first
+    a2, g2 = rows.a2[up], rows.gamma2[up]
+    s, rho = rows.activities[up], rows.rho_linear[up]
+    # All printed with 6 decimals (half unit 5e-7); the 6-decimal normal coordinates move the
+    # values by up to ~6e-5 of themselves (measured): atol 1e-5, rtol 3e-4.
+    for computed, printed in ((table.a2, a2), (table.gamma2, g2), (table.activity, s)):
+        np.testing.assert_allclose(computed, printed, atol=1e-5, rtol=3e-4)
+    np.testing.assert_allclose(
+        45 * table.a2 + 4 * table.gamma2, rows.parallel[up], atol=1e-5, rtol=3e-4
+    )
+    np.testing.assert_allclose(3 * table.gamma2, rows.crossed[up], atol=1e-5, rtol=3e-4)
+    # ρ where the mode has intensity (DALTON prints a ratio for every mode); worst 7.6e-6
+    active = s >= 1e-2
+    assert active.sum() == 27
+    np.testing.assert_allclose(table.rho_linear[active], rho[active], atol=1e-4)
+    np.testing.assert_allclose(table.rho_natural[active], (2 * rho / (1 + rho))[active], atol=2e-4)
+    # spot check, mode 13: 1738.58 cm-1, Pol.Int. 744.969751 + Depol.Int. 295.066751
+    k = int(np.argmin(np.abs(table.freqs_cm1 - 1738.58)))
+    assert table.activity[k] == pytest.approx(744.969751 + 295.066751, rel=3e-4)
+    assert table.rho_linear[k] == pytest.approx(0.396079, abs=1e-4)
+
+
+def test_real_activity_is_not_what_cclib_reports():
+    # cclib 1.8.1 gives Pol.Int. (45a′² + 4γ′²) as the activity; the activity is
+    # 45a′² + 7γ′² = Pol.Int. + Depol.Int. (Polavarapu 1990)
+    data = cclib.io.ccread(str(qc_output(REAL)))
+    table = raman_table(real_modes())
+    k = int(np.argmax(table.activity))
+    assert data.vibramans[k] == pytest.approx(744.969751, abs=1e-6)
+    assert table.activity[k] - data.vibramans[k] == pytest.approx(295.066751, rel=3e-4)
+
+
+def test_real_mutual_exclusion():
+    # C2h: IR-active modes are Raman-inactive (rule of mutual exclusion, common practice)
+    data = cclib.io.ccread(str(qc_output(REAL)))
+    ir = np.asarray(data.vibirs)
+    activity = raman_table(real_modes()).activity
+    ir_active = ir > 1e-3 * ir.max()
+    assert ir_active.sum() >= 20
+    assert np.all(activity[ir_active] < 1e-6 * activity.max())
+
+
+def test_real_modes_derivatives_and_polarizability_share_one_frame():
+    modes = real_modes()
+    assert rigid_overlap(modes) < 1e-4  # a frame turned by 5° gives 0.06
+    worst, scale = rotation_rule_error(modes)
+    assert worst < 0.01 * scale  # numerical derivatives: 0.03 % measured
+
+
+def test_real_table_command(capsys):
+    assert main(["table", str(qc_output(REAL))]) == 0
+    text = capsys.readouterr().out
+    line = next(row for row in text.splitlines() if "1738.58" in row)
+    assert "1040" in line and "0.3961" in line
+    assert "DALTON 2015.0" in text and "B3LYP/STO-3G" in text
+
+
+def test_real_truncated_in_the_normal_coordinates(tmp_path):
+    text = qc_output(REAL).read_text()
+    start = text.index("Normal Coordinates (bohrs*amu**(1/2))")
+    cut = tmp_path / "cut.out"
+    cut.write_text(text[: start + 5000])
+    with pytest.raises(InputFormatError, match="truncated"):
+        dalton.read_dalton(cut)

@@ -1,26 +1,20 @@
-"""Shared test fixtures: where the real quantum-chemistry outputs are, and small PySCF jobs."""
+"""Test session set-up: one BLAS thread per process, and tests/ importable for helper modules."""
 
 from __future__ import annotations
 
 import os
+import sys
 from pathlib import Path
-
-import pytest
 
 # One BLAS/OpenMP thread per test process: pytest-xdist runs two processes on two cores.
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-PROJECT_ROOT = Path(__file__).resolve().parents[1]
-QC_OUTPUTS = PROJECT_ROOT.parent / "shared" / "qc-outputs"
-FIXTURES = Path(__file__).resolve().parent / "fixtures"
+# The helper modules (_paths, _source_contract) are imported by name; pytest's default import
+# mode puts tests/ on sys.path already, --import-mode=importlib does not.
+_TESTS = str(Path(__file__).resolve().parent)
+if _TESTS not in sys.path:
+    sys.path.insert(0, _TESTS)
 
-
-def qc_output(name: str) -> Path:
-    """Path of a real output in ../shared/qc-outputs, skipping the test when it is absent."""
-    path = QC_OUTPUTS / name
-    if not path.is_file():
-        pytest.skip(
-            f"real output {name} not available (../shared/qc-outputs is absent in this checkout)"
-        )
-    return path
+# Kept for test modules that still import these from conftest; new code imports _paths.
+from _paths import FIXTURES, PROJECT_ROOT, QC_OUTPUTS, qc_output  # noqa: E402, F401

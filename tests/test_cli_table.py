@@ -82,3 +82,15 @@ def test_missing_file_and_traceback_flag(tmp_path, capsys):
 
     with pytest.raises(VibrapolError):
         main(["--traceback", "table", str(tmp_path / "nope.out")])
+
+
+def test_output_file_gets_ordinary_permissions(tmp_path):
+    # write_atomic goes through mkstemp (mode 0600); the result must be readable like any file.
+    import os
+    import stat
+
+    out = tmp_path / "t.csv"
+    assert main(["table", str(EXAMPLE), "--format", "csv", "-o", str(out)]) == 0
+    umask = os.umask(0)
+    os.umask(umask)
+    assert stat.S_IMODE(out.stat().st_mode) == 0o666 & ~umask

@@ -4,13 +4,11 @@ from __future__ import annotations
 
 import functools
 
-import cclib
 import numpy as np
 import pytest
 
-from _source_contract import SourceContract, read_quietly, rigid_overlap, rotation_rule_error
-from conftest import FIXTURES, qc_output
-from vibrapol.cli import main
+from _paths import FIXTURES, qc_output
+from _source_contract import SourceContract, cclib_data, read_quietly, read_real
 from vibrapol.errors import InputFormatError
 from vibrapol.ramantable import raman_table
 from vibrapol.sources import dalton
@@ -33,6 +31,16 @@ class TestDaltonContract(SourceContract):
     )
     garble = ("5.67316730", "**********")
     tamper = ("32.850000", "33.850000")
+    # DALTON2015_dvb_raman.out: 'This is output from DALTON 2015.0', B3LYP/STO-3G
+    real_provenance = ("2015.0", "B3LYP", "STO-3G")
+    # cclib reads the same 2-decimal frequency table (and sorts it ascending);
+    # DALTON2015_dvb_raman.out: mode 54 46.65 cm-1 (lowest), mode 1 3546.72 cm-1 (highest)
+    real_freq_ends_cm1 = (46.65, 3546.72)
+    real_rigid_overlap_max = 1e-4
+    real_rotation_rule_max = 0.01  # numerical derivatives: 0.03 % measured
+    # mode 13 of the output: 1738.58 cm-1, Pol.Int. 744.969751 + Depol.Int. 295.066751, ρ 0.396079
+    real_table_row = ("1738.58", ("1040", "0.3961"))
+    real_table_header = ("DALTON 2015.0", "B3LYP/STO-3G")
 
 
 def test_fixture_modes_are_put_in_ascending_order():
@@ -45,29 +53,13 @@ def test_fixture_modes_are_put_in_ascending_order():
     assert np.isnan(raman_table(modes).rho_linear[0])
 
 
-@functools.cache
 def real_modes():
-    return read_quietly(dalton.read_dalton, qc_output(REAL))
+    return read_real(dalton.read_dalton, REAL)
 
 
 @functools.cache
 def real_rows():
     return dalton.read_raman_rows(qc_output(REAL).read_text().splitlines())
-
-
-def test_real_reads_54_vibrations_without_warnings():
-    modes = real_modes()
-    assert modes.n_atoms == 20 and modes.n_modes == 54
-    p = modes.provenance
-    assert (p.program_version, p.method, p.basis) == ("2015.0", "B3LYP", "STO-3G")
-
-
-def test_real_frequencies_equal_the_printed_ones():
-    # cclib reads the same 2-decimal frequency table (and sorts it ascending)
-    data = cclib.io.ccread(str(qc_output(REAL)))
-    assert real_modes().freqs_cm1 == pytest.approx(data.vibfreqs, abs=1e-9)
-    # DALTON2015_dvb_raman.out: mode 54 46.65 cm-1 (lowest), mode 1 3546.72 cm-1 (highest)
-    assert real_modes().freqs_cm1[[0, -1]] == pytest.approx([46.65, 3546.72], abs=1e-9)
 
 
 def test_real_invariants_activities_and_ratios_equal_the_printed_ones():
@@ -98,36 +90,11 @@ def test_real_invariants_activities_and_ratios_equal_the_printed_ones():
 def test_real_activity_is_not_what_cclib_reports():
     # cclib 1.8.1 gives Pol.Int. (45a′² + 4γ′²) as the activity; the activity is
     # 45a′² + 7γ′² = Pol.Int. + Depol.Int. (Polavarapu 1990)
-    data = cclib.io.ccread(str(qc_output(REAL)))
+    data = cclib_data(REAL)
     table = raman_table(real_modes())
     k = int(np.argmax(table.activity))
     assert data.vibramans[k] == pytest.approx(744.969751, abs=1e-6)
     assert table.activity[k] - data.vibramans[k] == pytest.approx(295.066751, rel=3e-4)
-
-
-def test_real_mutual_exclusion():
-    # C2h: IR-active modes are Raman-inactive (rule of mutual exclusion, common practice)
-    data = cclib.io.ccread(str(qc_output(REAL)))
-    ir = np.asarray(data.vibirs)
-    activity = raman_table(real_modes()).activity
-    ir_active = ir > 1e-3 * ir.max()
-    assert ir_active.sum() >= 20
-    assert np.all(activity[ir_active] < 1e-6 * activity.max())
-
-
-def test_real_modes_derivatives_and_polarizability_share_one_frame():
-    modes = real_modes()
-    assert rigid_overlap(modes) < 1e-4  # a frame turned by 5° gives 0.06
-    worst, scale = rotation_rule_error(modes)
-    assert worst < 0.01 * scale  # numerical derivatives: 0.03 % measured
-
-
-def test_real_table_command(capsys):
-    assert main(["table", str(qc_output(REAL))]) == 0
-    text = capsys.readouterr().out
-    line = next(row for row in text.splitlines() if "1738.58" in row)
-    assert "1040" in line and "0.3961" in line
-    assert "DALTON 2015.0" in text and "B3LYP/STO-3G" in text
 
 
 def test_real_truncated_in_the_normal_coordinates(tmp_path):

@@ -2,16 +2,13 @@
 
 from __future__ import annotations
 
-import functools
 from pathlib import Path
 
-import cclib
 import numpy as np
 import pytest
 
-from _source_contract import SourceContract, read_quietly, rigid_overlap, rotation_rule_error
-from conftest import FIXTURES, qc_output
-from vibrapol.cli import main
+from _paths import FIXTURES, qc_output
+from _source_contract import SourceContract, read_quietly, read_real
 from vibrapol.errors import InputFormatError
 from vibrapol.ramantable import raman_table
 from vibrapol.sources import firefly
@@ -34,6 +31,18 @@ class TestFireflyContract(SourceContract):
     )
     garble = ("    5.6732", "*********")
     tamper = ("      34.050", "      35.050")
+    # Firefly8.0.1_dvb_raman.out: 'Firefly version 8.0.1, build number 8540'; RHF because
+    # DFTTYP=NONE in the program's option echo; STO-3G
+    real_provenance = ("8.0.1+8540", "RHF", "STO-3G")
+    # cclib reads the same FREQUENCY rows (2 decimals); first vibration 38.65, last 3816.56 cm-1
+    real_freq_ends_cm1 = (38.65, 3816.56)
+    # The program's own Sayvetz rotation conditions reach 0.012 in this output (numerical
+    # Hessian, not projected).
+    real_rigid_overlap_max = 0.01
+    real_rotation_rule_max = 0.01  # finite-field derivatives: 0.1 % measured
+    # mode 48 of the output: 1948.25 cm-1, activity 577.846, ρ 0.429
+    real_table_row = ("1948.25", ("577.8", "0.4289"))
+    real_table_header = ("Firefly 8.0.1", "RHF/STO-3G")
 
 
 def test_fixture_keeps_the_imaginary_mode_and_drops_the_rigid_ones():
@@ -46,30 +55,12 @@ def test_fixture_keeps_the_imaginary_mode_and_drops_the_rigid_ones():
     assert table.vibrations.tolist() == [0, 7, 8]
 
 
-@functools.cache
 def real_modes():
-    return read_quietly(firefly.read_firefly, qc_output(REAL))
+    return read_real(firefly.read_firefly, REAL)
 
 
 def printed_table():
     return firefly.read_mode_table(Path(qc_output(REAL)).read_text().splitlines())
-
-
-def test_real_reads_54_vibrations_without_warnings():
-    modes = real_modes()  # PrintedValueMismatch would be an error here
-    assert modes.n_atoms == 20 and modes.n_modes == 54  # 3N - 6, C10H10
-    assert modes.provenance.program_version == "8.0.1+8540"
-    assert modes.provenance.method == "RHF"  # DFTTYP=NONE in the program's option echo
-    assert modes.provenance.basis == "STO-3G"
-
-
-def test_real_frequencies_equal_the_printed_ones():
-    # cclib's own reading of the FREQUENCY rows (rotations removed) is the outside reference;
-    # both carry the 2 printed decimals, so they must agree exactly.
-    data = cclib.io.ccread(str(qc_output(REAL)))
-    assert real_modes().freqs_cm1 == pytest.approx(data.vibfreqs, abs=1e-9)
-    # Firefly8.0.1_dvb_raman.out: first vibration 38.65, last 3816.56 cm-1
-    assert real_modes().freqs_cm1[[0, -1]] == pytest.approx([38.65, 3816.56], abs=1e-9)
 
 
 def test_real_activities_and_ratios_equal_the_printed_ones():
@@ -101,34 +92,6 @@ def test_real_rotations_are_dropped():
     # their spurious activities (12.675 and 9.607 printed) are not in vibrapol's modes
     assert printed.activities[0] == pytest.approx(12.675)
     assert 12.675 not in np.round(raman_table(real_modes()).activity, 3)
-
-
-def test_real_mutual_exclusion():
-    # dvb is centrosymmetric (C2h): IR-active modes are Raman-inactive (rule of mutual
-    # exclusion, common practice).  IR intensities as printed, read by cclib.
-    data = cclib.io.ccread(str(qc_output(REAL)))
-    ir = np.asarray(data.vibirs)
-    activity = raman_table(real_modes()).activity
-    ir_active = ir > 1e-3 * ir.max()
-    assert ir_active.sum() >= 20
-    assert np.all(activity[ir_active] < 1e-6 * activity.max())
-
-
-def test_real_modes_derivatives_and_polarizability_share_one_frame():
-    modes = real_modes()
-    # The program's own Sayvetz rotation conditions reach 0.012 in this output (numerical
-    # Hessian, not projected); a frame turned by 5° gives 0.06.
-    assert rigid_overlap(modes) < 0.01
-    worst, scale = rotation_rule_error(modes)
-    assert worst < 0.01 * scale  # finite-field derivatives: 0.1 % measured
-
-
-def test_real_table_command(capsys):
-    assert main(["table", str(qc_output(REAL))]) == 0
-    text = capsys.readouterr().out
-    line = next(row for row in text.splitlines() if "1948.25" in row)
-    assert "577.8" in line and "0.4289" in line
-    assert "Firefly 8.0.1" in text and "RHF/STO-3G" in text
 
 
 def test_real_truncated_in_the_mode_analysis(tmp_path):

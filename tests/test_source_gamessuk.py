@@ -4,13 +4,11 @@ from __future__ import annotations
 
 import functools
 
-import cclib
 import numpy as np
 import pytest
 
-from _source_contract import SourceContract, read_quietly, rigid_overlap
-from conftest import FIXTURES, qc_output
-from vibrapol.cli import main
+from _paths import FIXTURES, qc_output
+from _source_contract import SourceContract, read_quietly, read_real
 from vibrapol.errors import InputFormatError
 from vibrapol.ramantable import raman_table
 from vibrapol.sources import gamessuk
@@ -34,6 +32,23 @@ class TestGamessUKContract(SourceContract):
     )
     garble = ("5.6731673", "*********")
     tamper = ("34.05000000", "35.05000000")
+    # GAMESS-UK8.0_dvb_raman.out: '===   Opteron version  8.0  ===', 'Revision    6248',
+    # '* SCF TYPE   rhf', 'basis selected is sto     sto3g'
+    real_provenance = ("8.0 (revision 6248)", "RHF", "sto3g")
+    # cclib reads the IR table (2 decimals); vibrapol takes the 4-decimal Hessian print: they
+    # agree to half a unit of the second decimal.  'frequencies ----  41.7748 ...', last 3816.3469
+    real_freq_atol_vs_cclib = 0.0051
+    real_freq_ends_cm1 = (41.7748, 3816.3469)
+    # the reoriented geometry printed just before the modes; no polarizability is read
+    real_rigid_overlap_max = 1e-4
+    # raman data row '1949.63  -1.95366668  7.57401507  573.31653767  0.42893515'
+    real_table_row = ("1949.63", ("573.3", "0.4289"))
+    real_table_header = ("GAMESS-UK 8.0",)
+
+    def test_real_reads_54_vibrations_without_warnings(self):
+        super().test_real_reads_54_vibrations_without_warnings()
+        # masses as printed (molecular geometry (angstrom)): c-12 12.0, h-1 1.007825
+        assert set(np.round(self.real_modes().masses_da, 6)) == {12.0, 1.007825}
 
 
 def test_fixture_rigid_modes_found_by_overlap_not_position():
@@ -51,9 +66,8 @@ def test_fixture_frequencies_take_the_four_decimal_print():
     assert modes.freqs_cm1 == pytest.approx([1598.7712, 3657.0123, 3755.9876], abs=1e-9)
 
 
-@functools.cache
 def real_modes():
-    return read_quietly(gamessuk.read_gamessuk, qc_output(REAL))
+    return read_real(gamessuk.read_gamessuk, REAL)
 
 
 @functools.cache
@@ -66,24 +80,6 @@ def vibration_rows():
     rows = gamessuk.read_raman_rows(real_lines())
     assert len(rows.freqs_cm1) == 60
     return rows, np.arange(6, 60)  # the 6 rigid rows print |ν| ≤ 0.06 cm-1 and come first
-
-
-def test_real_reads_54_vibrations_without_warnings():
-    modes = real_modes()
-    assert modes.n_atoms == 20 and modes.n_modes == 54
-    assert modes.provenance.program_version.startswith("8.0")
-    assert modes.provenance.method == "RHF" and modes.provenance.basis == "sto3g"
-    # masses as printed (molecular geometry (angstrom)): c-12 12.0, h-1 1.007825
-    assert set(np.round(modes.masses_da, 6)) == {12.0, 1.007825}
-
-
-def test_real_frequencies_equal_the_printed_ones():
-    # cclib reads the IR table (2 decimals); vibrapol takes the 4-decimal Hessian print:
-    # they agree to half a unit of the second decimal.
-    data = cclib.io.ccread(str(qc_output(REAL)))
-    assert real_modes().freqs_cm1 == pytest.approx(data.vibfreqs, abs=0.0051)
-    # GAMESS-UK8.0_dvb_raman.out: 'frequencies ----  41.7748 ...' and last 3816.3469
-    assert real_modes().freqs_cm1[[0, -1]] == pytest.approx([41.7748, 3816.3469], abs=1e-9)
 
 
 def test_real_invariants_activities_and_ratios_equal_the_printed_ones():
@@ -118,30 +114,6 @@ def test_real_derivative_blocks_agree():
     np.testing.assert_allclose(au, ang2, atol=5e-8, rtol=1e-6)
     ratio = ang2[np.abs(ang2) > 1] / (au[np.abs(ang2) > 1] / BOHR2_TO_ANG2)
     assert np.median(ratio) == pytest.approx(0.52917725**2, rel=2e-8)
-
-
-def test_real_mutual_exclusion():
-    # C2h: IR-active modes are Raman-inactive (rule of mutual exclusion, common practice);
-    # IR intensities as printed, read by cclib (last 54 rows of the IR table).
-    data = cclib.io.ccread(str(qc_output(REAL)))
-    ir = np.asarray(data.vibirs)
-    activity = raman_table(real_modes()).activity
-    ir_active = ir > 1e-3 * ir.max()
-    assert ir_active.sum() >= 20
-    assert np.all(activity[ir_active] < 1e-6 * activity.max())
-
-
-def test_real_modes_in_the_frame_of_the_coordinates():
-    # the reoriented geometry printed just before the modes; a frame turned by 5° gives 0.06
-    assert rigid_overlap(real_modes()) < 1e-4
-
-
-def test_real_table_command(capsys):
-    assert main(["table", str(qc_output(REAL))]) == 0
-    text = capsys.readouterr().out
-    line = next(row for row in text.splitlines() if "1949.63" in row)
-    assert "573.3" in line and "0.4289" in line
-    assert "GAMESS-UK 8.0" in text
 
 
 def test_real_truncated_in_the_raman_rows(tmp_path):

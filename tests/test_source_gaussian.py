@@ -6,24 +6,24 @@ External references used here:
 - cclib 1.8.1, an independent parser of the same files (frequencies, activities, IR intensities);
 - the rule of mutual exclusion for centrosymmetric molecules (common practice);
 - the fixtures tests/fixtures/gaussian_hood_raman.{log,fchk}: invented spring/polarizability
-  models written in Gaussian's layouts by tests/fixtures/make_gaussian_fixtures.py, whose
-  reference values come from numpy and the textbook formulas, not from vibrapol.
+  models written in Gaussian's layouts by tests/fixtures/generators/make_gaussian_fixtures.py,
+  whose reference values come from numpy and the textbook formulas, not from vibrapol.
 """
 
 from __future__ import annotations
 
-import csv
 import importlib.util
-import io
 import warnings
 from contextlib import contextmanager
 from functools import cache
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 import pytest
 
-from conftest import FIXTURES, QC_OUTPUTS, qc_output
+from _paths import FIXTURES, QC_OUTPUTS, qc_output
+from _source_contract import cclib_data, table_rows
 from vibrapol import invariants as inv
 from vibrapol.cli import main
 from vibrapol.errors import InputFormatError, PrintedValueMismatch
@@ -57,19 +57,20 @@ def _strict():
 
 
 @cache
+def _read(read, parse, name: str):
+    """vibrapol's ModeSet of a real file (no warnings allowed) and the values it prints."""
+    path = QC_OUTPUTS / name
+    with _strict():
+        modes = read(path)
+    return modes, parse(path.read_text(), str(path)).printed
+
+
 def _log(name: str):
-    path = QC_OUTPUTS / name
-    with _strict():
-        modes = read_gaussian_log(path)
-    return modes, parse_gaussian_log(path.read_text(), str(path)).printed
+    return _read(read_gaussian_log, parse_gaussian_log, name)
 
 
-@cache
 def _fchk(name: str):
-    path = QC_OUTPUTS / name
-    with _strict():
-        modes = read_gaussian_fchk(path)
-    return modes, parse_gaussian_fchk(path.read_text(), str(path)).printed
+    return _read(read_gaussian_fchk, parse_gaussian_fchk, name)
 
 
 def _raman(modes):
@@ -77,19 +78,40 @@ def _raman(modes):
     return inv.activity(a2, g2), inv.rho_linear(a2, g2), inv.rho_natural(a2, g2)
 
 
-def _cclib(name: str):
-    import cclib
+def _assert_raman_as_printed(modes, printed, *, activity_atol, activity_rtol, rho_atol):
+    """Activities and both ratios of ``modes`` against printed ones (ρ with rtol 0).
 
-    return cclib.io.ccread(str(qc_output(name)))
+    ρ is compared where the printed activity carries it (≥ RHO_MIN_ACTIVITY); returns that mask.
+    """
+    activity, rho_p, rho_u = _raman(modes)
+    np.testing.assert_allclose(activity, printed.activity, atol=activity_atol, rtol=activity_rtol)
+    shown = printed.activity >= RHO_MIN_ACTIVITY
+    np.testing.assert_allclose(rho_p[shown], printed.rho_linear[shown], atol=rho_atol, rtol=0)
+    np.testing.assert_allclose(rho_u[shown], printed.rho_natural[shown], atol=rho_atol, rtol=0)
+    return shown
 
 
-def _generator():
+class _Reference(NamedTuple):
+    """The fixture generator's own values (numpy and textbook formulas, not vibrapol)."""
+
+    coordinates_ang: np.ndarray  # standard orientation
+    dalpha_dx_bohr2: np.ndarray
+    freqs_cm1: np.ndarray
+    modes: np.ndarray  # mass-weighted
+    raman: dict[str, np.ndarray]  # activity, rho_p, rho_u
+
+
+@cache
+def _reference() -> _Reference:
     spec = importlib.util.spec_from_file_location(
-        "make_gaussian_fixtures", FIXTURES / "make_gaussian_fixtures.py"
+        "make_gaussian_fixtures", FIXTURES / "generators" / "make_gaussian_fixtures.py"
     )
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
+    gen = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(gen)
+    std_bohr = gen.STD_ANG / gen.BOHR_ANG
+    dalpha_dx = gen.dalpha_dx(std_bohr)
+    freqs, modes = gen.normal_modes(gen.spring_hessian(std_bohr))
+    return _Reference(gen.STD_ANG, dalpha_dx, freqs, modes, gen.raman(modes, dalpha_dx))
 
 
 # ---------------------------------------------------------------- sniffing -----------------
@@ -139,7 +161,7 @@ def test_other_programs_outputs_are_not_taken_for_gaussian():
 def test_log_printed_values_agree_with_cclib(name):
     # our block readers against cclib 1.8.1's parser of the same file
     _, printed = _log(qc_output(name).name)
-    data = _cclib(name)
+    data = cclib_data(name)
     np.testing.assert_allclose(printed.freqs_cm1, data.vibfreqs, atol=1e-9)
     np.testing.assert_allclose(printed.activity, data.vibramans, atol=1e-9)
     assert printed.displacements.shape == (54, 60)
@@ -161,12 +183,10 @@ def test_log_activities_and_ratios_match_printed(name):
     # relative on the activity (worst seen 1.7e-4 Å⁴/amu at S = 503, i.e. 3.3e-7) and 5e-5 on
     # ρ (worst seen 5.02e-5 in all).
     modes, printed = _log(qc_output(name).name)
-    activity, rho_p, rho_u = _raman(modes)
-    np.testing.assert_allclose(activity, printed.activity, atol=5e-5, rtol=2e-6)
-    shown = printed.activity >= RHO_MIN_ACTIVITY
+    shown = _assert_raman_as_printed(
+        modes, printed, activity_atol=5e-5, activity_rtol=2e-6, rho_atol=1e-4
+    )
     assert shown.sum() == 27  # the 19 Ag + 8 Bg modes (irrep labels printed in the log)
-    np.testing.assert_allclose(rho_p[shown], printed.rho_linear[shown], atol=1e-4, rtol=0)
-    np.testing.assert_allclose(rho_u[shown], printed.rho_natural[shown], atol=1e-4, rtol=0)
 
 
 def test_log_polarizability_rotated_to_standard_orientation():
@@ -199,16 +219,12 @@ def test_g16_fchk_matches_its_own_vib_e2_block():
     # ours from the fchk Hessian and derivatives (9 digits).  Worst seen: 9.2e-6 cm⁻¹,
     # 8.9e-6 Å⁴/amu (6e-8 relative), 1.2e-8 in ρ.
     modes, printed = _fchk(qc_output(G16_FCHK).name)
-    data = _cclib(G16_FCHK)
+    data = cclib_data(G16_FCHK)
     np.testing.assert_allclose(
         printed.freqs_cm1, data.vibfreqs, atol=1e-6
     )  # cclib reads Vib-E2 too
     np.testing.assert_allclose(modes.freqs_cm1, printed.freqs_cm1, atol=1e-4, rtol=0)
-    activity, rho_p, rho_u = _raman(modes)
-    np.testing.assert_allclose(activity, printed.activity, atol=1e-6, rtol=1e-7)
-    shown = printed.activity >= RHO_MIN_ACTIVITY
-    np.testing.assert_allclose(rho_p[shown], printed.rho_linear[shown], atol=1e-6)
-    np.testing.assert_allclose(rho_u[shown], printed.rho_natural[shown], atol=1e-6)
+    _assert_raman_as_printed(modes, printed, activity_atol=1e-6, activity_rtol=1e-7, rho_atol=1e-6)
 
 
 def test_g16_fchk_reproduces_the_g16_log_printout():
@@ -217,11 +233,7 @@ def test_g16_fchk_reproduces_the_g16_log_printout():
     modes, _ = _fchk(qc_output(G16_FCHK).name)
     _, printed = _log(qc_output(G16_LOG).name)
     np.testing.assert_allclose(modes.freqs_cm1, printed.freqs_cm1, atol=5.1e-5, rtol=0)
-    activity, rho_p, rho_u = _raman(modes)
-    np.testing.assert_allclose(activity, printed.activity, atol=5.1e-5, rtol=0)
-    shown = printed.activity >= RHO_MIN_ACTIVITY
-    np.testing.assert_allclose(rho_p[shown], printed.rho_linear[shown], atol=5.1e-5)
-    np.testing.assert_allclose(rho_u[shown], printed.rho_natural[shown], atol=5.1e-5)
+    _assert_raman_as_printed(modes, printed, activity_atol=5.1e-5, activity_rtol=0, rho_atol=5.1e-5)
 
 
 def test_hessian_only_g09_fchk_matches_its_sibling_log():
@@ -235,11 +247,7 @@ def test_hessian_only_g09_fchk_matches_its_sibling_log():
     _, printed = _log(qc_output(G09_LOG).name)
     assert modes.energy_hartree == pytest.approx(-382.308266580, abs=1e-9)  # log: SCF Done line
     np.testing.assert_allclose(modes.freqs_cm1, printed.freqs_cm1, atol=1e-3, rtol=0)
-    activity, rho_p, rho_u = _raman(modes)
-    np.testing.assert_allclose(activity, printed.activity, atol=5e-5, rtol=2e-6)
-    shown = printed.activity >= RHO_MIN_ACTIVITY
-    np.testing.assert_allclose(rho_p[shown], printed.rho_linear[shown], atol=1e-4)
-    np.testing.assert_allclose(rho_u[shown], printed.rho_natural[shown], atol=1e-4)
+    _assert_raman_as_printed(modes, printed, activity_atol=5e-5, activity_rtol=2e-6, rho_atol=1e-4)
     assert "does not record the Gaussian version" in " ".join(modes.provenance.notes)
 
 
@@ -254,7 +262,7 @@ def test_mutual_exclusion_in_centrosymmetric_dvb(name, ir_source):
     # G09 fchk from its sibling log, whose modes are in the same order (frequencies checked).
     reader = read_gaussian_fchk if name.endswith(".fchk") else read_gaussian_log
     modes = reader(qc_output(name))
-    data = _cclib(ir_source)
+    data = cclib_data(ir_source)
     np.testing.assert_allclose(modes.freqs_cm1, data.vibfreqs, atol=1e-3)
     activity, _, _ = _raman(modes)
     ir_active = data.vibirs > 0.1
@@ -269,8 +277,7 @@ def test_table_command_on_real_files(name, capsys):
     path = qc_output(name)
     sibling = {G09_FCHK: G09_LOG, G16_FCHK: G16_LOG}.get(name, name)
     _, printed = _log(qc_output(sibling).name)
-    assert main(["table", str(path), "--format", "csv"]) == 0
-    rows = list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    rows = table_rows(capsys, str(path))
     assert len(rows) == 54
     freqs = np.array([float(r["frequency_cm1"]) for r in rows])
     activity = np.array([float(r["activity"]) for r in rows])
@@ -297,10 +304,7 @@ def test_table_command_on_real_files(name, capsys):
 
 
 def test_fixture_log_round_trip():
-    gen = _generator()
-    std_bohr = gen.STD_ANG / gen.BOHR_ANG
-    ref_freqs, ref_modes = gen.normal_modes(gen.spring_hessian(std_bohr))
-    ref = gen.raman(ref_modes, gen.dalpha_dx(std_bohr))
+    ref = _reference()
     with _strict():
         modes = read_modes(FIXTURE_LOG)
     prov = modes.provenance
@@ -314,34 +318,31 @@ def test_fixture_log_round_trip():
     np.testing.assert_allclose(
         modes.masses_da, [15.99491462, 15.99491462, 1.00782503, 2.01410], atol=1e-8
     )
-    np.testing.assert_allclose(modes.coordinates_ang, gen.STD_ANG, atol=1e-9)
+    np.testing.assert_allclose(modes.coordinates_ang, ref.coordinates_ang, atol=1e-9)
     # the D mass printed as 2.01410 (true 2.01410178) shifts the O–D stretch by ~1e-3 cm⁻¹
-    np.testing.assert_allclose(modes.freqs_cm1, ref_freqs, rtol=1e-6, atol=1e-4)
+    np.testing.assert_allclose(modes.freqs_cm1, ref.freqs_cm1, rtol=1e-6, atol=1e-4)
     # derivatives were written in the input orientation: vibrapol rotated them back, with a
     # rotation fitted to the 6-decimal orientation tables (≈1e-6 relative; archive 7 decimals)
     np.testing.assert_allclose(
-        modes.dalpha_dx / BOHR2_TO_ANG2, gen.dalpha_dx(std_bohr), atol=1e-5, rtol=0
+        modes.dalpha_dx / BOHR2_TO_ANG2, ref.dalpha_dx_bohr2, atol=1e-5, rtol=0
     )
     activity, rho_p, rho_u = _raman(modes)
-    np.testing.assert_allclose(activity, ref["activity"], rtol=1e-5)
-    np.testing.assert_allclose(rho_p, ref["rho_p"], atol=1e-6)
-    np.testing.assert_allclose(rho_u, ref["rho_u"], atol=1e-6)
-    overlap = np.abs(np.sum(modes.modes * ref_modes, axis=1))
+    np.testing.assert_allclose(activity, ref.raman["activity"], rtol=1e-5)
+    np.testing.assert_allclose(rho_p, ref.raman["rho_p"], atol=1e-6)
+    np.testing.assert_allclose(rho_u, ref.raman["rho_u"], atol=1e-6)
+    overlap = np.abs(np.sum(modes.modes * ref.modes, axis=1))
     np.testing.assert_allclose(overlap, 1.0, atol=1e-6)
 
 
 def test_fixture_fchk_round_trip_and_hessian_only_form(tmp_path):
-    gen = _generator()
-    std_bohr = gen.STD_ANG / gen.BOHR_ANG
-    ref_freqs, ref_modes = gen.normal_modes(gen.spring_hessian(std_bohr))
-    ref = gen.raman(ref_modes, gen.dalpha_dx(std_bohr))
+    ref = _reference()
     with _strict():
         modes = read_modes(FIXTURE_FCHK)
     assert modes.provenance.masses == "fchk field 'Vib-AtMass'"
-    np.testing.assert_allclose(modes.freqs_cm1, ref_freqs, rtol=1e-7)
+    np.testing.assert_allclose(modes.freqs_cm1, ref.freqs_cm1, rtol=1e-7)
     activity, rho_p, _rho_u = _raman(modes)
-    np.testing.assert_allclose(activity, ref["activity"], rtol=1e-6)
-    np.testing.assert_allclose(rho_p, ref["rho_p"], atol=1e-7)
+    np.testing.assert_allclose(activity, ref.raman["activity"], rtol=1e-6)
+    np.testing.assert_allclose(rho_p, ref.raman["rho_p"], atol=1e-7)
     assert modes.energy_hartree == pytest.approx(-151.2345678, abs=1e-9)
     # the Gaussian 09 form: no Vib-* fields, no version
     lines = FIXTURE_FCHK.read_text().splitlines()

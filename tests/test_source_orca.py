@@ -1,8 +1,9 @@
 """The ORCA reader: block parsers on fixtures of our own, and the real ORCA 5.0.0 / 6.0.1 outputs.
 
-Fixtures (tests/fixtures/orca5_co2.out, orca6_nh3_planar.out) have ORCA's layout; their
-frequencies and modes come from PySCF RHF/STO-3G Hessians of CO2 and of planar NH3 (a saddle
-point), their Raman activities, ratios, IR intensities and polarizabilities are invented.
+Fixtures (tests/fixtures/orca5_co2.out, orca6_nh3_planar.out, written by
+tests/fixtures/generators/make_orca_qchem_fixtures.py) have ORCA's layout; their frequencies and
+modes come from PySCF RHF/STO-3G Hessians of CO2 and of planar NH3 (a saddle point), their Raman
+activities, ratios, IR intensities and polarizabilities are invented.
 """
 
 from __future__ import annotations
@@ -10,7 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from conftest import FIXTURES, qc_output
+from _paths import FIXTURES, qc_output
+from _source_contract import BOHR3_ANG3, cclib_data, table_rows
 from vibrapol import invariants as inv
 from vibrapol.cli import main
 from vibrapol.errors import InputFormatError
@@ -28,7 +30,6 @@ from vibrapol.sources.orca import (
 from vibrapol.sources.registry import sniff_text
 from vibrapol.vibrations import rigid_body_vectors
 
-BOHR3_ANG3 = 0.148184711  # 1 bohr³ in Å³ (design.md; CODATA Bohr radius cubed)
 CO2 = FIXTURES / "orca5_co2.out"
 NH3 = FIXTURES / "orca6_nh3_planar.out"
 
@@ -198,13 +199,9 @@ def test_real_every_mode_as_printed(name):
 
 
 def test_real_orca5_agrees_with_cclib():
-    import logging
-
-    import cclib
-
     path = qc_output("ORCA5.0.0_dvb_raman.out")
     ms = read_orca(path)
-    data = cclib.io.ccread(str(path), loglevel=logging.CRITICAL)  # reference library
+    data = cclib_data(path.name)  # reference library
     np.testing.assert_array_equal(ms.freqs_cm1, data.vibfreqs)
     np.testing.assert_allclose(inv.activity(ms.a2, ms.gamma2), data.vibramans, atol=5e-7)
     _, ir = _printed(path)
@@ -254,12 +251,8 @@ def test_real_polarizability_and_provenance(name):
 
 @pytest.mark.parametrize("name", REAL)
 def test_real_cli_table(name, capsys):
-    import csv
-    import io
-
     path = qc_output(name)
-    assert main(["table", str(path), "--format", "csv", "--degeneracy-tol-cm1", "0"]) == 0
-    rows = list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    rows = table_rows(capsys, str(path), "--degeneracy-tol-cm1", "0")
     raman, _ = _printed(path)
     assert len(rows) == 54
     for row, k in zip(rows, range(6, 60), strict=True):

@@ -1,20 +1,18 @@
 """The Q-Chem reader: block parsers on a fixture of our own, and the real Q-Chem 5.4.1 output.
 
-The fixture (tests/fixtures/qchem54_co2.out) has Q-Chem's layout; its frequencies, modes,
+The fixture (tests/fixtures/qchem54_co2.out, written by
+tests/fixtures/generators/make_orca_qchem_fixtures.py) has Q-Chem's layout; its frequencies, modes,
 force constants and reduced masses come from a PySCF RHF/STO-3G Hessian of CO2, its Raman
 activities, ratios, IR intensities and polarizability are invented.
 """
 
 from __future__ import annotations
 
-import csv
-import io
-import logging
-
 import numpy as np
 import pytest
 
-from conftest import FIXTURES, qc_output
+from _paths import FIXTURES, qc_output
+from _source_contract import BOHR3_ANG3, cclib_data, table_rows
 from vibrapol import invariants as inv
 from vibrapol.cli import main
 from vibrapol.errors import InputFormatError
@@ -23,7 +21,6 @@ from vibrapol.sources import read_modes, sniff
 from vibrapol.sources.qchem import parse_qchem, read_qchem, sniff_qchem, vibration_blocks
 from vibrapol.vibrations import rigid_body_vectors
 
-BOHR3_ANG3 = 0.148184711  # 1 bohr³ in Å³ (design.md; CODATA Bohr radius cubed)
 CO2 = FIXTURES / "qchem54_co2.out"
 REAL = "QChem5.4.1_dvb_raman.out"
 
@@ -162,10 +159,8 @@ def test_real_every_mode_as_printed(real):
 
 
 def test_real_agrees_with_cclib(real):
-    import cclib
-
     path, ms, blocks = real
-    data = cclib.io.ccread(str(path), loglevel=logging.CRITICAL)  # reference library
+    data = cclib_data(path.name)  # reference library
     np.testing.assert_array_equal(ms.freqs_cm1, data.vibfreqs)
     np.testing.assert_allclose(inv.activity(ms.a2, ms.gamma2), data.vibramans, atol=1e-9)
     np.testing.assert_array_equal(blocks.ir_km_mol, data.vibirs)
@@ -210,8 +205,7 @@ def test_real_modes_and_polarizability(real):
 
 def test_real_cli_table(real, capsys):
     path, _, blocks = real
-    assert main(["table", str(path), "--format", "csv", "--degeneracy-tol-cm1", "0"]) == 0
-    rows = list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    rows = table_rows(capsys, str(path), "--degeneracy-tol-cm1", "0")
     assert len(rows) == 54
     for k, row in enumerate(rows):
         assert float(row["frequency_cm1"]) == blocks.freqs_cm1[k]

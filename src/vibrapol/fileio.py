@@ -42,6 +42,10 @@ def write_atomic(path: str | Path, data: str | bytes, force: bool = False) -> Pa
         prefix=f".{p.name}.", suffix=".tmp", dir=p.parent if str(p.parent) else "."
     )
     try:
+        # mkstemp creates the file with mode 0600; give it the mode a plain open() would.
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         with os.fdopen(
             fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": ""})
         ) as fh:

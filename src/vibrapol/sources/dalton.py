@@ -21,7 +21,6 @@ What the program prints, and what vibrapol does with it:
 
 from __future__ import annotations
 
-import io
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -31,7 +30,14 @@ import numpy as np
 from vibrapol import invariants as inv
 from vibrapol.errors import InputFormatError
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance, default_masses
-from vibrapol.sources._common import check_printed, floats
+from vibrapol.sources._common import (
+    check_printed,
+    check_printed_rho,
+    first_line_with,
+    floats,
+    last_line_with,
+    parse_with_cclib,
+)
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR2_TO_ANG2, BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
@@ -77,11 +83,6 @@ def sniff(head: str, tail: str) -> bool:
     )
 
 
-def _block_start(lines: list[str], marker: str) -> int | None:
-    hits = [i for i, line in enumerate(lines) if marker in line]
-    return hits[-1] if hits else None
-
-
 def read_frequencies(lines: list[str], where: str = "") -> np.ndarray:
     """Vibrational frequencies in printed order (highest first).
 
@@ -102,7 +103,7 @@ def read_frequencies(lines: list[str], where: str = "") -> np.ndarray:
     InputFormatError
         If the table is missing or empty (truncated output, or no vibrational analysis).
     """
-    start = _block_start(lines, "Vibrational Frequencies and IR Intensities")
+    start = last_line_with(lines, "Vibrational Frequencies and IR Intensities")
     if start is None:
         raise InputFormatError(
             f"{where}: no vibrational frequencies (truncated output, or no .VIBANA?)"
@@ -152,7 +153,7 @@ def read_normal_coordinates(
 
             H      x    ...
     """
-    start = _block_start(lines, "Normal Coordinates (bohrs*amu**(1/2))")
+    start = last_line_with(lines, "Normal Coordinates (bohrs*amu**(1/2))")
     if start is None:
         raise InputFormatError(f"{where}: no normal coordinates (truncated output?)")
     n_coords = 3 * n_atoms
@@ -206,10 +207,10 @@ def read_dalpha_dx(
                2      ...
                9      ...
     """
-    hits = [i for i, line in enumerate(lines) if "Polarizability tensor (alpha) gradient" in line]
-    if not hits:
+    # the first frequency, like the first Raman table
+    start = first_line_with(lines, "Polarizability tensor (alpha) gradient")
+    if start is None:
         return None
-    start = hits[0]  # the first frequency, like the first Raman table
     n_coords = 3 * n_atoms
     grad = np.full((9, n_coords), np.nan)
     columns: list[int] = []
@@ -245,11 +246,11 @@ def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
             1   3800.12    0.123456    1.234567   10.493628    3.703701    0.352941
             2   1650.34    0.000000    0.000000    0.000000    0.000000    0.512345
     """
-    hits = [i for i, line in enumerate(lines) if "Raman related properties for freq." in line]
-    if not hits:
+    start = first_line_with(lines, "Raman related properties for freq.")
+    if start is None:
         return None
     rows = []
-    for line in lines[hits[0] + 2 :]:
+    for line in lines[start + 2 :]:
         tokens = line.split()
         if not tokens or tokens[0] == "Mode":
             if rows:
@@ -261,27 +262,6 @@ def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
     if not rows:
         raise InputFormatError(f"{where}: the Raman table is empty (truncated output?)")
     return RamanRows(*np.array(rows).T)
-
-
-def _parse_with_cclib(path: Path, where: str):  # noqa: ANN202 (cclib's ccData has no stubs)
-    """Parse with cclib, its log kept in a buffer (not printed on the user's terminal)."""
-    import cclib
-
-    log = io.StringIO()
-    try:
-        data = cclib.parser.DALTON(str(path), logstream=log).parse()
-    except Exception as exc:  # cclib raises assorted errors on damaged files
-        raise InputFormatError(
-            f"{where}: cclib could not parse it ({type(exc).__name__}); is the output complete?"
-        ) from exc
-    if "end of logfile" in log.getvalue():
-        raise InputFormatError(
-            f"{where}: the file ends in the middle of a block (truncated output?)"
-        )
-    for attr in ("atomnos", "atomcoords"):
-        if not hasattr(data, attr):
-            raise InputFormatError(f"{where}: no {attr} found (truncated output?)")
-    return data
 
 
 def read_dalton(path: str | Path) -> ModeSet:
@@ -296,7 +276,9 @@ def read_dalton(path: str | Path) -> ModeSet:
     where = str(path)
     lines = read_text(path).splitlines()
     freqs = read_frequencies(lines, where)
-    data = _parse_with_cclib(Path(path), where)
+    data = parse_with_cclib(
+        "DALTON", Path(path), where, required=("atomnos", "atomcoords"), hint="truncated output?"
+    )
     z = np.asarray(data.atomnos, dtype=int)
     disps = read_normal_coordinates(lines, len(freqs), len(z), where)
     order = np.argsort(freqs, kind="stable")
@@ -373,10 +355,15 @@ def _check(modes: ModeSet, printed: RamanRows, order: np.ndarray, where: str) ->
     check_printed("a'^2 (Alpha**2)", a2, printed.a2[order], **tol)
     check_printed("gamma'^2 (Beta(a)**2)", gamma2, printed.gamma2[order], **tol)
     check_printed("Raman activity (Pol.Int. + Depol.Int.)", s, s_printed, **tol)
-    compare = s_printed >= RHO_MIN_ACTIVITY
-    rho = np.where(compare, inv.rho_linear(a2, gamma2), np.nan)
-    rho_printed = np.where(compare, printed.rho_linear[order], np.nan)
-    check_printed("depolarization ratio", rho, rho_printed, where=where, atol=RHO_ATOL)
+    check_printed_rho(
+        a2,
+        gamma2,
+        printed.rho_linear[order],
+        s_printed,
+        min_activity=RHO_MIN_ACTIVITY,
+        where=where,
+        atol=RHO_ATOL,
+    )
 
 
 register(Reader("dalton", "DALTON Raman output", sniff, read_dalton))

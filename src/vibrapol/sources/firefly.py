@@ -20,7 +20,6 @@ not the input cards: a ``$DFT`` group without ``DFTTYP`` in ``$CONTRL`` leaves t
 
 from __future__ import annotations
 
-import io
 import re
 from dataclasses import dataclass
 from pathlib import Path
@@ -30,7 +29,14 @@ import numpy as np
 from vibrapol import invariants as inv
 from vibrapol.errors import InputFormatError
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance, default_masses
-from vibrapol.sources._common import check_printed, find_line, floats
+from vibrapol.sources._common import (
+    check_printed,
+    check_printed_rho,
+    find_line,
+    floats,
+    last_line_with,
+    parse_with_cclib,
+)
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR2_TO_ANG2
 from vibrapol.vibrations import modes_from_displacements
@@ -117,14 +123,11 @@ def read_mode_table(lines: list[str], where: str = "") -> ModeTable:
     InputFormatError
         If the analysis, its rotation/translation line or the frequencies are missing.
     """
-    starts = [
-        i for i, line in enumerate(lines) if "NORMAL COORDINATE ANALYSIS IN THE HARMONIC" in line
-    ]
-    if not starts:
+    start = last_line_with(lines, "NORMAL COORDINATE ANALYSIS IN THE HARMONIC")
+    if start is None:
         raise InputFormatError(
             f"{where}: no normal coordinate analysis (truncated output, or not a frequency job?)"
         )
-    start = starts[-1]
     freqs: list[float] = []
     activities: list[float] = []
     rhos: list[float] = []
@@ -178,11 +181,11 @@ def read_dalpha_dx(lines: list[str], n_atoms: int, where: str = "") -> np.ndarra
                     D/DZ      0.0000     0.0000     0.0000     0.9876     0.0000     0.0000
          H          D/DX     ...
     """
-    starts = [i for i, line in enumerate(lines) if "ALPHA POLARIZABILITY DERIVATIVE TENSOR" in line]
-    if not starts:
+    start = last_line_with(lines, "ALPHA POLARIZABILITY DERIVATIVE TENSOR")
+    if start is None:
         return None
     rows: list[list[float]] = []
-    for line in lines[starts[-1] + 1 :]:
+    for line in lines[start + 1 :]:
         if len(rows) == 3 * n_atoms:
             break
         if re.search(r"D/D[XYZ]", line):
@@ -217,14 +220,12 @@ def read_polarizability(lines: list[str], where: str = "") -> np.ndarray | None:
                   Y         0.00000        2.34567
                   Z         0.00000        0.00000        3.45678
     """
-    starts = [
-        i for i, line in enumerate(lines) if "ALPHA POLARIZABILITY TENSOR (ANGSTROMS**3)" in line
-    ]
-    if not starts:
+    start = last_line_with(lines, "ALPHA POLARIZABILITY TENSOR (ANGSTROMS**3)")
+    if start is None:
         return None
     alpha = np.zeros((3, 3))
     row = 0
-    for line in lines[starts[-1] + 1 :]:
+    for line in lines[start + 1 :]:
         parts = line.split()
         if parts and parts[0] in ("X", "Y", "Z") and len(parts) == row + 2:
             alpha[row, : row + 1] = floats(" ".join(parts[1:]), where)
@@ -265,29 +266,6 @@ def read_method(lines: list[str]) -> str:
     return option("SCFTYP")
 
 
-def _parse_with_cclib(path: Path, where: str):  # noqa: ANN202 (cclib's ccData has no stubs)
-    """Parse with cclib, its log kept in a buffer (not printed on the user's terminal)."""
-    import cclib
-
-    log = io.StringIO()
-    try:
-        data = cclib.parser.GAMESS(str(path), logstream=log).parse()
-    except Exception as exc:  # cclib raises assorted errors on damaged files
-        raise InputFormatError(
-            f"{where}: cclib could not parse it ({type(exc).__name__}); is the output complete?"
-        ) from exc
-    if "end of logfile" in log.getvalue():
-        raise InputFormatError(
-            f"{where}: the file ends in the middle of a block (truncated output?)"
-        )
-    for attr in ("atomnos", "atomcoords", "vibfreqs", "vibdisps"):
-        if not hasattr(data, attr):
-            raise InputFormatError(
-                f"{where}: no {attr} found (truncated output, or not a frequency job?)"
-            )
-    return data
-
-
 def read_firefly(path: str | Path) -> ModeSet:
     """Read a Firefly Raman output into a :class:`~vibrapol.modeset.ModeSet`.
 
@@ -300,7 +278,13 @@ def read_firefly(path: str | Path) -> ModeSet:
     where = str(path)
     lines = read_text(path).splitlines()
     table = read_mode_table(lines, where)
-    data = _parse_with_cclib(Path(path), where)
+    data = parse_with_cclib(
+        "GAMESS",
+        Path(path),
+        where,
+        required=("atomnos", "atomcoords", "vibfreqs", "vibdisps"),
+        hint="truncated output, or not a frequency job?",
+    )
     z = np.asarray(data.atomnos, dtype=int)
     vib = table.vibrations
     if (
@@ -374,12 +358,12 @@ def _check(
         rtol=ACTIVITY_RTOL,
     )
     if printed_rho is not None:
-        compare = printed_activity >= RHO_MIN_ACTIVITY
-        rho = np.where(compare, inv.rho_linear(a2, gamma2), np.nan)
-        check_printed(
-            "depolarization ratio",
-            rho,
-            np.where(compare, printed_rho, np.nan),
+        check_printed_rho(
+            a2,
+            gamma2,
+            printed_rho,
+            printed_activity,
+            min_activity=RHO_MIN_ACTIVITY,
             where=where,
             atol=RHO_ATOL,
         )

@@ -34,7 +34,13 @@ from ase.data import atomic_numbers
 from vibrapol import invariants as inv
 from vibrapol.errors import InputFormatError
 from vibrapol.modeset import ModeSet, Provenance
-from vibrapol.sources._common import check_printed, find_line, floats
+from vibrapol.sources._common import (
+    check_printed,
+    check_printed_rho,
+    find_line,
+    floats,
+    last_line_with,
+)
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR2_TO_ANG2
 from vibrapol.vibrations import modes_from_displacements, rigid_body_vectors
@@ -95,12 +101,12 @@ def sniff(head: str, tail: str) -> bool:
 
 
 def _last_line(lines: list[str], marker: str, where: str, before: int | None = None) -> int:
-    hits = [i for i, line in enumerate(lines[:before]) if marker in line]
-    if not hits:
+    found = last_line_with(lines, marker, before)
+    if found is None:
         raise InputFormatError(
             f"{where}: block {marker!r} not found (truncated output, or not a RUNTYPE RAMAN job?)"
         )
-    return hits[-1]
+    return found
 
 
 def read_geometry(lines: list[str], where: str = "", before: int | None = None) -> Geometry:
@@ -252,8 +258,8 @@ def read_dalpha_dx_ang2(lines: list[str], n_atoms: int, where: str = "") -> np.n
           y    x      1       0.00000000      y    y      1       2.34567890      y    z      1 ...
           z    x      1 ...
     """
-    hits = [i for i, line in enumerate(lines) if "units of angstrom**2" in line]
-    return _component_table(lines, hits[-1], 3 * n_atoms, where) if hits else None
+    start = last_line_with(lines, "units of angstrom**2")
+    return None if start is None else _component_table(lines, start, 3 * n_atoms, where)
 
 
 def read_dalpha_dx_au(lines: list[str], n_atoms: int, where: str = "") -> np.ndarray | None:
@@ -288,11 +294,11 @@ def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
 
     1650.12       0.51234567        0.81234567       16.43183264        0.23166352
     """
-    hits = [i for i, line in enumerate(lines) if "*     raman data     *" in line]
-    if not hits:
+    start = last_line_with(lines, "*     raman data     *")
+    if start is None:
         return None
     rows = []
-    for line in lines[hits[-1] + 3 :]:
+    for line in lines[start + 3 :]:
         if line.strip().startswith("*"):
             break
         tokens = line.split()
@@ -396,12 +402,15 @@ def read_gamessuk(path: str | Path) -> ModeSet:
         dalpha_dx = dalpha_ang2
     elif dalpha_ang2 is not None:
         check_printed(
-            "polarizability derivative (angstrom^2 block vs the atomic-unit one)",
+            "polarizability derivative",
             dalpha_dx.ravel(),
             dalpha_ang2.ravel(),
             where=where,
             atol=DERIVATIVE_ATOL,
             rtol=DERIVATIVE_RTOL,
+            origin="of the atomic-unit block (converted with CODATA bohr)",
+            reference="the angstrom^2 block",
+            item="value",
         )
     a2 = gamma2 = None
     if dalpha_dx is not None:
@@ -446,10 +455,15 @@ def _check(modes: ModeSet, printed: RamanRows, vib: np.ndarray, where: str) -> N
     check_printed(
         "Raman activity", s, s_printed, where=where, atol=ACTIVITY_ATOL, rtol=ACTIVITY_RTOL
     )
-    compare = s_printed >= RHO_MIN_ACTIVITY
-    rho = np.where(compare, inv.rho_linear(a2, gamma2), np.nan)
-    rho_printed = np.where(compare, printed.rho_linear[vib], np.nan)
-    check_printed("depolarization ratio", rho, rho_printed, where=where, atol=RHO_ATOL)
+    check_printed_rho(
+        a2,
+        gamma2,
+        printed.rho_linear[vib],
+        s_printed,
+        min_activity=RHO_MIN_ACTIVITY,
+        where=where,
+        atol=RHO_ATOL,
+    )
 
 
 register(Reader("gamess-uk", "GAMESS-UK Raman output", sniff, read_gamessuk))

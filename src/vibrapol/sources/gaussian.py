@@ -23,7 +23,9 @@ from __future__ import annotations
 
 import dataclasses
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 
@@ -31,6 +33,7 @@ from vibrapol import invariants as inv
 from vibrapol.errors import InputFormatError
 from vibrapol.modeset import ModeSet, Provenance, default_masses
 from vibrapol.sources._common import check_printed
+from vibrapol.sources.registry import read_text
 from vibrapol.units import BOHR2_TO_ANG2, BOHR3_TO_ANG3, hessian_eigenvalue_to_cm1
 from vibrapol.vibrations import HarmonicModes, harmonic_analysis, modes_from_displacements
 
@@ -223,8 +226,14 @@ def _check_frequencies(
         check_printed("frequencies (cm⁻¹)", freqs, printed, where=where, atol=0.0)
         return
     tol = frequency_tolerance_cm1(printed, result.reduced_masses_da, precision)
-    # check_printed broadcasts atol, so a per-mode tolerance is allowed here
-    check_printed("frequency (cm⁻¹)", freqs, printed, where=where, atol=tol)  # type: ignore[arg-type]
+    check_printed(
+        "frequency (cm⁻¹)",
+        freqs,
+        printed,
+        where=where,
+        atol=tol,  # one tolerance per mode
+        origin="from vibrapol's harmonic analysis of the Hessian",
+    )
 
 
 def _check_modes(
@@ -240,11 +249,13 @@ def _check_modes(
         same_set[np.ix_(members, members)] = True
     projection = np.sqrt(np.sum(np.where(same_set, overlap, 0.0) ** 2, axis=0))
     check_printed(
-        "overlap of the normal mode with the printed displacements",
+        "overlap of the normal mode from the Hessian with the printed displacements",
         projection,
         np.ones_like(projection),
         where=where,
         atol=1.0 - MODE_OVERLAP_MIN,
+        origin="",
+        reference="1 (the same mode)",
     )
 
 
@@ -260,7 +271,9 @@ def _check_raman(
     ):
         return
     sets = inv.degenerate_sets(freqs)
-    label = "" if all(len(s) == 1 for s in sets) else " (per set of modes within 1 cm⁻¹)"
+    per_mode = all(len(s) == 1 for s in sets)
+    label = "" if per_mode else " (per set of modes within 1 cm⁻¹)"
+    item = "mode" if per_mode else "degenerate set"
     set_a2, set_g2 = inv.sum_over_sets(a2, sets), inv.sum_over_sets(gamma2, sets)
     set_s = inv.activity(set_a2, set_g2)
     printed_s = inv.sum_over_sets(printed.activity, sets)
@@ -271,6 +284,7 @@ def _check_raman(
         where=where,
         atol=prec.activity_atol,
         rtol=prec.activity_rtol,
+        item=item,
     )
     if printed.rho_linear is None:
         return
@@ -287,7 +301,9 @@ def _check_raman(
     for quantity, ratio, printed_ratio in pairs:
         computed = np.where(meaningful, ratio(set_a2, set_g2), np.nan)
         expected = np.where(singles, printed_ratio[first], ratio(p_a2, p_g2))
-        check_printed(quantity + label, computed, expected, where=where, atol=prec.rho_atol)
+        check_printed(
+            quantity + label, computed, expected, where=where, atol=prec.rho_atol, item=item
+        )
 
 
 def build_modeset(job: GaussianJob, where: str) -> ModeSet:
@@ -353,13 +369,20 @@ def build_modeset(job: GaussianJob, where: str) -> ModeSet:
     a2, gamma2 = inv.invariants_from_activity(printed.activity, printed.rho_linear)
     if printed.rho_natural is not None:
         check_printed(
-            "unpolarized ratio from the plane-polarized one, 2ρ/(1+ρ)",
+            "depolarization ratio, unpolarized",
             inv.rho_natural_from_linear(printed.rho_linear),
             printed.rho_natural,
             where=where,
             atol=2 * job.precision.rho_atol,
+            origin="computed from the printed plane-polarized one, 2ρ/(1+ρ),",
         )
     note = (
         "no polarizability derivatives: a², γ² from the printed activity and plane-polarized ratio"
     )
     return dataclasses.replace(modeset, a2=a2, gamma2=gamma2, provenance=prov.with_note(note))
+
+
+def read_job(parse: Callable[[str, str], GaussianJob], path: str | Path) -> ModeSet:
+    """The checked :class:`ModeSet` of the file at ``path``, read with ``parse(text, where)``."""
+    where = str(path)
+    return build_modeset(parse(read_text(path), where), where)

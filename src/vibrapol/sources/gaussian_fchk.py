@@ -28,12 +28,12 @@ from vibrapol.sources.gaussian import (
     GaussianJob,
     PrintedModes,
     PrintPrecision,
-    build_modeset,
     program_version,
+    read_job,
     square_from_lower_triangle,
     tensors_from_lower_triangle,
 )
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader, register
 from vibrapol.units import BOHR_ANG
 
 #: Rows of ``Vib-E2`` that vibrapol compares (0-based; each row holds one value per mode).
@@ -236,8 +236,7 @@ def parse_gaussian_fchk(text: str, where: str = "Gaussian fchk") -> GaussianJob:
 
 def read_gaussian_fchk(path: str | Path) -> ModeSet:
     """Read a Gaussian formatted checkpoint of a frequency job into a ModeSet."""
-    where = str(path)
-    return build_modeset(parse_gaussian_fchk(read_text(path), where), where)
+    return read_job(parse_gaussian_fchk, path)
 
 
 register(

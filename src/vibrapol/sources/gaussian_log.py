@@ -37,15 +37,15 @@ from vibrapol.sources.gaussian import (
     GaussianJob,
     PrintedModes,
     PrintPrecision,
-    build_modeset,
     frame_rotation,
     program_version,
+    read_job,
     rotate_dalpha_dx,
     rotate_hessian,
     square_from_lower_triangle,
     tensors_from_lower_triangle,
 )
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader, register
 
 #: Log precision: Hessian 8 decimals; frequencies, activities and ratios 4 decimals.  The
 #: activity and ratio tolerances add, to half a printed unit, an allowance for the rounding of
@@ -348,8 +348,7 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
 
 def read_gaussian_log(path: str | Path) -> ModeSet:
     """Read a Gaussian log of a frequency job into a :class:`~vibrapol.modeset.ModeSet`."""
-    where = str(path)
-    return build_modeset(parse_gaussian_log(read_text(path), where), where)
+    return read_job(parse_gaussian_log, path)
 
 
 register(

@@ -17,7 +17,7 @@ frequency jobs with ``%elprop polar 1``):
 * ``RAMAN SPECTRUM``: per vibration the Raman activity (Å⁴/amu) and one depolarization ratio,
   for plane-polarized incident light.  For modes whose activity is printed as zero the ratio is
   meaningless and ignored.  a² and γ² are recovered with
-  :func:`vibrapol.invariants.invariants_from_activity`.
+  :func:`vibrapol.sources._common.invariants_from_printed`.
 * ``The first frequency considered to be a vibration is K`` / ``The total number of vibrations
   considered is M``: which of the 3N modes are vibrations (K = 6, or 5 for a linear molecule).
 * The static polarizability (``THE POLARIZABILITY TENSOR`` in 5.x, ``STATIC POLARIZABILITY
@@ -37,12 +37,15 @@ import re
 from pathlib import Path
 
 import numpy as np
-from ase.data import atomic_numbers
 
 from vibrapol.errors import InputFormatError
-from vibrapol.invariants import invariants_from_activity
 from vibrapol.modeset import ModeSet, Provenance, default_masses
-from vibrapol.sources._common import floats
+from vibrapol.sources._common import (
+    atomic_numbers_from_symbols,
+    floats,
+    invariants_from_printed,
+    truncated_error,
+)
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
@@ -69,10 +72,7 @@ def find_titles(lines: list[str], title: str, stop: int | None = None) -> list[i
 
 
 def _truncated(where: str, block: str, line: int) -> InputFormatError:
-    return InputFormatError(
-        f"{where}: ORCA {block} block ends early at line {line + 1}; the file looks truncated "
-        "or edited (use the complete output of the frequency job)"
-    )
+    return truncated_error(where, f"ORCA {block} block ends early at line {line + 1}")
 
 
 def coordinates_block(lines: list[str], title: int, where: str) -> tuple[list[str], np.ndarray]:
@@ -355,12 +355,7 @@ def _geometry(
             f"{where}: no CARTESIAN COORDINATES (ANGSTROEM) block before the frequencies"
         )
     symbols, coords = coordinates_block(lines, coord_title, where)
-    try:
-        z = np.array([atomic_numbers[re.sub(r"[^A-Za-z]", "", s).capitalize()] for s in symbols])
-    except KeyError as exc:
-        raise InputFormatError(
-            f"{where}: unknown element symbol {exc.args[0]!r} in the coordinates"
-        ) from exc
+    z = atomic_numbers_from_symbols(symbols, where)
     mass_title = _last_before(find_titles(lines, "CARTESIAN COORDINATES (A.U.)"), ftitle)
     if mass_title is None:
         return z, coords, None, ""
@@ -387,10 +382,7 @@ def _raman_invariants(
         raise InputFormatError(
             f"{where}: RAMAN SPECTRUM frequencies differ from VIBRATIONAL FREQUENCIES"
         )
-    activity = table[:, 1]
-    # ORCA prints a ratio even where the activity is zero; it means nothing there.
-    rho = np.where(activity > 0.0, table[:, 2], np.nan)
-    a2, gamma2 = invariants_from_activity(activity, rho)
+    a2, gamma2 = invariants_from_printed(table[:, 1], table[:, 2])
     return (
         a2,
         gamma2,

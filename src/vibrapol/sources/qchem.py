@@ -13,7 +13,7 @@ job, ``jobtype = freq`` with ``doraman = true``):
   Cartesian displacements (3 decimals) normalised to unit length (Σ d² = 1; checked: the
   printed reduced masses follow from them as Σ m d²).  Modes are converted with
   :func:`vibrapol.vibrations.modes_from_displacements`; a² and γ² are recovered with
-  :func:`vibrapol.invariants.invariants_from_activity`.
+  :func:`vibrapol.sources._common.invariants_from_printed`.
 * ``Atom  k Element X Has Mass  m``: the masses used (Da, 5 decimals) in the thermochemistry
   section; when absent the ModeSet default masses are used (Q-Chem's default is also the most
   abundant isotope).
@@ -33,12 +33,15 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-from ase.data import atomic_numbers
 
 from vibrapol.errors import InputFormatError
-from vibrapol.invariants import invariants_from_activity
 from vibrapol.modeset import ModeSet, Provenance, default_masses
-from vibrapol.sources._common import floats
+from vibrapol.sources._common import (
+    atomic_numbers_from_symbols,
+    floats,
+    invariants_from_printed,
+    truncated_error,
+)
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
@@ -75,10 +78,7 @@ class QChemVibrations:
 
 
 def _error(where: str, line: int, what: str) -> InputFormatError:
-    return InputFormatError(
-        f"{where}: line {line + 1}: {what}; the Q-Chem output looks truncated or edited "
-        "(use the complete output of the frequency job)"
-    )
+    return truncated_error(where, f"line {line + 1}: {what}", subject="the Q-Chem output")
 
 
 def orientation_block(lines: list[str], title: int, where: str) -> tuple[list[str], np.ndarray]:
@@ -272,12 +272,7 @@ def parse_qchem(text: str, where: str = "Q-Chem output") -> ModeSet:
             f"{where}: no '{_ORIENTATION}' table before the vibrational analysis"
         )
     symbols, coords = orientation_block(lines, orient[-1], where)
-    try:
-        z = np.array([atomic_numbers[re.sub(r"[^A-Za-z]", "", s).capitalize()] for s in symbols])
-    except KeyError as exc:
-        raise InputFormatError(
-            f"{where}: unknown element symbol {exc.args[0]!r} in the coordinates"
-        ) from exc
+    z = atomic_numbers_from_symbols(symbols, where)
     vib = vibration_blocks(lines, vtitle, len(symbols), where)
     notes = [f"{len(vib.freqs_cm1)} vibrations printed by Q-Chem (rigid-body modes not printed)"]
     masses = masses_block(lines, vtitle, len(symbols))
@@ -288,8 +283,7 @@ def parse_qchem(text: str, where: str = "Q-Chem output") -> ModeSet:
 
     a2 = gamma2 = None
     if vib.activity is not None and vib.rho_linear is not None:
-        rho = np.where(vib.activity > 0.0, vib.rho_linear, np.nan)
-        a2, gamma2 = invariants_from_activity(vib.activity, rho)
+        a2, gamma2 = invariants_from_printed(vib.activity, vib.rho_linear)
         notes.append("a2, gamma2 from the printed activity ('Raman Intens') and 'Depolar' ratio")
     else:
         notes.append("no Raman rows in the vibrational analysis: frequencies and modes only")

@@ -1,0 +1,1 @@
+"""Measured Raman spectra: reading, cleaning, band fitting and depolarization ratios."""

@@ -80,12 +80,17 @@ def _find_delimiter(rows: list[tuple[int, str]], where: str) -> str | None:
         if common < 2:
             continue
         if all(c == common for c in counts):
-            odd = [(n, f) for (n, _), fs in zip(rows, split) for f in fs if not _is_numberish(f)]
+            odd = [
+                (n, f)
+                for (n, _), fs in zip(rows, split, strict=True)
+                for f in fs
+                if not _is_numberish(f)
+            ]
             if not odd:
                 return delim
             bad_field = bad_field or odd[0]
         elif best is None or counts.count(common) > best[0]:
-            line = next(n for (n, _), c in zip(rows, counts) if c != common)
+            line = next(n for (n, _), c in zip(rows, counts, strict=True) if c != common)
             best = (counts.count(common), delim, line, common)
     if bad_field is not None:
         number, field = bad_field
@@ -133,7 +138,7 @@ def _find_decimal(
 def read_delimited(
     text: str, where: str = "", *, delimiter: str | None = "auto", decimal: str = "auto"
 ) -> DelimitedTable:
-    """Parse delimited text into a :class:`DelimitedTable`.
+    r"""Parse delimited text into a :class:`DelimitedTable`.
 
     Parameters
     ----------
@@ -141,7 +146,7 @@ def read_delimited(
         File content.
     where : str
         File name for messages.
-    delimiter : {"auto", "\\t", ";", ",", " ", None}
+    delimiter : {"auto", "\t", ";", ",", " ", None}
         Column delimiter; ``None`` or ``" "`` means runs of whitespace.
     decimal : {"auto", ".", ","}
         Decimal mark.

@@ -269,6 +269,8 @@ def read_pair(
 
 def _rename(spectrum: MeasuredSpectrum, channel: str) -> MeasuredSpectrum:
     label = spectrum.label
+    if label.startswith("column "):
+        label = ""
     if label and label.strip().upper() != channel:
         label = f"{channel} ({label.strip()})"
     return dataclasses.replace(spectrum, label=label or channel)

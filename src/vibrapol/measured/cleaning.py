@@ -163,15 +163,14 @@ def estimate_baseline(
     """
     x = np.asarray(shift_cm1, dtype=float)
     fitter = Baseline(x_data=x, assume_sorted=True)
+    known = sorted(m for m, _ in inspect.getmembers(Baseline, inspect.isfunction) if m[0] != "_")
     name = method.lower()
-    func = getattr(fitter, name, None) if not name.startswith("_") else None
-    if func is None or not callable(func):
-        known = sorted(
-            m for m in dir(fitter) if not m.startswith("_") and callable(getattr(fitter, m))
-        )
+    if name not in known:
         raise VibrapolError(
-            f"unknown baseline method {method!r}; pybaselines offers {', '.join(known)}"
+            f"unknown baseline method {method!r}; use a pybaselines.Baseline method such as "
+            "arpls, asls, airpls, imodpoly or snip"
         )
+    func = getattr(fitter, name)
     used = dict(options or {})
     if "lam" in inspect.signature(func).parameters and "lam" not in used:
         used["lam"] = whittaker_lam(float(np.median(np.diff(x))))

@@ -243,3 +243,8 @@ def test_several_columns_need_a_choice():
         read_pair(text(body))
     with pytest.raises(VibrapolError, match="no column or block named 'd'"):
         read_spectrum(text(body), column="d")
+
+
+def test_header_starting_with_a_digit_is_a_header():
+    s = read_spectrum(text("532 nm laser, 10 s\n" + five("{x} {y}\n")))
+    np.testing.assert_array_equal(s.intensity, [10, 11, 12, 13, 14])

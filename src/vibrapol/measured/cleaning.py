@@ -220,6 +220,12 @@ def noise_sigma(intensity: np.ndarray) -> float:
     return float(1.4826 * np.median(np.abs(d2 - np.median(d2))) / np.sqrt(6.0))
 
 
+def _read_only(values: np.ndarray) -> np.ndarray:
+    out = np.array(values, dtype=float, copy=True)
+    out.setflags(write=False)
+    return out
+
+
 @dataclass(frozen=True, eq=False)
 class CleaningReport:
     """What :func:`clean` did to one spectrum.
@@ -324,7 +330,7 @@ def clean(
         spike_threshold=spike_threshold if spikes else None,
         baseline_method=baseline,
         baseline_options=tuple(used.items()),
-        baseline=None if base is None else np.array(base),
+        baseline=None if base is None else _read_only(base),
         smoothing_window_points=window,
         noise_sigma=noise_sigma(y),
         steps=tuple(steps) or ("nothing changed (all steps off)",),

@@ -65,9 +65,8 @@ def _is_numberish(field: str) -> bool:
 
 
 def _looks_like_data(line: str) -> bool:
-    return any(_is_numberish(f) for f in re.split(r"[\s;,]+", line.strip()) if f) and bool(
-        re.match(r"^\s*[+\-.,\d]|^\s*[+-]?(nan|inf)", line, re.IGNORECASE)
-    )
+    fields = [f for f in re.split(r"[\s;,]+", line.strip()) if f]
+    return bool(fields) and all(_is_numberish(f) for f in fields)
 
 
 def _find_delimiter(rows: list[tuple[int, str]], where: str) -> str | None:

@@ -155,6 +155,8 @@ def _starts(
         if not starts:
             raise VibrapolError(f"{spectrum.where}: no bands found to fit (try a lower min_snr)")
     items = list(starts)
+    if not items:
+        raise VibrapolError(f"{spectrum.where}: no starting bands given")
     if items and isinstance(items[0], BandCandidate):
         pos = np.array([c.position_cm1 for c in items])  # type: ignore[union-attr]
         fwhm = np.array([c.fwhm_cm1 for c in items])  # type: ignore[union-attr]
@@ -443,6 +445,7 @@ def _fit_once(
             for j in range(n_b)
         ]
     )
+    area_cov.setflags(write=False)
     return JointResult(tuple(fits), area_cov), problems
 
 

@@ -233,7 +233,8 @@ def fit_joint(
     local_baseline : {"linear", "constant", "none"}
         Local baseline per window and channel.
     position_freedom_cm1 : float, optional
-        How far a centre may move from its start; default its starting FWHM.
+        How far a centre may move from its start; default its starting FWHM (at least two
+        points).
     min_area_snr : float or None
         After a fit, the band of the first channel with the smallest area/standard error is
         dropped when that ratio is below this, and the rest refitted, until all pass (spurious
@@ -321,10 +322,9 @@ def _fit_once(
         raise VibrapolError(f"{spectra[0].where}: {m} points cannot fix {n_p} parameters")
 
     local = np.interp(pos0, x[1:], np.diff(x))
-    free = position_freedom_cm1 if position_freedom_cm1 is not None else None
     p0, lo_b, hi_b = np.zeros(n_p), np.full(n_p, -np.inf), np.full(n_p, np.inf)
     for j in range(n_b):
-        d = free if free is not None else max(w0[j], 2 * local[j])
+        d = position_freedom_cm1 or max(w0[j], 2 * local[j])
         p0[i_pos[j]], lo_b[i_pos[j]], hi_b[i_pos[j]] = pos0[j], pos0[j] - d, pos0[j] + d
         wlo, whi = 0.5 * local[j], max(10 * w0[j], 20 * local[j])
         p0[i_w[j]], lo_b[i_w[j]], hi_b[i_w[j]] = np.clip(w0[j], wlo, whi), wlo, whi

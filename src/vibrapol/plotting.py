@@ -1,0 +1,390 @@
+"""Figures for papers: polarized spectra, depolarization ratios and polar sweeps.
+
+Built with matplotlib's object API only (``matplotlib.figure.Figure`` with an Agg canvas; no
+pyplot, no global state), so they render headless.  Every function returns the ``Figure`` for
+further editing in Python; :func:`save_figure` writes SVG, PDF (vector, text kept as text) or
+300 dpi PNG atomically.  No numeric module imports this one.
+
+Sizes follow common journal practice: single column ≈ 3.3 in, double column ≈ 7 in wide, text
+7–8 pt at print size.  Colours are from the Okabe–Ito palette (M. Okabe and K. Ito, *Color
+Universal Design*, 2008), distinguishable with the common forms of colour blindness; VV and VH
+also differ in line style so the figure reads in grey scale.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from collections.abc import Sequence
+from pathlib import Path
+
+import numpy as np
+from matplotlib import rc_context
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from matplotlib.ticker import AutoMinorLocator
+
+from vibrapol.errors import VibrapolError
+from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.spectrum import GridSpectrum, StickSpectrum
+from vibrapol.sweep import PolarSweep
+
+#: Figure widths in inches.
+WIDTHS_IN = {"single": 3.3, "double": 7.0}
+
+#: Colour of each channel (Okabe–Ito).
+PALETTE = {
+    "vv": "#0072B2",  # blue
+    "vh": "#D55E00",  # vermillion
+    "nv": "#009E73",  # bluish green
+    "nh": "#CC79A7",  # reddish purple
+    "vu": "#000000",
+    "nu": "#56B4E9",  # sky blue
+    "hv": "#E69F00",  # orange
+    "hh": "#6B4C9A",
+}
+_OTHER_COLOURS = ("#E69F00", "#56B4E9", "#009E73", "#CC79A7", "#000000")
+_DASHES = {"vv": "-", "vh": (0, (4, 1.5)), "nv": "-", "nh": (0, (4, 1.5))}
+
+#: Display names of the channels.
+CHANNEL_NAMES = {
+    "vv": "VV (parallel)",
+    "vh": "VH (crossed)",
+    "hv": "HV",
+    "hh": "HH",
+    "vu": "V, no analyzer",
+    "hu": "H, no analyzer",
+    "nv": "natural light, V",
+    "nh": "natural light, H",
+    "nu": "natural light, no analyzer",
+}
+
+#: Matplotlib settings used while a figure is built and saved.
+STYLE = {
+    "font.family": "DejaVu Sans",
+    "font.size": 8.0,
+    "axes.labelsize": 8.0,
+    "axes.linewidth": 0.6,
+    "xtick.labelsize": 7.0,
+    "ytick.labelsize": 7.0,
+    "xtick.major.width": 0.6,
+    "ytick.major.width": 0.6,
+    "xtick.minor.width": 0.4,
+    "ytick.minor.width": 0.4,
+    "xtick.major.size": 3.0,
+    "ytick.major.size": 3.0,
+    "xtick.minor.size": 1.6,
+    "ytick.minor.size": 1.6,
+    "xtick.direction": "out",
+    "ytick.direction": "out",
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "legend.fontsize": 7.0,
+    "legend.frameon": False,
+    "lines.linewidth": 1.0,
+    "mathtext.default": "regular",
+    "svg.fonttype": "none",
+    "svg.hashsalt": "vibrapol",
+    "pdf.fonttype": 42,
+}
+
+#: Size of band labels in points.
+LABEL_PT = 6.5
+
+SHIFT_LABEL = "Raman shift (cm$^{-1}$)"
+
+
+def _width(width: str | float) -> float:
+    if isinstance(width, str):
+        if width not in WIDTHS_IN:
+            raise VibrapolError(f"figure width must be single, double or inches, got {width!r}")
+        return WIDTHS_IN[width]
+    return float(width)
+
+
+def _new_figure(width_in: float, height_in: float) -> Figure:
+    fig = Figure(figsize=(width_in, height_in), layout="constrained")
+    FigureCanvasAgg(fig)
+    fig.get_layout_engine().set(w_pad=0.02, h_pad=0.02, hspace=0.02, wspace=0.02)
+    return fig
+
+
+def format_irrep(label: str) -> str:
+    """Irrep label with subscripts for mathtext: ``A1g`` → ``A$_{1g}$``, ``E'`` stays ``E'``."""
+    if not label:
+        return ""
+    parts = []
+    for one in label.split("/"):
+        head, tail = one[:1], one[1:]
+        primes = tail[len(tail.rstrip("'\"")) :]
+        sub = tail.rstrip("'\"")
+        parts.append(f"{head}$_{{{sub}}}${primes}" if sub else f"{head}{primes}")
+    return "/".join(parts)
+
+
+def _colour(channel: str, k: int) -> str:
+    return PALETTE.get(channel, _OTHER_COLOURS[k % len(_OTHER_COLOURS)])
+
+
+def _band_label(sticks: StickSpectrum, i: int, show_rho: bool) -> str:
+    text = f"{sticks.positions_cm1[i]:.0f}"
+    if sticks.irreps[i]:
+        text += f" {format_irrep(sticks.irreps[i])}"
+    rho = sticks.rho_linear[i]
+    if show_rho and sticks.polarized[i] and math.isfinite(rho):
+        text += f" (ρ {rho:.2f})"
+    return text
+
+
+def _pick_labels(sticks: StickSpectrum, channel: str, count: int, xlim: tuple[float, float], min_sep: float) -> list[int]:
+    inside = (sticks.positions_cm1 >= xlim[0]) & (sticks.positions_cm1 <= xlim[1])
+    heights = np.where(inside, sticks.channel(channel), -np.inf)
+    chosen: list[int] = []
+    for i in np.argsort(-heights, kind="stable"):
+        if len(chosen) >= count or not np.isfinite(heights[i]) or heights[i] <= 0:
+            break
+        if all(abs(sticks.positions_cm1[i] - sticks.positions_cm1[j]) >= min_sep for j in chosen):
+            chosen.append(int(i))
+    return chosen
+
+
+def _y_label(grid: GridSpectrum, normalize: bool) -> tuple[str, float]:
+    quantity = grid.sticks.conditions.quantity
+    if normalize:
+        name = {"activity": "Raman activity", "intensity": "Raman intensity", "cross-section": "Raman intensity"}
+        return f"{name[quantity]} (normalized)", 1.0
+    peak = float(np.max(np.abs(grid.values))) or 1.0
+    exp = int(math.floor(math.log10(peak)))
+    unit = {
+        "activity": "Å$^4$ amu$^{-1}$ cm",
+        "intensity": "Å$^4$ amu$^{-1}$ cm, relative",
+        "cross-section": "cm$^2$ sr$^{-1}$ / cm$^{-1}$",
+    }[quantity]
+    if quantity == "cross-section":
+        return f"d$\\sigma$/d$\\Omega$ (10$^{{{exp}}}$ {unit})", 10.0**exp
+    return f"Raman {quantity} density ({unit})", 1.0
+
+
+def spectrum_figure(
+    grid: GridSpectrum,
+    *,
+    channels: Sequence[str] = ("vv", "vh"),
+    layout: str = "shared",
+    width: str | float = "single",
+    height_in: float | None = None,
+    sticks: bool = True,
+    label_count: int = 6,
+    label_channel: str = "vv",
+    show_rho: bool = True,
+    normalize: bool = True,
+    xlim_cm1: tuple[float, float] | None = None,
+    title: str | None = None,
+) -> Figure:
+    """Polarized spectra (VV and VH by default) with sticks and labels of the strongest bands.
+
+    Parameters
+    ----------
+    grid : GridSpectrum
+    channels : sequence of str
+        Channels to draw, in order (all must be in the grid).
+    layout : ``"shared"`` (one axes) or ``"stacked"`` (one panel per channel, shared x and y).
+    width : ``"single"``, ``"double"`` or a width in inches.
+    height_in : float, optional
+        Default: 2.4 in (shared) or 1.5 in per panel (stacked).
+    sticks : bool
+        Draw the sticks under the envelope (scaled so the tallest stick meets the tallest peak).
+    label_count : int
+        Number of bands labelled with wavenumber, irrep and, for polarized bands, ρ.
+    label_channel : str
+        Channel whose strongest bands are labelled.
+    normalize : bool
+        Scale so the largest value of the first channel is 1.
+    xlim_cm1 : (float, float), optional
+        Shown range (default: the grid range).
+    title : str, optional
+    """
+    if layout not in ("shared", "stacked"):
+        raise VibrapolError(f"layout must be shared or stacked, got {layout!r}")
+    chans = [c.lower() for c in channels]
+    data = {c: grid.channel(c) for c in chans}
+    x = grid.shift_cm1
+    xlim = xlim_cm1 or (float(x[0]), float(x[-1]))
+    shown = (x >= xlim[0]) & (x <= xlim[1])
+    ylabel, unit_scale = _y_label(grid, normalize)
+    norm = float(np.max(data[chans[0]][shown])) if normalize else unit_scale
+    norm = norm or 1.0
+    stick_scale = 0.0
+    if sticks:
+        st = np.concatenate([grid.sticks.channel(c) for c in chans])
+        env = max(float(np.max(v[shown])) for v in data.values())
+        stick_scale = env / float(np.max(st)) if np.max(st) > 0 else 0.0
+    n_panels = 1 if layout == "shared" else len(chans)
+    w = _width(width)
+    h = height_in or (2.4 if layout == "shared" else 0.2 + 1.35 * n_panels)
+    with rc_context(STYLE):
+        fig = _new_figure(w, h)
+        axes = fig.subplots(n_panels, 1, sharex=True, sharey=True, squeeze=False)[:, 0]
+        for k, c in enumerate(chans):
+            ax = axes[0 if layout == "shared" else k]
+            colour = _colour(c, k)
+            if sticks and stick_scale > 0:
+                pos = grid.sticks.positions_cm1
+                hts = grid.sticks.channel(c) * stick_scale / norm
+                ok = (pos >= xlim[0]) & (pos <= xlim[1]) & (hts > 0)
+                ax.vlines(pos[ok], 0.0, hts[ok], colors=colour, linewidths=0.5, alpha=0.45, zorder=1)
+            ax.plot(x, data[c] / norm, color=colour, linestyle=_DASHES.get(c, "-"), lw=0.9, zorder=3, label=CHANNEL_NAMES.get(c, c))
+            if layout == "stacked":
+                ax.text(0.99, 0.93, CHANNEL_NAMES.get(c, c), transform=ax.transAxes, ha="right", va="top", color=colour, fontsize=7.5)
+        top = max(float(np.max(v[shown])) for v in data.values()) / norm
+        for ax in axes:
+            ax.set_xlim(*xlim)
+            ax.set_ylim(0.0, top * (1.55 if label_count else 1.08))
+            ax.xaxis.set_minor_locator(AutoMinorLocator())
+            ax.yaxis.set_minor_locator(AutoMinorLocator())
+            if normalize:
+                ax.set_yticks([0.0, 0.5, 1.0])
+        if label_count and label_channel in chans:
+            ax = axes[0 if layout == "shared" else chans.index(label_channel)]
+            span = xlim[1] - xlim[0]
+            min_sep = span * 0.11 / max(w - 0.6, 1.0)
+            env = data[label_channel] / norm
+            for i in _pick_labels(grid.sticks, label_channel, label_count, xlim, min_sep):
+                p = grid.sticks.positions_cm1[i]
+                near = np.abs(x - p) <= max(grid.lineshape.widths_cm1(np.array([p]))[0], 2 * (x[1] - x[0]))
+                y = max((float(np.max(v[near])) / norm for v in data.values()), default=0.0) if near.any() else 0.0
+                ax.annotate(
+                    _band_label(grid.sticks, i, show_rho),
+                    (p, y),
+                    xytext=(0, 2.5),
+                    textcoords="offset points",
+                    rotation=90,
+                    ha="center",
+                    va="bottom",
+                    fontsize=LABEL_PT,
+                    color="#333333",
+                )
+            del env
+        if layout == "shared":
+            axes[0].legend(loc="upper left", handlelength=2.2, borderaxespad=0.2)
+            axes[0].set_ylabel(ylabel)
+        else:
+            fig.supylabel(ylabel, fontsize=8.0)
+        axes[-1].set_xlabel(SHIFT_LABEL)
+        if title:
+            fig.suptitle(title, fontsize=8.0)
+    return fig
+
+
+def depolarization_figure(
+    sticks: StickSpectrum,
+    *,
+    kind: str = "linear",
+    width: str | float = "single",
+    height_in: float = 2.2,
+    min_relative_activity: float = 0.01,
+    label_count: int = 8,
+    xlim_cm1: tuple[float, float] | None = None,
+) -> Figure:
+    """Depolarization ratio of each band, with the limit for non-totally-symmetric modes.
+
+    ``kind="linear"``: ρ for linearly polarized excitation, limit 3/4; ``"natural"``: ρ for
+    natural light, limit 6/7 (D. A. Long, *The Raman Effect*, 2002, ch. 5).  Bands weaker than
+    ``min_relative_activity`` of the strongest (VV + VH) are left out.  Filled markers are
+    polarized bands (labelled with wavenumber and irrep), open markers depolarized ones.
+    """
+    if kind not in ("linear", "natural"):
+        raise VibrapolError(f"kind must be linear or natural, got {kind!r}")
+    rho = sticks.rho_linear if kind == "linear" else sticks.rho_natural
+    limit, limit_text = (0.75, "3/4") if kind == "linear" else (6.0 / 7.0, "6/7")
+    strength = sticks.channel("vv") + sticks.channel("vh")
+    keep = np.isfinite(rho) & (strength >= min_relative_activity * (strength.max() if strength.size else 0))
+    pos = sticks.positions_cm1
+    if xlim_cm1:
+        keep &= (pos >= xlim_cm1[0]) & (pos <= xlim_cm1[1])
+    if not np.any(keep):
+        raise VibrapolError("no Raman-active band to show in the depolarization figure")
+    pol = keep & sticks.polarized
+    dep = keep & ~sticks.polarized
+    lo, hi = xlim_cm1 or (float(pos[keep].min()), float(pos[keep].max()))
+    pad = 0.05 * (hi - lo or 100.0)
+    with rc_context(STYLE):
+        fig = _new_figure(_width(width), height_in)
+        ax = fig.add_subplot()
+        ax.axhline(limit, color="#555555", lw=0.7, ls=(0, (3, 2)), zorder=1)
+        ax.text(hi + pad, limit + 0.015, f"{limit_text}", ha="right", va="bottom", fontsize=LABEL_PT, color="#555555")
+        ax.vlines(pos[keep], 0.0, rho[keep], colors="#BBBBBB", lw=0.5, zorder=1)
+        ax.plot(pos[pol], rho[pol], "o", ms=3.6, color=PALETTE["vv"], label="polarized", zorder=3)
+        ax.plot(pos[dep], rho[dep], "o", ms=3.6, mfc="white", mec=PALETTE["vh"], mew=0.9, label="depolarized", zorder=3)
+        order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]][:label_count]
+        for i in order:
+            text = f"{pos[i]:.0f}" + (f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else "")
+            ax.annotate(text, (pos[i], rho[i]), xytext=(0, 4), textcoords="offset points", rotation=90, ha="center", va="bottom", fontsize=LABEL_PT, color="#333333")
+        ax.set_xlim(lo - pad, hi + pad)
+        ax.set_ylim(0.0, 1.0 if kind == "linear" else 1.1)
+        ax.set_yticks([0.0, 0.25, 0.5, 0.75] if kind == "linear" else [0.0, 0.25, 0.5, 0.75, 1.0])
+        ax.xaxis.set_minor_locator(AutoMinorLocator())
+        ax.set_xlabel(SHIFT_LABEL)
+        ax.set_ylabel("Depolarization ratio ρ" + (" (natural light)" if kind == "natural" else ""))
+        ax.legend(loc="upper left", ncols=2, handletextpad=0.3, columnspacing=1.0, borderaxespad=0.2)
+    return fig
+
+
+def polar_figure(sweep: PolarSweep, *, width: str | float = "double", columns: int = 4, normalize: bool = True) -> Figure:
+    """One polar panel per band: parallel and crossed heights versus polarizer angle.
+
+    0° (V) points up and angles grow clockwise towards H; each panel is scaled to its own
+    maximum when ``normalize``.
+    """
+    n = sweep.n_bands
+    if n == 0:
+        raise VibrapolError("the sweep has no bands")
+    cols = max(1, min(columns, n))
+    rows = math.ceil(n / cols)
+    w = _width(width)
+    theta = np.deg2rad(sweep.angles_deg)
+    with rc_context(STYLE):
+        fig = _new_figure(w, rows * (w / cols) * 1.05 + 0.35)
+        for b in range(n):
+            ax = fig.add_subplot(rows, cols, b + 1, projection="polar")
+            par, crs = sweep.parallel[:, b], sweep.crossed[:, b]
+            scale = max(float(np.max(par)), float(np.max(crs))) if normalize else 1.0
+            scale = scale or 1.0
+            ax.plot(theta, par / scale, color=PALETTE["vv"], lw=1.0, label="parallel")
+            ax.plot(theta, crs / scale, color=PALETTE["vh"], lw=1.0, ls=(0, (4, 1.5)), label="crossed")
+            ax.set_theta_zero_location("N")
+            ax.set_theta_direction(-1)
+            ax.set_rlabel_position(135)
+            ax.tick_params(labelsize=6.0, pad=1.0)
+            ax.set_xticks(np.deg2rad([0, 90, 180, 270]))
+            ax.set_xticklabels(["0°", "90°", "180°", "270°"])
+            if normalize:
+                ax.set_rticks([0.5, 1.0])
+                ax.set_rlim(0, 1.05)
+            ax.grid(lw=0.4, color="#CCCCCC")
+            label = f"{sweep.positions_cm1[b]:.0f} cm$^{{-1}}$"
+            if sweep.irreps[b]:
+                label += f"  {format_irrep(sweep.irreps[b])}"
+            ax.set_title(label, fontsize=7.5, pad=4.0)
+        fig.legend(*fig.axes[0].get_legend_handles_labels(), loc="outside lower center", ncols=2)
+    return fig
+
+
+def figure_bytes(fig: Figure, fmt: str, dpi: int = 300) -> bytes:
+    """The figure rendered as ``png``, ``svg`` or ``pdf`` (reproducible: no dates embedded)."""
+    if fmt not in ("png", "svg", "pdf"):
+        raise VibrapolError(f"figure format must be png, svg or pdf, got {fmt!r}")
+    meta = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}[fmt]
+    buf = io.BytesIO()
+    with rc_context(STYLE):
+        fig.savefig(buf, format=fmt, dpi=dpi, metadata=meta)
+    return buf.getvalue()
+
+
+def save_figure(fig: Figure, path: str | Path, *, force: bool = False, dpi: int = 300) -> Path:
+    """Write the figure to ``path`` (format from the suffix .png/.svg/.pdf) atomically."""
+    p = Path(path)
+    fmt = p.suffix.lower().lstrip(".")
+    if fmt not in ("png", "svg", "pdf"):
+        raise VibrapolError(f"{p}: figure files must end in .png, .svg or .pdf")
+    check_writable(p, force)
+    return write_atomic(p, figure_bytes(fig, fmt, dpi), force=force)

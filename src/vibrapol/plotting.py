@@ -22,10 +22,11 @@ import numpy as np
 from matplotlib import rc_context
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
-from matplotlib.ticker import AutoMinorLocator
+from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.plotting_labels import CURVE_HEADROOM, place_labels
 from vibrapol.spectrum import GridSpectrum, StickSpectrum
 from vibrapol.sweep import PolarSweep
 
@@ -127,31 +128,24 @@ def _colour(channel: str, k: int) -> str:
 
 
 def _band_label(sticks: StickSpectrum, i: int, show_rho: bool) -> str:
+    """Wavenumber and irrep on the first line, ρ of polarized bands on the second."""
     text = f"{sticks.positions_cm1[i]:.0f}"
     if sticks.irreps[i]:
         text += f" {format_irrep(sticks.irreps[i])}"
     rho = sticks.rho_linear[i]
     if show_rho and sticks.polarized[i] and math.isfinite(rho):
-        text += f" (ρ {rho:.2f})"
+        text += f"\nρ {rho:.2f}"
     return text
-
-
-def _pick_labels(sticks: StickSpectrum, channel: str, count: int, xlim: tuple[float, float], min_sep: float) -> list[int]:
-    inside = (sticks.positions_cm1 >= xlim[0]) & (sticks.positions_cm1 <= xlim[1])
-    heights = np.where(inside, sticks.channel(channel), -np.inf)
-    chosen: list[int] = []
-    for i in np.argsort(-heights, kind="stable"):
-        if len(chosen) >= count or not np.isfinite(heights[i]) or heights[i] <= 0:
-            break
-        if all(abs(sticks.positions_cm1[i] - sticks.positions_cm1[j]) >= min_sep for j in chosen):
-            chosen.append(int(i))
-    return chosen
 
 
 def _y_label(grid: GridSpectrum, normalize: bool) -> tuple[str, float]:
     quantity = grid.sticks.conditions.quantity
     if normalize:
-        name = {"activity": "Raman activity", "intensity": "Raman intensity", "cross-section": "Raman intensity"}
+        name = {
+            "activity": "Raman activity",
+            "intensity": "Raman intensity",
+            "cross-section": "Raman intensity",
+        }
         return f"{name[quantity]} (normalized)", 1.0
     peak = float(np.max(np.abs(grid.values))) or 1.0
     exp = int(math.floor(math.log10(peak)))
@@ -231,47 +225,70 @@ def spectrum_figure(
                 pos = grid.sticks.positions_cm1
                 hts = grid.sticks.channel(c) * stick_scale / norm
                 ok = (pos >= xlim[0]) & (pos <= xlim[1]) & (hts > 0)
-                ax.vlines(pos[ok], 0.0, hts[ok], colors=colour, linewidths=0.5, alpha=0.45, zorder=1)
-            ax.plot(x, data[c] / norm, color=colour, linestyle=_DASHES.get(c, "-"), lw=0.9, zorder=3, label=CHANNEL_NAMES.get(c, c))
-            if layout == "stacked":
-                ax.text(0.99, 0.93, CHANNEL_NAMES.get(c, c), transform=ax.transAxes, ha="right", va="top", color=colour, fontsize=7.5)
+                ax.vlines(
+                    pos[ok], 0.0, hts[ok], colors=colour, linewidths=0.5, alpha=0.45, zorder=1
+                )
+            ax.plot(
+                x,
+                data[c] / norm,
+                color=colour,
+                linestyle=_DASHES.get(c, "-"),
+                lw=0.9,
+                zorder=3,
+                label=CHANNEL_NAMES.get(c, c),
+            )
         top = max(float(np.max(v[shown])) for v in data.values()) / norm
         for ax in axes:
             ax.set_xlim(*xlim)
-            ax.set_ylim(0.0, top * (1.55 if label_count else 1.08))
             ax.xaxis.set_minor_locator(AutoMinorLocator())
             ax.yaxis.set_minor_locator(AutoMinorLocator())
             if normalize:
                 ax.set_yticks([0.0, 0.5, 1.0])
-        if label_count and label_channel in chans:
-            ax = axes[0 if layout == "shared" else chans.index(label_channel)]
-            span = xlim[1] - xlim[0]
-            min_sep = span * 0.11 / max(w - 0.6, 1.0)
-            env = data[label_channel] / norm
-            for i in _pick_labels(grid.sticks, label_channel, label_count, xlim, min_sep):
-                p = grid.sticks.positions_cm1[i]
-                near = np.abs(x - p) <= max(grid.lineshape.widths_cm1(np.array([p]))[0], 2 * (x[1] - x[0]))
-                y = max((float(np.max(v[near])) / norm for v in data.values()), default=0.0) if near.any() else 0.0
-                ax.annotate(
-                    _band_label(grid.sticks, i, show_rho),
-                    (p, y),
-                    xytext=(0, 2.5),
-                    textcoords="offset points",
-                    rotation=90,
-                    ha="center",
-                    va="bottom",
-                    fontsize=LABEL_PT,
-                    color="#333333",
-                )
-            del env
+        for ax in axes:
+            ax.set_ylim(0.0, (1.0 + CURVE_HEADROOM) * top)
+        for ax in axes:
+            ax.legend(loc="best", handlelength=2.2, borderaxespad=0.2)
         if layout == "shared":
-            axes[0].legend(loc="upper left", handlelength=2.2, borderaxespad=0.2)
             axes[0].set_ylabel(ylabel)
         else:
             fig.supylabel(ylabel, fontsize=8.0)
         axes[-1].set_xlabel(SHIFT_LABEL)
         if title:
             fig.suptitle(title, fontsize=8.0)
+        if label_count and label_channel in chans:
+            ax = axes[0 if layout == "shared" else chans.index(label_channel)]
+            st = grid.sticks
+            inside = (st.positions_cm1 >= xlim[0]) & (st.positions_cm1 <= xlim[1])
+            strength = np.where(inside, st.channel(label_channel), -np.inf)
+            order = [int(i) for i in np.argsort(-strength, kind="stable") if strength[i] > 0]
+            curves = (
+                [v / norm for v in data.values()]
+                if layout == "shared"
+                else [data[label_channel] / norm]
+            )
+            cands = [
+                (float(st.positions_cm1[i]), _band_label(st, i, show_rho))
+                for i in order[: 6 * label_count]
+            ]
+            place_labels(
+                fig,
+                ax,
+                cands,
+                x,
+                curves,
+                label_count,
+                top,
+                fontsize=LABEL_PT,
+                color="#333333",
+                multialignment="center",
+                linespacing=1.05,
+            )
+            for other in axes:
+                other.set_ylim(ax.get_ylim())
+        if normalize:
+            for ax in axes:
+                ax.spines["left"].set_bounds(0.0, 1.0)
+                ax.yaxis.set_minor_locator(FixedLocator(np.arange(0.1, 1.0, 0.1)))
     return fig
 
 
@@ -297,7 +314,9 @@ def depolarization_figure(
     rho = sticks.rho_linear if kind == "linear" else sticks.rho_natural
     limit, limit_text = (0.75, "3/4") if kind == "linear" else (6.0 / 7.0, "6/7")
     strength = sticks.channel("vv") + sticks.channel("vh")
-    keep = np.isfinite(rho) & (strength >= min_relative_activity * (strength.max() if strength.size else 0))
+    keep = np.isfinite(rho) & (
+        strength >= min_relative_activity * (strength.max() if strength.size else 0)
+    )
     pos = sticks.positions_cm1
     if xlim_cm1:
         keep &= (pos >= xlim_cm1[0]) & (pos <= xlim_cm1[1])
@@ -311,25 +330,63 @@ def depolarization_figure(
         fig = _new_figure(_width(width), height_in)
         ax = fig.add_subplot()
         ax.axhline(limit, color="#555555", lw=0.7, ls=(0, (3, 2)), zorder=1)
-        ax.text(hi + pad, limit + 0.015, f"{limit_text}", ha="right", va="bottom", fontsize=LABEL_PT, color="#555555")
+        ax.text(
+            hi + pad,
+            limit + 0.015,
+            f"{limit_text}",
+            ha="right",
+            va="bottom",
+            fontsize=LABEL_PT,
+            color="#555555",
+        )
         ax.vlines(pos[keep], 0.0, rho[keep], colors="#BBBBBB", lw=0.5, zorder=1)
         ax.plot(pos[pol], rho[pol], "o", ms=3.6, color=PALETTE["vv"], label="polarized", zorder=3)
-        ax.plot(pos[dep], rho[dep], "o", ms=3.6, mfc="white", mec=PALETTE["vh"], mew=0.9, label="depolarized", zorder=3)
-        order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]][:label_count]
+        ax.plot(
+            pos[dep],
+            rho[dep],
+            "o",
+            ms=3.6,
+            mfc="white",
+            mec=PALETTE["vh"],
+            mew=0.9,
+            label="depolarized",
+            zorder=3,
+        )
+        order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]][
+            :label_count
+        ]
         for i in order:
-            text = f"{pos[i]:.0f}" + (f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else "")
-            ax.annotate(text, (pos[i], rho[i]), xytext=(0, 4), textcoords="offset points", rotation=90, ha="center", va="bottom", fontsize=LABEL_PT, color="#333333")
+            text = f"{pos[i]:.0f}" + (
+                f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else ""
+            )
+            ax.annotate(
+                text,
+                (pos[i], rho[i]),
+                xytext=(0, 4),
+                textcoords="offset points",
+                rotation=90,
+                ha="center",
+                va="bottom",
+                fontsize=LABEL_PT,
+                color="#333333",
+                bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none"},
+                zorder=4,
+            )
         ax.set_xlim(lo - pad, hi + pad)
         ax.set_ylim(0.0, 1.0 if kind == "linear" else 1.1)
         ax.set_yticks([0.0, 0.25, 0.5, 0.75] if kind == "linear" else [0.0, 0.25, 0.5, 0.75, 1.0])
         ax.xaxis.set_minor_locator(AutoMinorLocator())
         ax.set_xlabel(SHIFT_LABEL)
         ax.set_ylabel("Depolarization ratio ρ" + (" (natural light)" if kind == "natural" else ""))
-        ax.legend(loc="upper left", ncols=2, handletextpad=0.3, columnspacing=1.0, borderaxespad=0.2)
+        ax.legend(
+            loc="upper left", ncols=2, handletextpad=0.3, columnspacing=1.0, borderaxespad=0.2
+        )
     return fig
 
 
-def polar_figure(sweep: PolarSweep, *, width: str | float = "double", columns: int = 4, normalize: bool = True) -> Figure:
+def polar_figure(
+    sweep: PolarSweep, *, width: str | float = "double", columns: int = 4, normalize: bool = True
+) -> Figure:
     """One polar panel per band: parallel and crossed heights versus polarizer angle.
 
     0° (V) points up and angles grow clockwise towards H; each panel is scaled to its own
@@ -350,7 +407,9 @@ def polar_figure(sweep: PolarSweep, *, width: str | float = "double", columns: i
             scale = max(float(np.max(par)), float(np.max(crs))) if normalize else 1.0
             scale = scale or 1.0
             ax.plot(theta, par / scale, color=PALETTE["vv"], lw=1.0, label="parallel")
-            ax.plot(theta, crs / scale, color=PALETTE["vh"], lw=1.0, ls=(0, (4, 1.5)), label="crossed")
+            ax.plot(
+                theta, crs / scale, color=PALETTE["vh"], lw=1.0, ls=(0, (4, 1.5)), label="crossed"
+            )
             ax.set_theta_zero_location("N")
             ax.set_theta_direction(-1)
             ax.set_rlabel_position(135)

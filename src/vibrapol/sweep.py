@@ -112,7 +112,7 @@ def polar_sweep(
     sticks = stick_spectrum(
         modes, channels=[*par, *crs], geometry_deg=geometry_deg, **stick_options
     )  # type: ignore[arg-type]
-    pick = choose_bands(sticks, bands_cm1, top, par)
+    pick = sorted(choose_bands(sticks, bands_cm1, top, par), key=lambda i: sticks.positions_cm1[i])
     ip = [sticks.channels.index(c) for c in par]
     ic = [sticks.channels.index(c) for c in crs]
     return PolarSweep(

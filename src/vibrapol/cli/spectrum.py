@@ -185,7 +185,9 @@ def run(args: argparse.Namespace) -> int:
         from vibrapol import plotting
 
         if args.figure:
-            fig = plotting.spectrum_figure(grid, layout=args.layout, width=_width(args.width), label_count=args.labels)
+            fig = plotting.spectrum_figure(
+                grid, channels=grid.channels, layout=args.layout, width=_width(args.width), label_count=args.labels
+            )
             outputs.append((args.figure, plotting.figure_bytes(fig, _suffix(args.figure))))
         if args.rho_figure:
             fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)

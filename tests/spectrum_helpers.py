@@ -88,7 +88,9 @@ def optimize(mol, xc=None, gtol=1e-6):
         g.verbose = 0
         return e, g.kernel().ravel()
 
-    res = minimize(energy_grad, mol.atom_coords().ravel(), jac=True, method="BFGS", options={"gtol": gtol})
+    res = minimize(
+        energy_grad, mol.atom_coords().ravel(), jac=True, method="BFGS", options={"gtol": gtol}
+    )
     return mol.set_geom_(res.x.reshape(-1, 3), unit="Bohr", inplace=False)
 
 

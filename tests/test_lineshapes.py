@@ -5,10 +5,17 @@ import math
 import numpy as np
 import pytest
 from scipy.integrate import quad
-from spectrum_helpers import analytic_modeset
 
+from spectrum_helpers import analytic_modeset
 from vibrapol.errors import VibrapolError
-from vibrapol.lineshapes import LineShape, gaussian, lorentzian, measured_fwhm, voigt, voigt_fwhm_unit
+from vibrapol.lineshapes import (
+    LineShape,
+    gaussian,
+    lorentzian,
+    measured_fwhm,
+    voigt,
+    voigt_fwhm_unit,
+)
 from vibrapol.spectrum import broaden, stick_spectrum
 
 SHAPES = [("lorentzian", 0.5), ("gaussian", 0.5), ("voigt", 0.5), ("voigt", 0.2), ("voigt", 0.8)]
@@ -19,7 +26,12 @@ def test_profile_has_unit_area_analytically(shape, share):
     # Mathematical fact: each profile is a probability density; scipy.integrate.quad over the
     # whole line must give 1 (to quad's tolerance, 1e-8).
     ls = LineShape(shape, 7.0, lorentzian_share=share)
-    area, _ = quad(lambda x: float(ls.profiles(np.array([x]), np.array([0.0]))[0, 0]), -np.inf, np.inf, limit=400)
+    area, _ = quad(
+        lambda x: float(ls.profiles(np.array([x]), np.array([0.0]))[0, 0]),
+        -np.inf,
+        np.inf,
+        limit=400,
+    )
     assert area == pytest.approx(1.0, abs=1e-7)
 
 
@@ -43,7 +55,9 @@ def test_gaussian_and_lorentzian_peak_heights():
     # Textbook peak values of unit-area profiles: Lorentzian 2/(πΓ), Gaussian 2√(ln2/π)/Γ.
     fwhm = 6.0
     assert float(lorentzian(0.0, 0.0, fwhm)) == pytest.approx(2.0 / (math.pi * fwhm), rel=1e-12)
-    assert float(gaussian(0.0, 0.0, fwhm)) == pytest.approx(2.0 * math.sqrt(math.log(2) / math.pi) / fwhm, rel=1e-12)
+    assert float(gaussian(0.0, 0.0, fwhm)) == pytest.approx(
+        2.0 * math.sqrt(math.log(2) / math.pi) / fwhm, rel=1e-12
+    )
 
 
 def test_voigt_fwhm_agrees_with_olivero_longbothum():

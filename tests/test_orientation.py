@@ -4,8 +4,8 @@ import math
 
 import numpy as np
 import pytest
-from spectrum_helpers import analytic_modeset
 
+from spectrum_helpers import analytic_modeset
 from vibrapol import orientation as o
 from vibrapol.channels import isotropic_channel_activity
 from vibrapol.errors import VibrapolError
@@ -39,7 +39,9 @@ def test_uniaxial_without_preferred_tilt_is_isotropic():
     a2, g2 = tensor_invariants(t)
     dist = o.uniaxial([1.0, 2.0, -0.5], "x", tilt_spread_deg=math.inf, n_tilt=4)
     quad = o.oriented_channel_activity(t, CHANNELS, dist)
-    np.testing.assert_allclose(quad, isotropic_channel_activity(a2, g2, CHANNELS), rtol=1e-11, atol=1e-12)
+    np.testing.assert_allclose(
+        quad, isotropic_channel_activity(a2, g2, CHANNELS), rtol=1e-11, atol=1e-12
+    )
 
 
 def test_aligned_single_component_gives_cos4_and_sin2cos2():
@@ -52,13 +54,17 @@ def test_aligned_single_component_gives_cos4_and_sin2cos2():
     sw = polar_sweep(m, orientation=o.aligned("z", "y"), angles_deg=angles, quantity="activity")
     th = np.deg2rad(angles)
     np.testing.assert_allclose(sw.parallel[:, 0], 45 * 4 * np.cos(th) ** 4, atol=1e-10)
-    np.testing.assert_allclose(sw.crossed[:, 0], 45 * 4 * (np.sin(th) * np.cos(th)) ** 2, atol=1e-10)
+    np.testing.assert_allclose(
+        sw.crossed[:, 0], 45 * 4 * (np.sin(th) * np.cos(th)) ** 2, atol=1e-10
+    )
 
 
 def test_isotropic_sweep_is_flat_with_rho():
     # Isotropic sample in back-scattering: parallel = 45a² + 4γ², crossed = 3γ² at every angle.
     m = analytic_modeset([np.diag([1.0, 2.0, 3.0])], [1000.0])
-    sw = polar_sweep(m, orientation=o.isotropic(), angles_deg=[0, 20, 45, 90, 133], quantity="activity")
+    sw = polar_sweep(
+        m, orientation=o.isotropic(), angles_deg=[0, 20, 45, 90, 133], quantity="activity"
+    )
     np.testing.assert_allclose(sw.parallel[:, 0], 192.0, rtol=1e-11)
     np.testing.assert_allclose(sw.crossed[:, 0], 9.0, rtol=1e-11)
 

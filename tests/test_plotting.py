@@ -4,8 +4,8 @@ import re
 
 import numpy as np
 import pytest
-from spectrum_helpers import analytic_modeset
 
+from spectrum_helpers import analytic_modeset
 from vibrapol import orientation as o
 from vibrapol import plotting
 from vibrapol.errors import VibrapolError
@@ -18,9 +18,14 @@ PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 
 @pytest.fixture(scope="module")
 def grid():
-    # Totally symmetric band diag(1, 2, 3) (ρ = 9/192 ≈ 0.05, Long 2002) and a traceless one (ρ = 3/4).
-    m = analytic_modeset([np.diag([1.0, 2.0, 3.0]), [[0, 1.0, 0], [1.0, 0, 0], [0, 0, 0]]], [1000.0, 2500.0])
-    return broaden(stick_spectrum(m), LineShape("lorentzian", 10.0), range_cm1=(200.0, 3400.0), step_cm1=1.0)
+    # Totally symmetric band diag(1, 2, 3) (ρ = 9/192 ≈ 0.05, Long 2002) and a traceless one
+    # (ρ = 3/4).
+    m = analytic_modeset(
+        [np.diag([1.0, 2.0, 3.0]), [[0, 1.0, 0], [1.0, 0, 0], [0, 0, 0]]], [1000.0, 2500.0]
+    )
+    return broaden(
+        stick_spectrum(m), LineShape("lorentzian", 10.0), range_cm1=(200.0, 3400.0), step_cm1=1.0
+    )
 
 
 def svg_text(data: bytes) -> str:
@@ -76,7 +81,9 @@ def test_polar_figure_has_one_panel_per_band():
     t = np.zeros((2, 3, 3))
     t[0, 2, 2] = 1.0
     t[1, 0, 1] = t[1, 1, 0] = 1.0
-    sweep = polar_sweep(analytic_modeset(t, [900.0, 1300.0]), orientation=o.aligned("z", "y"), top=2)
+    sweep = polar_sweep(
+        analytic_modeset(t, [900.0, 1300.0]), orientation=o.aligned("z", "y"), top=2
+    )
     fig = plotting.polar_figure(sweep)
     assert len(fig.axes) == 2
     svg = svg_text(plotting.figure_bytes(fig, "svg"))

@@ -6,12 +6,13 @@ import warnings
 import numpy as np
 import pytest
 from scipy import constants as C
-from spectrum_helpers import analytic_modeset
 
+from spectrum_helpers import analytic_modeset
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.lineshapes import LineShape
+from vibrapol.quantities import cross_section_cm2_sr, thermal_factor
 from vibrapol.scaling import FrequencyScale, lookup_factor
-from vibrapol.spectrum import broaden, cross_section_cm2_sr, stick_spectrum, thermal_factor
+from vibrapol.spectrum import broaden, stick_spectrum
 from vibrapol.spectrum_io import grid_csv, grid_json, sticks_csv
 
 # diag(1, 2, 3): a = 2, a² = 4; γ² = ½[(1−2)² + (2−3)² + (3−1)²] = 3 (definitions in D. A.
@@ -27,7 +28,9 @@ def two_bands():
 def test_channel_heights_follow_the_orientation_averages():
     # Long (2002) ch. 5, 90° scattering: VV = 45a² + 4γ², VH = HV = HH = 3γ², V without
     # analyzer = S = 45a² + 7γ²; natural light: nv = (VV + HV)/2, nh = (VH + HH)/2 = 3γ².
-    s = stick_spectrum(two_bands(), channels=["hv", "hh", "vu", "nv", "nh", "nu"], quantity="activity")
+    s = stick_spectrum(
+        two_bands(), channels=["hv", "hh", "vu", "nv", "nh", "nu"], quantity="activity"
+    )
     got = dict(zip(s.channels, s.heights[0], strict=True))
     want = {"vv": 192, "vh": 9, "hv": 9, "hh": 9, "vu": 201, "nv": 100.5, "nh": 9, "nu": 109.5}
     for name, value in want.items():
@@ -37,7 +40,9 @@ def test_channel_heights_follow_the_orientation_averages():
 def test_backscattering_makes_hh_equal_vv():
     # General formula a²c² + γ²(3 + c²)/45 with c = e_i·e_s: at 180° both H vectors are x, so
     # c = 1 for HH (= VV = 192) and natural light gives nh/nv = 1.
-    s = stick_spectrum(two_bands(), channels=["hh", "nv", "nh"], geometry_deg=180, quantity="activity")
+    s = stick_spectrum(
+        two_bands(), channels=["hh", "nv", "nh"], geometry_deg=180, quantity="activity"
+    )
     assert s.channel("hh")[0] == pytest.approx(192.0, rel=1e-12)
     assert s.channel("nh")[0] / s.channel("nv")[0] == pytest.approx(1.0, rel=1e-12)
 
@@ -75,7 +80,9 @@ def test_laser_change_scales_each_band_by_the_fourth_power():
     b = stick_spectrum(m, quantity="intensity", laser_nm=785.0)
     nu0, nu1 = 1e7 / 532.0, 1e7 / 785.0
     want = ((nu1 - a.positions_cm1) / (nu0 - a.positions_cm1)) ** 4
-    np.testing.assert_allclose(b.heights / a.heights, np.repeat(want[:, None], 2, axis=1), rtol=1e-12)
+    np.testing.assert_allclose(
+        b.heights / a.heights, np.repeat(want[:, None], 2, axis=1), rtol=1e-12
+    )
 
 
 def test_anti_stokes_to_stokes_ratio():
@@ -98,7 +105,9 @@ def test_thermal_factor_limits():
     assert diff == pytest.approx([1.0, 1.0], rel=1e-12)
 
 
-@pytest.mark.parametrize(("side", "temperature_k"), [("stokes", 298.15), ("anti-stokes", 500.0), ("stokes", 0.0)])
+@pytest.mark.parametrize(
+    ("side", "temperature_k"), [("stokes", 298.15), ("anti-stokes", 500.0), ("stokes", 0.0)]
+)
 def test_cross_section_matches_independent_si_evaluation(side, temperature_k):
     # Independent route in SI (J. D. Jackson, Classical Electrodynamics, 3rd ed., sec. 9.2 for
     # dipole radiation): dσ/dΩ = ω_s⁴ α_fi² / (16π²ε₀²c⁴) with α_fi² = (4πε₀)²·⟨α′²⟩_vol·ħ/(2ω_k)·n,
@@ -115,7 +124,9 @@ def test_cross_section_matches_independent_si_evaluation(side, temperature_k):
     alpha_vol2 = activity / 45.0 * 1e-40 / C.atomic_mass  # m⁴ kg⁻¹
     alpha_si2 = (4 * math.pi * C.epsilon_0) ** 2 * alpha_vol2 * C.hbar / (2 * omega_k) * n
     sigma_m2 = omega_s**4 * alpha_si2 / (16 * math.pi**2 * C.epsilon_0**2 * C.c**4)
-    got = cross_section_cm2_sr(np.array([activity]), np.array([nu_k]), laser_nm, temperature_k, side)
+    got = cross_section_cm2_sr(
+        np.array([activity]), np.array([nu_k]), laser_nm, temperature_k, side
+    )
     assert float(got[0]) == pytest.approx(sigma_m2 * 1e4, rel=1e-10, abs=0.0)  # values ~1e-30
 
 
@@ -125,9 +136,12 @@ def test_degenerate_pair_is_one_band_independent_of_basis():
     e2 = np.array([[0, 1.0, 0], [1.0, 0, 0], [0, 0, 0]])
     c, s_ = math.cos(0.7), math.sin(0.7)
     a = stick_spectrum(analytic_modeset([e1, e2], [800.0, 800.0]), quantity="activity")
-    b = stick_spectrum(analytic_modeset([c * e1 + s_ * e2, -s_ * e1 + c * e2], [800.0, 800.0]), quantity="activity")
+    b = stick_spectrum(
+        analytic_modeset([c * e1 + s_ * e2, -s_ * e1 + c * e2], [800.0, 800.0]), quantity="activity"
+    )
     assert a.n_bands == 1 and a.mode_sets[0] == (0, 1)
-    # Each member has a = 0 and γ² = 3 (e1: ½(4 + 1 + 1); e2: 3·1²): VV = 2·4γ² = 24, VH = 2·3γ² = 18.
+    # Each member has a = 0 and γ² = 3 (e1: ½(4 + 1 + 1); e2: 3·1²):
+    # VV = 2·4γ² = 24, VH = 2·3γ² = 18.
     np.testing.assert_allclose(a.heights[0], [24.0, 18.0], rtol=1e-12)
     np.testing.assert_allclose(b.heights, a.heights, rtol=1e-12)
 

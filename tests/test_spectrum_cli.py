@@ -6,8 +6,8 @@ import json
 
 import numpy as np
 import pytest
-from spectrum_helpers import WATER_HF_STO3G, pyscf_modeset
 
+from spectrum_helpers import WATER_HF_STO3G, pyscf_modeset
 from vibrapol.cli import main
 from vibrapol.ramantable import raman_table
 from vibrapol.sources.modes_json import write_modes_json
@@ -35,7 +35,9 @@ def test_water_frequencies_agree_with_pyscf_thermo(water):
     mol = gto.M(atom=WATER_HF_STO3G, basis="sto-3g", verbose=0)
     mf = scf.RHF(mol).run(conv_tol=1e-11)
     ref = thermo.harmonic_analysis(mol, mf.Hessian().kernel(), mass=modes.masses_da)
-    np.testing.assert_allclose(np.sort(modes.freqs_cm1), np.sort(ref["freq_wavenumber"].real), atol=0.05)
+    np.testing.assert_allclose(
+        np.sort(modes.freqs_cm1), np.sort(ref["freq_wavenumber"].real), atol=0.05
+    )
 
 
 def test_spectrum_command_writes_csv_sticks_and_figure(water, tmp_path):
@@ -43,8 +45,22 @@ def test_spectrum_command_writes_csv_sticks_and_figure(water, tmp_path):
     out, sticks, fig = tmp_path / "w.csv", tmp_path / "w-sticks.csv", tmp_path / "w.svg"
     code = main(
         [
-            "spectrum", str(src), "--range-cm1", "1500:4800", "--step-cm1", "0.5", "--fwhm-cm1", "12",
-            "--channels", "nv,nh", "-o", str(out), "--sticks", str(sticks), "--figure", str(fig),
+            "spectrum",
+            str(src),
+            "--range-cm1",
+            "1500:4800",
+            "--step-cm1",
+            "0.5",
+            "--fwhm-cm1",
+            "12",
+            "--channels",
+            "nv,nh",
+            "-o",
+            str(out),
+            "--sticks",
+            str(sticks),
+            "--figure",
+            str(fig),
         ]
     )
     assert code == 0
@@ -71,8 +87,24 @@ def test_spectrum_command_writes_csv_sticks_and_figure(water, tmp_path):
 def test_cross_section_json_and_anti_stokes(water, tmp_path):
     _, src = water
     out = tmp_path / "w.json"
-    assert main(["spectrum", str(src), "--quantity", "cross-section", "--anti-stokes", "--format", "json",
-                 "-o", str(out), "--step-cm1", "2"]) == 0
+    assert (
+        main(
+            [
+                "spectrum",
+                str(src),
+                "--quantity",
+                "cross-section",
+                "--anti-stokes",
+                "--format",
+                "json",
+                "-o",
+                str(out),
+                "--step-cm1",
+                "2",
+            ]
+        )
+        == 0
+    )
     doc = json.loads(out.read_text())
     shifts = doc["sticks"]["shift_cm1"]
     assert doc["header"]["unit"] == "cm^2/sr"
@@ -86,8 +118,25 @@ def test_cross_section_json_and_anti_stokes(water, tmp_path):
 def test_sweep_command(water, tmp_path):
     _, src = water
     out = tmp_path / "sweep.csv"
-    assert main(["sweep", str(src), "--orientation", "isotropic", "--angles-deg", "0:90:45", "--top", "1",
-                 "--quantity", "activity", "-o", str(out)]) == 0
+    assert (
+        main(
+            [
+                "sweep",
+                str(src),
+                "--orientation",
+                "isotropic",
+                "--angles-deg",
+                "0:90:45",
+                "--top",
+                "1",
+                "--quantity",
+                "activity",
+                "-o",
+                str(out),
+            ]
+        )
+        == 0
+    )
     rows = read_csv(out)
     assert [r["angle_deg"] for r in rows] == ["0", "45", "90"]
     # Isotropic sample: flat sweep (Long 2002), parallel/crossed = (45a² + 4γ²)/3γ² at every angle.
@@ -98,7 +147,10 @@ def test_sweep_command(water, tmp_path):
 def test_bad_input_exits_2_and_writes_nothing(water, tmp_path, capsys):
     _, src = water
     out, fig = tmp_path / "x.csv", tmp_path / "x.png"
-    assert main(["spectrum", str(src), "--laser-nm", "20000", "-o", str(out), "--figure", str(fig)]) == 2
+    assert (
+        main(["spectrum", str(src), "--laser-nm", "20000", "-o", str(out), "--figure", str(fig)])
+        == 2
+    )
     err = capsys.readouterr().err
     assert "cannot excite" in err and len(err.strip().splitlines()) == 1
     assert not out.exists() and not fig.exists()

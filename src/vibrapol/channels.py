@@ -79,7 +79,7 @@ def _scattered(letter: str, geometry_deg: int) -> list[tuple[np.ndarray, float]]
 
 
 def polarization_vector(angle_deg: float, h_vector: np.ndarray) -> np.ndarray:
-    """cos θ V + sin θ H for an angle θ measured from V towards ``h_vector``."""
+    """Unit vector cos θ V + sin θ H for an angle θ measured from V towards ``h_vector``."""
     t = math.radians(angle_deg)
     return math.cos(t) * _V + math.sin(t) * np.asarray(h_vector, dtype=float)
 

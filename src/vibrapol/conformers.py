@@ -89,7 +89,7 @@ def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> Stick
             raise VibrapolError("spectra in a mixture must share channels and conditions")
     return StickSpectrum(
         positions_cm1=np.concatenate([s.positions_cm1 for s in spectra]),
-        heights=np.concatenate([s.heights * wi for s, wi in zip(spectra, w)]),
+        heights=np.concatenate([s.heights * wi for s, wi in zip(spectra, w, strict=True)]),
         channels=first.channels,
         harmonic_cm1=np.concatenate([s.harmonic_cm1 for s in spectra]),
         mode_sets=tuple(ms for s in spectra for ms in s.mode_sets),
@@ -143,6 +143,6 @@ def conformer_spectrum(
     labels = list(labels) if labels is not None else [m.provenance.source_file for m in modesets]
     spectra = [
         stick_spectrum(m, temperature_k=temperature_k, label=lab, **stick_options)  # type: ignore[arg-type]
-        for m, lab in zip(modesets, labels)
+        for m, lab in zip(modesets, labels, strict=True)
     ]
     return mixture(spectra, weights)

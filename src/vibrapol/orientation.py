@@ -143,7 +143,7 @@ def fixed(rotation: np.ndarray, description: str = "fixed orientation") -> Orien
 
 
 def aligned(mol_axis: str | Sequence[float], lab_axis: str | Sequence[float] = "z") -> Orientation:
-    """Every molecule with ``mol_axis`` (molecule frame) along ``lab_axis``, by the smallest rotation."""
+    """All molecules with ``mol_axis`` (molecule frame) along ``lab_axis`` (smallest rotation)."""
     r = rotation_between(
         unit_vector(mol_axis, "molecular axis"), unit_vector(lab_axis, "laboratory axis")
     )

@@ -5,126 +5,58 @@ pyplot, no global state), so they render headless.  Every function returns the `
 further editing in Python; :func:`save_figure` writes SVG, PDF (vector, text kept as text) or
 300 dpi PNG atomically.  No numeric module imports this one.
 
-Sizes follow common journal practice: single column ≈ 3.3 in, double column ≈ 7 in wide, text
-7–8 pt at print size.  Colours are from the Okabe–Ito palette (M. Okabe and K. Ito, *Color
-Universal Design*, 2008), distinguishable with the common forms of colour blindness; VV and VH
-also differ in line style so the figure reads in grey scale.
+Sizes, fonts and colours are in :mod:`vibrapol.plotting_style` (journal column widths,
+7–8 pt text, a colour-blind-safe palette); VV and VH also differ in line style so a figure reads
+in grey scale.
 """
 
 from __future__ import annotations
 
-import io
 import math
 from collections.abc import Sequence
-from pathlib import Path
 
 import numpy as np
 from matplotlib import rc_context
-from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.plotting_labels import CURVE_HEADROOM, place_labels
+from vibrapol.plotting_style import (
+    CHANNEL_NAMES,
+    DASHES,
+    LABEL_PT,
+    OTHER_COLOURS,
+    PALETTE,
+    SHIFT_LABEL,
+    STYLE,
+    WIDTHS_IN,
+    figure_bytes,
+    figure_width,
+    format_irrep,
+    new_figure,
+    save_figure,
+)
 from vibrapol.spectrum import GridSpectrum, StickSpectrum
 from vibrapol.sweep import PolarSweep
 
-#: Figure widths in inches.
-WIDTHS_IN = {"single": 3.3, "double": 7.0}
-
-#: Colour of each channel (Okabe–Ito).
-PALETTE = {
-    "vv": "#0072B2",  # blue
-    "vh": "#D55E00",  # vermillion
-    "nv": "#009E73",  # bluish green
-    "nh": "#CC79A7",  # reddish purple
-    "vu": "#000000",
-    "nu": "#56B4E9",  # sky blue
-    "hv": "#E69F00",  # orange
-    "hh": "#6B4C9A",
-}
-_OTHER_COLOURS = ("#E69F00", "#56B4E9", "#009E73", "#CC79A7", "#000000")
-_DASHES = {"vv": "-", "vh": (0, (4, 1.5)), "nv": "-", "nh": (0, (4, 1.5))}
-
-#: Display names of the channels.
-CHANNEL_NAMES = {
-    "vv": "VV (parallel)",
-    "vh": "VH (crossed)",
-    "hv": "HV",
-    "hh": "HH",
-    "vu": "V, no analyzer",
-    "hu": "H, no analyzer",
-    "nv": "natural light, V",
-    "nh": "natural light, H",
-    "nu": "natural light, no analyzer",
-}
-
-#: Matplotlib settings used while a figure is built and saved.
-STYLE = {
-    "font.family": "DejaVu Sans",
-    "font.size": 8.0,
-    "axes.labelsize": 8.0,
-    "axes.linewidth": 0.6,
-    "xtick.labelsize": 7.0,
-    "ytick.labelsize": 7.0,
-    "xtick.major.width": 0.6,
-    "ytick.major.width": 0.6,
-    "xtick.minor.width": 0.4,
-    "ytick.minor.width": 0.4,
-    "xtick.major.size": 3.0,
-    "ytick.major.size": 3.0,
-    "xtick.minor.size": 1.6,
-    "ytick.minor.size": 1.6,
-    "xtick.direction": "out",
-    "ytick.direction": "out",
-    "axes.spines.top": False,
-    "axes.spines.right": False,
-    "legend.fontsize": 7.0,
-    "legend.frameon": False,
-    "lines.linewidth": 1.0,
-    "mathtext.default": "regular",
-    "svg.fonttype": "none",
-    "svg.hashsalt": "vibrapol",
-    "pdf.fonttype": 42,
-}
-
-#: Size of band labels in points.
-LABEL_PT = 6.5
-
-SHIFT_LABEL = "Raman shift (cm$^{-1}$)"
-
-
-def _width(width: str | float) -> float:
-    if isinstance(width, str):
-        if width not in WIDTHS_IN:
-            raise VibrapolError(f"figure width must be single, double or inches, got {width!r}")
-        return WIDTHS_IN[width]
-    return float(width)
-
-
-def _new_figure(width_in: float, height_in: float) -> Figure:
-    fig = Figure(figsize=(width_in, height_in), layout="constrained")
-    FigureCanvasAgg(fig)
-    fig.get_layout_engine().set(w_pad=0.02, h_pad=0.02, hspace=0.02, wspace=0.02)
-    return fig
-
-
-def format_irrep(label: str) -> str:
-    """Irrep label with subscripts for mathtext: ``A1g`` → ``A$_{1g}$``, ``E'`` stays ``E'``."""
-    if not label:
-        return ""
-    parts = []
-    for one in label.split("/"):
-        head, tail = one[:1], one[1:]
-        primes = tail[len(tail.rstrip("'\"")) :]
-        sub = tail.rstrip("'\"")
-        parts.append(f"{head}$_{{{sub}}}${primes}" if sub else f"{head}{primes}")
-    return "/".join(parts)
+__all__ = [
+    "CHANNEL_NAMES",
+    "PALETTE",
+    "STYLE",
+    "WIDTHS_IN",
+    "depolarization_figure",
+    "figure_bytes",
+    "format_irrep",
+    "polar_figure",
+    "save_figure",
+    "spectrum_figure",
+]
 
 
 def _colour(channel: str, k: int) -> str:
-    return PALETTE.get(channel, _OTHER_COLOURS[k % len(_OTHER_COLOURS)])
+    return PALETTE.get(channel, OTHER_COLOURS[k % len(OTHER_COLOURS)])
 
 
 def _band_label(sticks: StickSpectrum, i: int, show_rho: bool) -> str:
@@ -213,10 +145,10 @@ def spectrum_figure(
         env = max(float(np.max(v[shown])) for v in data.values())
         stick_scale = env / float(np.max(st)) if np.max(st) > 0 else 0.0
     n_panels = 1 if layout == "shared" else len(chans)
-    w = _width(width)
+    w = figure_width(width)
     h = height_in or (2.4 if layout == "shared" else 0.2 + 1.35 * n_panels)
     with rc_context(STYLE):
-        fig = _new_figure(w, h)
+        fig = new_figure(w, h)
         axes = fig.subplots(n_panels, 1, sharex=True, sharey=True, squeeze=False)[:, 0]
         for k, c in enumerate(chans):
             ax = axes[0 if layout == "shared" else k]
@@ -232,7 +164,7 @@ def spectrum_figure(
                 x,
                 data[c] / norm,
                 color=colour,
-                linestyle=_DASHES.get(c, "-"),
+                linestyle=DASHES.get(c, "-"),
                 lw=0.9,
                 zorder=3,
                 label=CHANNEL_NAMES.get(c, c),
@@ -307,7 +239,8 @@ def depolarization_figure(
     ``kind="linear"``: ρ for linearly polarized excitation, limit 3/4; ``"natural"``: ρ for
     natural light, limit 6/7 (D. A. Long, *The Raman Effect*, 2002, ch. 5).  Bands weaker than
     ``min_relative_activity`` of the strongest (VV + VH) are left out.  Filled markers are
-    polarized bands (labelled with wavenumber and irrep), open markers depolarized ones.
+    polarized bands (labelled with wavenumber and irrep), open markers depolarized ones; the
+    marker area grows with the band's VV + VH strength.
     """
     if kind not in ("linear", "natural"):
         raise VibrapolError(f"kind must be linear or natural, got {kind!r}")
@@ -325,61 +258,76 @@ def depolarization_figure(
     pol = keep & sticks.polarized
     dep = keep & ~sticks.polarized
     lo, hi = xlim_cm1 or (float(pos[keep].min()), float(pos[keep].max()))
-    pad = 0.05 * (hi - lo or 100.0)
+    pad = 0.0 if xlim_cm1 else 0.05 * (hi - lo or 100.0)
+    size = 8.0 + 42.0 * strength / strength[keep].max()  # marker area ∝ band strength
     with rc_context(STYLE):
-        fig = _new_figure(_width(width), height_in)
+        fig = new_figure(figure_width(width), height_in)
         ax = fig.add_subplot()
         ax.axhline(limit, color="#555555", lw=0.7, ls=(0, (3, 2)), zorder=1)
-        ax.text(
-            hi + pad,
-            limit + 0.015,
-            f"{limit_text}",
+        ax.annotate(
+            f"ρ = {limit_text}",
+            (1.0, limit),
+            xycoords=("axes fraction", "data"),
+            xytext=(-2, 2),
+            textcoords="offset points",
             ha="right",
             va="bottom",
             fontsize=LABEL_PT,
             color="#555555",
         )
-        ax.vlines(pos[keep], 0.0, rho[keep], colors="#BBBBBB", lw=0.5, zorder=1)
-        ax.plot(pos[pol], rho[pol], "o", ms=3.6, color=PALETTE["vv"], label="polarized", zorder=3)
-        ax.plot(
+        ax.scatter(pos[pol], rho[pol], s=size[pol], color=PALETTE["vv"], lw=0, zorder=3)
+        ax.scatter(
             pos[dep],
             rho[dep],
-            "o",
-            ms=3.6,
-            mfc="white",
-            mec=PALETTE["vh"],
-            mew=0.9,
-            label="depolarized",
+            s=size[dep],
+            facecolor="white",
+            edgecolor=PALETTE["vh"],
+            lw=0.9,
             zorder=3,
         )
+        handles = [
+            Line2D([], [], ls="none", marker="o", ms=4.5, color=PALETTE["vv"], label="polarized"),
+            Line2D(
+                [],
+                [],
+                ls="none",
+                marker="o",
+                ms=4.5,
+                mfc="white",
+                mec=PALETTE["vh"],
+                mew=0.9,
+                label="depolarized",
+            ),
+        ]
         order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]][
             :label_count
         ]
         for i in order:
-            text = f"{pos[i]:.0f}" + (
-                f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else ""
-            )
+            irrep = f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else ""
             ax.annotate(
-                text,
+                f"{pos[i]:.0f}{irrep}",
                 (pos[i], rho[i]),
-                xytext=(0, 4),
+                xytext=(0.5 * math.sqrt(size[i]) + 2.5, 0),
                 textcoords="offset points",
-                rotation=90,
-                ha="center",
-                va="bottom",
+                ha="left",
+                va="center",
                 fontsize=LABEL_PT,
                 color="#333333",
-                bbox={"boxstyle": "square,pad=0.1", "fc": "white", "ec": "none"},
-                zorder=4,
             )
         ax.set_xlim(lo - pad, hi + pad)
-        ax.set_ylim(0.0, 1.0 if kind == "linear" else 1.1)
+        ax.set_ylim(-0.03, 0.92 if kind == "linear" else 1.02)
+        ax.spines["left"].set_bounds(0.0, 0.75 if kind == "linear" else 1.0)
         ax.set_yticks([0.0, 0.25, 0.5, 0.75] if kind == "linear" else [0.0, 0.25, 0.5, 0.75, 1.0])
         ax.xaxis.set_minor_locator(AutoMinorLocator())
         ax.set_xlabel(SHIFT_LABEL)
         ax.set_ylabel("Depolarization ratio ρ" + (" (natural light)" if kind == "natural" else ""))
         ax.legend(
-            loc="upper left", ncols=2, handletextpad=0.3, columnspacing=1.0, borderaxespad=0.2
+            handles=handles,
+            loc="upper left",
+            ncols=2,
+            handletextpad=0.2,
+            columnspacing=1.0,
+            borderaxespad=0.1,
         )
     return fig
 
@@ -397,10 +345,10 @@ def polar_figure(
         raise VibrapolError("the sweep has no bands")
     cols = max(1, min(columns, n))
     rows = math.ceil(n / cols)
-    w = _width(width)
+    w = figure_width(width)
     theta = np.deg2rad(sweep.angles_deg)
     with rc_context(STYLE):
-        fig = _new_figure(w, rows * (w / cols) * 1.05 + 0.35)
+        fig = new_figure(w, rows * (w / cols) * 1.05 + 0.35)
         for b in range(n):
             ax = fig.add_subplot(rows, cols, b + 1, projection="polar")
             par, crs = sweep.parallel[:, b], sweep.crossed[:, b]
@@ -426,24 +374,3 @@ def polar_figure(
             ax.set_title(label, fontsize=7.5, pad=4.0)
         fig.legend(*fig.axes[0].get_legend_handles_labels(), loc="outside lower center", ncols=2)
     return fig
-
-
-def figure_bytes(fig: Figure, fmt: str, dpi: int = 300) -> bytes:
-    """The figure rendered as ``png``, ``svg`` or ``pdf`` (reproducible: no dates embedded)."""
-    if fmt not in ("png", "svg", "pdf"):
-        raise VibrapolError(f"figure format must be png, svg or pdf, got {fmt!r}")
-    meta = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}[fmt]
-    buf = io.BytesIO()
-    with rc_context(STYLE):
-        fig.savefig(buf, format=fmt, dpi=dpi, metadata=meta)
-    return buf.getvalue()
-
-
-def save_figure(fig: Figure, path: str | Path, *, force: bool = False, dpi: int = 300) -> Path:
-    """Write the figure to ``path`` (format from the suffix .png/.svg/.pdf) atomically."""
-    p = Path(path)
-    fmt = p.suffix.lower().lstrip(".")
-    if fmt not in ("png", "svg", "pdf"):
-        raise VibrapolError(f"{p}: figure files must end in .png, .svg or .pdf")
-    check_writable(p, force)
-    return write_atomic(p, figure_bytes(fig, fmt, dpi), force=force)

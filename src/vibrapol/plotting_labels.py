@@ -1,8 +1,10 @@
 """Placing band labels above spectral peaks without collisions (used by :mod:`vibrapol.plotting`).
 
-Greedy placement in priority order (strongest band first): a label sits centred above its band,
-high enough to clear every curve under its whole width; it is kept only if it overlaps no label
-already placed and not the legend.  The y limit is then raised just enough for the labels kept.
+Greedy placement in priority order (strongest band first).  A label is tried centred above its
+band, then beside it (right, then left) joined to the peak by a thin leader line; at each place
+it sits just high enough to clear every curve under its width.  A place is taken only if the
+label overlaps no label already placed and not the legend; a band with no free place stays
+unlabelled.  Finally the y limit is raised just enough for the labels kept.
 """
 
 from __future__ import annotations
@@ -14,26 +16,32 @@ import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
-#: Gap between a peak and its label, in points.
+#: Gap between a peak (or the curves) and a label, in points.
 OFFSET_PT = 2.0
 #: Highest allowed label top, as a fraction of the axes height.
 TOP_FRACTION = 0.97
-#: Space kept above the highest curve when there are no labels, as a fraction of its height.
+#: Space kept above the highest curve, as a fraction of its height.
 CURVE_HEADROOM = 0.08
+#: Extra rise of a label placed beside its band, as a fraction of the highest curve.
+SIDE_RISE = 0.06
+#: Where a label is tried, as shifts of its centre in label widths (0 = centred).
+SHIFTS = (0.0, 0.6, -0.6)
 
 
 @dataclass
 class _Box:
-    x0: float  # data
+    pos: float  # band position (data)
+    peak: float  # top of the curves at the band (data)
+    x0: float  # label extent (data)
     x1: float
-    y_data: float  # anchor (top of the curves under the label)
+    bottom: float  # label bottom before the offset (data)
     h_px: float  # label height including the offset
 
 
 def _overlap(a: _Box, b: _Box, top: float, axes_px: float) -> bool:
     if a.x1 <= b.x0 or b.x1 <= a.x0:
         return False
-    ya, yb = a.y_data / top * axes_px, b.y_data / top * axes_px
+    ya, yb = a.bottom / top * axes_px, b.bottom / top * axes_px
     return not (ya + a.h_px <= yb or yb + b.h_px <= ya)
 
 
@@ -42,7 +50,7 @@ def _top_needed(boxes: Sequence[_Box], curve_top: float, axes_px: float) -> floa
     for b in boxes:
         room = TOP_FRACTION - b.h_px / axes_px
         if room > 0.15:
-            need = max(need, b.y_data / room)
+            need = max(need, b.bottom / room)
     return need
 
 
@@ -58,60 +66,85 @@ def place_labels(
 ) -> list:
     """Annotate up to ``count`` of ``candidates`` ((position, text), best first) on ``ax``.
 
-    ``curves`` are the plotted y arrays on axis ``x`` (in the axes' data units); the axes' x
-    limits must be set.  Returns the annotations kept and sets the y limits of ``ax``.
+    ``curves`` are the plotted y arrays on axis ``x`` (in the axes' data units); the x limits
+    of ``ax`` must be set.  Returns the annotations made and sets the y limits of ``ax``.
     """
     fig.canvas.draw()
     renderer = fig.canvas.get_renderer()
-    box = ax.get_window_extent(renderer)
+    frame = ax.get_window_extent(renderer)
     x0, x1 = ax.get_xlim()
-    per_px = (x1 - x0) / box.width
+    per_px = (x1 - x0) / frame.width
     offset_px = OFFSET_PT * fig.dpi / 72.0
     envelope = np.max(np.vstack(curves), axis=0)
     legend = ax.get_legend()
     legend_box = None
     if legend is not None:
         lb = legend.get_window_extent(renderer)
-        legend.set_loc(
-            ((lb.x0 - box.x0) / box.width, (lb.y0 - box.y0) / box.height)
-        )  # freeze "best"
+        legend.set_loc(((lb.x0 - frame.x0) / frame.width, (lb.y0 - frame.y0) / frame.height))
         legend_box = (
-            x0 + (lb.x0 - box.x0) * per_px,
-            x0 + (lb.x1 - box.x0) * per_px,
-            lb.y0 - box.y0,
+            x0 + (lb.x0 - frame.x0) * per_px,
+            x0 + (lb.x1 - frame.x0) * per_px,
+            lb.y0 - frame.y0,
         )
-    kept: list[tuple[object, _Box]] = []
+
+    def top_of_curves(lo: float, hi: float) -> float | None:
+        under = (x >= lo) & (x <= hi)
+        return float(envelope[under].max()) if under.any() else None
+
+    kept: list[tuple[str, _Box]] = []
     for pos, text in candidates:
         if len(kept) >= count:
             break
-        ann = ax.annotate(
-            text,
-            (pos, 0.0),
-            xytext=(0, OFFSET_PT),
-            textcoords="offset points",
-            ha="center",
-            va="bottom",
-            in_layout=False,
-            **text_kw,
-        )
-        ext = ann.get_window_extent(renderer)
-        half = 0.5 * ext.width * per_px  # the glyph box already has side bearings
-        lo, hi = pos - half, pos + half
-        under = (x >= lo) & (x <= hi)
-        if lo < x0 - 0.02 * (x1 - x0) or hi > x1 + 0.02 * (x1 - x0) or not under.any():
-            ann.remove()
+        probe = ax.text(0, 0, text, **text_kw)
+        ext = probe.get_window_extent(renderer)
+        probe.remove()
+        width, half = ext.width * per_px, 0.5 * ext.width * per_px
+        if not x[0] <= pos <= x[-1]:
             continue
-        b = _Box(lo, hi, float(envelope[under].max()), ext.height + offset_px)
-        boxes = [kb for _, kb in kept] + [b]
-        top = _top_needed(boxes, curve_top, box.height)
-        clash = any(_overlap(b, kb, top, box.height) for _, kb in kept)
-        if legend_box is not None and not (hi <= legend_box[0] or lo >= legend_box[1]):
-            clash = clash or b.y_data / top * box.height + b.h_px > legend_box[2]
-        if clash:
-            ann.remove()
-            continue
-        ann.xy = (pos, b.y_data)
-        kept.append((ann, b))
-    top = _top_needed([kb for _, kb in kept], curve_top, box.height)
+        peak = float(np.interp(pos, x, envelope))
+        for shift in SHIFTS:
+            centre = pos + shift * width
+            lo, hi = centre - half, centre + half
+            if lo < x0 - 0.01 * (x1 - x0) or hi > x1 + 0.01 * (x1 - x0):
+                continue
+            bottom = top_of_curves(lo, hi) or 0.0
+            if shift:
+                bottom = max(bottom, peak) + SIDE_RISE * curve_top
+            b = _Box(pos, peak, lo, hi, bottom, ext.height + offset_px)
+            top = _top_needed([kb for _, kb in kept] + [b], curve_top, frame.height)
+            clash = any(_overlap(b, kb, top, frame.height) for _, kb in kept)
+            if legend_box is not None and not (hi <= legend_box[0] or lo >= legend_box[1]):
+                clash = clash or b.bottom / top * frame.height + b.h_px > legend_box[2]
+            if not clash:
+                kept.append((text, b))
+                break
+    top = _top_needed([kb for _, kb in kept], curve_top, frame.height)
     ax.set_ylim(0.0, top)
-    return [a for a, _ in kept]
+    offset_data = offset_px / frame.height * top
+    made = []
+    for text, b in kept:
+        centre = 0.5 * (b.x0 + b.x1)
+        beside = abs(centre - b.pos) > 1e-9
+        made.append(
+            ax.annotate(
+                text,
+                (b.pos, b.peak + 0.5 * offset_data),
+                xytext=(centre, b.bottom + offset_data),
+                textcoords="data",
+                ha="center",
+                va="bottom",
+                in_layout=False,
+                arrowprops={
+                    "arrowstyle": "-",
+                    "lw": 0.4,
+                    "color": "#888888",
+                    "relpos": (0.5, 0.0),
+                    "shrinkA": 0.5,
+                    "shrinkB": 0.0,
+                }
+                if beside
+                else None,
+                **text_kw,
+            )
+        )
+    return made

@@ -158,7 +158,10 @@ class FrequencyScale:
         if self.factor_high is None:
             text = f"scaled by {self.factor:g}"
         else:
-            text = f"scaled by {self.factor:g} below {self.split_cm1:g} cm-1 and {self.factor_high:g} above"
+            text = (
+                f"scaled by {self.factor:g} below {self.split_cm1:g} cm-1 "
+                f"and {self.factor_high:g} above"
+            )
         return f"{text} [{self.note}]" if self.note else text
 
 

@@ -45,7 +45,7 @@ def _csv(rows: list[list[object]]) -> str:
 def grid_csv(grid: GridSpectrum) -> str:
     """``shift_cm1,vv,vh,…``: one row per grid point."""
     rows: list[list[object]] = [["shift_cm1", *grid.channels]]
-    for x, vals in zip(grid.shift_cm1, grid.values):
+    for x, vals in zip(grid.shift_cm1, grid.values, strict=True):
         rows.append([f"{x:.4f}", *(_num(v, ".8g") for v in vals)])
     return _csv(rows)
 
@@ -87,7 +87,8 @@ def header(sticks: StickSpectrum) -> dict[str, Any]:
         "scale": c.scale.describe(),
         "orientation": c.orientation,
         "components": [
-            {"source": s, "weight": w} for s, w in zip(sticks.components, sticks.weights)
+            {"source": s, "weight": w}
+            for s, w in zip(sticks.components, sticks.weights, strict=True)
         ],
         "constants": CODATA_VERSION,
     }

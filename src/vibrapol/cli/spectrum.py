@@ -20,9 +20,10 @@ from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.lineshapes import SHAPES, LineShape
+from vibrapol.quantities import QUANTITY_UNITS
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 from vibrapol.sources import read_modes, readers
-from vibrapol.spectrum import QUANTITY_UNITS, StickSpectrum, broaden, stick_spectrum
+from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
 
 HELP = "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures"
 
@@ -37,7 +38,9 @@ def parse_range(text: str) -> tuple[float, float]:
     try:
         lo, hi = (float(t) for t in text.split(":"))
     except ValueError:
-        raise VibrapolError(f"range must be LOW:HIGH in cm-1, e.g. 100:3600, got {text!r}") from None
+        raise VibrapolError(
+            f"range must be LOW:HIGH in cm-1, e.g. 100:3600, got {text!r}"
+        ) from None
     if not hi > lo:
         raise VibrapolError(f"range must run from low to high, got {text!r}")
     return lo, hi
@@ -53,14 +56,18 @@ def parse_floats(text: str, what: str) -> list[float]:
 
 def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
     """Options shared by ``spectrum`` and ``sweep``: source kind, conditions, scaling."""
-    parser.add_argument("--kind", choices=sorted(readers()), help="input kind (default: from the content)")
+    parser.add_argument(
+        "--kind", choices=sorted(readers()), help="input kind (default: from the content)"
+    )
     parser.add_argument(
         "--laser-nm",
         type=float,
         default=532.0,
         help=f"excitation wavelength in nm (default 532). {LASER_CAUTION}",
     )
-    parser.add_argument("--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)")
+    parser.add_argument(
+        "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
+    )
     parser.add_argument(
         "--quantity",
         choices=sorted(QUANTITY_UNITS),
@@ -75,8 +82,12 @@ def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="METHOD/BASIS",
         help="published factor for fundamentals, e.g. B3LYP/6-31G* (see vibrapol.scaling)",
     )
-    parser.add_argument("--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1")
-    parser.add_argument("--split-cm1", type=float, metavar="X", help="wavenumber where --scale-high starts")
+    parser.add_argument(
+        "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
+    )
+    parser.add_argument(
+        "--split-cm1", type=float, metavar="X", help="wavenumber where --scale-high starts"
+    )
     parser.add_argument(
         "--degeneracy-tol-cm1",
         type=float,
@@ -100,32 +111,75 @@ def scale_from_args(args: argparse.Namespace) -> FrequencyScale:
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol spectrum``."""
-    parser.add_argument("sources", nargs="+", metavar="SOURCE", help="*.modes.json or quantum-chemistry output(s)")
+    parser.add_argument(
+        "sources", nargs="+", metavar="SOURCE", help="*.modes.json or quantum-chemistry output(s)"
+    )
     add_physics_arguments(parser)
-    parser.add_argument("--geometry", type=int, choices=GEOMETRIES, default=90, help="scattering angle (default 90)")
-    parser.add_argument("--channels", default="", help="extra channels, e.g. nv,nh,vu or p45a-45 (vv, vh always)")
-    parser.add_argument("--anti-stokes", action="store_true", help="add anti-Stokes bands at negative shifts")
-    parser.add_argument("--shape", choices=SHAPES, default="lorentzian", help="line shape (default lorentzian)")
-    parser.add_argument("--fwhm-cm1", type=float, default=8.0, help="full width at half maximum (default 8)")
-    parser.add_argument("--fwhm-slope", type=float, default=0.0, help="FWHM grows by this times the shift (default 0)")
-    parser.add_argument("--lorentzian-share", type=float, default=0.5, help="Voigt: Lorentzian share (default 0.5)")
-    parser.add_argument("--range-cm1", default=None, help="LOW:HIGH (default 100:3600; -3600:3600 with --anti-stokes)")
+    parser.add_argument(
+        "--geometry", type=int, choices=GEOMETRIES, default=90, help="scattering angle (default 90)"
+    )
+    parser.add_argument(
+        "--channels", default="", help="extra channels, e.g. nv,nh,vu or p45a-45 (vv, vh always)"
+    )
+    parser.add_argument(
+        "--anti-stokes", action="store_true", help="add anti-Stokes bands at negative shifts"
+    )
+    parser.add_argument(
+        "--shape", choices=SHAPES, default="lorentzian", help="line shape (default lorentzian)"
+    )
+    parser.add_argument(
+        "--fwhm-cm1", type=float, default=8.0, help="full width at half maximum (default 8)"
+    )
+    parser.add_argument(
+        "--fwhm-slope",
+        type=float,
+        default=0.0,
+        help="FWHM grows by this times the shift (default 0)",
+    )
+    parser.add_argument(
+        "--lorentzian-share", type=float, default=0.5, help="Voigt: Lorentzian share (default 0.5)"
+    )
+    parser.add_argument(
+        "--range-cm1",
+        default=None,
+        help="LOW:HIGH (default 100:3600; -3600:3600 with --anti-stokes)",
+    )
     parser.add_argument("--step-cm1", type=float, default=0.5, help="grid step (default 0.5)")
     parser.add_argument(
-        "--energies-kjmol", help="relative energies of the sources (default: their electronic energies)"
+        "--energies-kjmol",
+        help="relative energies of the sources (default: their electronic energies)",
     )
-    parser.add_argument("--zero-point", action="store_true", help="add harmonic zero-point energies to source energies")
-    parser.add_argument("--format", choices=("csv", "json"), default="csv", help="spectrum format (default csv)")
+    parser.add_argument(
+        "--zero-point",
+        action="store_true",
+        help="add harmonic zero-point energies to source energies",
+    )
+    parser.add_argument(
+        "--format", choices=("csv", "json"), default="csv", help="spectrum format (default csv)"
+    )
     add_output_arguments(parser, "spectrum")
     parser.add_argument("--sticks", metavar="FILE", help="also write the stick table (CSV) here")
     parser.add_argument("--figure", metavar="FILE", help="spectrum figure (.svg, .pdf or .png)")
-    parser.add_argument("--rho-figure", metavar="FILE", help="depolarization-ratio figure (.svg, .pdf or .png)")
-    parser.add_argument("--layout", choices=("shared", "stacked"), default="shared", help="VV and VH on one axes or stacked")
-    parser.add_argument("--width", default="single", help="figure width: single, double or inches (default single)")
-    parser.add_argument("--labels", type=int, default=6, help="number of bands labelled in the figure (default 6)")
+    parser.add_argument(
+        "--rho-figure", metavar="FILE", help="depolarization-ratio figure (.svg, .pdf or .png)"
+    )
+    parser.add_argument(
+        "--layout",
+        choices=("shared", "stacked"),
+        default="shared",
+        help="VV and VH on one axes or stacked",
+    )
+    parser.add_argument(
+        "--width", default="single", help="figure width: single, double or inches (default single)"
+    )
+    parser.add_argument(
+        "--labels", type=int, default=6, help="number of bands labelled in the figure (default 6)"
+    )
 
 
-def build_sticks(args: argparse.Namespace, channels: list[str], geometry: int, **extra: object) -> StickSpectrum:
+def build_sticks(
+    args: argparse.Namespace, channels: list[str], geometry: int, **extra: object
+) -> StickSpectrum:
     """Read the sources and compute their (mixture) stick spectrum."""
     modesets = [read_modes(s, kind=args.kind) for s in args.sources]
     options = dict(
@@ -157,7 +211,9 @@ def _width(text: str) -> str | float:
     try:
         return float(text)
     except ValueError:
-        raise VibrapolError(f"--width must be single, double or a number of inches, got {text!r}") from None
+        raise VibrapolError(
+            f"--width must be single, double or a number of inches, got {text!r}"
+        ) from None
 
 
 def run(args: argparse.Namespace) -> int:
@@ -173,7 +229,9 @@ def run(args: argparse.Namespace) -> int:
     default_range = "-3600:3600" if args.anti_stokes else "100:3600"
     span = parse_range(args.range_cm1 or default_range)
     channels = [c for c in args.channels.split(",") if c.strip()]
-    sticks = build_sticks(args, channels, args.geometry, side="both" if args.anti_stokes else "stokes")
+    sticks = build_sticks(
+        args, channels, args.geometry, side="both" if args.anti_stokes else "stokes"
+    )
     grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
 
     from vibrapol import spectrum_io
@@ -186,7 +244,11 @@ def run(args: argparse.Namespace) -> int:
 
         if args.figure:
             fig = plotting.spectrum_figure(
-                grid, channels=grid.channels, layout=args.layout, width=_width(args.width), label_count=args.labels
+                grid,
+                channels=grid.channels,
+                layout=args.layout,
+                width=_width(args.width),
+                label_count=args.labels,
             )
             outputs.append((args.figure, plotting.figure_bytes(fig, _suffix(args.figure))))
         if args.rho_figure:

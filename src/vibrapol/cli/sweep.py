@@ -33,25 +33,62 @@ ORIENTATIONS = ("isotropic", "fixed", "aligned", "uniaxial")
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol sweep``."""
-    parser.add_argument("source", help="*.modes.json or quantum-chemistry output (needs polarizability derivatives)")
-    parser.add_argument("--orientation", choices=ORIENTATIONS, required=True, help="how the molecules are oriented")
-    parser.add_argument("--euler-deg", help="fixed: z-y-z Euler angles A,B,C of the rotation molecule -> laboratory")
-    parser.add_argument("--mol-axis", default="z", help="molecular axis: x, y, z or three numbers (default z)")
-    parser.add_argument("--director", default="y", help="laboratory axis the molecular axis aligns to (default y = V)")
-    parser.add_argument("--tilt-deg", type=float, default=0.0, help="uniaxial: most probable tilt (default 0)")
     parser.add_argument(
-        "--tilt-spread-deg", type=float, default=0.0, help="uniaxial: Gaussian spread of the tilt (default 0; inf = none)"
+        "source", help="*.modes.json or quantum-chemistry output (needs polarizability derivatives)"
     )
-    parser.add_argument("--twist-deg", type=float, help="uniaxial: fixed twist about the molecular axis (default: uniform)")
-    parser.add_argument("--angles-deg", default="0:360:5", help="polarizer angles START:STOP:STEP (default 0:360:5)")
-    parser.add_argument("--bands", help="Raman shifts of the bands to sweep, comma-separated (default: strongest)")
-    parser.add_argument("--top", type=int, default=4, help="number of strongest bands when --bands is not given")
-    parser.add_argument("--geometry", type=int, choices=GEOMETRIES, default=180, help="scattering angle (default 180)")
+    parser.add_argument(
+        "--orientation", choices=ORIENTATIONS, required=True, help="how the molecules are oriented"
+    )
+    parser.add_argument(
+        "--euler-deg", help="fixed: z-y-z Euler angles A,B,C of the rotation molecule -> laboratory"
+    )
+    parser.add_argument(
+        "--mol-axis", default="z", help="molecular axis: x, y, z or three numbers (default z)"
+    )
+    parser.add_argument(
+        "--director",
+        default="y",
+        help="laboratory axis the molecular axis aligns to (default y = V)",
+    )
+    parser.add_argument(
+        "--tilt-deg", type=float, default=0.0, help="uniaxial: most probable tilt (default 0)"
+    )
+    parser.add_argument(
+        "--tilt-spread-deg",
+        type=float,
+        default=0.0,
+        help="uniaxial: Gaussian spread of the tilt (default 0; inf = none)",
+    )
+    parser.add_argument(
+        "--twist-deg",
+        type=float,
+        help="uniaxial: fixed twist about the molecular axis (default: uniform)",
+    )
+    parser.add_argument(
+        "--angles-deg", default="0:360:5", help="polarizer angles START:STOP:STEP (default 0:360:5)"
+    )
+    parser.add_argument(
+        "--bands", help="Raman shifts of the bands to sweep, comma-separated (default: strongest)"
+    )
+    parser.add_argument(
+        "--top", type=int, default=4, help="number of strongest bands when --bands is not given"
+    )
+    parser.add_argument(
+        "--geometry",
+        type=int,
+        choices=GEOMETRIES,
+        default=180,
+        help="scattering angle (default 180)",
+    )
     add_physics_arguments(parser)
-    parser.add_argument("--format", choices=("csv", "json"), default="csv", help="output format (default csv)")
+    parser.add_argument(
+        "--format", choices=("csv", "json"), default="csv", help="output format (default csv)"
+    )
     add_output_arguments(parser, "sweep")
     parser.add_argument("--figure", metavar="FILE", help="polar figure (.svg, .pdf or .png)")
-    parser.add_argument("--width", default="double", help="figure width: single, double or inches (default double)")
+    parser.add_argument(
+        "--width", default="double", help="figure width: single, double or inches (default double)"
+    )
 
 
 def orientation_from_args(args: argparse.Namespace) -> orient.Orientation:
@@ -69,7 +106,11 @@ def orientation_from_args(args: argparse.Namespace) -> orient.Orientation:
         return orient.aligned(args.mol_axis, args.director)
     spread = math.inf if str(args.tilt_spread_deg).lower() == "inf" else args.tilt_spread_deg
     return orient.uniaxial(
-        args.mol_axis, args.director, tilt_deg=args.tilt_deg, tilt_spread_deg=spread, twist_deg=args.twist_deg
+        args.mol_axis,
+        args.director,
+        tilt_deg=args.tilt_deg,
+        tilt_spread_deg=spread,
+        twist_deg=args.twist_deg,
     )
 
 

@@ -16,7 +16,6 @@ ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests"))
 
 from spectrum_helpers import pyscf_modeset  # noqa: E402
-
 from vibrapol.sources.modes_json import write_modes_json  # noqa: E402
 
 # Starting structure: C at the origin, C2 axis along z, H in the yz plane, Cl in the xz plane.

@@ -116,7 +116,7 @@ def spectrum_figure(
     layout : ``"shared"`` (one axes) or ``"stacked"`` (one panel per channel, shared x and y).
     width : ``"single"``, ``"double"`` or a width in inches.
     height_in : float, optional
-        Default: 2.4 in (shared) or 1.5 in per panel (stacked).
+        Default: 2.4 in (2.7 in from 5 in wide) for shared axes, 0.2 + 1.35 in per panel stacked.
     sticks : bool
         Draw the sticks under the envelope (scaled so the tallest stick meets the tallest peak).
     label_count : int
@@ -146,7 +146,7 @@ def spectrum_figure(
         stick_scale = env / float(np.max(st)) if np.max(st) > 0 else 0.0
     n_panels = 1 if layout == "shared" else len(chans)
     w = figure_width(width)
-    h = height_in or (2.4 if layout == "shared" else 0.2 + 1.35 * n_panels)
+    h = height_in or ((2.4 if w < 5 else 2.7) if layout == "shared" else 0.2 + 1.35 * n_panels)
     with rc_context(STYLE):
         fig = new_figure(w, h)
         axes = fig.subplots(n_panels, 1, sharex=True, sharey=True, squeeze=False)[:, 0]
@@ -337,8 +337,8 @@ def polar_figure(
 ) -> Figure:
     """One polar panel per band: parallel and crossed heights versus polarizer angle.
 
-    0° (V) points up and angles grow clockwise towards H; each panel is scaled to its own
-    maximum when ``normalize``.
+    0° (polarizer along V) points up and angles grow clockwise towards H (90°); each panel is
+    scaled to its own maximum when ``normalize`` (grid circles at 0.5 and 1).
     """
     n = sweep.n_bands
     if n == 0:
@@ -348,7 +348,7 @@ def polar_figure(
     w = figure_width(width)
     theta = np.deg2rad(sweep.angles_deg)
     with rc_context(STYLE):
-        fig = new_figure(w, rows * (w / cols) * 1.05 + 0.35)
+        fig = new_figure(w, rows * (w / cols) * 1.12 + 0.45)
         for b in range(n):
             ax = fig.add_subplot(rows, cols, b + 1, projection="polar")
             par, crs = sweep.parallel[:, b], sweep.crossed[:, b]
@@ -360,10 +360,10 @@ def polar_figure(
             )
             ax.set_theta_zero_location("N")
             ax.set_theta_direction(-1)
-            ax.set_rlabel_position(135)
-            ax.tick_params(labelsize=6.0, pad=1.0)
-            ax.set_xticks(np.deg2rad([0, 90, 180, 270]))
-            ax.set_xticklabels(["0°", "90°", "180°", "270°"])
+            ax.tick_params(labelsize=6.0, pad=0.0)
+            ax.set_xticks(np.deg2rad(np.arange(0, 360, 45)))
+            ax.set_xticklabels(["0°", "", "90°", "", "", "", "", ""])
+            ax.set_yticklabels([])
             if normalize:
                 ax.set_rticks([0.5, 1.0])
                 ax.set_rlim(0, 1.05)

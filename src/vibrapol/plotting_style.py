@@ -35,7 +35,7 @@ PALETTE = {
 #: Colours for channels without an entry in PALETTE.
 OTHER_COLOURS = ("#E69F00", "#56B4E9", "#009E73", "#CC79A7", "#000000")
 #: Line style of each channel (VV and VH differ also in grey scale).
-DASHES = {"vv": "-", "vh": (0, (4, 1.5)), "nv": "-", "nh": (0, (4, 1.5))}
+DASHES = {"vv": "-", "vh": (0, (3, 1)), "nv": "-", "nh": (0, (3, 1))}
 
 #: Display names of the channels.
 CHANNEL_NAMES = {

@@ -159,9 +159,19 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     add_output_arguments(parser, "spectrum")
     parser.add_argument("--sticks", metavar="FILE", help="also write the stick table (CSV) here")
-    parser.add_argument("--figure", metavar="FILE", help="spectrum figure (.svg, .pdf or .png)")
     parser.add_argument(
-        "--rho-figure", metavar="FILE", help="depolarization-ratio figure (.svg, .pdf or .png)"
+        "--figure",
+        metavar="FILE",
+        action="append",
+        default=[],
+        help="spectrum figure (.svg, .pdf or .png); repeat for several formats",
+    )
+    parser.add_argument(
+        "--rho-figure",
+        metavar="FILE",
+        action="append",
+        default=[],
+        help="depolarization-ratio figure (.svg, .pdf or .png); repeat for several formats",
     )
     parser.add_argument(
         "--layout",
@@ -219,12 +229,11 @@ def _width(text: str) -> str | float:
 def run(args: argparse.Namespace) -> int:
     """Compute the spectrum and write every requested output (all or nothing)."""
     check_output(args)
-    for path in (args.sticks, args.figure, args.rho_figure):
+    for path in [args.sticks, *args.figure, *args.rho_figure]:
         if path:
             check_writable(path, args.force)
-    for path in (args.figure, args.rho_figure):
-        if path:
-            _suffix(path)
+    for path in [*args.figure, *args.rho_figure]:
+        _suffix(path)
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
     default_range = "-3600:3600" if args.anti_stokes else "100:3600"
     span = parse_range(args.range_cm1 or default_range)
@@ -250,10 +259,10 @@ def run(args: argparse.Namespace) -> int:
                 width=_width(args.width),
                 label_count=args.labels,
             )
-            outputs.append((args.figure, plotting.figure_bytes(fig, _suffix(args.figure))))
+            outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.figure]
         if args.rho_figure:
             fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)
-            outputs.append((args.rho_figure, plotting.figure_bytes(fig, _suffix(args.rho_figure))))
+            outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.rho_figure]
     text = spectrum_io.grid_csv(grid) if args.format == "csv" else spectrum_io.grid_json(grid)
     for path, data in outputs:
         write_atomic(path, data, force=args.force)

@@ -57,7 +57,7 @@ def test_png_is_300_dpi_at_journal_width(grid, tmp_path):
     assert data[:8] == PNG_MAGIC
     w, h = png_size(data)
     assert w == pytest.approx(7.0 * 300, abs=2)  # double column, 7 in at 300 dpi
-    assert h == pytest.approx(2.4 * 300, abs=2)
+    assert h == pytest.approx(2.7 * 300, abs=2)  # default height at double width
 
 
 def test_pdf_and_save_refuses_overwrite(grid, tmp_path):

@@ -202,3 +202,16 @@ def test_coarse_grid_is_warned():
     s = stick_spectrum(two_bands())
     with pytest.warns(AccuracyWarning, match="coarse"):
         broaden(s, LineShape("gaussian", 2.0), range_cm1=(500.0, 3000.0), step_cm1=2.0)
+
+
+def test_near_zero_band_is_warned_for_intensities():
+    # n̄ + 1 ≈ kT/(hcν̃) + ½ = 41.9 at 5 cm⁻¹, 298 K (Bose–Einstein): a residual mode would
+    # dominate an intensity spectrum, so it is flagged; activities are not affected.
+    m = analytic_modeset([POLARIZED, TRACELESS], [5.0, 1000.0])
+    with pytest.warns(AccuracyWarning, match="below 10 cm-1"):
+        s = stick_spectrum(m, quantity="intensity")
+    assert thermal_factor(np.array([5.0]), 298.15)[0] == pytest.approx(41.9, abs=0.1)
+    assert s.n_bands == 2
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        stick_spectrum(m, quantity="activity")

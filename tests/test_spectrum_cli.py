@@ -167,3 +167,33 @@ def test_existing_output_is_not_overwritten(water, tmp_path, capsys):
     assert main(["spectrum", str(src), "-o", str(out)]) == 2
     assert out.read_text() == "precious\n"
     assert "--force" in capsys.readouterr().err
+
+
+def test_two_sources_make_a_boltzmann_mixture(water, tmp_path):
+    # Same molecule twice, ΔE = 2 kJ/mol at 298.15 K: weights 1/(1 + e^(−ΔE/RT)) and the rest
+    # (Boltzmann distribution; R from scipy.constants), visible in the JSON header.
+    from scipy import constants as C
+
+    _, src = water
+    out = tmp_path / "mix.json"
+    argv = ["spectrum", str(src), str(src), "--energies-kjmol", "0,2", "--format", "json"]
+    assert main([*argv, "--step-cm1", "2", "-o", str(out)]) == 0
+    weights = [c["weight"] for c in json.loads(out.read_text())["header"]["components"]]
+    x = np.exp(-2.0 / (C.R / 1000.0 * 298.15))
+    np.testing.assert_allclose(weights, [1 / (1 + x), x / (1 + x)], rtol=1e-12)
+
+
+def test_sweep_orientation_options():
+    # z-y-z Euler angles (H. Goldstein, Classical Mechanics, 1980): the CLI builds the same
+    # rotation as vibrapol.orientation.euler_zyz; inf spread means no preferred tilt.
+    import argparse
+
+    from vibrapol import orientation as o
+    from vibrapol.cli.sweep import add_arguments, orientation_from_args
+
+    parser = argparse.ArgumentParser()
+    add_arguments(parser)
+    args = parser.parse_args(["x.json", "--orientation", "fixed", "--euler-deg", "10,20,30"])
+    np.testing.assert_allclose(orientation_from_args(args).rotations[0], o.euler_zyz(10, 20, 30))
+    args = parser.parse_args(["x.json", "--orientation", "uniaxial", "--tilt-spread-deg", "inf"])
+    assert "no preferred tilt" in orientation_from_args(args).description

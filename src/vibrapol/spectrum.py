@@ -30,6 +30,9 @@ from vibrapol.quantities import QUANTITY_UNITS, SIDES, quantity_factor, thermal_
 from vibrapol.ramantable import RamanTable, raman_table
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 
+#: Bands below this wavenumber are suspicious (residual rotations/translations): warned.
+LOW_BAND_CM1 = 10.0
+
 #: Line shape used when none is given: Lorentzian, FWHM 8 cm⁻¹.
 DEFAULT_LINESHAPE = LineShape()
 
@@ -216,7 +219,8 @@ def stick_spectrum(
     Warns
     -----
     AccuracyWarning
-        When imaginary modes are dropped.
+        When imaginary modes are dropped, or (for intensities and cross sections) a band lies
+        below :data:`LOW_BAND_CM1`.
     """
     chans = with_base_channels(channels)
     desc = "isotropic" if orientation is None else orientation.description
@@ -247,6 +251,13 @@ def stick_spectrum(
         )
     sets = [s for s, k in zip(sets, keep, strict=True) if k]
     pos = pos[keep]
+    if quantity != "activity" and np.any(pos < LOW_BAND_CM1):
+        warnings.warn(
+            f"{modes.provenance.source_file or 'mode set'}: band(s) below {LOW_BAND_CM1:g} cm-1 "
+            "(residual rotations or translations?) get a huge thermal factor and may dominate",
+            AccuracyWarning,
+            stacklevel=2,
+        )
     heights = sum_over_sets(per_mode, sets).reshape(len(sets), len(chans))
     first = [s[0] for s in sets]
     sides = ["stokes", "anti-stokes"] if side == "both" else [side]

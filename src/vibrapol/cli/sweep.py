@@ -104,12 +104,11 @@ def orientation_from_args(args: argparse.Namespace) -> orient.Orientation:
         return orient.fixed(orient.euler_zyz(*angles), f"fixed, Euler z-y-z {args.euler_deg} deg")
     if args.orientation == "aligned":
         return orient.aligned(args.mol_axis, args.director)
-    spread = math.inf if str(args.tilt_spread_deg).lower() == "inf" else args.tilt_spread_deg
     return orient.uniaxial(
         args.mol_axis,
         args.director,
         tilt_deg=args.tilt_deg,
-        tilt_spread_deg=spread,
+        tilt_spread_deg=args.tilt_spread_deg,
         twist_deg=args.twist_deg,
     )
 

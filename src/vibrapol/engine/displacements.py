@@ -54,7 +54,8 @@ class DisplacementPlan:
         return int(self.coordinates_ang.shape[0])
 
 
-def _check_step(step_ang: float) -> float:
+def check_step(step_ang: float) -> float:
+    """The step as a float; raises :class:`ShapeError` outside (0, 0.1] Å."""
     step = float(step_ang)
     if not (0.0 < step <= 0.1):
         raise ShapeError(f"displacement step must be in (0, 0.1] Å, got {step_ang}")
@@ -64,7 +65,7 @@ def _check_step(step_ang: float) -> float:
 def cartesian_plan(coordinates_ang: np.ndarray, step_ang: float) -> DisplacementPlan:
     """±h along each of the 3N Cartesian coordinates."""
     x0 = np.asarray(coordinates_ang, dtype=float)
-    step = _check_step(step_ang)
+    step = check_step(step_ang)
     n = x0.shape[0]
     coords, labels = [], []
     for i in range(3 * n):
@@ -81,7 +82,7 @@ def normal_mode_plan(
 ) -> DisplacementPlan:
     """±h (Cartesian length) along the displacement L_k/√m of each normal mode."""
     x0 = np.asarray(coordinates_ang, dtype=float)
-    step = _check_step(step_ang)
+    step = check_step(step_ang)
     inv_sqrt_m = np.repeat(1.0 / np.sqrt(np.asarray(masses_da, dtype=float)), 3)
     cart = np.asarray(modes, dtype=float) * inv_sqrt_m[None, :]
     norms = np.linalg.norm(cart, axis=1)

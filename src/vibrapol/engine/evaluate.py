@@ -6,6 +6,8 @@ worker.  Results are in the package units (Å³ for α); PySCF works in bohr int
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
@@ -73,12 +75,35 @@ def limit_threads(threads: int | None) -> None:
     threadpool_limits(int(threads))
 
 
+@contextmanager
+def threads_limited(threads: int | None) -> Iterator[None]:
+    """Like :func:`limit_threads` for the duration of a block, then restore the old limits.
+
+    A task may run inside the caller's own process (Dask with ``processes=False``); it must not
+    leave that process with fewer threads than it had.
+    """
+    if threads is None:
+        yield
+        return
+    from pyscf import lib
+    from threadpoolctl import threadpool_limits
+
+    previous = lib.num_threads()
+    limits = threadpool_limits(int(threads))
+    lib.num_threads(int(threads))
+    try:
+        yield
+    finally:
+        lib.num_threads(previous)
+        limits.restore_original_limits()
+
+
 def evaluate_polarizability(job: PolarizabilityJob) -> np.ndarray:
     """α (Å³, shape (3, 3)) at one displaced geometry: tight SCF from ``dm0``, then CPHF."""
-    limit_threads(job.threads)
-    mol = build_molecule(job.atomic_numbers, job.coordinates_ang, job.spec)
-    mf = run_scf(mol, job.spec, dm0=job.dm0, where="displaced geometry")
-    return cphf_polarizability(mf) * BOHR3_TO_ANG3
+    with threads_limited(job.threads):
+        mol = build_molecule(job.atomic_numbers, job.coordinates_ang, job.spec)
+        mf = run_scf(mol, job.spec, dm0=job.dm0, where="displaced geometry")
+        return cphf_polarizability(mf) * BOHR3_TO_ANG3
 
 
 def reference_calculation(
@@ -104,3 +129,12 @@ def reference_calculation(
         seconds_hessian=t2 - t1,
         seconds_alpha=t3 - t2,
     )
+
+
+def timed_polarizability(job: PolarizabilityJob) -> tuple[np.ndarray, float]:
+    """:func:`evaluate_polarizability` and its wall time in seconds (measured in the worker)."""
+    from time import perf_counter
+
+    t0 = perf_counter()
+    alpha = evaluate_polarizability(job)
+    return alpha, perf_counter() - t0

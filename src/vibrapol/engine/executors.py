@@ -21,6 +21,9 @@ from dataclasses import dataclass
 from vibrapol.engine.evaluate import limit_threads
 from vibrapol.errors import VibrapolError
 
+#: Seconds to wait for a Dask scheduler to answer before giving up.
+DASK_CONNECT_TIMEOUT_S = 10.0
+
 
 def available_cores() -> int:
     """Cores this process may use (its CPU affinity when the platform tells it)."""
@@ -107,7 +110,7 @@ def _dask_backend(scheduler: str) -> Iterator[Backend]:
             "--scheduler needs the 'distributed' package: pip install 'dask[distributed]'"
         ) from exc
     try:
-        client = Client(scheduler, timeout="10s", set_as_default=False)
+        client = Client(scheduler, timeout=DASK_CONNECT_TIMEOUT_S, set_as_default=False)
     except (OSError, TimeoutError, ValueError) as exc:
         raise VibrapolError(
             f"cannot connect to the Dask scheduler at {scheduler!r} ({exc}); start it first "

@@ -10,6 +10,7 @@ from ase.build import molecule
 
 from vibrapol.engine.checkpoint import CheckpointStore, checkpoint_path_for, task_key
 from vibrapol.engine.compute import run_engine
+from vibrapol.engine.executors import available_cores, choose_workers
 from vibrapol.engine.scf import MethodSpec
 from vibrapol.errors import VibrapolError
 
@@ -49,6 +50,13 @@ def test_dask_local_cluster_equals_serial(serial_run):
     assert run.backend == "dask"
     assert run.tasks.n_computed == 18
     assert _rel(run.modes.dalpha_dx, serial_run.modes.dalpha_dx) < 1e-8
+
+
+def test_automatic_worker_count():
+    # Short jobs run serially (a pool costs seconds to start); long ones use every core.
+    assert choose_workers(None, 1.0) == 1
+    assert choose_workers(None, 1000.0) == available_cores()
+    assert choose_workers(3, 0.0) == 3
 
 
 def test_unreachable_scheduler_is_a_clear_error(monkeypatch):

@@ -65,7 +65,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="Cartesian (6d) instead of spherical basis functions",
     )
     parser.add_argument(
-        "--workers", type=int, help="local worker processes (default: one per core)"
+        "--workers",
+        type=int,
+        help="local worker processes (default: one per core; 1 for jobs of a few seconds)",
     )
     parser.add_argument(
         "--scheduler", metavar="ADDRESS", help="send the tasks to this running Dask scheduler"

@@ -27,7 +27,7 @@ from vibrapol.engine.displacements import (
     normal_mode_plan,
 )
 from vibrapol.engine.evaluate import PolarizabilityJob
-from vibrapol.engine.executors import open_backend
+from vibrapol.engine.executors import choose_workers, open_backend
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress, want_progress
 from vibrapol.engine.runner import TaskStats, run_polarizability_tasks
@@ -162,9 +162,12 @@ def run_engine(
     masses = default_masses(z) if masses_da is None else np.asarray(masses_da, dtype=float)
     if masses.shape != z.shape or np.any(masses <= 0):
         raise EngineInputError(f"masses_da must be {z.shape[0]} positive numbers")
+    if workers is not None and int(workers) < 1:
+        raise EngineInputError(f"workers must be 1 or more, got {workers}")
     report = Progress(want_progress(progress))
     with ExitStack() as stack:
-        backend = stack.enter_context(open_backend(workers, scheduler))
+        # A Dask scheduler is contacted at once so that a bad address fails before any work.
+        backend = stack.enter_context(open_backend(scheduler=scheduler)) if scheduler else None
         store = None
         if checkpoint is not None:
             store = stack.enter_context(CheckpointStore(checkpoint, fresh=fresh))
@@ -179,6 +182,9 @@ def run_engine(
         plan = make_plan(route, coords, harmonic.modes, masses, step_ang)
         jobs = [PolarizabilityJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
         keys = [task_key("alpha", z, x, spec) for x in plan.coordinates_ang]
+        if backend is None:
+            n = choose_workers(workers, plan.n_tasks * (ref.seconds_scf + ref.seconds_alpha))
+            backend = stack.enter_context(open_backend(n))
         report.stage(
             f"{plan.n_tasks} displaced geometries on {backend.workers} worker(s) ({backend.name})"
         )
@@ -287,8 +293,11 @@ def compute_modes(
         Cartesian (6d) instead of spherical basis functions.
     workers : int or None
         Local worker processes for the displaced geometries; 1 (the default here) runs them in
-        this process, None uses one per core (the command line's default).  Scripts that use
-        more than one need the ``if __name__ == "__main__":`` guard.
+        this process.  None (the command line's default) chooses: one per core, unless the
+        displacements are estimated to take less than
+        :data:`~vibrapol.engine.executors.SERIAL_BELOW_S` serially, when starting a pool would
+        cost more than it saves.  Scripts that use more than one need the
+        ``if __name__ == "__main__":`` guard.
     scheduler : str, optional
         Address of a running Dask distributed scheduler; overrides ``workers``.
     checkpoint : str or Path, optional

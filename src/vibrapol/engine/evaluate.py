@@ -131,10 +131,24 @@ def reference_calculation(
     )
 
 
-def timed_polarizability(job: PolarizabilityJob) -> tuple[np.ndarray, float]:
-    """:func:`evaluate_polarizability` and its wall time in seconds (measured in the worker)."""
+def peak_memory_mb() -> float:
+    """Peak resident memory of this process in MB (Linux VmHWM; else ``ru_maxrss``)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return float(line.split()[1]) / 1024.0
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
+def timed_polarizability(job: PolarizabilityJob) -> tuple[np.ndarray, float, float]:
+    """:func:`evaluate_polarizability`, its wall time (s) and the worker's peak memory (MB)."""
     from time import perf_counter
 
     t0 = perf_counter()
     alpha = evaluate_polarizability(job)
-    return alpha, perf_counter() - t0
+    return alpha, perf_counter() - t0, peak_memory_mb()

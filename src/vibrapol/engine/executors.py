@@ -25,6 +25,23 @@ from vibrapol.errors import VibrapolError
 DASK_CONNECT_TIMEOUT_S = 10.0
 
 
+#: With ``workers=None``, run serially when the displacements are estimated to take less than
+#: this (s): starting worker processes and importing PySCF in each takes a few seconds.
+SERIAL_BELOW_S = 10.0
+
+
+def choose_workers(workers: int | None, estimated_serial_s: float) -> int:
+    """``workers`` if given; else one per core, or 1 for jobs shorter than :data:`SERIAL_BELOW_S`.
+
+    ``estimated_serial_s`` is the expected serial time of all displaced geometries (number of
+    tasks × the reference SCF + α time, an overestimate since displaced SCFs start from the
+    reference density).
+    """
+    if workers is not None:
+        return int(workers)
+    return 1 if estimated_serial_s < SERIAL_BELOW_S else available_cores()
+
+
 def available_cores() -> int:
     """Cores this process may use (its CPU affinity when the platform tells it)."""
     try:

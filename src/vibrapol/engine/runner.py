@@ -32,6 +32,9 @@ class TaskStats:
         Wall time of the whole batch.
     seconds_tasks : float
         Sum of the tasks' own wall times (in their workers) for the tasks computed now.
+    peak_mb_worker : float
+        Largest peak resident memory reported by a process that ran a task (MB; 0 when none
+        ran).  For serial runs that is this process.
     """
 
     n_tasks: int
@@ -39,6 +42,7 @@ class TaskStats:
     n_computed: int
     seconds_wall: float
     seconds_tasks: float
+    peak_mb_worker: float = 0.0
 
 
 def run_polarizability_tasks(
@@ -69,11 +73,13 @@ def run_polarizability_tasks(
     n_reused = len(jobs) - len(todo)
     bar = progress.bar(len(jobs), n_reused, "displacements")
     seconds_tasks = 0.0
+    peak_mb = 0.0
 
-    def finish(i: int, alpha: np.ndarray, seconds: float) -> None:
-        nonlocal seconds_tasks
+    def finish(i: int, alpha: np.ndarray, seconds: float, memory_mb: float) -> None:
+        nonlocal seconds_tasks, peak_mb
         alphas[i] = alpha
         seconds_tasks += seconds
+        peak_mb = max(peak_mb, memory_mb)
         if store is not None:
             store.put(keys[i], "alpha", labels[i], {"alpha_ang3": alpha}, seconds)
         bar.update(1)
@@ -86,7 +92,7 @@ def run_polarizability_tasks(
             _run_on_executor(jobs, todo, backend, finish)
     finally:
         bar.close()
-    stats = TaskStats(len(jobs), n_reused, len(todo), perf_counter() - t0, seconds_tasks)
+    stats = TaskStats(len(jobs), n_reused, len(todo), perf_counter() - t0, seconds_tasks, peak_mb)
     return np.array(alphas), stats
 
 

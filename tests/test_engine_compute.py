@@ -85,3 +85,40 @@ def test_modeset_carries_tensors_and_provenance(water):
     # of ∂α/∂x (each Cartesian direction) vanishes, to the finite-difference accuracy.
     total = water.dalpha_dx.reshape(3, 3, 3, 3).sum(axis=0)
     assert np.abs(total).max() < 1e-4 * np.abs(water.dalpha_dx).max() + 1e-6
+
+
+def test_optimisation_reaches_the_known_hf_sto3g_water_geometry():
+    # Start from a distorted water; HF/STO-3G minimum: r(OH) = 0.989 Å, HOH = 100.0°
+    # (a widely quoted textbook value, given here from memory).
+    from vibrapol.engine.compute import run_engine
+    from vibrapol.engine.optimize import FMAX_HARTREE_BOHR
+
+    start = (np.array([8, 1, 1]), np.array([[0, 0, 0.0], [0, 0.85, -0.55], [0, -0.70, -0.50]]))
+    run = run_engine(start, "hf", "sto-3g")
+    assert run.optimization.n_steps > 0
+    assert run.optimization.max_force_hartree_bohr <= FMAX_HARTREE_BOHR
+    x = run.modes.coordinates_ang
+    r1, r2 = np.linalg.norm(x[1] - x[0]), np.linalg.norm(x[2] - x[0])
+    angle = np.degrees(np.arccos((x[1] - x[0]) @ (x[2] - x[0]) / (r1 * r2)))
+    assert r1 == pytest.approx(0.989, abs=0.002) and r2 == pytest.approx(0.989, abs=0.002)
+    assert angle == pytest.approx(100.0, abs=0.3)
+    assert "max force" in run.modes.provenance.notes[0]
+
+
+def test_progress_bar_on_stderr_when_asked(capsys):
+    compute_modes(molecule("H2O"), "hf", "sto-3g", optimize=False, progress=True)
+    err = capsys.readouterr().err
+    assert "18/18" in err and "displacements" in err
+    compute_modes(molecule("H2O"), "hf", "sto-3g", optimize=False, progress=None)
+    assert capsys.readouterr().err == ""  # not a terminal under pytest: quiet
+
+
+@pytest.mark.slow
+def test_carbon_tetrachloride_depolarization_ratios():
+    # Td again, heavier atoms: A1 ρ < 0.01, E and T2 sets ρ = 0.75 ± 0.005 (common practice).
+    table = raman_table(compute_modes(molecule("CCl4"), "hf", "sto-3g"))
+    sets = table.sets()
+    assert sorted(len(s) for s in sets) == [1, 2, 3, 3]
+    for members in sets:
+        rho = table.rho_linear[members[0]]
+        assert rho < 0.01 if len(members) == 1 else rho == pytest.approx(0.75, abs=0.005)

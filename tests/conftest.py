@@ -8,6 +8,8 @@ from pathlib import Path
 
 # One BLAS/OpenMP thread per test process: pytest-xdist runs two processes on two cores.
 os.environ.setdefault("OMP_NUM_THREADS", "1")
+# Idle OpenMP threads sleep instead of spinning (much faster on a shared 2-core machine).
+os.environ.setdefault("OMP_WAIT_POLICY", "PASSIVE")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 # The helper modules (_paths, _source_contract) are imported by name; pytest's default import

@@ -7,10 +7,14 @@ import io
 import json
 import math
 
+import numpy as np
+
 from vibrapol.ramantable import RamanTable
 from vibrapol.units import CODATA_VERSION
 
-#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –).
+#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –).
+#: ``ir_active`` and ``raman_active`` are the selection rules of the mode's species (empty when
+#: the symmetry is not known).
 TABLE_COLUMNS = (
     "mode",
     "frequency_cm1",
@@ -22,6 +26,8 @@ TABLE_COLUMNS = (
     "rho_natural",
     "polarized",
     "degenerate_set",
+    "ir_active",
+    "raman_active",
 )
 
 
@@ -29,8 +35,19 @@ def _fmt(value: float, digits: int) -> str:
     return "" if value is None or not math.isfinite(value) else f"{value:.{digits}f}"
 
 
+def _flag(values: np.ndarray | None, i: int) -> bool | None:
+    return None if values is None else bool(values[i])
+
+
+def _csv_flag(value: bool | None) -> str:
+    return "" if value is None else ("true" if value else "false")
+
+
 def table_rows(table: RamanTable) -> list[dict[str, object]]:
-    """One dictionary per mode with the keys of :data:`TABLE_COLUMNS` (NaN ρ → None)."""
+    """One dictionary per mode with the keys of :data:`TABLE_COLUMNS` (NaN ρ → None).
+
+    ``ir_active`` and ``raman_active`` are None when the table carries no symmetry.
+    """
     rows = []
     for i in range(table.n_modes):
         rho_l = float(table.rho_linear[i])
@@ -47,6 +64,8 @@ def table_rows(table: RamanTable) -> list[dict[str, object]]:
                 "rho_natural": rho_n if math.isfinite(rho_n) else None,
                 "polarized": bool(table.polarized[i]),
                 "degenerate_set": int(table.degenerate_set[i]),
+                "ir_active": _flag(table.ir_active, i),
+                "raman_active": _flag(table.raman_active, i),
             }
         )
     return rows
@@ -70,6 +89,8 @@ def table_csv(table: RamanTable) -> str:
                 "" if row["rho_natural"] is None else f"{row['rho_natural']:.6f}",
                 "true" if row["polarized"] else "false",
                 row["degenerate_set"],
+                _csv_flag(row["ir_active"]),
+                _csv_flag(row["raman_active"]),
             ]
         )
     return buf.getvalue()
@@ -84,6 +105,7 @@ def _header(table: RamanTable) -> dict[str, str]:
         "program": program,
         "method": method,
         "point_group": table.point_group,
+        "symmetry_convention": table.symmetry_convention,
     }
 
 
@@ -108,11 +130,15 @@ def table_text(table: RamanTable) -> str:
     h = _header(table)
     lines = [
         f"source: {h['source']}",
-        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   point group: {h['point_group']}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   point group: {h['point_group'] or '-'}",
+    ]
+    if h["symmetry_convention"]:
+        lines.append(f"species names: {h['symmetry_convention']}")
+    lines += [
         "a2, gamma2, activity in Å⁴/amu; rho for 90° scattering (linear / natural incident light)",
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
-        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4}",
+        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4} {'IR':>3} {'Ra':>3}",
     ]
     for row in table_rows(table):
         lines.append(
@@ -120,11 +146,18 @@ def table_text(table: RamanTable) -> str:
             f" {row['gamma2']:>11.4g} {row['activity']:>11.4g}"
             f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
             f" {'P' if row['polarized'] else '':>3} {row['degenerate_set']:>4}"
+            f" {_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}"
         )
     n_pol = int(table.polarized.sum())
     lines.append("")
     lines.append(f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)")
+    if table.ir_active is not None:
+        lines.append("IR, Ra: fundamental allowed (y) or forbidden (-) by the selection rules of its species")
     return "\n".join(lines) + "\n"
+
+
+def _text_flag(value: bool | None) -> str:
+    return "" if value is None else ("y" if value else "-")
 
 
 FORMATTERS = {"text": table_text, "csv": table_csv, "json": table_json}

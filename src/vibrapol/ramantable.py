@@ -111,7 +111,9 @@ def raman_table(
         if sets is not None or irreps is not None or point_group:
             raise ValueError("give either symmetry or sets/irreps/point_group, not both")
         if symmetry.n_modes != modes.n_modes:
-            raise ValueError(f"symmetry is for {symmetry.n_modes} modes, the mode set has {modes.n_modes}")
+            raise ValueError(
+                f"symmetry is for {symmetry.n_modes} modes, the mode set has {modes.n_modes}"
+            )
         sets = [tuple(s) for s in symmetry.sets]
         irreps, point_group = symmetry.irreps, symmetry.group.symbol
         rules = {

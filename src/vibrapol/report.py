@@ -130,7 +130,8 @@ def table_text(table: RamanTable) -> str:
     h = _header(table)
     lines = [
         f"source: {h['source']}",
-        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   point group: {h['point_group'] or '-'}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}"
+        f"   point group: {h['point_group'] or '-'}",
     ]
     if h["symmetry_convention"]:
         lines.append(f"species names: {h['symmetry_convention']}")
@@ -152,7 +153,7 @@ def table_text(table: RamanTable) -> str:
     lines.append("")
     lines.append(f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)")
     if table.ir_active is not None:
-        lines.append("IR, Ra: fundamental allowed (y) or forbidden (-) by the selection rules of its species")
+        lines.append("IR, Ra: fundamental allowed (y) or forbidden (-) by its species")
     return "\n".join(lines) + "\n"
 
 

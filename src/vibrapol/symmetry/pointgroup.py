@@ -4,40 +4,41 @@
 group at a few threshold settings and keeps the largest group whose every operation maps every
 atom onto an atom of the same element and mass within ``tolerance_ang``.  That check is ours
 and is done in Å, so a loose library setting can never invent symmetry beyond the tolerance.
-
-Linear molecules are handled here without the library: their groups D∞h and C∞v are infinite,
-and the vibrations of a linear molecule only span Σ⁺ and Π species (each atom's displacements
-along and across the axis).  The analysis uses the finite subgroup D2h (or C2v) with z along
-the molecular axis, whose species correlate one to one with those that occur: Σg⁺ ← Ag,
-Σu⁺ ← B1u, Πg ← B2g + B3g, Πu ← B2u + B3u, Σg⁻ ← B1g, Σu⁻ ← Au (and for C∞v: Σ⁺ ← A1, Σ⁻ ← A2,
-Π ← B1 + B2) (G. Herzberg, *Molecular Spectra and Molecular Structure II*, 1945, correlation
-of D∞h with D2h; common practice).  Δ species never occur among the fundamentals.
+Linear molecules are handled without the library (:mod:`vibrapol.symmetry.linear`).
 """
 
 from __future__ import annotations
 
+import dataclasses
 import re
 import warnings
-from dataclasses import dataclass
 
 import numpy as np
 from ase.data import covalent_radii
 from scipy.spatial.distance import cdist
 
-from vibrapol.errors import AccuracyWarning, VibrapolError
+from vibrapol.errors import AccuracyWarning
 from vibrapol.modeset import default_masses
 from vibrapol.symmetry import _msym
+from vibrapol.symmetry.group import GeometryError, PointGroup, match_atoms, symmetrize_coordinates
 from vibrapol.symmetry.labels import (
     CONVENTION_DEFAULT,
     GroupFacts,
     improper_angle,
-    normalize_label,
     operation_kind,
     rotation_angle,
     standard_names,
 )
+from vibrapol.symmetry.linear import linear_axis, linear_group
 
-#: Default largest distance (Å) between an atom's image under a symmetry operation and the
+__all__ = [
+    "DEFAULT_TOLERANCE_ANG",
+    "GeometryError",
+    "PointGroup",
+    "find_point_group",
+    "symmetrize_coordinates",
+]
+
 #: atom it lands on.  Optimised geometries from quantum-chemistry programs are symmetric to
 #: 1e-4 Å or better; hand-built or converted structures to about 1e-3 Å (whose images then
 #: land up to ≈ 0.004 Å away).  0.01 Å accepts both and stays well below the 0.05–0.1 Å of
@@ -53,140 +54,6 @@ MIN_SEPARATION_ANG = 0.3
 #: Two atoms are bonded when closer than this factor times the sum of covalent radii (used
 #: only to break ties in the axis conventions).
 BOND_FACTOR = 1.2
-
-
-class GeometryError(VibrapolError, ValueError):
-    """A structure that cannot be analysed (one atom, overlapping atoms, bad shape)."""
-
-
-@dataclass(frozen=True, eq=False)
-class PointGroup:
-    """The point group of one molecule in the molecule's own frame.
-
-    Attributes
-    ----------
-    symbol : str
-        Schoenflies symbol ('C2v', 'Td', 'D∞h', ...).
-    operations : ndarray (g, 3, 3)
-        Cartesian matrix R of each operation; it maps positions relative to ``centre_ang``.
-    permutations : ndarray of int (g, N)
-        Atom i is carried onto atom ``permutations[k, i]`` by operation k.
-    operation_classes : ndarray of int (g,)
-        Column of :attr:`characters` (class) of each operation.
-    class_labels : tuple of str
-        One label per class ('E', '8C3', "σv'(yz)", ...).
-    irreps : tuple of str
-        Species names (rows of :attr:`characters`), textbook order.
-    characters : ndarray (n_irreps, n_classes)
-        Real characters.  For linear molecules: the D2h or C2v subgroup, each operation its own
-        class, with the Π species as sums of two subgroup species (module notes).
-    centre_ang : ndarray (3,)
-        Centre of mass, the fixed point of every operation.
-    axes : ndarray (3, 3)
-        Rows: x, y, z of the labelling frame (see :mod:`vibrapol.symmetry.labels`).
-    tolerance_ang : float
-        Tolerance the group was accepted with.
-    max_deviation_ang : float
-        Largest distance between an atom's image and its partner in the given structure.
-    convention : str
-        The axis convention behind the species names.
-    notes : tuple of str
-        What was done to find the group (library settings, ties broken, fall-backs).
-    linear : bool
-    """
-
-    symbol: str
-    operations: np.ndarray
-    permutations: np.ndarray
-    operation_classes: np.ndarray
-    class_labels: tuple[str, ...]
-    irreps: tuple[str, ...]
-    characters: np.ndarray
-    centre_ang: np.ndarray
-    axes: np.ndarray
-    tolerance_ang: float
-    max_deviation_ang: float
-    convention: str
-    notes: tuple[str, ...] = ()
-    linear: bool = False
-
-    def __post_init__(self) -> None:
-        g = self.operations.shape[0]
-        if self.operations.shape != (g, 3, 3) or self.permutations.shape[0] != g:
-            raise ValueError("operations must be (g, 3, 3) and permutations (g, N)")
-        if self.characters.shape != (len(self.irreps), len(self.class_labels)):
-            raise ValueError("characters must be (n_irreps, n_classes)")
-        for name in (
-            "operations",
-            "permutations",
-            "operation_classes",
-            "characters",
-            "centre_ang",
-            "axes",
-        ):
-            getattr(self, name).setflags(write=False)
-
-    @property
-    def order(self) -> int:
-        """Number of operations (of the finite subgroup for linear molecules)."""
-        return int(self.operations.shape[0])
-
-    @property
-    def n_atoms(self) -> int:
-        """Number of atoms."""
-        return int(self.permutations.shape[1])
-
-    @property
-    def class_sizes(self) -> np.ndarray:
-        """Number of operations in each class."""
-        return np.bincount(self.operation_classes, minlength=len(self.class_labels))
-
-    @property
-    def op_characters(self) -> np.ndarray:
-        """Characters per operation, shape (n_irreps, g)."""
-        return self.characters[:, self.operation_classes]
-
-    @property
-    def dims(self) -> np.ndarray:
-        """Degeneracy of each species (modes per degenerate set)."""
-        identity = self.operation_classes[0]
-        return np.rint(self.characters[:, identity]).astype(int)
-
-    @property
-    def norms(self) -> np.ndarray:
-        """⟨χ, χ⟩ = (1/g) Σ χ(R)² of each species.
-
-        1 for irreducible species, 2 for species that combine a complex-conjugate pair (E in
-        C3, T, ...) or two subgroup species (Π of linear molecules).
-        """
-        return np.sum(self.op_characters**2, axis=1) / self.order
-
-    @property
-    def totally_symmetric(self) -> str:
-        """Name of the totally symmetric species."""
-        ones = np.all(np.abs(self.characters - 1.0) < 1e-8, axis=1)
-        return self.irreps[int(np.flatnonzero(ones)[0])]
-
-    def index(self, irrep: str) -> int:
-        """Row of ``irrep`` in :attr:`characters`, accepting printed spellings ('AG', 'F2')."""
-        name = self.species_name(irrep)
-        if name not in self.irreps:
-            raise KeyError(
-                f"{irrep!r} is not a species of {self.symbol} ({', '.join(self.irreps)})"
-            )
-        return self.irreps.index(name)
-
-    def species_name(self, label: str) -> str:
-        """A printed label in this group's spelling ('E1' → 'E' where the group has one E)."""
-        name = normalize_label(label)
-        if name not in self.irreps:
-            alt = re.sub(r"^E1", "E", name)
-            if alt in self.irreps:
-                return alt
-            alt = re.sub(r"^A(?=[gu]?$)", "A1", name)
-            if alt in self.irreps:
-                return alt
-        return name
 
 
 def _check_structure(z: np.ndarray, coords: np.ndarray, where: str) -> None:
@@ -206,24 +73,6 @@ def _check_structure(z: np.ndarray, coords: np.ndarray, where: str) -> None:
             f"{prefix}atoms {min(i, j) + 1} and {max(i, j) + 1} are only {d[i, j]:.3f} Å apart "
             "(overlapping atoms); check the structure"
         )
-
-
-def match_atoms(
-    matrix: np.ndarray, centred: np.ndarray, species: np.ndarray, tolerance_ang: float
-) -> tuple[np.ndarray | None, float]:
-    """Permutation of the atoms under one operation, and the largest mismatch in Å.
-
-    Returns ``(None, mismatch)`` when some image has no partner of the same species within
-    ``tolerance_ang`` or two images claim the same partner.
-    """
-    image = centred @ np.asarray(matrix).T
-    d = cdist(image, centred)
-    d[species[:, None] != species[None, :]] = np.inf
-    perm = np.argmin(d, axis=1)
-    worst = float(np.max(d[np.arange(len(perm)), perm]))
-    if worst > tolerance_ang or len(np.unique(perm)) != len(perm):
-        return None, worst
-    return perm, worst
 
 
 def _species_ids(z: np.ndarray, masses: np.ndarray) -> np.ndarray:
@@ -293,85 +142,6 @@ def _assemble(
     )
 
 
-# Characters of the D2h subgroup on E, C2(z), C2(y), C2(x), i, σ(xy), σ(xz), σ(yz) and of the C2v
-# subgroup on E, C2(z), σ(xz), σ(yz) (standard tables), merged into the species of D∞h / C∞v.
-_D2H_DIAG = [
-    (1, 1, 1),
-    (-1, -1, 1),
-    (-1, 1, -1),
-    (1, -1, -1),
-    (-1, -1, -1),
-    (1, 1, -1),
-    (1, -1, 1),
-    (-1, 1, 1),
-]
-_D2H_LABELS = ("E", "C2(z)", "C2(y)", "C2(x)", "i", "σ(xy)", "σ(xz)", "σ(yz)")
-_DINFH = {
-    "Σg⁺": (1, 1, 1, 1, 1, 1, 1, 1),
-    "Σg⁻": (1, 1, -1, -1, 1, 1, -1, -1),
-    "Πg": (2, -2, 0, 0, 2, -2, 0, 0),
-    "Σu⁺": (1, 1, -1, -1, -1, -1, 1, 1),
-    "Σu⁻": (1, 1, 1, 1, -1, -1, -1, -1),
-    "Πu": (2, -2, 0, 0, -2, 2, 0, 0),
-}
-_C2V_PICK = (0, 1, 6, 7)
-_CINFV = {"Σ⁺": (1, 1, 1, 1), "Σ⁻": (1, 1, -1, -1), "Π": (2, -2, 0, 0)}
-
-
-def _linear_axis(centred: np.ndarray, masses: np.ndarray) -> tuple[np.ndarray, float]:
-    """Axis of the best line through the centre of mass, and the largest distance from it."""
-    inertia = np.einsum("i,ij,ik->jk", masses, centred, centred)
-    _, vecs = np.linalg.eigh(inertia)
-    axis = vecs[:, -1]  # largest second moment = direction of the line
-    off = centred - np.outer(centred @ axis, axis)
-    return axis, float(np.max(np.linalg.norm(off, axis=1)))
-
-
-def _linear_group(
-    centred: np.ndarray, species: np.ndarray, masses: np.ndarray, axis: np.ndarray, tolerance: float
-) -> PointGroup | None:
-    frame = _msym_free_frame(axis)
-    mats = np.array([frame.T @ np.diag(d) @ frame for d in _D2H_DIAG])
-    centro = match_atoms(-np.eye(3), centred, species, tolerance)[0] is not None
-    picks = range(8) if centro else _C2V_PICK
-    table = _DINFH if centro else _CINFV
-    perms, worst = [], 0.0
-    for k in picks:
-        perm, dev = match_atoms(mats[k], centred, species, tolerance)
-        if perm is None:
-            return None
-        perms.append(perm)
-        worst = max(worst, dev)
-    n = len(picks)
-    return PointGroup(
-        symbol="D∞h" if centro else "C∞v",
-        operations=mats[list(picks)],
-        permutations=np.array(perms),
-        operation_classes=np.arange(n),
-        class_labels=tuple(_D2H_LABELS[k] for k in picks),
-        irreps=tuple(table),
-        characters=np.array(list(table.values()), dtype=float),
-        centre_ang=np.zeros(3),
-        axes=frame,
-        tolerance_ang=tolerance,
-        max_deviation_ang=worst,
-        convention="linear molecule: z along the molecular axis; operations of the "
-        + ("D2h" if centro else "C2v")
-        + " subgroup, species correlated to "
-        + ("D∞h" if centro else "C∞v"),
-        notes=(),
-        linear=True,
-    )
-
-
-def _msym_free_frame(axis: np.ndarray) -> np.ndarray:
-    z = axis / np.linalg.norm(axis)
-    trial = np.eye(3)[int(np.argmin(np.abs(z)))]
-    x = trial - (trial @ z) * z
-    x /= np.linalg.norm(x)
-    return np.array([x, np.cross(z, x), z])
-
-
 def _trivial_group(
     n_atoms: int, centre: np.ndarray, tolerance: float, notes: list[str]
 ) -> PointGroup:
@@ -437,9 +207,9 @@ def find_point_group(
     centred = coords - centre
     species = _species_ids(z, masses)
 
-    axis, off_axis = _linear_axis(centred, masses)
+    axis, off_axis = linear_axis(centred, masses)
     if off_axis <= tolerance_ang / 2:
-        group = _linear_group(centred, species, masses, axis, tolerance_ang)
+        group = linear_group(centred, species, masses, axis, tolerance_ang)
         if group is not None:
             return _with_centre(group, centre)
 
@@ -494,20 +264,4 @@ def find_point_group(
 
 
 def _with_centre(group: PointGroup, centre: np.ndarray) -> PointGroup:
-    import dataclasses
-
     return dataclasses.replace(group, centre_ang=np.array(centre, dtype=float))
-
-
-def symmetrize_coordinates(coordinates_ang: np.ndarray, group: PointGroup) -> np.ndarray:
-    """The nearest structure with the full symmetry of ``group``.
-
-    Each atom is replaced by the average of the images of its partners:
-    x̄_i = c + (1/g) Σ_R Rᵀ (x_π_R(i) − c), the projection onto the totally symmetric part of
-    the displacements (exact when the operations form a group, as they do here).
-    """
-    x = np.asarray(coordinates_ang, dtype=float) - group.centre_ang
-    total = np.zeros_like(x)
-    for matrix, perm in zip(group.operations, group.permutations, strict=True):
-        total += x[perm] @ matrix
-    return group.centre_ang + total / group.order

@@ -37,7 +37,7 @@ _PARALLEL = 0.99
 #: ... and perpendicular when |cos| is below this.
 _PERPENDICULAR = 0.1
 
-CONVENTION_DEFAULT = "species names as in the standard character tables (Cotton 1990)"
+CONVENTION_DEFAULT = "as in the standard character tables (Cotton 1990)"
 
 
 @dataclass(frozen=True)

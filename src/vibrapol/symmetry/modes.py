@@ -15,15 +15,21 @@ of the same species onto which the operations carry it, i.e. with the largest
 from __future__ import annotations
 
 import dataclasses
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from vibrapol.errors import ShapeError, VibrapolError
+from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.symmetry.characters import species_rules
-from vibrapol.symmetry.pointgroup import PointGroup, symmetrize_coordinates
+from vibrapol.symmetry.pointgroup import (
+    DEFAULT_TOLERANCE_ANG,
+    PointGroup,
+    find_point_group,
+    symmetrize_coordinates,
+)
 from vibrapol.units import cm1_to_hessian_eigenvalue
 
 #: A set whose species weight or invariance is below this is called impure; with
@@ -183,17 +189,34 @@ def analyse_modes(
     if group.n_atoms != modes.n_atoms:
         raise ShapeError(f"point group is for {group.n_atoms} atoms, the modes for {modes.n_atoms}")
     notes: list[str] = []
+    where = modes.provenance.source_file or "mode set"
     result = classify_modes(group, modes.modes, modes.freqs_cm1)
     done = False
     poor = np.minimum(result[2], result[3]) < PURITY_MIN
     if symmetrize == "always" or (symmetrize == "auto" and poor.any() and group.order > 1):
         if symmetrize == "auto":
             notes.append(f"{int(poor.sum())} set(s) had purity below {PURITY_MIN}")
-        modes = symmetrize_modeset(modes, group)
-        result = classify_modes(group, modes.modes, modes.freqs_cm1)
-        notes.append(modes.provenance.notes[-1])
-        done = True
+        try:
+            modes = symmetrize_modeset(modes, group)
+        except VibrapolError as exc:
+            if symmetrize == "always":
+                raise
+            notes.append(f"could not symmetrize: {exc}")
+        else:
+            result = classify_modes(group, modes.modes, modes.freqs_cm1)
+            notes.append(modes.provenance.notes[-1])
+            done = True
     sets, set_irreps, purity, invariance = result
+    quality = np.minimum(purity, invariance)
+    if np.any(quality < PURITY_MIN):
+        bad = int(np.argmin(quality))
+        warnings.warn(
+            f"{where}: {int(np.sum(quality < PURITY_MIN))} set(s) of modes are not pure species of "
+            f"{group.symbol} (worst: modes {', '.join(str(k + 1) for k in sets[bad])}, purity "
+            f"{quality[bad]:.2f}); their labels are uncertain",
+            AccuracyWarning,
+            stacklevel=2,
+        )
     rules = {r.irrep: r for r in species_rules(group)}
     irreps = [""] * modes.n_modes
     for s, name in zip(sets, set_irreps, strict=True):
@@ -213,6 +236,26 @@ def analyse_modes(
         symmetrized=done,
         notes=tuple(notes),
     )
+
+
+def mode_symmetry(
+    modes: ModeSet,
+    *,
+    tolerance_ang: float = DEFAULT_TOLERANCE_ANG,
+    symmetrize: str = "auto",
+) -> ModeSymmetry:
+    """Point group of ``modes``' structure and the species of every mode, in one call.
+
+    See :func:`~vibrapol.symmetry.find_point_group` and :func:`analyse_modes`.
+    """
+    group = find_point_group(
+        modes.atomic_numbers,
+        modes.coordinates_ang,
+        modes.masses_da,
+        tolerance_ang=tolerance_ang,
+        where=modes.provenance.source_file,
+    )
+    return analyse_modes(modes, group, symmetrize=symmetrize)
 
 
 def cartesian_operator(group: PointGroup, k: int) -> np.ndarray:

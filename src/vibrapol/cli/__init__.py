@@ -20,6 +20,7 @@ from vibrapol.errors import VibrapolError
 SUBCOMMANDS = {
     "table": "vibrapol.cli.table",
     "symmetry": "vibrapol.cli.symmetry",
+    "compute": "vibrapol.cli.compute",
 }
 
 

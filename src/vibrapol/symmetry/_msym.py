@@ -9,9 +9,11 @@ libmsym's thresholds are dimensionless numbers that it compares with quantities 
 distances in Å).  Trials on rotated copies of 17 test molecules with ±0.001 Å noise showed:
 the defaults (1e-3, equivalence 5e-4) miss the symmetry of most noisy copies; ``zero``,
 ``geometry``, ``angle`` and ``equivalence`` near 0.01–0.02 with ``permutation`` five times
-larger find it for all; 0.05 breaks the icosahedral B12H12²⁻ and, on other molecules, accepts
-operations that move atoms by several hundredths of an Å.  :data:`THRESHOLD_LADDER` therefore
-tries a few settings and the caller keeps only operations that pass its own check in Å.
+larger find it for all; 0.05 breaks the icosahedral B12H12²⁻.  Loose settings also invent
+symmetry: on exactly symmetric test molecules of groups Cs, C4, C4h and S8, 0.01 reported
+C2v, C4v, D4h and D4d with operations that move atoms by 0.35–0.46 Å, while the defaults were
+right.  :data:`THRESHOLD_LADDER` therefore tries settings from tight to loose and the caller
+keeps only operations that pass its own check in Å.
 """
 
 from __future__ import annotations
@@ -22,10 +24,12 @@ import numpy as np
 import pymsym
 from ase.data import chemical_symbols
 
-#: Scale factors tried in turn; each gives zero = geometry = angle = equivalence = f·s and
-#: permutation = 5·f·s, where s = tolerance_ang / 0.01 Å (so the default tolerance gives
-#: 0.01, 0.02, 0.005, 0.04).
-THRESHOLD_LADDER = (0.01, 0.02, 0.005, 0.04)
+#: Settings tried in turn; each gives zero = geometry = angle = equivalence = f·s and
+#: permutation = 5·f·s, where s = tolerance_ang / 0.01 Å.  The first is the library's default.
+THRESHOLD_LADDER = (0.001, 0.003, 0.01, 0.02, 0.04)
+
+#: Setting for exactly symmetric (already symmetrized) coordinates: the library's defaults.
+TIGHT = {"zero": 1e-3, "geometry": 1e-3, "angle": 1e-3, "equivalence": 5e-4, "permutation": 5e-3}
 
 #: Below these, libmsym's own checks become stricter than double-precision geometry noise.
 MIN_THRESHOLD = 1e-4
@@ -110,8 +114,8 @@ def _name(op: pymsym.SymmetryOperation) -> str:
 def thresholds_for(tolerance_ang: float) -> list[dict]:
     """Library threshold settings to try for a user tolerance in Å (see module notes)."""
     scale = tolerance_ang / 0.01
-    out = []
-    for f in THRESHOLD_LADDER:
+    out = [dict(TIGHT)]
+    for f in THRESHOLD_LADDER[1:]:
         t = max(f * scale, MIN_THRESHOLD)
         out.append({"zero": t, "geometry": t, "angle": t, "equivalence": t, "permutation": 5 * t})
     return out

@@ -20,6 +20,7 @@ from scipy.spatial.distance import cdist
 from vibrapol.errors import AccuracyWarning
 from vibrapol.modeset import default_masses
 from vibrapol.symmetry import _msym
+from vibrapol.symmetry.abelian import abelian_group
 from vibrapol.symmetry.group import GeometryError, PointGroup, match_atoms, symmetrize_coordinates
 from vibrapol.symmetry.labels import (
     CONVENTION_DEFAULT,
@@ -213,41 +214,26 @@ def find_point_group(
         if group is not None:
             return _with_centre(group, centre)
 
-    best: tuple[_msym.MsymGroup, np.ndarray, float] | None = None
-    failures, used = [], None
-    for k, thresholds in enumerate(_msym.thresholds_for(tolerance_ang)):
-        try:
-            found = _msym.detect(z, centred, masses, thresholds)
-        except Exception as exc:  # the library raises its own Error or ctypes errors
-            failures.append(str(getattr(exc, "details", "") or exc))
-            continue
-        if found.symbol in ("D0h", "C0v"):
-            continue
-        perms, worst = [], 0.0
-        for m in found.matrices:
-            perm, dev = match_atoms(m, centred, species, tolerance_ang)
-            if perm is None:
-                break
-            perms.append(perm)
-            worst = max(worst, dev)
-        else:
-            if best is None or len(found.matrices) > len(best[0].matrices):
-                best, used = (found, np.array(perms), worst), k
-    notes: list[str] = []
+    best, failures, notes = _search(z, centred, masses, species, tolerance_ang)
+    own = abelian_group(centred, species, masses, tolerance_ang)
+    if own is not None and (best is None or len(own["matrices"]) > len(best[0].matrices)):
+        missed = best[0].symbol if best else "no group"
+        notes = [f"found by our own search along the principal axes (the library: {missed})"]
+        worst = own.pop("deviation")
+        facts = GroupFacts(**own, atomic_numbers=z, bonds=_bonds(z, coords), centred_ang=centred)
+        return _assemble(facts, centre, tolerance_ang, worst, notes)
     if best is None:
-        if failures and len(failures) == len(_msym.THRESHOLD_LADDER):
+        real = [f for f in failures if "no primary axis" not in f]
+        if real and len(failures) == len(_msym.THRESHOLD_LADDER):
             warnings.warn(
                 f"{where or 'structure'}: the symmetry library failed at every setting "
-                f"({failures[0]}); treating the molecule as C1",
+                f"({real[0]}); treating the molecule as C1",
                 AccuracyWarning,
                 stacklevel=2,
             )
         notes.append(f"no symmetry operation other than E within {tolerance_ang} Å")
         return _trivial_group(len(z), centre, tolerance_ang, notes)
     found, perms, worst = best
-    if used:
-        t = found.thresholds["geometry"]
-        notes.append(f"found with library thresholds {t:g} (after {used} other setting(s))")
     facts = GroupFacts(
         symbol=found.symbol,
         matrices=found.matrices,
@@ -261,6 +247,76 @@ def find_point_group(
         centred_ang=centred,
     )
     return _assemble(facts, centre, tolerance_ang, worst, notes)
+
+
+def _accept(
+    found: _msym.MsymGroup, centred: np.ndarray, species: np.ndarray, tolerance: float
+) -> tuple[list[int], list[np.ndarray], float]:
+    """Indices, permutations and largest mismatch of the operations that pass our check."""
+    keep, perms, worst = [], [], 0.0
+    for k, m in enumerate(found.matrices):
+        perm, dev = match_atoms(m, centred, species, tolerance)
+        if perm is not None:
+            keep.append(k)
+            perms.append(perm)
+            worst = max(worst, dev)
+    return keep, perms, worst
+
+
+def _closed(matrices: np.ndarray) -> bool:
+    flat = matrices.reshape(len(matrices), 9)
+    for a in matrices:
+        prod = (a @ matrices).reshape(len(matrices), 9)
+        if np.max(np.min(cdist(prod, flat), axis=1)) > 1e-6:
+            return False
+    return True
+
+
+def _search(
+    z: np.ndarray, centred: np.ndarray, masses: np.ndarray, species: np.ndarray, tolerance: float
+) -> tuple[tuple | None, list[str], list[str]]:
+    """Largest group whose operations all pass the check in Å, over the threshold ladder.
+
+    When a loose setting reports a group some of whose operations fail the check, the ones that
+    pass may still form a subgroup: the structure is then averaged over that subgroup and
+    handed to the library again at its tight defaults, which finds exactly the subgroup and its
+    character table (noted as help given to the library).
+    """
+    best, failures, notes = None, [], []
+    for k, thresholds in enumerate(_msym.thresholds_for(tolerance)):
+        try:
+            found = _msym.detect(z, centred, masses, thresholds)
+        except Exception as exc:  # the library raises its own Error or ctypes errors
+            failures.append(str(getattr(exc, "details", "") or exc))
+            continue
+        if found.symbol in ("D0h", "C0v"):
+            continue
+        keep, perms, worst = _accept(found, centred, species, tolerance)
+        note = ""
+        if len(keep) < len(found.matrices):
+            mats = found.matrices[keep]
+            if len(keep) < 2 or not _closed(mats):
+                continue
+            averaged = np.zeros_like(centred)
+            for m, perm in zip(mats, perms, strict=True):
+                averaged += centred[perm] @ m
+            try:
+                found = _msym.detect(z, averaged / len(keep), masses, _msym.TIGHT)
+            except Exception:  # the library failed on the averaged structure too
+                continue
+            keep, perms, worst = _accept(found, centred, species, tolerance)
+            if len(keep) < len(found.matrices):
+                continue
+            note = (
+                f"the library reported {found.symbol} only after averaging the structure over "
+                f"the operations that passed (its loose setting claimed a larger group)"
+            )
+        if best is None or len(found.matrices) > len(best[0].matrices):
+            best = (found, np.array(perms), worst)
+            notes = [note] if note else []
+            if k:
+                notes.append(f"found with library thresholds {thresholds['geometry']:g}")
+    return best, failures, notes
 
 
 def _with_centre(group: PointGroup, centre: np.ndarray) -> PointGroup:

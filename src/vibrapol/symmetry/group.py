@@ -134,13 +134,16 @@ class PointGroup:
         return self.irreps.index(name)
 
     def species_name(self, label: str) -> str:
-        """A printed label in this group's spelling ('E1' → 'E' where the group has one E)."""
+        """A printed label in this group's spelling.
+
+        'E1' → 'E' where the group has one E species, 'A1g' → 'Ag' in D2h, 'A' → 'A1' where
+        the group has A1; see :func:`~vibrapol.symmetry.normalize_label` for the rest.
+        """
         name = normalize_label(label)
-        if name not in self.irreps:
-            alt = re.sub(r"^E1", "E", name)
-            if alt in self.irreps:
-                return alt
-            alt = re.sub(r"^A(?=[gu]?$)", "A1", name)
+        if name in self.irreps:
+            return name
+        for pattern, repl in ((r"^E1", "E"), (r"^A1", "A"), (r"^A(?=[gu]?$)", "A1")):
+            alt = re.sub(pattern, repl, name)
             if alt in self.irreps:
                 return alt
         return name

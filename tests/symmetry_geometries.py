@@ -258,7 +258,12 @@ def closure(gens: list[np.ndarray]) -> list[np.ndarray]:
 #: atoms over all groups in :data:`GROUPS`: 0.45 Å).
 GENERAL_POINTS = tuple(
     tuple(2.5 * c for c in p)
-    for p in ((-0.13, -1.46, -0.44), (-1.31, 1.49, 0.87), (-0.22, -1.55, -1.39), (-0.86, 0.09, -1.42))
+    for p in (
+        (-0.13, -1.46, -0.44),
+        (-1.31, 1.49, 0.87),
+        (-0.22, -1.55, -1.39),
+        (-0.86, 0.09, -1.42),
+    )
 )
 
 

@@ -28,6 +28,7 @@ but some do, and there the literature follows fixed conventions which this modul
 from __future__ import annotations
 
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -193,10 +194,20 @@ def _frame(z: np.ndarray, x_hint: np.ndarray | None, centred: np.ndarray) -> np.
     raise AssertionError("no axis perpendicular to z")  # pragma: no cover
 
 
-def _best(facts: GroupFacts, classes: list[int], notes: list[str], what: str) -> tuple[int, int]:
-    """The class with the higher score and the other; notes a tie."""
+def _best(
+    facts: GroupFacts,
+    classes: list[int],
+    notes: list[str],
+    what: str,
+    extra: Callable[[int], tuple] | None = None,
+) -> tuple[int, int]:
+    """The class with the higher score (then ``extra(c)``) and the other; notes a tie."""
     a, b = classes
-    sa, sb = facts.score(a), facts.score(b)
+
+    def key(c: int) -> tuple:
+        return (facts.score(c), extra(c) if extra else ())
+
+    sa, sb = key(a), key(b)
     if sa == sb:
         notes.append(f"{what}: both candidates hold the same atoms; the choice is arbitrary")
     return (a, b) if sa >= sb else (b, a)
@@ -314,7 +325,9 @@ def standard_names(facts: GroupFacts) -> NamedTable:
                 if _is_c2(facts, c) and abs(facts.axis(c) @ z) < _PERPENDICULAR
             ]
             if n % 2 == 0 and len(perp) == 2 and sub != "d":
-                c2p, c2pp = _best(facts, perp, notes, f"{symbol} C2' axes")
+                c2p, c2pp = _best(
+                    facts, perp, notes, f"{symbol} C2' axes", _plane_holding(facts, z)
+                )
                 for r in one_d:
                     if names[r].startswith("B"):
                         names[r] = _b_name(names[r], "1" if chars[r, c2p] > 0 else "2")
@@ -357,6 +370,22 @@ def standard_names(facts: GroupFacts) -> NamedTable:
         )
         names = list(facts.irrep_names)
     return NamedTable(tuple(names), tuple(labels), axes, convention, tuple(notes))
+
+
+def _plane_holding(facts: GroupFacts, z: np.ndarray) -> Callable[[int], tuple]:
+    """Score of the vertical mirror planes that contain a class's axis (tie-break for C2')."""
+
+    def score(c: int) -> tuple:
+        a = facts.axis(c)
+        for p in _find(facts, "σ"):
+            if abs(facts.axis(p) @ z) < _PERPENDICULAR and any(
+                abs(operation_axis(facts.matrices[g]) @ a) < _PERPENDICULAR
+                for g in np.flatnonzero(facts.op_class == p)
+            ):
+                return facts.score(p)
+        return (0, 0, 0)
+
+    return score
 
 
 def _b2_is_z(facts: GroupFacts, names: list[str], one_d: list[int], z: np.ndarray) -> None:

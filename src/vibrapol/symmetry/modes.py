@@ -295,7 +295,8 @@ def symmetrize_modeset(modes: ModeSet, group: PointGroup) -> ModeSet:
     averaged over the group and diagonalised again at the symmetrized geometry with
     :func:`vibrapol.vibrations.harmonic_analysis`.  ∂α/∂x (or ∂α/∂Q re-expanded on the
     Cartesians) is averaged the same way.  Sources with only a² and γ² per mode pass them on
-    weighted by |⟨new|old⟩|², which keeps their sums over each degenerate set.  New modes keep
+    weighted by |⟨new|old⟩|²: invariants cannot be averaged over the group, but their sums
+    over each degenerate set are kept up to the (small) mixing between sets.  New modes keep
     the order of the old ones (best overlap).
 
     Raises

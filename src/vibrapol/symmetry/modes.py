@@ -97,6 +97,31 @@ class ModeSymmetry:
     symmetrized: bool
     notes: tuple[str, ...] = ()
 
+    def __post_init__(self) -> None:
+        n = self.modes.n_modes
+        members = sorted(k for s in self.sets for k in s)
+        if len(self.irreps) != n or members != list(range(n)):
+            raise ShapeError(f"species and sets must cover the {n} modes exactly once")
+        if not (
+            len(self.set_irreps)
+            == len(self.set_purity)
+            == len(self.set_invariance)
+            == len(self.sets)
+        ):
+            raise ShapeError("one species, purity and invariance per set")
+        for name in (
+            "set_purity",
+            "set_invariance",
+            "ir_active",
+            "raman_active",
+            "totally_symmetric",
+        ):
+            value = np.array(getattr(self, name), copy=True)
+            if name in ("ir_active", "raman_active", "totally_symmetric") and value.shape != (n,):
+                raise ShapeError(f"{name} should have shape ({n},), got {value.shape}")
+            value.setflags(write=False)
+            object.__setattr__(self, name, value)
+
     @property
     def n_modes(self) -> int:
         """Number of modes."""

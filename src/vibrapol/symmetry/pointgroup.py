@@ -22,15 +22,9 @@ from vibrapol.modeset import default_masses
 from vibrapol.symmetry import _msym
 from vibrapol.symmetry.abelian import abelian_group
 from vibrapol.symmetry.group import GeometryError, PointGroup, match_atoms, symmetrize_coordinates
-from vibrapol.symmetry.labels import (
-    CONVENTION_DEFAULT,
-    GroupFacts,
-    improper_angle,
-    operation_kind,
-    rotation_angle,
-    standard_names,
-)
+from vibrapol.symmetry.labels import CONVENTION_DEFAULT, GroupFacts, standard_names
 from vibrapol.symmetry.linear import linear_axis, linear_group
+from vibrapol.symmetry.operations import improper_angle, operation_kind, rotation_angle
 
 __all__ = [
     "DEFAULT_TOLERANCE_ANG",

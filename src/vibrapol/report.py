@@ -1,8 +1,9 @@
-"""Tables as text, CSV, JSON, Markdown and LaTeX."""
+"""Tables as text, CSV, JSON, Markdown and LaTeX: the Raman table and the symmetry report."""
 
 from __future__ import annotations
 
 import csv
+import dataclasses
 import io
 import json
 import math
@@ -10,9 +11,19 @@ import math
 import numpy as np
 
 from vibrapol.ramantable import RamanTable
+from vibrapol.symmetry import (
+    ModeSymmetry,
+    PointGroup,
+    band_counts,
+    format_representation,
+    gamma_vib,
+    species_rules,
+)
 from vibrapol.units import CODATA_VERSION
 
-#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –).
+#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –).
+#: ``ir_active`` and ``raman_active`` are the selection rules of the mode's species (empty when
+#: the symmetry is not known).
 TABLE_COLUMNS = (
     "mode",
     "frequency_cm1",
@@ -24,6 +35,8 @@ TABLE_COLUMNS = (
     "rho_natural",
     "polarized",
     "degenerate_set",
+    "ir_active",
+    "raman_active",
 )
 
 
@@ -39,11 +52,20 @@ def _finite_or_none(value: float) -> float | None:
     return value if math.isfinite(value) else None
 
 
+def _flag(values: np.ndarray | None, i: int) -> bool | None:
+    return None if values is None else bool(values[i])
+
+
+def _csv_flag(value: bool | None) -> str:
+    return "" if value is None else ("true" if value else "false")
+
+
 def table_rows(table: RamanTable) -> list[dict[str, object]]:
     """One dictionary per mode with the keys of :data:`TABLE_COLUMNS`.
 
     NaN ρ → None.  When the source gives only activities, a², γ², ρ and ``polarized`` are
-    None (unknown).
+    None (unknown).  ``ir_active`` and ``raman_active`` are None when the table carries no
+    symmetry.
     """
     rows = []
     for i in range(table.n_modes):
@@ -62,6 +84,8 @@ def table_rows(table: RamanTable) -> list[dict[str, object]]:
                 "rho_natural": rho_n if math.isfinite(rho_n) else None,
                 "polarized": bool(table.polarized[i]) if known else None,
                 "degenerate_set": int(table.degenerate_set[i]),
+                "ir_active": _flag(table.ir_active, i),
+                "raman_active": _flag(table.raman_active, i),
             }
         )
     return rows
@@ -85,6 +109,8 @@ def table_csv(table: RamanTable) -> str:
                 "" if row["rho_natural"] is None else f"{row['rho_natural']:.6f}",
                 "" if row["polarized"] is None else str(row["polarized"]).lower(),
                 row["degenerate_set"],
+                _csv_flag(row["ir_active"]),
+                _csv_flag(row["raman_active"]),
             ]
         )
     return buf.getvalue()
@@ -99,6 +125,7 @@ def _header(table: RamanTable) -> dict[str, str]:
         "program": program,
         "method": method,
         "point_group": table.point_group,
+        "symmetry_convention": table.symmetry_convention,
     }
 
 
@@ -123,12 +150,17 @@ def table_text(table: RamanTable) -> str:
     h = _header(table)
     lines = [
         f"source: {h['source']}",
-        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   "
-        f"point group: {h['point_group']}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}"
+        f"   point group: {h['point_group'] or '-'}",
+    ]
+    if h["symmetry_convention"]:
+        lines.append(f"species names: {h['symmetry_convention']}")
+    lines += [f"note: {n}" for n in table.provenance.notes]
+    lines += [
         "a2, gamma2, activity in Å⁴/amu; rho for 90° scattering (linear / natural incident light)",
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
-        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4}",
+        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4} {'IR':>3} {'Ra':>3}",
     ]
     for row in table_rows(table):
         lines.append(
@@ -136,6 +168,7 @@ def table_text(table: RamanTable) -> str:
             f" {_fmt_g(row['a2']):>11} {_fmt_g(row['gamma2']):>11} {row['activity']:>11.4g}"
             f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
             f" {'P' if row['polarized'] else '':>3} {row['degenerate_set']:>4}"
+            f" {_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}"
         )
     n_pol = int(table.polarized.sum())
     lines.append("")
@@ -148,7 +181,156 @@ def table_text(table: RamanTable) -> str:
         lines.append(
             f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)"
         )
+    if table.ir_active is not None:
+        lines.append("IR, Ra: fundamental allowed (y) or forbidden (-) by its species")
     return "\n".join(lines) + "\n"
 
 
+def _text_flag(value: bool | None) -> str:
+    return "" if value is None else ("y" if value else "-")
+
+
 FORMATTERS = {"text": table_text, "csv": table_csv, "json": table_json}
+
+
+# -- symmetry report (``vibrapol symmetry``) ----------------------------------------------------
+
+
+def _character(value: float) -> str:
+    return str(int(round(value))) if abs(value - round(value)) < 1e-6 else f"{value:.3f}"
+
+
+def character_table_text(group: PointGroup) -> str:
+    """The character table of ``group`` as fixed-width text (classes across, species down)."""
+    width = max(6, *(len(c) + 1 for c in group.class_labels))
+    lines = [f"{group.symbol:<8}" + "".join(f"{c:>{width}}" for c in group.class_labels)]
+    for name, row in zip(group.irreps, group.characters, strict=True):
+        lines.append(f"{name:<8}" + "".join(f"{_character(v):>{width}}" for v in row))
+    if group.linear:
+        lines.append("(operations of the finite subgroup used for the linear molecule)")
+    return "\n".join(lines) + "\n"
+
+
+def symmetry_rows(group: PointGroup) -> list[dict[str, object]]:
+    """One dictionary per species: name, dimension, count in Γ_vib and selection rules."""
+    counts = gamma_vib(group)
+    return [
+        {
+            "irrep": r.irrep,
+            "dim": r.dim,
+            "count_vib": counts.get(r.irrep, 0),
+            "ir_active": r.ir_active,
+            "ir_components": r.ir_components,
+            "raman_active": r.raman_active,
+            "polarization": r.polarization,
+        }
+        for r in species_rules(group)
+    ]
+
+
+def mode_rows(symmetry: ModeSymmetry) -> list[dict[str, object]]:
+    """One dictionary per mode: frequency, species, set, purity, activities, expected band."""
+    rules = {r.irrep: r for r in species_rules(symmetry.group)}
+    set_of = {k: i for i, s in enumerate(symmetry.sets) for k in s}
+    purity = symmetry.purity
+    freqs = symmetry.modes.freqs_cm1
+    return [
+        {
+            "mode": k + 1,
+            "frequency_cm1": float(freqs[k]),
+            "irrep": name,
+            "degenerate_set": set_of[k] + 1,
+            "purity": float(purity[k]),
+            "ir_active": rules[name].ir_active,
+            "raman_active": rules[name].raman_active,
+            "polarization": rules[name].polarization,
+        }
+        for k, name in enumerate(symmetry.irreps)
+    ]
+
+
+def symmetry_text(
+    group: PointGroup,
+    *,
+    symmetry: ModeSymmetry | None = None,
+    source: str = "",
+    characters: bool = False,
+) -> str:
+    """What ``vibrapol symmetry`` prints: point group, Γ_vib, selection rules, mode species."""
+    counts = band_counts(group)
+    n_modes = sum(r["dim"] * r["count_vib"] for r in symmetry_rows(group))
+    lines = [
+        f"source: {source or '(in memory)'} ({group.n_atoms} atoms)",
+        f"point group: {group.symbol}   (tolerance {group.tolerance_ang:g} Å; largest atom "
+        f"mismatch {group.max_deviation_ang:.2g} Å)",
+        f"species names: {group.convention}",
+    ]
+    lines += [f"note: {n}" for n in group.notes]
+    lines += [
+        f"Γ_vib = {format_representation(gamma_vib(group))}   ({n_modes} modes, "
+        f"{counts.fundamentals} fundamentals)",
+        "",
+        f"{'species':<8} {'dim':>3} {'in Γ_vib':>8}  {'IR':<9} {'Raman':<6} expected Raman band",
+    ]
+    for row in symmetry_rows(group):
+        ir = row["ir_components"] if row["ir_active"] else "-"
+        band = {
+            "polarized": "polarized (rho_linear < 3/4)",
+            "depolarized": "depolarized (rho_linear = 3/4)",
+            "inactive": "-",
+        }[row["polarization"]]
+        lines.append(
+            f"{row['irrep']:<8} {row['dim']:>3} {row['count_vib']:>8}  {ir:<9} "
+            f"{'active' if row['raman_active'] else '-':<6} {band}"
+        )
+    lines += [
+        "",
+        f"fundamentals: {counts.fundamentals}; Raman-active {counts.raman_active} "
+        f"({counts.polarized} polarized); IR-active {counts.ir_active}; "
+        f"in both {counts.coincident}; in neither {counts.silent}",
+    ]
+    if characters:
+        lines += ["", character_table_text(group).rstrip("\n")]
+    if symmetry is not None:
+        lines += ["", "modes (species of each degenerate set; purity 1 = pure species):"]
+        lines += [f"note: {n}" for n in symmetry.notes]
+        lines.append(
+            f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'set':>4} {'purity':>7} "
+            f"{'IR':>3} {'Ra':>3}  Raman band"
+        )
+        for row in mode_rows(symmetry):
+            lines.append(
+                f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6} "
+                f"{row['degenerate_set']:>4} {row['purity']:>7.4f} "
+                f"{_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}  "
+                f"{row['polarization']}"
+            )
+    return "\n".join(lines) + "\n"
+
+
+def symmetry_json(
+    group: PointGroup, *, symmetry: ModeSymmetry | None = None, source: str = ""
+) -> str:
+    """JSON document with the same content as :func:`symmetry_text`."""
+    doc: dict[str, object] = {
+        "source": source,
+        "point_group": group.symbol,
+        "tolerance_ang": group.tolerance_ang,
+        "max_deviation_ang": group.max_deviation_ang,
+        "convention": group.convention,
+        "notes": list(group.notes),
+        "gamma_vib": gamma_vib(group),
+        "band_counts": dataclasses.asdict(band_counts(group)),
+        "species": symmetry_rows(group),
+        "character_table": {
+            "classes": list(group.class_labels),
+            "class_sizes": group.class_sizes.tolist(),
+            "irreps": list(group.irreps),
+            "characters": group.characters.round(12).tolist(),
+        },
+    }
+    if symmetry is not None:
+        doc["modes"] = mode_rows(symmetry)
+        doc["symmetrized"] = symmetry.symmetrized
+        doc["mode_notes"] = list(symmetry.notes)
+    return json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n"

@@ -19,6 +19,7 @@ from vibrapol.errors import VibrapolError
 #: Subcommand name → module in vibrapol.cli.
 SUBCOMMANDS = {
     "table": "vibrapol.cli.table",
+    "symmetry": "vibrapol.cli.symmetry",
     "compute": "vibrapol.cli.compute",
     "spectrum": "vibrapol.cli.spectrum",
     "sweep": "vibrapol.cli.sweep",

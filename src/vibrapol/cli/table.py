@@ -5,10 +5,12 @@ from __future__ import annotations
 import argparse
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli.symmetry import add_symmetry_arguments
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.ramantable import raman_table
 from vibrapol.report import FORMATTERS
 from vibrapol.sources import read_modes, readers
+from vibrapol.symmetry import mode_symmetry
 
 HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
 
@@ -26,8 +28,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--degeneracy-tol-cm1",
         type=float,
         default=DEGENERACY_TOL_CM1,
-        help=f"modes closer than this are one degenerate set (default: {DEGENERACY_TOL_CM1})",
+        help="with --no-symmetry: modes closer than this are one degenerate set "
+        f"(default: {DEGENERACY_TOL_CM1})",
     )
+    parser.add_argument(
+        "--no-symmetry",
+        action="store_true",
+        help="do not label the modes by symmetry; degenerate sets from frequencies alone",
+    )
+    add_symmetry_arguments(parser)
     add_output_arguments(parser, "table")
 
 
@@ -35,6 +44,12 @@ def run(args: argparse.Namespace) -> int:
     """Read the source, compute the table, print or write it."""
     check_output(args)
     modes = read_modes(args.source, kind=args.kind)
-    table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
+    if args.no_symmetry or modes.n_atoms < 2:
+        table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
+    else:
+        symmetry = mode_symmetry(
+            modes, tolerance_ang=args.symmetry_tolerance_ang, symmetrize=args.symmetrize
+        )
+        table = raman_table(symmetry.modes, symmetry=symmetry)
     emit(args, FORMATTERS[args.format](table))
     return 0

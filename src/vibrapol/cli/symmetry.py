@@ -1,0 +1,120 @@
+"""Point group, vibrational representation and selection rules of a structure or mode source.
+
+Prints the point group, Γ_vib reduced into symmetry species, and for each species whether its
+fundamentals are IR-active, Raman-active, and polarized (totally symmetric) or depolarized
+(ρ_linear = 3/4) in the Raman spectrum.  With a source that carries normal modes (a
+quantum-chemistry output or *.modes.json) it also gives the species of every mode.
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+import numpy as np
+
+from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.errors import InputFormatError
+from vibrapol.modeset import ModeSet
+from vibrapol.report import symmetry_json, symmetry_text
+from vibrapol.sources import read_modes, readers
+from vibrapol.sources.registry import read_text, sniff_text
+from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, analyse_modes, find_point_group
+
+HELP = "point group, Γ_vib and selection rules of a structure or of computed modes"
+
+
+def add_symmetry_arguments(parser: argparse.ArgumentParser) -> None:
+    """``--symmetry-tolerance-ang`` and ``--symmetrize`` (shared with ``vibrapol table``)."""
+    parser.add_argument(
+        "--symmetry-tolerance-ang",
+        type=float,
+        default=DEFAULT_TOLERANCE_ANG,
+        metavar="ANG",
+        help="largest distance between an atom and the image of its partner under a symmetry "
+        f"operation (default: {DEFAULT_TOLERANCE_ANG} Å)",
+    )
+    parser.add_argument(
+        "--symmetrize",
+        choices=("auto", "always", "never"),
+        default="auto",
+        help="average the Hessian and Raman tensors over the point group before labelling the "
+        "modes: when labels are impure (auto, the default), always, or never",
+    )
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Arguments of ``vibrapol symmetry``."""
+    parser.add_argument(
+        "source",
+        help="structure file (any format ase reads, e.g. .xyz) or a quantum-chemistry output / "
+        "*.modes.json with normal modes",
+    )
+    parser.add_argument(
+        "--kind", choices=sorted(readers()), help="mode source kind (default: from the content)"
+    )
+    parser.add_argument("--format", choices=("text", "json"), default="text", help="output format")
+    parser.add_argument("--characters", action="store_true", help="also print the character table")
+    add_symmetry_arguments(parser)
+    add_output_arguments(parser, "report")
+
+
+def read_structure_or_modes(
+    path: str, kind: str | None = None
+) -> ModeSet | tuple[np.ndarray, np.ndarray]:
+    """A ModeSet when ``path`` is a known mode source, else (atomic numbers, coordinates in Å).
+
+    Raises
+    ------
+    InputFormatError
+        When the file is missing, or neither a mode source nor a structure with coordinates.
+    """
+    if kind:
+        return read_modes(path, kind=kind)
+    text = read_text(path)
+    if sniff_text(text) is not None:
+        return read_modes(path)
+    import ase.io
+
+    try:
+        atoms = ase.io.read(path)
+    except Exception as exc:  # ase raises many kinds for files it cannot parse
+        raise InputFormatError(
+            f"{path}: no atomic coordinates found ({type(exc).__name__}: {exc}); give a structure "
+            "file ase can read (e.g. .xyz) or a quantum-chemistry output"
+        ) from exc
+    if len(atoms) == 0:
+        raise InputFormatError(
+            f"{path}: the file holds no atoms; give a structure with coordinates"
+        )
+    return atoms.get_atomic_numbers(), atoms.get_positions()
+
+
+def run(args: argparse.Namespace) -> int:
+    """Find the point group, reduce Γ_vib, label the modes if there are any, print."""
+    check_output(args)
+    data = read_structure_or_modes(args.source, args.kind)
+    symmetry = None
+    if isinstance(data, ModeSet):
+        group = find_point_group(
+            data.atomic_numbers,
+            data.coordinates_ang,
+            data.masses_da,
+            tolerance_ang=args.symmetry_tolerance_ang,
+            where=args.source,
+        )
+        if data.n_modes:
+            symmetry = analyse_modes(data, group, symmetrize=args.symmetrize)
+    else:
+        z, xyz = data
+        group = find_point_group(
+            z, xyz, tolerance_ang=args.symmetry_tolerance_ang, where=args.source
+        )
+    source = str(Path(args.source))
+    if args.format == "json":
+        emit(args, symmetry_json(group, symmetry=symmetry, source=source))
+    else:
+        emit(
+            args, symmetry_text(group, symmetry=symmetry, source=source, characters=args.characters)
+        )
+    return 0

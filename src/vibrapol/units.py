@@ -31,6 +31,12 @@ PLANCK_J_S: float = _c.h
 BOLTZMANN_J_K: float = _c.k
 #: Second radiation constant hc/k in cm K (converts cm⁻¹ to K).
 HC_OVER_K_CM_K: float = _c.h * C_CM_S / _c.k
+#: Molar gas constant R = N_A k in kJ mol⁻¹ K⁻¹.
+GAS_CONSTANT_KJ_MOL_K: float = _c.N_A * _c.k / 1000.0
+#: Hartree energy per molecule → kJ mol⁻¹.
+HARTREE_TO_KJ_MOL: float = HARTREE_J * _c.N_A / 1000.0
+#: Wavenumber (cm⁻¹) per molecule → kJ mol⁻¹ (hc N_A).
+CM1_TO_KJ_MOL: float = _c.h * C_CM_S * _c.N_A / 1000.0
 
 #: bohr³ → Å³ (polarizability).
 BOHR3_TO_ANG3: float = BOHR_ANG**3

@@ -19,6 +19,8 @@ from vibrapol.errors import VibrapolError
 #: Subcommand name → module in vibrapol.cli.
 SUBCOMMANDS = {
     "table": "vibrapol.cli.table",
+    "spectrum": "vibrapol.cli.spectrum",
+    "sweep": "vibrapol.cli.sweep",
 }
 
 

@@ -1,0 +1,278 @@
+"""Polarized Raman spectra (VV, VH and other channels) of one molecule or a conformer mixture.
+
+Writes the broadened spectrum as CSV (columns shift_cm1, vv, vh, then any other channels) or
+JSON, optionally a stick table and figures (SVG, PDF or 300 dpi PNG).  Several sources are
+combined as a Boltzmann-weighted mixture.
+
+Laser safety: the laser line chosen here is only a number in a calculation, but the real one
+can injure eyes and skin; follow your institution's laser safety rules and local regulations.
+Computed spectra are predictions, not a substitute for measurement.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from vibrapol.channels import GEOMETRIES
+from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.errors import VibrapolError
+from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.invariants import DEGENERACY_TOL_CM1
+from vibrapol.lineshapes import SHAPES, LineShape
+from vibrapol.quantities import QUANTITY_UNITS
+from vibrapol.scaling import NO_SCALE, FrequencyScale
+from vibrapol.sources import read_modes, readers
+from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
+
+HELP = "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures"
+
+LASER_CAUTION = (
+    "Caution: laser radiation can injure eyes and skin; follow your institution's laser safety "
+    "rules and local regulations."
+)
+
+
+def parse_range(text: str) -> tuple[float, float]:
+    """``"100:3600"`` → (100.0, 3600.0)."""
+    try:
+        lo, hi = (float(t) for t in text.split(":"))
+    except ValueError:
+        raise VibrapolError(
+            f"range must be LOW:HIGH in cm-1, e.g. 100:3600, got {text!r}"
+        ) from None
+    if not hi > lo:
+        raise VibrapolError(f"range must run from low to high, got {text!r}")
+    return lo, hi
+
+
+def parse_floats(text: str, what: str) -> list[float]:
+    """Comma-separated numbers."""
+    try:
+        return [float(t) for t in text.split(",") if t.strip()]
+    except ValueError:
+        raise VibrapolError(f"{what} must be comma-separated numbers, got {text!r}") from None
+
+
+def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options shared by ``spectrum`` and ``sweep``: source kind, conditions, scaling."""
+    parser.add_argument(
+        "--kind", choices=sorted(readers()), help="input kind (default: from the content)"
+    )
+    parser.add_argument(
+        "--laser-nm",
+        type=float,
+        default=532.0,
+        help=f"excitation wavelength in nm (default 532). {LASER_CAUTION}",
+    )
+    parser.add_argument(
+        "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
+    )
+    parser.add_argument(
+        "--quantity",
+        choices=sorted(QUANTITY_UNITS),
+        default="intensity",
+        help="stick height: Raman activity, relative intensity at the laser and temperature "
+        "(default), or absolute differential cross section in cm^2/sr",
+    )
+    scale = parser.add_mutually_exclusive_group()
+    scale.add_argument("--scale", type=float, metavar="F", help="multiply all wavenumbers by F")
+    scale.add_argument(
+        "--scale-for",
+        metavar="METHOD/BASIS",
+        help="published factor for fundamentals, e.g. B3LYP/6-31G* (see vibrapol.scaling)",
+    )
+    parser.add_argument(
+        "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
+    )
+    parser.add_argument(
+        "--split-cm1", type=float, metavar="X", help="wavenumber where --scale-high starts"
+    )
+    parser.add_argument(
+        "--degeneracy-tol-cm1",
+        type=float,
+        default=DEGENERACY_TOL_CM1,
+        help=f"modes closer than this form one band (default {DEGENERACY_TOL_CM1})",
+    )
+
+
+def scale_from_args(args: argparse.Namespace) -> FrequencyScale:
+    """The FrequencyScale the options ask for."""
+    if args.scale_for:
+        base = FrequencyScale.published(args.scale_for)
+    elif args.scale is not None:
+        base = FrequencyScale(args.scale)
+    else:
+        base = NO_SCALE
+    if args.scale_high is not None or args.split_cm1 is not None:
+        return FrequencyScale(base.factor, args.scale_high, args.split_cm1, base.note)
+    return base
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Arguments of ``vibrapol spectrum``."""
+    parser.add_argument(
+        "sources", nargs="+", metavar="SOURCE", help="*.modes.json or quantum-chemistry output(s)"
+    )
+    add_physics_arguments(parser)
+    parser.add_argument(
+        "--geometry", type=int, choices=GEOMETRIES, default=90, help="scattering angle (default 90)"
+    )
+    parser.add_argument(
+        "--channels", default="", help="extra channels, e.g. nv,nh,vu or p45a-45 (vv, vh always)"
+    )
+    parser.add_argument(
+        "--anti-stokes", action="store_true", help="add anti-Stokes bands at negative shifts"
+    )
+    parser.add_argument(
+        "--shape", choices=SHAPES, default="lorentzian", help="line shape (default lorentzian)"
+    )
+    parser.add_argument(
+        "--fwhm-cm1", type=float, default=8.0, help="full width at half maximum (default 8)"
+    )
+    parser.add_argument(
+        "--fwhm-slope",
+        type=float,
+        default=0.0,
+        help="FWHM grows by this times the shift (default 0)",
+    )
+    parser.add_argument(
+        "--lorentzian-share", type=float, default=0.5, help="Voigt: Lorentzian share (default 0.5)"
+    )
+    parser.add_argument(
+        "--range-cm1",
+        default=None,
+        help="LOW:HIGH (default 100:3600; -3600:3600 with --anti-stokes)",
+    )
+    parser.add_argument("--step-cm1", type=float, default=0.5, help="grid step (default 0.5)")
+    parser.add_argument(
+        "--energies-kjmol",
+        help="relative energies of the sources (default: their electronic energies)",
+    )
+    parser.add_argument(
+        "--zero-point",
+        action="store_true",
+        help="add harmonic zero-point energies to source energies",
+    )
+    parser.add_argument(
+        "--format", choices=("csv", "json"), default="csv", help="spectrum format (default csv)"
+    )
+    add_output_arguments(parser, "spectrum")
+    parser.add_argument("--sticks", metavar="FILE", help="also write the stick table (CSV) here")
+    parser.add_argument(
+        "--figure",
+        metavar="FILE",
+        action="append",
+        default=[],
+        help="spectrum figure (.svg, .pdf or .png); repeat for several formats",
+    )
+    parser.add_argument(
+        "--rho-figure",
+        metavar="FILE",
+        action="append",
+        default=[],
+        help="depolarization-ratio figure (.svg, .pdf or .png); repeat for several formats",
+    )
+    parser.add_argument(
+        "--layout",
+        choices=("shared", "stacked"),
+        default="shared",
+        help="VV and VH on one axes or stacked",
+    )
+    parser.add_argument(
+        "--width", default="single", help="figure width: single, double or inches (default single)"
+    )
+    parser.add_argument(
+        "--labels", type=int, default=6, help="number of bands labelled in the figure (default 6)"
+    )
+
+
+def build_sticks(
+    args: argparse.Namespace, channels: list[str], geometry: int, **extra: object
+) -> StickSpectrum:
+    """Read the sources and compute their (mixture) stick spectrum."""
+    modesets = [read_modes(s, kind=args.kind) for s in args.sources]
+    options = dict(
+        channels=channels,
+        quantity=args.quantity,
+        laser_nm=args.laser_nm,
+        geometry_deg=geometry,
+        scale=scale_from_args(args),
+        degeneracy_tol_cm1=args.degeneracy_tol_cm1,
+        **extra,
+    )
+    if len(modesets) == 1:
+        return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)  # type: ignore[arg-type]
+    from vibrapol.conformers import conformer_spectrum
+
+    energies = getattr(args, "energies_kjmol", None)
+    return conformer_spectrum(
+        modesets,
+        relative_energies_kjmol=parse_floats(energies, "--energies-kjmol") if energies else None,
+        temperature_k=args.temperature_k,
+        include_zero_point=getattr(args, "zero_point", False),
+        **options,
+    )
+
+
+def _width(text: str) -> str | float:
+    if text in ("single", "double"):
+        return text
+    try:
+        return float(text)
+    except ValueError:
+        raise VibrapolError(
+            f"--width must be single, double or a number of inches, got {text!r}"
+        ) from None
+
+
+def run(args: argparse.Namespace) -> int:
+    """Compute the spectrum and write every requested output (all or nothing)."""
+    check_output(args)
+    for path in [args.sticks, *args.figure, *args.rho_figure]:
+        if path:
+            check_writable(path, args.force)
+    for path in [*args.figure, *args.rho_figure]:
+        _suffix(path)
+    lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
+    default_range = "-3600:3600" if args.anti_stokes else "100:3600"
+    span = parse_range(args.range_cm1 or default_range)
+    channels = [c for c in args.channels.split(",") if c.strip()]
+    sticks = build_sticks(
+        args, channels, args.geometry, side="both" if args.anti_stokes else "stokes"
+    )
+    grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
+
+    from vibrapol import spectrum_io
+
+    outputs: list[tuple[str, str | bytes]] = []
+    if args.sticks:
+        outputs.append((args.sticks, spectrum_io.sticks_csv(sticks)))
+    if args.figure or args.rho_figure:
+        from vibrapol import plotting
+
+        if args.figure:
+            fig = plotting.spectrum_figure(
+                grid,
+                channels=grid.channels,
+                layout=args.layout,
+                width=_width(args.width),
+                label_count=args.labels,
+            )
+            outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.figure]
+        if args.rho_figure:
+            fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)
+            outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.rho_figure]
+    text = spectrum_io.grid_csv(grid) if args.format == "csv" else spectrum_io.grid_json(grid)
+    for path, data in outputs:
+        write_atomic(path, data, force=args.force)
+        print(f"wrote {path}", file=sys.stderr)
+    emit(args, text)
+    return 0
+
+
+def _suffix(path: str) -> str:
+    fmt = path.rsplit(".", 1)[-1].lower() if "." in path else ""
+    if fmt not in ("png", "svg", "pdf"):
+        raise VibrapolError(f"{path}: figure files must end in .png, .svg or .pdf")
+    return fmt

@@ -1,0 +1,160 @@
+"""Polar sweep: intensity of chosen bands versus polarizer angle, analyzer parallel and crossed.
+
+The sample is isotropic, fixed in one orientation, aligned along an axis, or uniaxially
+distributed about a director (surfaces, stretched films).  Laboratory frame: the incident beam
+travels along +z, V is y and H is x; the polarizer angle runs from V towards H.  Molecular axes
+are given in the frame of the source's coordinates.
+
+Laser safety: laser radiation can injure eyes and skin; follow your institution's laser safety
+rules and local regulations.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+
+import numpy as np
+
+from vibrapol import orientation as orient
+from vibrapol.channels import GEOMETRIES
+from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli.spectrum import add_physics_arguments, parse_floats, scale_from_args
+from vibrapol.errors import VibrapolError
+from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.sources import read_modes
+from vibrapol.sweep import polar_sweep
+
+HELP = "band intensities versus polarizer angle for isotropic or oriented samples"
+
+ORIENTATIONS = ("isotropic", "fixed", "aligned", "uniaxial")
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Arguments of ``vibrapol sweep``."""
+    parser.add_argument(
+        "source", help="*.modes.json or quantum-chemistry output (needs polarizability derivatives)"
+    )
+    parser.add_argument(
+        "--orientation", choices=ORIENTATIONS, required=True, help="how the molecules are oriented"
+    )
+    parser.add_argument(
+        "--euler-deg", help="fixed: z-y-z Euler angles A,B,C of the rotation molecule -> laboratory"
+    )
+    parser.add_argument(
+        "--mol-axis", default="z", help="molecular axis: x, y, z or three numbers (default z)"
+    )
+    parser.add_argument(
+        "--director",
+        default="y",
+        help="laboratory axis the molecular axis aligns to (default y = V)",
+    )
+    parser.add_argument(
+        "--tilt-deg", type=float, default=0.0, help="uniaxial: most probable tilt (default 0)"
+    )
+    parser.add_argument(
+        "--tilt-spread-deg",
+        type=float,
+        default=0.0,
+        help="uniaxial: Gaussian spread of the tilt (default 0; inf = none)",
+    )
+    parser.add_argument(
+        "--twist-deg",
+        type=float,
+        help="uniaxial: fixed twist about the molecular axis (default: uniform)",
+    )
+    parser.add_argument(
+        "--angles-deg", default="0:360:5", help="polarizer angles START:STOP:STEP (default 0:360:5)"
+    )
+    parser.add_argument(
+        "--bands", help="Raman shifts of the bands to sweep, comma-separated (default: strongest)"
+    )
+    parser.add_argument(
+        "--top", type=int, default=4, help="number of strongest bands when --bands is not given"
+    )
+    parser.add_argument(
+        "--geometry",
+        type=int,
+        choices=GEOMETRIES,
+        default=180,
+        help="scattering angle (default 180)",
+    )
+    add_physics_arguments(parser)
+    parser.add_argument(
+        "--format", choices=("csv", "json"), default="csv", help="output format (default csv)"
+    )
+    add_output_arguments(parser, "sweep")
+    parser.add_argument("--figure", metavar="FILE", help="polar figure (.svg, .pdf or .png)")
+    parser.add_argument(
+        "--width", default="double", help="figure width: single, double or inches (default double)"
+    )
+
+
+def orientation_from_args(args: argparse.Namespace) -> orient.Orientation:
+    """The Orientation the options describe."""
+    if args.orientation == "isotropic":
+        return orient.isotropic()
+    if args.orientation == "fixed":
+        if not args.euler_deg:
+            raise VibrapolError("--orientation fixed needs --euler-deg A,B,C")
+        angles = parse_floats(args.euler_deg, "--euler-deg")
+        if len(angles) != 3:
+            raise VibrapolError(f"--euler-deg needs three angles, got {args.euler_deg!r}")
+        return orient.fixed(orient.euler_zyz(*angles), f"fixed, Euler z-y-z {args.euler_deg} deg")
+    if args.orientation == "aligned":
+        return orient.aligned(args.mol_axis, args.director)
+    return orient.uniaxial(
+        args.mol_axis,
+        args.director,
+        tilt_deg=args.tilt_deg,
+        tilt_spread_deg=args.tilt_spread_deg,
+        twist_deg=args.twist_deg,
+    )
+
+
+def parse_angles(text: str) -> np.ndarray:
+    """``"0:360:5"`` → 0, 5, …, 360."""
+    parts = parse_floats(text.replace(":", ","), "--angles-deg")
+    if len(parts) != 3 or parts[2] <= 0 or parts[1] < parts[0]:
+        raise VibrapolError(f"--angles-deg must be START:STOP:STEP with STEP > 0, got {text!r}")
+    start, stop, step = parts
+    return start + step * np.arange(int(math.floor((stop - start) / step + 1e-9)) + 1)
+
+
+def run(args: argparse.Namespace) -> int:
+    """Compute the sweep and write the table (and the figure)."""
+    check_output(args)
+    if args.figure:
+        check_writable(args.figure, args.force)
+        fmt = args.figure.rsplit(".", 1)[-1].lower()
+        if fmt not in ("png", "svg", "pdf"):
+            raise VibrapolError(f"{args.figure}: figure files must end in .png, .svg or .pdf")
+    orientation = orientation_from_args(args)
+    angles = parse_angles(args.angles_deg)
+    modes = read_modes(args.source, kind=args.kind)
+    sweep = polar_sweep(
+        modes,
+        angles_deg=angles,
+        bands_cm1=parse_floats(args.bands, "--bands") if args.bands else None,
+        top=args.top,
+        geometry_deg=args.geometry,
+        orientation=orientation,
+        quantity=args.quantity,
+        laser_nm=args.laser_nm,
+        temperature_k=args.temperature_k,
+        scale=scale_from_args(args),
+        degeneracy_tol_cm1=args.degeneracy_tol_cm1,
+    )
+    from vibrapol import spectrum_io
+
+    text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)
+    if args.figure:
+        from vibrapol import plotting
+        from vibrapol.cli.spectrum import _width
+
+        fig = plotting.polar_figure(sweep, width=_width(args.width))
+        write_atomic(args.figure, plotting.figure_bytes(fig, fmt), force=args.force)
+        print(f"wrote {args.figure}", file=sys.stderr)
+    emit(args, text)
+    return 0

@@ -1,0 +1,148 @@
+"""Spectra of mixtures: Boltzmann-weighted sums over conformers (or any set of species).
+
+References
+----------
+.. [McQ] D. A. McQuarrie, *Statistical Mechanics*, Harper & Row (1976), ch. 2: the Boltzmann
+   distribution p_i = g_i exp(−E_i/RT) / Σ_j g_j exp(−E_j/RT).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+import numpy as np
+
+from vibrapol import units
+from vibrapol.errors import VibrapolError
+from vibrapol.modeset import ModeSet
+from vibrapol.spectrum import StickSpectrum, stick_spectrum
+
+
+def boltzmann_weights(
+    relative_energies_kjmol: Sequence[float],
+    temperature_k: float,
+    degeneracies: Sequence[float] | None = None,
+) -> np.ndarray:
+    """Population of each species, g_i exp(−ΔE_i/RT) normalised to 1 [McQ]_.
+
+    At T = 0 the lowest-energy species (all of them, if tied) carry the whole population.
+    """
+    e = np.asarray(relative_energies_kjmol, dtype=float)
+    if e.ndim != 1 or e.size == 0 or not np.all(np.isfinite(e)):
+        raise VibrapolError("relative energies must be a non-empty list of finite numbers (kJ/mol)")
+    g = np.ones_like(e) if degeneracies is None else np.asarray(degeneracies, dtype=float)
+    if g.shape != e.shape or np.any(g <= 0):
+        raise VibrapolError("give one positive degeneracy per species")
+    if temperature_k < 0 or not math.isfinite(temperature_k):
+        raise VibrapolError(f"temperature must be ≥ 0 K, got {temperature_k}")
+    de = e - e.min()
+    if temperature_k == 0:
+        w = np.where(de == 0, g, 0.0)
+    else:
+        w = g * np.exp(-de / (units.GAS_CONSTANT_KJ_MOL_K * temperature_k))
+    return w / w.sum()
+
+
+def zero_point_kjmol(modes: ModeSet) -> float:
+    """Harmonic zero-point energy ½ hc Σ ν̃_k over the real modes, in kJ mol⁻¹."""
+    nu = modes.freqs_cm1[modes.freqs_cm1 > 0]
+    return 0.5 * float(nu.sum()) * units.CM1_TO_KJ_MOL
+
+
+def source_energies_kjmol(
+    modesets: Sequence[ModeSet], include_zero_point: bool = False
+) -> np.ndarray:
+    """Energies of the sources relative to the lowest, from their ``energy_hartree``.
+
+    Raises
+    ------
+    VibrapolError
+        When a source carries no energy (the message names it).
+    """
+    energies = []
+    for i, m in enumerate(modesets):
+        if m.energy_hartree is None:
+            where = m.provenance.source_file or f"source {i + 1}"
+            raise VibrapolError(
+                f"{where}: no electronic energy; give the relative energies explicitly"
+            )
+        e = m.energy_hartree * units.HARTREE_TO_KJ_MOL
+        energies.append(e + (zero_point_kjmol(m) if include_zero_point else 0.0))
+    e = np.array(energies)
+    return e - e.min()
+
+
+def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> StickSpectrum:
+    """One stick spectrum from several, each band's heights multiplied by its species' weight.
+
+    All spectra must have the same channels and conditions (quantity, laser, temperature, …).
+    """
+    if not spectra:
+        raise VibrapolError("a mixture needs at least one spectrum")
+    w = np.asarray(weights, dtype=float)
+    if w.shape != (len(spectra),) or np.any(w < 0):
+        raise VibrapolError(f"give one non-negative weight per spectrum ({len(spectra)})")
+    first = spectra[0]
+    for s in spectra[1:]:
+        if s.channels != first.channels or s.conditions != first.conditions:
+            raise VibrapolError("spectra in a mixture must share channels and conditions")
+    return StickSpectrum(
+        positions_cm1=np.concatenate([s.positions_cm1 for s in spectra]),
+        heights=np.concatenate([s.heights * wi for s, wi in zip(spectra, w, strict=True)]),
+        channels=first.channels,
+        harmonic_cm1=np.concatenate([s.harmonic_cm1 for s in spectra]),
+        mode_sets=tuple(ms for s in spectra for ms in s.mode_sets),
+        irreps=tuple(ir for s in spectra for ir in s.irreps),
+        rho_linear=np.concatenate([s.rho_linear for s in spectra]),
+        rho_natural=np.concatenate([s.rho_natural for s in spectra]),
+        polarized=np.concatenate([s.polarized for s in spectra]),
+        component=np.concatenate([np.full(s.n_bands, i) for i, s in enumerate(spectra)]).astype(
+            int
+        ),
+        components=tuple(s.components[0] for s in spectra),
+        weights=tuple(float(x) for x in w),
+        conditions=first.conditions,
+    )
+
+
+def conformer_spectrum(
+    modesets: Sequence[ModeSet],
+    *,
+    relative_energies_kjmol: Sequence[float] | None = None,
+    temperature_k: float = 298.15,
+    include_zero_point: bool = False,
+    degeneracies: Sequence[float] | None = None,
+    labels: Sequence[str] | None = None,
+    **stick_options: object,
+) -> StickSpectrum:
+    """Boltzmann-weighted stick spectrum of several conformers at ``temperature_k``.
+
+    Parameters
+    ----------
+    modesets : sequence of ModeSet
+    relative_energies_kjmol : sequence of float, optional
+        ΔE of each conformer (electronic, or free energies if you have them); default: from the
+        sources' ``energy_hartree`` (:func:`source_energies_kjmol`).
+    include_zero_point : bool
+        Add the harmonic zero-point energy to energies read from the sources.
+    degeneracies : sequence of float, optional
+        Number of equivalent copies of each conformer (e.g. 2 for a pair of mirror images).
+    labels : sequence of str, optional
+        Component labels (default: the source file names).
+    **stick_options
+        Passed to :func:`vibrapol.spectrum.stick_spectrum` (the temperature is passed too).
+    """
+    if relative_energies_kjmol is None:
+        relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
+    elif len(relative_energies_kjmol) != len(modesets):
+        raise VibrapolError(
+            f"give one energy per conformer ({len(modesets)}), got {len(relative_energies_kjmol)}"
+        )
+    weights = boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
+    labels = list(labels) if labels is not None else [m.provenance.source_file for m in modesets]
+    spectra = [
+        stick_spectrum(m, temperature_k=temperature_k, label=lab, **stick_options)  # type: ignore[arg-type]
+        for m, lab in zip(modesets, labels, strict=True)
+    ]
+    return mixture(spectra, weights)

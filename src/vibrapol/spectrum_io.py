@@ -1,0 +1,172 @@
+"""Spectra as CSV and JSON text (sticks, grids, polar sweeps).
+
+CSV files start with their header line, so any spreadsheet or ``pandas.read_csv`` reads them;
+everything that describes how they were made (conditions, line shape, scale, sources, units)
+goes into the JSON form.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from typing import Any
+
+import numpy as np
+
+from vibrapol.spectrum import GridSpectrum, StickSpectrum
+from vibrapol.sweep import PolarSweep
+from vibrapol.units import CODATA_VERSION
+
+#: Leading columns of the stick table, before one column per channel.
+STICK_COLUMNS = (
+    "shift_cm1",
+    "harmonic_cm1",
+    "modes",
+    "irrep",
+    "rho_linear",
+    "rho_natural",
+    "polarized",
+    "component",
+)
+
+
+def _num(value: float, fmt: str = ".6g") -> str:
+    return "" if not math.isfinite(value) else format(value, fmt)
+
+
+def _csv(rows: list[list[object]]) -> str:
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerows(rows)
+    return buf.getvalue()
+
+
+def grid_csv(grid: GridSpectrum) -> str:
+    """``shift_cm1,vv,vh,…``: one row per grid point."""
+    rows: list[list[object]] = [["shift_cm1", *grid.channels]]
+    for x, vals in zip(grid.shift_cm1, grid.values, strict=True):
+        rows.append([f"{x:.4f}", *(_num(v, ".8g") for v in vals)])
+    return _csv(rows)
+
+
+def sticks_csv(sticks: StickSpectrum) -> str:
+    """One row per band: :data:`STICK_COLUMNS`, then one height per channel."""
+    rows: list[list[object]] = [[*STICK_COLUMNS, *sticks.channels]]
+    for i in range(sticks.n_bands):
+        rows.append(
+            [
+                f"{sticks.positions_cm1[i]:.4f}",
+                f"{sticks.harmonic_cm1[i]:.4f}",
+                " ".join(str(k + 1) for k in sticks.mode_sets[i]),
+                sticks.irreps[i],
+                _num(sticks.rho_linear[i], ".6f"),
+                _num(sticks.rho_natural[i], ".6f"),
+                "true" if sticks.polarized[i] else "false",
+                sticks.components[sticks.component[i]],
+                *(_num(v, ".8g") for v in sticks.heights[i]),
+            ]
+        )
+    return _csv(rows)
+
+
+def _finite(values: np.ndarray) -> list[float | None]:
+    return [float(v) if math.isfinite(v) else None for v in np.asarray(values, dtype=float)]
+
+
+def header(sticks: StickSpectrum) -> dict[str, Any]:
+    """What a spectrum was computed for, as a JSON-ready dictionary."""
+    c = sticks.conditions
+    return {
+        "quantity": c.quantity,
+        "unit": c.unit,
+        "laser_nm": c.laser_nm,
+        "temperature_k": c.temperature_k,
+        "geometry_deg": c.geometry_deg,
+        "side": c.side,
+        "scale": c.scale.describe(),
+        "orientation": c.orientation,
+        "components": [
+            {"source": s, "weight": w}
+            for s, w in zip(sticks.components, sticks.weights, strict=True)
+        ],
+        "constants": CODATA_VERSION,
+    }
+
+
+def sticks_dict(sticks: StickSpectrum) -> dict[str, Any]:
+    """The bands as JSON-ready columns."""
+    return {
+        "shift_cm1": _finite(sticks.positions_cm1),
+        "harmonic_cm1": _finite(sticks.harmonic_cm1),
+        "modes": [[k + 1 for k in s] for s in sticks.mode_sets],
+        "irrep": list(sticks.irreps),
+        "rho_linear": _finite(sticks.rho_linear),
+        "rho_natural": _finite(sticks.rho_natural),
+        "polarized": [bool(p) for p in sticks.polarized],
+        "component": [int(k) for k in sticks.component],
+        "heights": {ch: _finite(sticks.heights[:, j]) for j, ch in enumerate(sticks.channels)},
+    }
+
+
+def grid_json(grid: GridSpectrum) -> str:
+    """Header, line shape, sticks and the sampled channels in one JSON document."""
+    doc = {
+        "format": "vibrapol.spectrum",
+        "header": header(grid.sticks),
+        "lineshape": {
+            "shape": grid.lineshape.shape,
+            "fwhm_cm1": grid.lineshape.fwhm_cm1,
+            "fwhm_slope": grid.lineshape.fwhm_slope,
+            "lorentzian_share": grid.lineshape.lorentzian_share,
+        },
+        "grid_unit": grid.unit,
+        "sticks": sticks_dict(grid.sticks),
+        "grid": {
+            "shift_cm1": _finite(grid.shift_cm1),
+            **{ch: _finite(grid.values[:, j]) for j, ch in enumerate(grid.channels)},
+        },
+    }
+    return json.dumps(doc, indent=1, allow_nan=False) + "\n"
+
+
+def sweep_csv(sweep: PolarSweep) -> str:
+    """Long format ``angle_deg,shift_cm1,irrep,parallel,crossed``: one row per angle and band."""
+    rows: list[list[object]] = [["angle_deg", "shift_cm1", "irrep", "parallel", "crossed"]]
+    for b in range(sweep.n_bands):
+        for a, angle in enumerate(sweep.angles_deg):
+            rows.append(
+                [
+                    f"{angle:g}",
+                    f"{sweep.positions_cm1[b]:.4f}",
+                    sweep.irreps[b],
+                    _num(sweep.parallel[a, b], ".8g"),
+                    _num(sweep.crossed[a, b], ".8g"),
+                ]
+            )
+    return _csv(rows)
+
+
+def sweep_json(sweep: PolarSweep) -> str:
+    """The sweep with its conditions as JSON."""
+    c = sweep.conditions
+    doc = {
+        "format": "vibrapol.sweep",
+        "quantity": c.quantity,
+        "unit": c.unit,
+        "geometry_deg": c.geometry_deg,
+        "orientation": c.orientation,
+        "scale": c.scale.describe(),
+        "constants": CODATA_VERSION,
+        "angles_deg": _finite(sweep.angles_deg),
+        "bands": [
+            {
+                "shift_cm1": float(sweep.positions_cm1[b]),
+                "irrep": sweep.irreps[b],
+                "parallel": _finite(sweep.parallel[:, b]),
+                "crossed": _finite(sweep.crossed[:, b]),
+            }
+            for b in range(sweep.n_bands)
+        ],
+    }
+    return json.dumps(doc, indent=1, allow_nan=False) + "\n"

@@ -21,6 +21,7 @@ SUBCOMMANDS = {
     "table": "vibrapol.cli.table",
     "spectrum": "vibrapol.cli.spectrum",
     "sweep": "vibrapol.cli.sweep",
+    "compute": "vibrapol.cli.compute",
 }
 
 

@@ -1,0 +1,154 @@
+"""The engine's units of work: the reference calculation and one displaced-geometry α.
+
+Both are plain functions of picklable inputs so they can run in another process or on a Dask
+worker.  Results are in the package units (Å³ for α); PySCF works in bohr internally.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol.engine.hessian import analytic_hessian
+from vibrapol.engine.polarizability import cphf_polarizability
+from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
+from vibrapol.units import BOHR3_TO_ANG3
+
+
+@dataclass(frozen=True, eq=False)
+class PolarizabilityJob:
+    """One displaced geometry to evaluate.
+
+    Attributes
+    ----------
+    atomic_numbers : ndarray (N,)
+    coordinates_ang : ndarray (N, 3)
+    spec : MethodSpec
+    dm0 : ndarray (nao, nao), optional
+        Starting density (the reference geometry's); speeds up the SCF a little.
+    threads : int, optional
+        BLAS/OpenMP threads to use inside the job (None: leave as they are).
+    """
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    spec: MethodSpec
+    dm0: np.ndarray | None = None
+    threads: int | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class ReferenceResult:
+    """SCF energy, Hessian, α and density at the reference (usually optimised) geometry.
+
+    Attributes
+    ----------
+    energy_hartree : float
+    hessian_hartree_bohr2 : ndarray (3N, 3N)
+    alpha_ang3 : ndarray (3, 3)
+    density : ndarray (nao, nao)
+        Converged AO density matrix, used as the start of every displaced SCF.
+    seconds_scf, seconds_hessian, seconds_alpha : float
+        Wall time of each step.
+    """
+
+    energy_hartree: float
+    hessian_hartree_bohr2: np.ndarray
+    alpha_ang3: np.ndarray
+    density: np.ndarray
+    seconds_scf: float = 0.0
+    seconds_hessian: float = 0.0
+    seconds_alpha: float = 0.0
+
+
+def limit_threads(threads: int | None) -> None:
+    """Set PySCF's OpenMP threads and the BLAS threads of this process to ``threads``."""
+    if threads is None:
+        return
+    from pyscf import lib
+    from threadpoolctl import threadpool_limits
+
+    lib.num_threads(int(threads))
+    threadpool_limits(int(threads))
+
+
+@contextmanager
+def threads_limited(threads: int | None) -> Iterator[None]:
+    """Like :func:`limit_threads` for the duration of a block, then restore the old limits.
+
+    A task may run inside the caller's own process (Dask with ``processes=False``); it must not
+    leave that process with fewer threads than it had.
+    """
+    if threads is None:
+        yield
+        return
+    from pyscf import lib
+    from threadpoolctl import threadpool_limits
+
+    previous = lib.num_threads()
+    limits = threadpool_limits(int(threads))
+    lib.num_threads(int(threads))
+    try:
+        yield
+    finally:
+        lib.num_threads(previous)
+        limits.restore_original_limits()
+
+
+def evaluate_polarizability(job: PolarizabilityJob) -> np.ndarray:
+    """α (Å³, shape (3, 3)) at one displaced geometry: tight SCF from ``dm0``, then CPHF."""
+    with threads_limited(job.threads):
+        mol = build_molecule(job.atomic_numbers, job.coordinates_ang, job.spec)
+        mf = run_scf(mol, job.spec, dm0=job.dm0, where="displaced geometry")
+        return cphf_polarizability(mf) * BOHR3_TO_ANG3
+
+
+def reference_calculation(
+    atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec
+) -> ReferenceResult:
+    """SCF, analytic Hessian and CPHF α at the reference geometry (all threads of the process)."""
+    from time import perf_counter
+
+    mol = build_molecule(atomic_numbers, coordinates_ang, spec)
+    t0 = perf_counter()
+    mf = run_scf(mol, spec)
+    t1 = perf_counter()
+    hessian = analytic_hessian(mf)
+    t2 = perf_counter()
+    alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
+    t3 = perf_counter()
+    return ReferenceResult(
+        energy_hartree=float(mf.e_tot),
+        hessian_hartree_bohr2=hessian,
+        alpha_ang3=alpha,
+        density=np.asarray(mf.make_rdm1()),
+        seconds_scf=t1 - t0,
+        seconds_hessian=t2 - t1,
+        seconds_alpha=t3 - t2,
+    )
+
+
+def peak_memory_mb() -> float:
+    """Peak resident memory of this process in MB (Linux VmHWM; else ``ru_maxrss``)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return float(line.split()[1]) / 1024.0
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+
+
+def timed_polarizability(job: PolarizabilityJob) -> tuple[np.ndarray, float, float]:
+    """:func:`evaluate_polarizability`, its wall time (s) and the worker's peak memory (MB)."""
+    from time import perf_counter
+
+    t0 = perf_counter()
+    alpha = evaluate_polarizability(job)
+    return alpha, perf_counter() - t0, peak_memory_mb()

@@ -1,0 +1,208 @@
+"""PySCF molecules and self-consistent-field objects built from plain structures.
+
+The engine supports closed-shell restricted Hartree–Fock (``method="hf"``) and restricted
+Kohn–Sham DFT with any exchange–correlation functional name libxc knows (``"b3lyp"``,
+``"pbe0"``, ``"pbe"`` …).  Bad input (unknown element, basis or functional, an electron count
+that cannot be closed-shell) raises :class:`EngineInputError` with one line saying what to do.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol.errors import VibrapolError
+
+#: SCF energy convergence (hartree) used for every calculation.  Finite differences of α divide
+#: the error of each α by 2h (h = 0.005 Å ≈ 0.0094 bohr); converging the orbital gradient to
+#: 1e-7 keeps the error of α near 1e-8 bohr³, far below what the central differences resolve.
+SCF_CONV_TOL = 1e-11
+#: SCF orbital-gradient convergence (see :data:`SCF_CONV_TOL`).
+SCF_CONV_TOL_GRAD = 1e-7
+#: Maximum SCF iterations before the engine gives up.
+SCF_MAX_CYCLE = 200
+
+_HF_NAMES = {"hf", "rhf", "scf"}
+
+
+class EngineInputError(VibrapolError, ValueError):
+    """A structure or method the engine cannot run (bad basis, functional, charge …)."""
+
+
+class EngineConvergenceError(VibrapolError, RuntimeError):
+    """A self-consistent-field or optimisation run did not converge."""
+
+
+@dataclass(frozen=True)
+class MethodSpec:
+    """Electronic-structure model of a calculation.
+
+    Attributes
+    ----------
+    method : str
+        ``"hf"`` or a libxc functional name (case-insensitive; stored lower case).
+    basis : str
+        Basis-set name PySCF knows (e.g. ``"sto-3g"``, ``"6-31g*"``, ``"cc-pvdz"``).
+    charge : int
+        Total charge of the molecule.
+    multiplicity : int
+        Spin multiplicity 2S+1; only 1 (closed shell) is supported.
+    cartesian_d : bool
+        Use Cartesian (6d, 10f) instead of spherical functions; much of the older literature
+        used 6d with Pople basis sets, PySCF's default is spherical.
+    """
+
+    method: str = "hf"
+    basis: str = "sto-3g"
+    charge: int = 0
+    multiplicity: int = 1
+    cartesian_d: bool = False
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "method", self.method.strip().lower())
+        object.__setattr__(self, "basis", self.basis.strip().lower())
+
+    @property
+    def is_hf(self) -> bool:
+        """True for Hartree–Fock, False for Kohn–Sham DFT."""
+        return self.method in _HF_NAMES
+
+    def label(self) -> str:
+        """Short text such as ``HF/6-31g*`` for provenance and messages."""
+        name = "HF" if self.is_hf else self.method.upper()
+        return f"{name}/{self.basis}" + (" (6d)" if self.cartesian_d else "")
+
+
+def check_functional(method: str) -> None:
+    """Raise :class:`EngineInputError` unless ``method`` is HF or a functional libxc knows."""
+    if method.lower() in _HF_NAMES:
+        return
+    from pyscf.dft import libxc
+
+    try:
+        libxc.parse_xc(method)
+    except (KeyError, ValueError) as exc:
+        raise EngineInputError(
+            f"unknown method {method!r}: use 'hf' or a DFT functional name "
+            "such as 'b3lyp', 'pbe0', 'pbe'"
+        ) from exc
+
+
+def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec):
+    """A built :class:`pyscf.gto.Mole` for a closed-shell calculation.
+
+    Parameters
+    ----------
+    atomic_numbers : array of int, shape (N,)
+    coordinates_ang : array, shape (N, 3), Å
+    spec : MethodSpec
+
+    Raises
+    ------
+    EngineInputError
+        Unknown element or basis, an open-shell multiplicity, or an electron count that does
+        not fit the multiplicity.
+    """
+    from pyscf import gto
+    from pyscf.lib.exceptions import BasisNotFoundError
+
+    z = np.asarray(atomic_numbers, dtype=int)
+    xyz = np.asarray(coordinates_ang, dtype=float)
+    if z.ndim != 1 or xyz.shape != (z.shape[0], 3) or z.shape[0] == 0:
+        raise EngineInputError(
+            f"need N atomic numbers and an (N, 3) coordinate array, got {z.shape} and {xyz.shape}"
+        )
+    if np.any(z < 1) or np.any(z > 118):
+        raise EngineInputError(
+            f"atomic numbers must be between 1 and 118, got {sorted(set(z.tolist()))}"
+        )
+    n_electrons = int(z.sum()) - spec.charge
+    if n_electrons <= 0:
+        raise EngineInputError(f"charge {spec.charge} leaves {n_electrons} electrons")
+    if spec.multiplicity < 1:
+        raise EngineInputError(f"multiplicity must be 1 or more, got {spec.multiplicity}")
+    if spec.multiplicity != 1:
+        raise EngineInputError(
+            f"multiplicity {spec.multiplicity}: open-shell molecules are not supported yet "
+            "(the engine runs closed-shell RHF/RKS only)"
+        )
+    if n_electrons % 2:
+        raise EngineInputError(
+            f"{n_electrons} electrons (charge {spec.charge}) cannot be closed-shell "
+            "with multiplicity 1; "
+            "check --charge"
+        )
+    check_functional(spec.method)
+    mol = gto.Mole()
+    mol.atom = [(int(zi), tuple(r)) for zi, r in zip(z, xyz, strict=True)]
+    mol.unit = "Angstrom"
+    mol.basis = spec.basis
+    mol.charge = spec.charge
+    mol.spin = spec.multiplicity - 1
+    mol.cart = spec.cartesian_d
+    mol.verbose = 0
+    mol.output = None
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            mol.build(dump_input=False, parse_arg=False)
+    except BasisNotFoundError as exc:
+        raise EngineInputError(
+            f"unknown basis {spec.basis!r} (or not defined for these elements): "
+            "use a name PySCF knows, "
+            "e.g. 'sto-3g', '6-31g*', 'cc-pvdz'"
+        ) from exc
+    except (KeyError, RuntimeError, ValueError) as exc:
+        raise EngineInputError(
+            f"PySCF cannot build this molecule with basis {spec.basis!r}: {exc}"
+        ) from exc
+    if mol.nao == 0:
+        raise EngineInputError(f"basis {spec.basis!r} has no functions for these elements")
+    return mol
+
+
+def build_scf(mol, spec: MethodSpec):
+    """An unconverged RHF or RKS object with the engine's tight convergence settings."""
+    from pyscf import dft, scf
+
+    if spec.is_hf:
+        mf = scf.RHF(mol)
+    else:
+        mf = dft.RKS(mol)
+        mf.xc = spec.method
+    mf.conv_tol = SCF_CONV_TOL
+    mf.conv_tol_grad = SCF_CONV_TOL_GRAD
+    mf.max_cycle = SCF_MAX_CYCLE
+    mf.verbose = 0
+    return mf
+
+
+def run_scf(
+    mol, spec: MethodSpec, dm0: np.ndarray | None = None, where: str = "reference geometry"
+):
+    """Build and converge an SCF object; ``dm0`` is an optional starting density matrix.
+
+    Raises
+    ------
+    EngineConvergenceError
+        When the SCF does not converge within :data:`SCF_MAX_CYCLE` iterations.
+    """
+    mf = build_scf(mol, spec)
+    if dm0 is not None and np.shape(dm0) != (mol.nao, mol.nao):
+        dm0 = None
+    mf.kernel(dm0=dm0)
+    if not mf.converged:
+        # A second attempt from the default guess with level shifting usually rescues it.
+        mf = build_scf(mol, spec)
+        mf.level_shift = 0.3
+        mf.kernel()
+        mf.level_shift = 0.0
+        mf.kernel(dm0=mf.make_rdm1())
+    if not mf.converged:
+        raise EngineConvergenceError(
+            f"{spec.label()} SCF did not converge at the {where} in {SCF_MAX_CYCLE} cycles; "
+            "check the structure (units, missing atoms) and the charge"
+        )
+    return mf

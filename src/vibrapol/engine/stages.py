@@ -1,0 +1,79 @@
+"""The two single-shot stages of a run, each stored in the checkpoint when it finishes.
+
+* optimisation of the input structure (:mod:`vibrapol.engine.optimize`);
+* the reference calculation at the final geometry: SCF, analytic Hessian, CPHF α.
+"""
+
+from __future__ import annotations
+
+from time import perf_counter
+
+import numpy as np
+
+from vibrapol.engine.checkpoint import CheckpointStore, task_key
+from vibrapol.engine.evaluate import ReferenceResult, reference_calculation
+from vibrapol.engine.optimize import OptimizationResult, optimize_geometry
+from vibrapol.engine.scf import MethodSpec
+
+
+def optimized(
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    store: CheckpointStore | None,
+) -> tuple[OptimizationResult, float, bool]:
+    """Optimised geometry (from the store when present), its wall time, and whether reused."""
+    key = task_key("optimize", atomic_numbers, coordinates_ang, spec)
+    stored = store.get(key) if store is not None else None
+    if stored is not None:
+        result = OptimizationResult(
+            coordinates_ang=stored["coordinates_ang"],
+            energy_hartree=float(stored["energy_hartree"]),
+            max_force_hartree_bohr=float(stored["max_force_hartree_bohr"]),
+            n_steps=int(stored["n_steps"]),
+            n_gradients=int(stored["n_gradients"]),
+        )
+        return result, float(stored["seconds"]), True
+    t0 = perf_counter()
+    result = optimize_geometry(atomic_numbers, coordinates_ang, spec)
+    seconds = perf_counter() - t0
+    if store is not None:
+        arrays = {
+            "coordinates_ang": result.coordinates_ang,
+            "energy_hartree": result.energy_hartree,
+            "max_force_hartree_bohr": result.max_force_hartree_bohr,
+            "n_steps": result.n_steps,
+            "n_gradients": result.n_gradients,
+            "seconds": seconds,
+        }
+        store.put(key, "optimize", "optimisation", arrays, seconds)
+    return result, seconds, False
+
+
+_REFERENCE_FIELDS = ("hessian_hartree_bohr2", "alpha_ang3", "density")
+_REFERENCE_TIMES = ("seconds_scf", "seconds_hessian", "seconds_alpha")
+
+
+def reference(
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    store: CheckpointStore | None,
+) -> tuple[ReferenceResult, bool]:
+    """SCF, Hessian and α at the reference geometry (from the store when present)."""
+    key = task_key("reference", atomic_numbers, coordinates_ang, spec)
+    stored = store.get(key) if store is not None else None
+    if stored is not None:
+        values = {k: stored[k] for k in _REFERENCE_FIELDS}
+        times = {k: float(stored[k]) for k in _REFERENCE_TIMES}
+        return ReferenceResult(
+            energy_hartree=float(stored["energy_hartree"]), **values, **times
+        ), True
+    result = reference_calculation(atomic_numbers, coordinates_ang, spec)
+    if store is not None:
+        arrays = {
+            k: getattr(result, k) for k in (*_REFERENCE_FIELDS, *_REFERENCE_TIMES, "energy_hartree")
+        }
+        seconds = result.seconds_scf + result.seconds_hessian + result.seconds_alpha
+        store.put(key, "reference", "reference SCF, Hessian, alpha", arrays, seconds)
+    return result, False

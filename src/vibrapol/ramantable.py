@@ -3,11 +3,15 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from vibrapol import invariants as inv
 from vibrapol.modeset import ModeSet, Provenance
+
+if TYPE_CHECKING:
+    from vibrapol.symmetry import ModeSymmetry
 
 #: A band is called polarized when ρ_linear < 3/4 − POLARIZED_MARGIN (and it has activity).
 #: Non-totally-symmetric modes have ρ_linear = 3/4 exactly (D. A. Long, The Raman Effect, 2002,
@@ -39,6 +43,10 @@ class RamanTable:
     point_group : str
         Schoenflies symbol ('' when not known).
     provenance : Provenance
+    ir_active, raman_active : ndarray of bool (n,) or None
+        Selection rules of each mode's species (None when symmetry is not known).
+    symmetry_convention : str
+        Axis convention behind the species names ('' when not known).
     """
 
     freqs_cm1: np.ndarray
@@ -52,6 +60,9 @@ class RamanTable:
     irreps: tuple[str, ...]
     point_group: str
     provenance: Provenance
+    ir_active: np.ndarray | None = None
+    raman_active: np.ndarray | None = None
+    symmetry_convention: str = ""
 
     @property
     def n_modes(self) -> int:
@@ -72,6 +83,7 @@ def raman_table(
     degeneracy_tol_cm1: float = inv.DEGENERACY_TOL_CM1,
     irreps: tuple[str, ...] | None = None,
     point_group: str = "",
+    symmetry: ModeSymmetry | None = None,
 ) -> RamanTable:
     """Compute the per-mode Raman table of ``modes``.
 
@@ -85,6 +97,11 @@ def raman_table(
         ``degeneracy_tol_cm1`` (:func:`vibrapol.invariants.degenerate_sets`).
     irreps, point_group : optional
         Symmetry labels to carry into the table.
+    symmetry : ModeSymmetry, optional
+        Result of :func:`vibrapol.symmetry.analyse_modes` for these modes (pass
+        ``symmetry.modes`` as ``modes`` when it was symmetrized).  Its degenerate sets, species,
+        point group and selection rules are used and ``sets``, ``irreps`` and ``point_group``
+        must not be given.
 
     Notes
     -----
@@ -93,6 +110,21 @@ def raman_table(
     chosen inside the set (D. A. Long, The Raman Effect, 2002, ch. 5).  Modes whose set activity
     is below :data:`vibrapol.invariants.INACTIVE_FRACTION` of the largest get ρ = NaN.
     """
+    rules: dict = {}
+    if symmetry is not None:
+        if sets is not None or irreps is not None or point_group:
+            raise ValueError("give either symmetry or sets/irreps/point_group, not both")
+        if symmetry.n_modes != modes.n_modes:
+            raise ValueError(
+                f"symmetry is for {symmetry.n_modes} modes, the mode set has {modes.n_modes}"
+            )
+        sets = [tuple(s) for s in symmetry.sets]
+        irreps, point_group = symmetry.irreps, symmetry.group.symbol
+        rules = {
+            "ir_active": symmetry.ir_active.copy(),
+            "raman_active": symmetry.raman_active.copy(),
+            "symmetry_convention": symmetry.group.convention,
+        }
     if modes.activity is not None and not modes.has_raman:
         s = modes.activity.copy()
         a2 = np.full(modes.n_modes, np.nan)
@@ -128,4 +160,5 @@ def raman_table(
         irreps=tuple(irreps) if irreps is not None else ("",) * modes.n_modes,
         point_group=point_group,
         provenance=modes.provenance,
+        **rules,
     )

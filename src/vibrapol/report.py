@@ -12,7 +12,9 @@ import numpy as np
 from vibrapol.ramantable import RamanTable
 from vibrapol.units import CODATA_VERSION
 
-#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –).
+#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –).
+#: ``ir_active`` and ``raman_active`` are the selection rules of the mode's species (empty when
+#: the symmetry is not known).
 TABLE_COLUMNS = (
     "mode",
     "frequency_cm1",
@@ -24,6 +26,8 @@ TABLE_COLUMNS = (
     "rho_natural",
     "polarized",
     "degenerate_set",
+    "ir_active",
+    "raman_active",
 )
 
 
@@ -39,11 +43,20 @@ def _finite_or_none(value: float) -> float | None:
     return value if math.isfinite(value) else None
 
 
+def _flag(values: np.ndarray | None, i: int) -> bool | None:
+    return None if values is None else bool(values[i])
+
+
+def _csv_flag(value: bool | None) -> str:
+    return "" if value is None else ("true" if value else "false")
+
+
 def table_rows(table: RamanTable) -> list[dict[str, object]]:
     """One dictionary per mode with the keys of :data:`TABLE_COLUMNS`.
 
     NaN ρ → None.  When the source gives only activities, a², γ², ρ and ``polarized`` are
-    None (unknown).
+    None (unknown).  ``ir_active`` and ``raman_active`` are None when the table carries no
+    symmetry.
     """
     rows = []
     for i in range(table.n_modes):
@@ -62,6 +75,8 @@ def table_rows(table: RamanTable) -> list[dict[str, object]]:
                 "rho_natural": rho_n if math.isfinite(rho_n) else None,
                 "polarized": bool(table.polarized[i]) if known else None,
                 "degenerate_set": int(table.degenerate_set[i]),
+                "ir_active": _flag(table.ir_active, i),
+                "raman_active": _flag(table.raman_active, i),
             }
         )
     return rows
@@ -85,6 +100,8 @@ def table_csv(table: RamanTable) -> str:
                 "" if row["rho_natural"] is None else f"{row['rho_natural']:.6f}",
                 "" if row["polarized"] is None else str(row["polarized"]).lower(),
                 row["degenerate_set"],
+                _csv_flag(row["ir_active"]),
+                _csv_flag(row["raman_active"]),
             ]
         )
     return buf.getvalue()
@@ -99,6 +116,7 @@ def _header(table: RamanTable) -> dict[str, str]:
         "program": program,
         "method": method,
         "point_group": table.point_group,
+        "symmetry_convention": table.symmetry_convention,
     }
 
 
@@ -123,12 +141,16 @@ def table_text(table: RamanTable) -> str:
     h = _header(table)
     lines = [
         f"source: {h['source']}",
-        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}   "
-        f"point group: {h['point_group']}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}"
+        f"   point group: {h['point_group'] or '-'}",
+    ]
+    if h["symmetry_convention"]:
+        lines.append(f"species names: {h['symmetry_convention']}")
+    lines += [
         "a2, gamma2, activity in Å⁴/amu; rho for 90° scattering (linear / natural incident light)",
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
-        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4}",
+        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4} {'IR':>3} {'Ra':>3}",
     ]
     for row in table_rows(table):
         lines.append(
@@ -136,6 +158,7 @@ def table_text(table: RamanTable) -> str:
             f" {_fmt_g(row['a2']):>11} {_fmt_g(row['gamma2']):>11} {row['activity']:>11.4g}"
             f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
             f" {'P' if row['polarized'] else '':>3} {row['degenerate_set']:>4}"
+            f" {_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}"
         )
     n_pol = int(table.polarized.sum())
     lines.append("")
@@ -148,7 +171,13 @@ def table_text(table: RamanTable) -> str:
         lines.append(
             f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)"
         )
+    if table.ir_active is not None:
+        lines.append("IR, Ra: fundamental allowed (y) or forbidden (-) by its species")
     return "\n".join(lines) + "\n"
+
+
+def _text_flag(value: bool | None) -> str:
+    return "" if value is None else ("y" if value else "-")
 
 
 FORMATTERS = {"text": table_text, "csv": table_csv, "json": table_json}

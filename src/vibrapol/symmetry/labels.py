@@ -1,0 +1,411 @@
+"""Standard names of symmetry species and the axis conventions behind them.
+
+The symmetry library names species in its own frame.  Most names do not depend on the frame,
+but some do, and there the literature follows fixed conventions which this module applies:
+
+- **C2v**: z is the C2 axis; B1 is symmetric under σv(xz), B2 under σv'(yz).  For a planar
+  molecule x is perpendicular to the molecular plane (R. S. Mulliken, J. Chem. Phys. 23, 1997
+  (1955)), so the molecular plane is yz and water's antisymmetric stretch is B2.  For a
+  non-planar molecule we extend the rule: yz is the mirror plane holding more atoms (on a tie,
+  the heavier ones), e.g. the CCl2 plane of CH2Cl2.
+- **D2h and D2**: B1, B2, B3 are symmetric under C2(z), C2(y), C2(x).  Planar molecules:
+  x perpendicular to the plane and z along the in-plane C2 axis through more atoms, or else
+  cutting more bonds (Mulliken 1955): ethylene's z is the C=C axis, naphthalene's the short
+  axis.  Non-planar: z, y, x are the C2 axes through most to fewest atoms (then bonds cut).
+- **Cnv, Dn, Dnh with even n ≥ 4**: σv (for Cnv) and C2′ (for Dn, Dnh) are the elements
+  through more atoms; B1 is symmetric under them (common practice, e.g. benzene's C2′ through
+  the C–H bonds).  In Dnh, σv are the vertical planes that contain the C2′ axes.
+- Elsewhere the names are those of the standard tables (F. A. Cotton, *Chemical Applications of
+  Group Theory*, 3rd ed., Wiley 1990): E rather than E1 when a group has a single E species,
+  A rather than A1 in D2 and D2h, T (never F) for triply degenerate species.
+- Linear molecules: Σ⁺, Σ⁻, Π (C∞v) and Σg⁺, Σu⁺, Πg, Πu, ... (D∞h); see
+  :mod:`vibrapol.symmetry.pointgroup` for how they are computed.
+
+:func:`normalize_label` reads labels printed by quantum-chemistry programs ('AG', 'B1U', 'F2',
+'SGG', 'PIU', 'A"', ...) into these names.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+#: Two directions are the same axis when |cos| exceeds this.
+_PARALLEL = 0.99
+#: ... and perpendicular when |cos| is below this.
+_PERPENDICULAR = 0.1
+
+CONVENTION_DEFAULT = "species names as in the standard character tables (Cotton 1990)"
+
+
+@dataclass(frozen=True)
+class NamedTable:
+    """Species names, class labels and labelling frame of one point group.
+
+    Attributes
+    ----------
+    irreps : tuple of str
+        Standard name of each species, in the row order of the library's table.
+    class_labels : tuple of str
+        Label of each class ('E', '2C3', "3σv", "C2(z)", ...).
+    axes : ndarray (3, 3)
+        Rows are the x, y, z axes of the labelling frame in the input frame.
+    convention : str
+        One sentence stating the axis convention used for the names.
+    notes : tuple of str
+        Ties broken arbitrarily and other things a reader should know.
+    """
+
+    irreps: tuple[str, ...]
+    class_labels: tuple[str, ...]
+    axes: np.ndarray
+    convention: str
+    notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, eq=False)
+class GroupFacts:
+    """What the labelling needs to know about a detected group and the molecule.
+
+    Attributes
+    ----------
+    symbol : str
+    matrices : ndarray (g, 3, 3)
+    op_class : ndarray (g,)
+    op_names : tuple of str
+        Library name of each operation (used for class labels).
+    characters : ndarray (n_irreps, n_classes)
+    irrep_names : tuple of str
+        Library names.
+    permutations : ndarray (g, N)
+    atomic_numbers : ndarray (N,)
+    bonds : ndarray (n_bonds, 2)
+        Index pairs of bonded atoms.
+    centred_ang : ndarray (N, 3)
+    """
+
+    symbol: str
+    matrices: np.ndarray
+    op_class: np.ndarray
+    op_names: tuple[str, ...]
+    characters: np.ndarray
+    irrep_names: tuple[str, ...]
+    permutations: np.ndarray
+    atomic_numbers: np.ndarray
+    bonds: np.ndarray
+    centred_ang: np.ndarray
+
+    @property
+    def n_classes(self) -> int:
+        """Number of conjugacy classes."""
+        return self.characters.shape[1]
+
+    def rep(self, c: int) -> int:
+        """Index of the first operation of class ``c``."""
+        return int(np.flatnonzero(self.op_class == c)[0])
+
+    def size(self, c: int) -> int:
+        """Number of operations in class ``c``."""
+        return int(np.sum(self.op_class == c))
+
+    def axis(self, c: int) -> np.ndarray:
+        """Rotation axis (proper or improper) or plane normal of class ``c``'s representative."""
+        return operation_axis(self.matrices[self.rep(c)])
+
+    def kind(self, c: int) -> str:
+        """'E', 'C' (proper rotation), 'σ' (reflection), 'i' or 'S' (other improper rotation)."""
+        return operation_kind(self.matrices[self.rep(c)])
+
+    def score(self, c: int) -> tuple[int, int, int]:
+        """(atoms on the element, bonds it cuts, sum of Z on it) for class ``c``.
+
+        An atom lies on the axis or plane of an operation when the operation leaves it in place;
+        a bond is cut when the operation swaps its two atoms.
+        """
+        perm = self.permutations[self.rep(c)]
+        fixed = perm == np.arange(perm.shape[0])
+        cut = sum(1 for i, j in self.bonds if perm[i] == j and perm[j] == i)
+        return int(fixed.sum()), int(cut), int(self.atomic_numbers[fixed].sum())
+
+
+def operation_kind(matrix: np.ndarray) -> str:
+    """Kind of an orthogonal 3×3 matrix: 'E', 'C', 'σ', 'i' or 'S'."""
+    det = np.linalg.det(matrix)
+    if det > 0:
+        return "E" if np.allclose(matrix, np.eye(3), atol=1e-6) else "C"
+    if np.allclose(matrix, -np.eye(3), atol=1e-6):
+        return "i"
+    return "σ" if abs(np.trace(matrix) - 1.0) < 1e-6 else "S"
+
+
+def operation_axis(matrix: np.ndarray) -> np.ndarray:
+    """Unit axis of a rotation or improper rotation, or the normal of a reflection plane."""
+    det = np.sign(np.linalg.det(matrix))
+    _, _, vt = np.linalg.svd(np.asarray(matrix) - det * np.eye(3))
+    return vt[-1]
+
+
+def rotation_angle(matrix: np.ndarray) -> float:
+    """Angle (rad, in [0, π]) of the proper rotation det(M)·M."""
+    proper = np.sign(np.linalg.det(matrix)) * np.asarray(matrix)
+    return float(np.arccos(np.clip((np.trace(proper) - 1.0) / 2.0, -1.0, 1.0)))
+
+
+def _is_c2(facts: GroupFacts, c: int) -> bool:
+    return facts.kind(c) == "C" and abs(rotation_angle(facts.matrices[facts.rep(c)]) - np.pi) < 1e-3
+
+
+def improper_angle(matrix: np.ndarray) -> float:
+    """Angle θ (rad) of the rotation part of an improper rotation S(θ) = σh·C(θ).
+
+    tr S(θ) = 2cos θ − 1, so a reflection gives 0 and the inversion π.
+    """
+    return float(np.arccos(np.clip((np.trace(matrix) + 1.0) / 2.0, -1.0, 1.0)))
+
+
+def _principal_axis(facts: GroupFacts) -> np.ndarray | None:
+    """Axis of the proper or improper rotation of highest order (None for C1, Ci, Cs)."""
+    best, best_angle = None, 2 * np.pi
+    for m in facts.matrices:
+        kind = operation_kind(m)
+        if kind in ("C", "S"):
+            angle = rotation_angle(m) if kind == "C" else improper_angle(m)
+            if angle < best_angle - 1e-6:
+                best, best_angle = operation_axis(m), angle
+    return best
+
+
+def _frame(z: np.ndarray, x_hint: np.ndarray | None, centred: np.ndarray) -> np.ndarray:
+    z = z / np.linalg.norm(z)
+    candidates = [] if x_hint is None else [np.asarray(x_hint, dtype=float)]
+    # Otherwise attach x to the molecule: the atom farthest from the z axis, then lab axes.
+    perp = centred - np.outer(centred @ z, z)
+    if len(perp):
+        candidates.append(perp[int(np.argmax(np.linalg.norm(perp, axis=1)))])
+    candidates += list(np.eye(3))
+    for x in candidates:
+        x = x - (x @ z) * z
+        if np.linalg.norm(x) > 1e-3:
+            x = x / np.linalg.norm(x)
+            return np.array([x, np.cross(z, x), z])
+    raise AssertionError("no axis perpendicular to z")  # pragma: no cover
+
+
+def _best(facts: GroupFacts, classes: list[int], notes: list[str], what: str) -> tuple[int, int]:
+    """The class with the higher score and the other; notes a tie."""
+    a, b = classes
+    sa, sb = facts.score(a), facts.score(b)
+    if sa == sb:
+        notes.append(f"{what}: both candidates hold the same atoms; the choice is arbitrary")
+    return (a, b) if sa >= sb else (b, a)
+
+
+def _b_name(name: str, subscript: str) -> str:
+    m = re.fullmatch(r"B\d?(.*)", name)
+    return f"B{subscript}{m.group(1)}" if m else name
+
+
+def _parity(facts: GroupFacts, row: int, inversion: int | None) -> str:
+    if inversion is None:
+        return ""
+    return "g" if facts.characters[row, inversion] > 0 else "u"
+
+
+def _find(facts: GroupFacts, kind: str) -> list[int]:
+    return [c for c in range(facts.n_classes) if facts.kind(c) == kind]
+
+
+def _label(facts: GroupFacts, c: int, name: str | None = None) -> str:
+    size = facts.size(c)
+    return f"{size if size > 1 else ''}{name or facts.op_names[facts.rep(c)]}"
+
+
+def standard_names(facts: GroupFacts) -> NamedTable:
+    """Standard species names, class labels and labelling frame for a detected group.
+
+    Parameters
+    ----------
+    facts : GroupFacts
+
+    Returns
+    -------
+    NamedTable
+    """
+    names = list(facts.irrep_names)
+    labels = [_label(facts, c) for c in range(facts.n_classes)]
+    notes: list[str] = []
+    convention = CONVENTION_DEFAULT
+    chars = facts.characters
+    identity = _find(facts, "E")[0]
+    one_d = [r for r in range(len(names)) if round(chars[r, identity]) == 1]
+    symbol = facts.symbol
+    m = re.fullmatch(r"([CDS])(\d+)([hvd]?)", symbol)
+    family, n, sub = (m.group(1), int(m.group(2)), m.group(3)) if m else (symbol, 0, "")
+    inversion = next(iter(_find(facts, "i")), None)
+    z = _principal_axis(facts)
+    x_hint = None
+
+    if symbol == "C2v":
+        c2 = _find(facts, "C")[0]
+        yz, xz = _best(facts, _find(facts, "σ"), notes, "C2v yz plane")
+        z, x_hint = facts.axis(c2), facts.axis(yz)
+        for r in one_d:
+            if chars[r, c2] < 0:
+                names[r] = "B1" if chars[r, xz] > 0 else "B2"
+        labels[c2], labels[xz], labels[yz] = "C2", "σv(xz)", "σv'(yz)"
+        n_atoms = facts.permutations.shape[1]
+        if facts.score(yz)[0] == n_atoms:
+            convention = "planar C2v: x perpendicular to the molecular plane (Mulliken 1955)"
+        else:
+            convention = "C2v: yz is the mirror plane holding more (then heavier) atoms"
+    elif symbol in ("D2", "D2h"):
+        c2s = [c for c in _find(facts, "C")]
+        planar = [c for c in _find(facts, "σ") if facts.score(c)[0] == facts.permutations.shape[1]]
+        ranked = sorted(c2s, key=facts.score, reverse=True)
+        if len({facts.score(c) for c in c2s}) < 3 and not planar:
+            notes.append(f"{symbol}: C2 axes with equal atom counts; their order is arbitrary")
+        if planar:
+            normal = facts.axis(planar[0])
+            cx = next(c for c in c2s if abs(facts.axis(c) @ normal) > _PARALLEL)
+            cz, cy = [c for c in ranked if c != cx]
+            if facts.score(cz) == facts.score(cy):
+                notes.append(
+                    f"{symbol}: in-plane C2 axes hold the same atoms; z was chosen arbitrarily"
+                )
+            convention = (
+                f"planar {symbol}: x perpendicular to the plane, z along the in-plane C2 axis "
+                "through more atoms or bonds (Mulliken 1955)"
+            )
+        else:
+            cz, cy, cx = ranked
+            convention = (
+                f"{symbol}: z, y, x are the C2 axes through most to fewest atoms (then bonds)"
+            )
+        z, x_hint = facts.axis(cz), facts.axis(cx)
+        for r in one_d:
+            g = _parity(facts, r, inversion)
+            if chars[r, cz] > 0 and chars[r, cy] > 0:
+                names[r] = "A" + g
+            else:
+                names[r] = ("B1" if chars[r, cz] > 0 else "B2" if chars[r, cy] > 0 else "B3") + g
+        labels[cz], labels[cy], labels[cx] = "C2(z)", "C2(y)", "C2(x)"
+        axes = {"z": facts.axis(cz), "y": facts.axis(cy), "x": facts.axis(cx)}
+        for c in _find(facts, "σ"):
+            normal = facts.axis(c)
+            plane = next(k for k, v in axes.items() if abs(v @ normal) > _PARALLEL)
+            labels[c] = {"z": "σ(xy)", "y": "σ(xz)", "x": "σ(yz)"}[plane]
+    elif family in ("C", "D") and n >= 2 and z is not None:
+        if family == "C" and sub == "v":
+            planes = _find(facts, "σ")
+            if n % 2 == 0 and len(planes) == 2:
+                sv, sd = _best(facts, planes, notes, f"{symbol} σv planes")
+                for r in one_d:
+                    if names[r].startswith("B"):
+                        names[r] = _b_name(names[r], "1" if chars[r, sv] > 0 else "2")
+                labels[sv], labels[sd] = _label(facts, sv, "σv"), _label(facts, sd, "σd")
+                convention = f"{symbol}: σv are the mirror planes through more atoms"
+            x_hint = np.cross(facts.axis(planes[0]), z)
+        elif family == "D":
+            perp = [
+                c
+                for c in range(facts.n_classes)
+                if _is_c2(facts, c) and abs(facts.axis(c) @ z) < _PERPENDICULAR
+            ]
+            if n % 2 == 0 and len(perp) == 2 and sub != "d":
+                c2p, c2pp = _best(facts, perp, notes, f"{symbol} C2' axes")
+                for r in one_d:
+                    if names[r].startswith("B"):
+                        names[r] = _b_name(names[r], "1" if chars[r, c2p] > 0 else "2")
+                labels[c2p], labels[c2pp] = _label(facts, c2p, "C2'"), _label(facts, c2pp, "C2''")
+                a = facts.axis(c2p)
+                for c in _find(facts, "σ"):
+                    if abs(facts.axis(c) @ z) < _PERPENDICULAR:
+                        contains = any(
+                            abs(operation_axis(facts.matrices[g]) @ a) < _PERPENDICULAR
+                            for g in np.flatnonzero(facts.op_class == c)
+                        )
+                        labels[c] = _label(facts, c, "σv" if contains else "σd")
+                convention = f"{symbol}: C2' are the two-fold axes through more atoms"
+            if perp:
+                x_hint = facts.axis(perp[0])
+            if sub == "d" and n % 2 == 0:
+                _b2_is_z(facts, names, one_d, z)
+    elif symbol in ("T", "Td", "Th", "O", "Oh", "I", "Ih"):
+        order = 4 if symbol in ("O", "Oh") else 2
+        axes_n = [
+            operation_axis(mm)
+            for mm in facts.matrices
+            if operation_kind(mm) == "C" and abs(rotation_angle(mm) - 2 * np.pi / order) < 1e-3
+        ]
+        z = axes_n[0]
+        x_hint = next(a for a in axes_n if abs(a @ z) < _PERPENDICULAR)
+    elif symbol == "Cs":
+        z = facts.axis(_find(facts, "σ")[0])
+    if z is None:
+        axes = np.eye(3)
+    else:
+        axes = _frame(z, x_hint, facts.centred_ang)
+
+    if not any(re.match(r"E2", s) for s in names):
+        names = [re.sub(r"^E1", "E", s) for s in names]
+    names = [s.replace("F", "T") for s in names]
+    if len(set(names)) != len(names):  # pragma: no cover - a labelling rule went wrong
+        notes.append(
+            f"could not give {symbol} standard species names; the library's names are used"
+        )
+        names = list(facts.irrep_names)
+    return NamedTable(tuple(names), tuple(labels), axes, convention, tuple(notes))
+
+
+def _b2_is_z(facts: GroupFacts, names: list[str], one_d: list[int], z: np.ndarray) -> None:
+    """In Dnd with even n, B2 is the B species that transforms as z (standard tables)."""
+    chi_z = np.array([float(z @ facts.matrices[facts.rep(c)] @ z) for c in range(facts.n_classes)])
+    for r in one_d:
+        if names[r].startswith("B"):
+            names[r] = _b_name(
+                names[r], "2" if np.allclose(facts.characters[r], chi_z, atol=1e-6) else "1"
+            )
+
+
+_SPECIES_ALIASES = {
+    "SG": "Σ⁺",
+    "SG+": "Σ⁺",
+    "SIGMA+": "Σ⁺",
+    "SG-": "Σ⁻",
+    "SIGMA-": "Σ⁻",
+    "SGG": "Σg⁺",
+    "SGG+": "Σg⁺",
+    "SGU": "Σu⁺",
+    "SGU+": "Σu⁺",
+    "SGG-": "Σg⁻",
+    "SGU-": "Σu⁻",
+    "PI": "Π",
+    "PIG": "Πg",
+    "PIU": "Πu",
+    "DLT": "Δ",
+    "DLTG": "Δg",
+    "DLTU": "Δu",
+    "PHI": "Φ",
+}
+
+
+def normalize_label(text: str) -> str:
+    """Read a species label as programs print it into the names used here.
+
+    'AG' → 'Ag', 'B1U' → 'B1u', 'F2' → 'T2', "A'" → "A'", 'A"' → "A''", 'E1G' → 'E1g',
+    'SGG' or 'Sigma_g+' → 'Σg⁺', 'PIU' → 'Πu'.  Unknown or placeholder labels ('?A', '') give
+    ''.  Whether 'E1' means 'E' depends on the group; see :meth:`PointGroup.species_name`.
+    """
+    t = text.strip().replace('"', "''").replace("′", "'").replace("″", "''")
+    if not t or "?" in t:
+        return ""
+    key = t.upper().replace("_", "").replace("^", "").replace("SIGMA", "SG").replace("DELTA", "DLT")
+    if key in _SPECIES_ALIASES:
+        return _SPECIES_ALIASES[key]
+    m = re.fullmatch(r"([ABETFGH])(\d*)([GU]?)('{0,2})", key)
+    if not m:
+        return ""
+    letter = "T" if m.group(1) == "F" else m.group(1)
+    return f"{letter}{m.group(2)}{m.group(3).lower()}{m.group(4)}"

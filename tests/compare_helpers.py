@@ -155,3 +155,78 @@ def realization_correct(assignment, real: Realization, tol_cm1: float = 5.0) -> 
             return False
         claimed.add(near[0].band)
     return all(not b.assigned for b in assignment.bands if b.band not in claimed)
+
+
+def band_list(
+    positions_cm1, areas, rho, rho_err, fwhm_cm1: float = FWHM_CM1, window_cm1=None
+):
+    """A :class:`~vibrapol.measured.MeasuredBands` straight from band numbers (no spectra).
+
+    The VV and VH channels of the fit are the bands themselves (VH area = ρ × VV area), so
+    the fitted model can stand in for the spectra.
+    """
+    from vibrapol.measured.depolarization import MeasuredBand, MeasuredBands
+    from vibrapol.measured.fitting import Band, BandFit
+
+    pos = np.asarray(positions_cm1, dtype=float)
+    order = np.argsort(pos)
+    rows = [(pos[i], float(areas[i]), float(rho[i]), float(rho_err[i])) for i in order]
+    nan = float("nan")
+    lo, hi = window_cm1 or (float(pos.min()) - 50.0, float(pos.max()) + 50.0)
+
+    def fit(label, channel_area):
+        bands = tuple(
+            Band(p, 0.0, fwhm_cm1, 0.0, channel_area(a, r), 0.0, nan, nan, 0.0)
+            for p, a, r, _ in rows
+        )
+        return BandFit(label, "lorentzian", bands, ((lo, hi),), 0, 1.0, 1.0, True, "")
+
+    measured = tuple(
+        MeasuredBand(p, 0.0, fwhm_cm1, 0.0, fwhm_cm1, nan, a, 0.0, r * a, 0.0, r, e)
+        for p, a, r, e in rows
+    )
+    return MeasuredBands(measured, fit("VV", lambda a, r: a), fit("VH", lambda a, r: r * a))
+
+
+def random_problem(n_modes: int, n_bands: int, rng: np.random.Generator, factor: float = 0.95):
+    """Invented large problem: n_modes computed bands, n_bands measured ones (5 % extra).
+
+    Computed bands: harmonic wavenumbers uniform in 100–3800 cm⁻¹ / ``factor``, VV intensity
+    log-normal (σ = 1.5), 30 % polarized with ρ uniform in [0, 0.7], the rest ρ = 3/4.
+    Measured: 95 % of ``n_bands`` are the strongest computed bands at f ν̃ (1 + N(0, 1 %)),
+    area = intensity × log-normal (σ = 0.5), ρ + N(0, 0.02); the other 5 % are extra bands at
+    random positions.  Returns the sticks, the bands and, per measured band (in ascending
+    position), the computed band it came from (−1 for extra bands).
+    """
+    from vibrapol.spectrum import StickSpectrum
+
+    nu = np.sort(rng.uniform(100.0, 3800.0, n_modes)) / factor
+    inten = np.exp(rng.normal(0.0, 1.5, n_modes))
+    pol = rng.random(n_modes) < 0.3
+    rho = np.where(pol, rng.uniform(0.0, 0.7, n_modes), 0.75)
+    sticks = StickSpectrum(
+        positions_cm1=nu,
+        heights=np.column_stack([inten, inten * rho]),
+        channels=("vv", "vh"),
+        harmonic_cm1=nu,
+        mode_sets=tuple((k,) for k in range(n_modes)),
+        irreps=("",) * n_modes,
+        rho_linear=rho,
+        rho_natural=2 * rho / (1 + rho),
+        polarized=pol,
+        component=np.zeros(n_modes, dtype=int),
+        components=("invented",),
+    )
+    n_true = int(round(0.95 * n_bands))
+    src = np.sort(np.argsort(-inten)[:n_true])
+    pos = factor * nu[src] * (1 + rng.normal(0.0, 0.01, n_true))
+    area = inten[src] * np.exp(rng.normal(0.0, 0.5, n_true))
+    r = np.clip(rho[src] + rng.normal(0.0, 0.02, n_true), 0.0, None)
+    n_extra = n_bands - n_true
+    pos = np.append(pos, rng.uniform(100.0, 3800.0, n_extra))
+    area = np.append(area, np.exp(rng.normal(0.0, 1.5, n_extra)))
+    r = np.append(r, rng.uniform(0.0, 0.75, n_extra))
+    truth = np.append(src, np.full(n_extra, -1))
+    order = np.argsort(pos)
+    bands = band_list(pos, area, r, np.full(n_bands, 0.02), window_cm1=(50.0, 3850.0))
+    return sticks, bands, truth[order]

@@ -306,7 +306,7 @@ def _build(
         conf, alt_label = float("nan"), ""
         if confidence:
             delta, alt = matching.alternative_cost(
-                problem, partner, i, components, setup.bands.position_cm1, 3 * feasible_radius[i]
+                problem, partner, i, components, setup.bands.position_cm1, 1.5 * feasible_radius[i]
             )
             conf = 1.0 - math.exp(-0.5 * delta) if math.isfinite(delta) else 1.0
             alt_label = "" if alt == -2 else ("unassigned" if alt == -1 else _mode_label(sticks, alt))

@@ -18,6 +18,7 @@ S. Martello, *Assignment Problems*, SIAM (2009), §4.1 and §5 (from memory).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy.optimize import linear_sum_assignment
@@ -47,9 +48,9 @@ class Problem:
     band_unmatched: np.ndarray
     mode_unmatched: np.ndarray
 
-    @property
+    @cached_property
     def feasible(self) -> np.ndarray:
-        """Pairs cheaper than leaving both members unmatched."""
+        """Pairs cheaper than leaving both members unmatched (computed once)."""
         return self.cost < self.band_unmatched[:, None] + self.mode_unmatched[None, :]
 
     def components(self) -> list[tuple[np.ndarray, np.ndarray]]:
@@ -149,6 +150,22 @@ def solve(problem: Problem) -> tuple[np.ndarray, float]:
     return partner, total
 
 
+def restricted_cost(
+    problem: Problem, partner: np.ndarray, bands: np.ndarray, modes: np.ndarray
+) -> float:
+    """Cost of a matching restricted to a subset (its pairs, unmatched bands and modes).
+
+    For the optimum restricted to a component, or to a window whose outside partners are
+    held fixed, this is the optimum of that subproblem, so no re-solve is needed.
+    """
+    own = partner[bands]
+    paired = own >= 0
+    total = float(problem.cost[bands[paired], own[paired]].sum())
+    total += float(problem.band_unmatched[bands[~paired]].sum())
+    free = np.setdiff1d(modes, own[paired])
+    return total + float(problem.mode_unmatched[free].sum())
+
+
 def _window(
     problem: Problem,
     partner: np.ndarray,
@@ -163,14 +180,16 @@ def _window(
     Bands outside keep their partners (those modes are left out); bands inside keep theirs
     available even when the mode lies outside the window.
     """
-    near = bands[np.abs(positions_cm1[bands] - positions_cm1[band]) <= radius_cm1]
-    feasible = problem.feasible
-    cand = modes[feasible[np.ix_(near, modes)].any(axis=0)]
-    taken_outside = set(partner[np.setdiff1d(bands, near)]) - {-1}
-    keep = np.array([j for j in cand if j not in taken_outside], dtype=int)
+    close = np.abs(positions_cm1[bands] - positions_cm1[band]) <= radius_cm1
+    near, far = bands[close], bands[~close]
+    n_m = problem.cost.shape[1]
+    keep = np.zeros(n_m, dtype=bool)
+    keep[modes] = problem.feasible[near][:, modes].any(axis=0)
+    taken = partner[far]
+    keep[taken[taken >= 0]] = False
     own = partner[near]
-    keep = np.union1d(keep, own[own >= 0]).astype(int)
-    return near, keep
+    keep[own[own >= 0]] = True
+    return near, np.flatnonzero(keep)
 
 
 def alternative_cost(
@@ -196,13 +215,13 @@ def alternative_cost(
     alternative : int
         Partner of ``band`` in the best alternative (−1: unmatched; −2: none exists).
     """
-    comp = next(((b, m) for b, m in components if band in b), None)
+    comp = next(((b, m) for b, m in components if np.any(b == band)), None)
     if comp is None:  # no feasible pair at all: the only alternative is impossible
         return float("inf"), -2
     bands, modes = comp
     if len(bands) > EXACT_COMPONENT_BANDS:
         bands, modes = _window(problem, partner, band, bands, modes, positions_cm1, radius_cm1)
-    _, best = solve_block(problem, bands, modes)
+    best = restricted_cost(problem, partner, bands, modes)
     j = int(partner[band])
     if j >= 0:
         alt, cost = solve_block(problem, bands, modes, forbid_pair=(band, j))

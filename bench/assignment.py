@@ -106,6 +106,7 @@ def variants() -> list[tuple[str, object]]:
         ("polarization weight x2", r(d, weight_polarization=2.0)),
         ("position sigma x0.5", r(d, sigma_cm1=d.sigma_cm1 / 2, sigma_rel=d.sigma_rel / 2)),
         ("position sigma x2", r(d, sigma_cm1=d.sigma_cm1 * 2, sigma_rel=d.sigma_rel * 2)),
+        ("position sigma_rel 0.03", r(d, sigma_rel=0.03)),
         ("unassigned costs x0.5", r(d, unassigned_band=4.5, unassigned_mode=4.5)),
         ("unassigned costs x2", r(d, unassigned_band=18.0, unassigned_mode=18.0)),
         ("position only", r(d, weight_intensity=0.0, weight_polarization=0.0)),

@@ -230,3 +230,39 @@ def random_problem(n_modes: int, n_bands: int, rng: np.random.Generator, factor:
     order = np.argsort(pos)
     bands = band_list(pos, area, r, np.full(n_bands, 0.02), window_cm1=(50.0, 3850.0))
     return sticks, bands, truth[order]
+
+
+def pair_from_sticks(
+    sticks,
+    factor: float,
+    rng: np.random.Generator,
+    *,
+    position_jitter: float = 0.005,
+    intensity_sigma: float = 0.3,
+    rho_sigma: float = 0.02,
+    min_relative: float = 0.01,
+):
+    """Invented VV/VH pair drawn from a computed stick spectrum (for ranking tests).
+
+    Each computed band with VV intensity ≥ ``min_relative`` of the strongest becomes a
+    Lorentzian (FWHM 8 cm⁻¹) at factor × ν̃ × (1 + N(0, position_jitter)), with VV area
+    ∝ intensity × exp(N(0, intensity_sigma)) and ρ = computed ρ + N(0, rho_sigma) clipped to
+    [0, 0.75]; axis 150–3800 cm⁻¹ every 1 cm⁻¹, noise 0.5 % of the tallest peak.
+    """
+    vv = sticks.channel("vv")
+    keep = np.flatnonzero(vv >= min_relative * vv.max())
+    bands = []
+    for j in keep:
+        rho = sticks.rho_linear[j]
+        rho = 0.75 if not np.isfinite(rho) else rho
+        bands.append(
+            TrueBand(
+                float(factor * sticks.harmonic_cm1[j] * (1 + rng.normal(0.0, position_jitter))),
+                FWHM_CM1,
+                float(100.0 * vv[j] / vv.max() * np.exp(rng.normal(0.0, intensity_sigma))),
+                float(np.clip(rho + rng.normal(0.0, rho_sigma), 0.0, 0.75)),
+            )
+        )
+    x = np.arange(150.0, 3800.0, 1.0)
+    peak = 100.0 * 2.0 / (np.pi * FWHM_CM1)
+    return synthetic_pair(x, bands, noise_sigma=0.005 * peak, rng=rng)

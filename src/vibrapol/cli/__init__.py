@@ -22,6 +22,8 @@ SUBCOMMANDS = {
     "spectrum": "vibrapol.cli.spectrum",
     "sweep": "vibrapol.cli.sweep",
     "compute": "vibrapol.cli.compute",
+    "match": "vibrapol.cli.match",
+    "rank": "vibrapol.cli.rank",
 }
 
 

@@ -4,12 +4,13 @@
 matchings (either side may stay unassigned, :mod:`vibrapol.compare.matching`) *and* over the
 scale factor f:
 
-1. a coarse search over f (steps of 0.01) in the range ``search`` (the published factor
-   ± 6 % when the method is tabulated, else 0.80–1.10), each point solved exactly;
-2. a fine search (steps of 0.002) around the best coarse point;
-3. alternating refits: with the assignment fixed, f is the weighted least-squares solution
+1. a grid search over f (steps of 0.01, half the default relative position tolerance) in
+   the range ``search`` (the published factor ± 6 % when the method is tabulated, else
+   0.80–1.10), the matching at each point solved exactly;
+2. from the best point, alternating refits: with the assignment fixed, f is the weighted least-squares solution
    of x_i ≈ f ν̃_j (weights w_ν/σ_ν(x_i)², plus the prior below) and the intensity offset the
-   median of ln A_i − ln I_j; then the assignment is solved again, until it stops changing.
+   median of ln A_i − ln I_j; then the assignment is solved again, until it stops changing
+   (each step lowers the total cost or the loop stops).
 
 When the start is a published factor, a Gaussian prior ((f − f₀)/(``scale_prior_rel`` f₀))²
 is added to the cost, so that with few bands the factor stays near the tabulated value
@@ -48,7 +49,6 @@ SEARCH_UNKNOWN = (0.80, 1.10)
 #: memory), and a single molecule deviates by as much.
 SCALE_PRIOR_REL = 0.02
 COARSE_STEP = 0.01
-FINE_STEP = 0.002
 MAX_REFITS = 20
 
 DEFAULT_MODEL = CostModel()
@@ -164,10 +164,7 @@ def _factor_error(setup: _Setup, partner: np.ndarray, factor: float) -> float:
 def _search(setup: _Setup, search: tuple[float, float]) -> tuple[float, np.ndarray, _Setup]:
     lo, hi = search
     grid = np.unique(np.append(np.arange(lo, hi + 1e-9, COARSE_STEP), hi))
-    costs = [_evaluate(setup, f)[0] for f in grid]
-    best = float(grid[int(np.argmin(costs))])
-    fine = np.arange(max(lo, best - COARSE_STEP), min(hi, best + COARSE_STEP) + 1e-9, FINE_STEP)
-    results = [(_evaluate(setup, f), f) for f in fine]
+    results = [(_evaluate(setup, float(f)), float(f)) for f in grid]
     (cost, partner), factor = min(results, key=lambda r: r[0][0])
     for _ in range(MAX_REFITS):
         new_f, new_offset = _refit(setup, partner, search, factor)

@@ -80,7 +80,7 @@ class CostModel:
     """
 
     sigma_cm1: float = 5.0
-    sigma_rel: float = 0.03
+    sigma_rel: float = 0.02
     sigma_ln_intensity: float = math.log(3.0)
     sigma_rho_polarized: float = 0.2
     sigma_rho_depolarized: float = 0.05

@@ -89,7 +89,7 @@ def solve_block(
     forbid_pair : (band, mode), optional
         A pair that may not be used (global indices).
     force_band : int, optional
-        A band that must be matched to some mode.
+        A band that must be matched to some mode (any mode of the subset, feasible or not).
 
     Returns
     -------
@@ -114,10 +114,11 @@ def solve_block(
         jm = np.flatnonzero(modes == forbid_pair[1])
         if jm.size:
             block[ib, jm[0]] = np.inf
-    if force_band is not None:
+    if force_band is not None:  # its row may take any mode, even one dearer than unmatched
         (ib,) = np.flatnonzero(bands == force_band)
+        block[ib, :k_m] = cost[ib] - m
         block[ib, k_m + ib] = np.inf
-        if not np.isfinite(block[ib]).any():
+        if k_m == 0:
             return np.full(k_b, -1), float("inf")
     try:
         rows, cols = linear_sum_assignment(block)
@@ -175,7 +176,7 @@ def _window(
     positions_cm1: np.ndarray,
     radius_cm1: float,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Bands of a component within ``radius_cm1`` of ``band`` and the modes free to them.
+    """Bands of a subproblem within ``radius_cm1`` of ``band`` and the modes free to them.
 
     Bands outside keep their partners (those modes are left out); bands inside keep theirs
     available even when the mode lies outside the window.
@@ -185,11 +186,38 @@ def _window(
     n_m = problem.cost.shape[1]
     keep = np.zeros(n_m, dtype=bool)
     keep[modes] = problem.feasible[near][:, modes].any(axis=0)
+    keep[modes[np.isin(modes, modes_of_band(problem, band))]] = True
     taken = partner[far]
     keep[taken[taken >= 0]] = False
     own = partner[near]
     keep[own[own >= 0]] = True
     return near, np.flatnonzero(keep)
+
+
+#: Cost increase above which a band's alternative is not looked for (confidence 1 − e⁻²⁵).
+DELTA_CAP = 50.0
+
+
+def modes_of_band(problem: Problem, band: int) -> np.ndarray:
+    """Modes an unmatched ``band`` could take for less than :data:`DELTA_CAP` extra."""
+    extra = problem.cost[band] - problem.band_unmatched[band] - problem.mode_unmatched
+    return np.flatnonzero(extra < DELTA_CAP)
+
+
+def _subproblem(
+    band: int, partner: np.ndarray, components: list[tuple[np.ndarray, np.ndarray]], problem: Problem
+) -> tuple[np.ndarray, np.ndarray]:
+    """The band's component, or for an unmatched band: itself, the modes it could take, and
+    the components those modes belong to."""
+    if partner[band] >= 0:
+        return next((b, m) for b, m in components if np.any(b == band))
+    reach = modes_of_band(problem, band)
+    bands, modes = [np.array([band])], [reach]
+    for b, m in components:
+        if np.any(b == band) or np.intersect1d(m, reach).size:
+            bands.append(b)
+            modes.append(m)
+    return np.unique(np.concatenate(bands)), np.unique(np.concatenate(modes)).astype(int)
 
 
 def alternative_cost(
@@ -202,11 +230,12 @@ def alternative_cost(
 ) -> tuple[float, int]:
     """How much more the best matching costs when ``band`` may not keep its partner.
 
-    For a matched band its pair is forbidden; for an unmatched band it must be matched.  The
-    re-solve runs over the band's component, or, for components of more than
-    :data:`EXACT_COMPONENT_BANDS` bands, over the bands within ``radius_cm1`` of it with every
-    other band's partner held fixed: the difference is then an upper bound of the exact one
-    (the best alternative might change bands further away).
+    For a matched band its pair is forbidden; an unmatched band must take some mode (any
+    mode within :data:`DELTA_CAP` of leaving it unmatched).  The re-solve runs over the
+    band's component (for an unmatched band: the components of the modes it could take), or,
+    when that holds more than :data:`EXACT_COMPONENT_BANDS` bands, over the bands within
+    ``radius_cm1`` of it with every other band's partner held fixed: the difference is then
+    an upper bound of the exact one (the best alternative might change bands further away).
 
     Returns
     -------
@@ -215,14 +244,13 @@ def alternative_cost(
     alternative : int
         Partner of ``band`` in the best alternative (−1: unmatched; −2: none exists).
     """
-    comp = next(((b, m) for b, m in components if np.any(b == band)), None)
-    if comp is None:  # no feasible pair at all: the only alternative is impossible
+    j = int(partner[band])
+    if j < 0 and modes_of_band(problem, band).size == 0:
         return float("inf"), -2
-    bands, modes = comp
+    bands, modes = _subproblem(band, partner, components, problem)
     if len(bands) > EXACT_COMPONENT_BANDS:
         bands, modes = _window(problem, partner, band, bands, modes, positions_cm1, radius_cm1)
     best = restricted_cost(problem, partner, bands, modes)
-    j = int(partner[band])
     if j >= 0:
         alt, cost = solve_block(problem, bands, modes, forbid_pair=(band, j))
     else:

@@ -40,7 +40,6 @@ from compare_helpers import (  # noqa: E402
     random_realization,
     realization_correct,
 )
-
 from vibrapol.compare import DEFAULT_MODEL, assign, candidate_from_modes  # noqa: E402
 from vibrapol.sources import read_modes  # noqa: E402
 
@@ -124,16 +123,22 @@ def main() -> None:
     args = parser.parse_args()
     n_real = 20 if args.quick else args.realizations
 
-    print(f"machine: {platform.machine()}, {os.cpu_count()} cores visible, "
-          f"OMP_NUM_THREADS={os.environ.get('OMP_NUM_THREADS', 'unset')}")
+    print(
+        f"machine: {platform.machine()}, {os.cpu_count()} cores visible, "
+        f"OMP_NUM_THREADS={os.environ.get('OMP_NUM_THREADS', 'unset')}"
+    )
     print("\n1. speed (assign incl. scale search, confidences, similarity)")
     rows = speed([int(s) for s in args.sizes.split(",")], args.repeats)
-    print(f"{'modes':>6} {'bands':>6} {'time/s':>8} {'core/s':>8} {'factor':>7} "
-          f"{'pairs ok':>9} {'extra ok':>9}")
+    print(
+        f"{'modes':>6} {'bands':>6} {'time/s':>8} {'core/s':>8} {'factor':>7} "
+        f"{'pairs ok':>9} {'extra ok':>9}"
+    )
     for r in rows:
-        print(f"{r['n_modes']:>6} {r['n_bands']:>6} {r['seconds']:>8.3f} "
-              f"{r['seconds_without_confidence_similarity']:>8.3f} {r['factor']:>7.4f} "
-              f"{r['true_pairs_recovered']:>9.3f} {r['extra_left_unassigned']:>9.3f}")
+        print(
+            f"{r['n_modes']:>6} {r['n_bands']:>6} {r['seconds']:>8.3f} "
+            f"{r['seconds_without_confidence_similarity']:>8.3f} {r['factor']:>7.4f} "
+            f"{r['true_pairs_recovered']:>9.3f} {r['extra_left_unassigned']:>9.3f}"
+        )
     n = np.array([r["n_modes"] for r in rows], float)
     t = np.array([r["seconds"] for r in rows], float)
     growth = float(np.polyfit(np.log(n), np.log(t), 1)[0]) if len(rows) > 1 else float("nan")
@@ -150,8 +155,10 @@ def main() -> None:
             continue
         candidates[level] = candidate_from_modes(read_modes(path), label=f"CHCl3 {level}")
         robustness[level] = rate(candidates[level], reals, DEFAULT_MODEL)
-        print(f"{level:>10}: correct in {robustness[level] * n_real:.0f} of {n_real} "
-              f"({robustness[level]:.0%})")
+        print(
+            f"{level:>10}: correct in {robustness[level] * n_real:.0f} of {n_real} "
+            f"({robustness[level]:.0%})"
+        )
 
     study: dict[str, dict[str, float]] = {}
     if not args.quick:

@@ -68,9 +68,7 @@ def clean_measured(pair: PolarizedPair):
 def chcl3_pair(extra: tuple[TrueBand, ...] = (CHCL3_OVERTONE,), noise: float = 0.05):
     """Invented VV/VH pair of the CHCl3 fundamentals plus ``extra`` bands, mild noise."""
     bands = [TrueBand(f.position_cm1, FWHM_CM1, f.area, f.rho) for f in CHCL3] + list(extra)
-    return synthetic_pair(
-        AXIS_CM1, bands, noise_sigma=noise, rng=np.random.default_rng(7)
-    )
+    return synthetic_pair(AXIS_CM1, bands, noise_sigma=noise, rng=np.random.default_rng(7))
 
 
 @dataclass(frozen=True)
@@ -113,7 +111,10 @@ def random_realization(rng: np.random.Generator) -> Realization:
     peak = top * 2.0 / (np.pi * FWHM_CM1)  # Lorentzian peak height of the strongest band
     t = (x - x[0]) / (x[-1] - x[0])
     baseline = peak * float(rng.uniform(0.2, 0.6)) * (t + 0.3 * t * t)
-    spikes_vv = [(int(i), float(h)) for i, h in zip(rng.integers(0, x.size, 3), rng.uniform(1, 3, 3) * peak)]
+    spikes_vv = [
+        (int(i), float(h))
+        for i, h in zip(rng.integers(0, x.size, 3), rng.uniform(1, 3, 3) * peak, strict=True)
+    ]
     pair = synthetic_pair(
         x, bands, noise_sigma=0.01 * peak, baseline=baseline, spikes=spikes_vv, rng=rng
     )
@@ -157,9 +158,7 @@ def realization_correct(assignment, real: Realization, tol_cm1: float = 5.0) -> 
     return all(not b.assigned for b in assignment.bands if b.band not in claimed)
 
 
-def band_list(
-    positions_cm1, areas, rho, rho_err, fwhm_cm1: float = FWHM_CM1, window_cm1=None
-):
+def band_list(positions_cm1, areas, rho, rho_err, fwhm_cm1: float = FWHM_CM1, window_cm1=None):
     """A :class:`~vibrapol.measured.MeasuredBands` straight from band numbers (no spectra).
 
     The VV and VH channels of the fit are the bands themselves (VH area = ρ × VV area), so

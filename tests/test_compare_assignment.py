@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+
 from compare_helpers import (
     CHCL3,
     CHCL3_OVERTONE,
@@ -24,7 +25,6 @@ from compare_helpers import (
     random_realization,
     realization_correct,
 )
-
 from vibrapol.compare import assign, candidate_from_modes
 from vibrapol.errors import VibrapolError
 from vibrapol.scaling import lookup_factor
@@ -50,7 +50,11 @@ def test_species_from_symmetry(chcl3):
     # C3v: 3 A1 + 3 E fundamentals (Shimanouchi 1972 lists the same species).
     assert chcl3.point_groups == ("C3v",)
     assert sorted(chcl3.sticks.irreps) == ["A1", "A1", "A1", "E", "E", "E"]
-    assert all(len(s) == 2 for s, ir in zip(chcl3.sticks.mode_sets, chcl3.sticks.irreps) if ir == "E")
+    assert all(
+        len(s) == 2
+        for s, ir in zip(chcl3.sticks.mode_sets, chcl3.sticks.irreps, strict=True)
+        if ir == "E"
+    )
 
 
 def test_every_fundamental_gets_the_mode_of_its_species(result):
@@ -113,8 +117,12 @@ def test_scale_recovered_from_exact_positions(chcl3):
     # over 0.80–1.10 and the refit must land on 0.93.
     sticks = chcl3.sticks
     nu = sticks.harmonic_cm1
-    bands = band_list(0.93 * nu, sticks.channel("vv"), np.where(sticks.polarized, 0.1, 0.75),
-                      np.full(nu.size, 0.01))
+    bands = band_list(
+        0.93 * nu,
+        sticks.channel("vv"),
+        np.where(sticks.polarized, 0.1, 0.75),
+        np.full(nu.size, 0.01),
+    )
     res = assign(sticks, bands)
     assert res.scale.start_note == "no published factor for the method"
     assert res.scale.factor == pytest.approx(0.93, abs=1e-9)

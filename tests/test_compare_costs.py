@@ -22,13 +22,21 @@ from vibrapol.errors import VibrapolError
 
 
 def bands(x, area=(1.0,), rho=(np.nan,), err=(0.0,)):
-    return BandData(np.array(x, float), np.log(np.array(area, float)), np.array(rho, float),
-                    np.array(err, float))
+    return BandData(
+        np.array(x, float),
+        np.log(np.array(area, float)),
+        np.array(rho, float),
+        np.array(err, float),
+    )
 
 
 def modes(nu, inten=(1.0,), rho=(np.nan,), pol=(False,)):
-    return ModeData(np.array(nu, float), np.log(np.array(inten, float)), np.array(rho, float),
-                    np.array(pol, bool))
+    return ModeData(
+        np.array(nu, float),
+        np.log(np.array(inten, float)),
+        np.array(rho, float),
+        np.array(pol, bool),
+    )
 
 
 def test_position_term_by_hand():
@@ -40,9 +48,9 @@ def test_position_term_by_hand():
 def test_intensity_term_by_hand_and_cap():
     # ln(6/2) − c with c = ln 3 → 0; a factor 3 off is one σ (σ = ln 3) → z² = 1.
     m = CostModel()
-    assert intensity_z2(m, bands([500.0], area=[6.0]), modes([500.0], [2.0]), math.log(3))[0, 0] == (
-        pytest.approx(0.0, abs=1e-12)
-    )
+    assert intensity_z2(m, bands([500.0], area=[6.0]), modes([500.0], [2.0]), math.log(3))[
+        0, 0
+    ] == (pytest.approx(0.0, abs=1e-12))
     assert intensity_z2(m, bands([500.0], area=[6.0]), modes([500.0], [2.0]), 0.0)[0, 0] == (
         pytest.approx(1.0, rel=1e-12)
     )

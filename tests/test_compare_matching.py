@@ -104,7 +104,9 @@ def test_window_bound_is_never_below_the_exact_delta():
     n = matching.EXACT_COMPONENT_BANDS + 10
     x = np.sort(rng.uniform(0, 500, n))
     nu = np.sort(rng.uniform(0, 500, 2 * n))
-    problem = Problem(((x[:, None] - nu[None, :]) / 10.0) ** 2, np.full(n, 9.0), np.full(2 * n, 2.0))
+    problem = Problem(
+        ((x[:, None] - nu[None, :]) / 10.0) ** 2, np.full(n, 9.0), np.full(2 * n, 2.0)
+    )
     partner, _ = matching.solve(problem)
     comps = problem.components()
     big = max(comps, key=lambda c: len(c[0]))
@@ -116,7 +118,9 @@ def test_window_bound_is_never_below_the_exact_delta():
     sub_b, sub_m = big
     forbidden = problem.cost.copy()
     forbidden[band, j] = np.inf
-    _, exact = matching.solve_block(Problem(forbidden, problem.band_unmatched, problem.mode_unmatched), sub_b, sub_m)
+    _, exact = matching.solve_block(
+        Problem(forbidden, problem.band_unmatched, problem.mode_unmatched), sub_b, sub_m
+    )
     _, best = matching.solve_block(problem, sub_b, sub_m)
     assert full == pytest.approx(exact - best, abs=1e-9)
     assert small >= full - 1e-9

@@ -129,18 +129,17 @@ def match_figure(
                 )  # fmt: skip
         ax.set_xlim(*xlim)
         ax.set_ylim(-0.45 if label_modes else -0.05, base + 1.1)
-        ax.set_yticks([])
+        ax.set_yticks([0.5, base + 0.5], [f"computed\n× {factor:.4f}", "measured"])
+        ax.tick_params(axis="y", length=0)
         ax.spines["left"].set_visible(False)
         ax.set_xlabel(SHIFT_LABEL)
-        ax.text(xlim[0], base + 1.05, "measured", fontsize=LABEL_PT, va="top")
-        ax.text(xlim[0], 0.95, f"computed × {factor:.4f}", fontsize=LABEL_PT, va="top")
         ax.legend(loc="upper right", handlelength=2.2, borderaxespad=0.2)
         s = assignment.scores
         ax.set_title(
             title
             if title is not None
-            else f"{assignment.label}: {s.n_assigned} of {s.n_bands} bands assigned, "
-            f"scale {factor:.4f}, overall score {s.overall:.2f}",
+            else f"{assignment.label}\n{s.n_assigned}/{s.n_bands} bands assigned, "
+            f"scale {factor:.4f}, score {s.overall:.2f}",
             fontsize=8.0,
         )
     return fig

@@ -32,7 +32,10 @@ HELP = "rank candidate structures by how well they match a measured VV/VH spectr
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol rank``."""
     parser.add_argument(
-        "sources", nargs="*", metavar="SOURCE", help="*.modes.json or QC outputs, one candidate each"
+        "sources",
+        nargs="*",
+        metavar="SOURCE",
+        help="*.modes.json or QC outputs, one candidate each",
     )
     add_measurement_arguments(parser)
     parser.add_argument(

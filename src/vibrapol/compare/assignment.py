@@ -7,10 +7,10 @@ scale factor f:
 1. a grid search over f (steps of 0.01, half the default relative position tolerance) in
    the range ``search`` (the published factor ± 6 % when the method is tabulated, else
    0.80–1.10), the matching at each point solved exactly;
-2. from the best point, alternating refits: with the assignment fixed, f is the weighted least-squares solution
-   of x_i ≈ f ν̃_j (weights w_ν/σ_ν(x_i)², plus the prior below) and the intensity offset the
-   median of ln A_i − ln I_j; then the assignment is solved again, until it stops changing
-   (each step lowers the total cost or the loop stops).
+2. from the best point, alternating refits: with the assignment fixed, f is the weighted
+   least-squares solution of x_i ≈ f ν̃_j (weights w_ν/σ_ν(x_i)², plus the prior below)
+   and the intensity offset the median of ln A_i − ln I_j; then the assignment is solved
+   again, until it stops changing (each step lowers the total cost or the loop stops).
 
 When the start is a published factor, a Gaussian prior ((f − f₀)/(``scale_prior_rel`` f₀))²
 is added to the cost, so that with few bands the factor stays near the tabulated value
@@ -110,9 +110,11 @@ def _with_offset(setup: _Setup, offset: float) -> _Setup:
 def _problem(setup: _Setup, factor: float) -> matching.Problem:
     m = setup.model
     sigma = m.sigma_position(setup.bands.position_cm1)[:, None]
-    pos = m.weight_position * (
-        (setup.bands.position_cm1[:, None] - factor * setup.modes.harmonic_cm1[None, :]) / sigma
-    ) ** 2
+    pos = (
+        m.weight_position
+        * ((setup.bands.position_cm1[:, None] - factor * setup.modes.harmonic_cm1[None, :]) / sigma)
+        ** 2
+    )
     return matching.Problem(
         pos + setup.fixed,
         np.full(setup.bands.position_cm1.shape, m.unassigned_band),
@@ -306,7 +308,9 @@ def _build(
                 problem, partner, i, components, setup.bands.position_cm1, 1.5 * feasible_radius[i]
             )
             conf = 1.0 - math.exp(-0.5 * delta) if math.isfinite(delta) else 1.0
-            alt_label = "" if alt == -2 else ("unassigned" if alt == -1 else _mode_label(sticks, alt))
+            alt_label = (
+                "" if alt == -2 else ("unassigned" if alt == -1 else _mode_label(sticks, alt))
+            )
         nan = float("nan")
         if j >= 0:
             scaled = factor * float(sticks.harmonic_cm1[j])

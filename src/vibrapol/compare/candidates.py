@@ -175,12 +175,17 @@ def mixture_candidate(
             f"give one energy per conformer ({len(modesets)}), got {len(relative_energies_kjmol)}"
         )
     weights = boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
-    names = list(labels) if labels is not None else [
-        m.provenance.source_file or f"conformer {i + 1}" for i, m in enumerate(modesets)
-    ]
+    names = (
+        list(labels)
+        if labels is not None
+        else [m.provenance.source_file or f"conformer {i + 1}" for i, m in enumerate(modesets)]
+    )
     if len(names) != len(modesets):
         raise VibrapolError(f"give one label per conformer ({len(modesets)})")
-    parts = [_sticks(m, n, laser_nm, temperature_k, symmetry) for m, n in zip(modesets, names)]
+    parts = [
+        _sticks(m, n, laser_nm, temperature_k, symmetry)
+        for m, n in zip(modesets, names, strict=True)
+    ]
     sticks = mixture([p[0] for p in parts], weights)
     share = ", ".join(f"{n} {w:.0%}" for n, w in zip(names, weights, strict=True))
     start = start_scale if start_scale is not None else published_scale(modesets[0])

@@ -102,7 +102,9 @@ class CostModel:
             value = getattr(self, name)
             if not (math.isfinite(value) and value > 0):
                 raise VibrapolError(f"cost model: {name} must be a positive number, got {value}")
-        if not (self.sigma_cm1 >= 0 and self.sigma_rel >= 0 and self.sigma_cm1 + self.sigma_rel > 0):
+        if not (
+            self.sigma_cm1 >= 0 and self.sigma_rel >= 0 and self.sigma_cm1 + self.sigma_rel > 0
+        ):
             raise VibrapolError(
                 "cost model: sigma_cm1 and sigma_rel must be ≥ 0 and not both zero, got "
                 f"{self.sigma_cm1}, {self.sigma_rel}"
@@ -142,15 +144,13 @@ class ModeData:
 
 
 def safe_log(values: np.ndarray) -> np.ndarray:
-    """ln of intensities, with non-positive values put 10⁻⁶ below the largest (ln of 0 is −∞)."""
+    """Natural log of intensities; values ≤ 0 are raised to 10⁻⁶ of the largest (ln 0 = −∞)."""
     v = np.asarray(values, dtype=float)
     top = float(np.max(v)) if v.size and np.max(v) > 0 else 1.0
     return np.log(np.clip(v, 1e-6 * top, None))
 
 
-def position_z2(
-    model: CostModel, bands: BandData, modes: ModeData, factor: float
-) -> np.ndarray:
+def position_z2(model: CostModel, bands: BandData, modes: ModeData, factor: float) -> np.ndarray:
     """z_ν² for every pair, shape (n_bands, n_modes)."""
     sigma = model.sigma_position(bands.position_cm1)[:, None]
     delta = bands.position_cm1[:, None] - factor * modes.harmonic_cm1[None, :]

@@ -59,9 +59,7 @@ class Problem:
         rows, cols = np.nonzero(self.feasible)
         if rows.size == 0:
             return []
-        graph = coo_matrix(
-            (np.ones(rows.size), (rows, n_b + cols)), shape=(n_b + n_m, n_b + n_m)
-        )
+        graph = coo_matrix((np.ones(rows.size), (rows, n_b + cols)), shape=(n_b + n_m, n_b + n_m))
         _, labels = connected_components(graph, directed=False)
         used = np.unique(labels[rows])
         out = []
@@ -205,10 +203,16 @@ def modes_of_band(problem: Problem, band: int) -> np.ndarray:
 
 
 def _subproblem(
-    band: int, partner: np.ndarray, components: list[tuple[np.ndarray, np.ndarray]], problem: Problem
+    band: int,
+    partner: np.ndarray,
+    components: list[tuple[np.ndarray, np.ndarray]],
+    problem: Problem,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """The band's component, or for an unmatched band: itself, the modes it could take, and
-    the components those modes belong to."""
+    """Bands and modes whose matching may change when ``band`` changes partner.
+
+    For a matched band: its component.  For an unmatched band: itself, the modes it could
+    take and the components those modes belong to.
+    """
     if partner[band] >= 0:
         return next((b, m) for b, m in components if np.any(b == band))
     reach = modes_of_band(problem, band)

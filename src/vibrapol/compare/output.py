@@ -75,7 +75,8 @@ def assignment_summary(assignment: Assignment) -> str:
         f"assigned: {s.n_assigned} of {s.n_bands} measured bands; "
         f"{s.n_modes_in_range} computed bands in the measured range "
         f"{assignment.range_cm1[0]:.0f}–{assignment.range_cm1[1]:.0f} cm-1",
-        f"rms error after scaling: {_fmt(s.rms_cm1, '.1f')} cm-1 (largest {_fmt(s.max_abs_cm1, '.1f')})",
+        f"rms error after scaling: {_fmt(s.rms_cm1, '.1f')} cm-1 "
+        f"(largest {_fmt(s.max_abs_cm1, '.1f')})",
         f"polarization agreement: {_fmt(s.polarization_agreement, '.2f')}   "
         f"spectral similarity: {_fmt(s.similarity)}",
         f"explained share of measured area: {_fmt(s.explained_fraction, '.2f')}   "

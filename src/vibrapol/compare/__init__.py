@@ -23,8 +23,9 @@ scale factor jointly; :mod:`~vibrapol.compare.scores` scores the result;
 
 Choice of the defaults (``bench/assignment.py``, CHCl₃ at HF/6-31G* against invented spectra
 built from published band positions, 100 realizations each with noise, a sloping baseline,
-spikes, one band missing and one extra band): see ``docs/assignment.md`` for the table of
-robustness rates when each weight is halved, doubled or set to zero.
+spikes, one band missing and one extra band; and crowded invented problems): see
+``docs/assignment.md`` for the table of rates when each weight is halved, doubled or set to
+zero.
 """
 
 from vibrapol.compare.assignment import DEFAULT_MODEL, assign

@@ -36,9 +36,11 @@ range (a strong predicted band that is not seen counts against the assignment, a
 hardly), and nothing when its scaled position lies outside the measured range.  A pair is
 taken only when its cost is below the sum of the two costs it replaces.
 
-The defaults are justified by ``bench/assignment.py`` (see the module docs of
-:mod:`vibrapol.compare`): the robustness rate is best near them and falls when any term is
-switched off.
+The defaults are justified by ``bench/assignment.py`` (table in ``docs/assignment.md``): on
+CHCl₃ at HF/6-31G* 97 of 100 noisy realizations are assigned exactly right; on crowded invented
+spectra switching off the intensity or polarization term drops the share of true pairs found
+from 0.87 to 0.72 or 0.75, position alone to 0.51.  Low levels of theory (HF/3-21G) need a
+looser position tolerance (``sigma_rel`` 0.03).
 """
 
 from __future__ import annotations

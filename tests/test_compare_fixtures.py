@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from compare_helpers import FIXTURES
 
+from compare_helpers import FIXTURES
 from vibrapol.invariants import activity, degenerate_sets, sum_over_sets
 from vibrapol.sources import read_modes
 

@@ -23,6 +23,8 @@ SUBCOMMANDS = {
     "compute": "vibrapol.cli.compute",
     "spectrum": "vibrapol.cli.spectrum",
     "sweep": "vibrapol.cli.sweep",
+    "match": "vibrapol.cli.match",
+    "rank": "vibrapol.cli.rank",
 }
 
 

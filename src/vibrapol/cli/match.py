@@ -1,0 +1,193 @@
+"""Assign the computed modes of one source to the bands of a measured VV (and VH) spectrum.
+
+The measured spectra are cleaned (cosmic-ray spikes, arPLS baseline), their bands found and
+fitted jointly in VV and VH (depolarization ratio per band), and matched one to one with the
+computed bands (degenerate sets as one band), the frequency scale factor fitted jointly.
+Writes one CSV row per measured band (columns band_cm1, band_rho, mode, mode_cm1_scaled,
+irrep, mode_rho, delta_cm1, confidence, ...; mode empty when unassigned) and prints the
+scale factor and the scores.  See vibrapol.compare for the cost and the scores.
+
+Laser safety: recording the spectra means working with a laser, which can injure eyes and
+skin; follow your institution's laser safety rules and local regulations.  Handle samples
+and solvents per their safety data sheets.
+"""
+
+from __future__ import annotations
+
+import argparse
+import dataclasses
+import sys
+
+from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
+from vibrapol.errors import VibrapolError
+from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.sources import read_modes, readers
+
+HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
+
+#: Laser line used for the computed intensities when none is given.
+DEFAULT_LASER_NM = 532.0
+
+
+def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
+    """Options shared by ``match`` and ``rank``: the measured pair and the matching."""
+    parser.add_argument(
+        "--kind", choices=sorted(readers()), help="input kind of the sources (default: sniffed)"
+    )
+    parser.add_argument(
+        "--vv", required=True, metavar="VV_FILE",
+        help="parallel (VV) spectrum: delimited text or JCAMP-DX; a file with two intensity "
+        "columns holds VV and VH",
+    )  # fmt: skip
+    parser.add_argument("--vh", metavar="VH_FILE", help="crossed (VH) spectrum")
+    parser.add_argument(
+        "--axis", choices=("auto", "shift", "wavenumber", "wavelength"), default="auto",
+        help="x axis of the measured files (default: from the file's units, else Raman shift)",
+    )  # fmt: skip
+    parser.add_argument(
+        "--laser-nm", type=float, metavar="NM",
+        help="excitation wavelength in nm: needed for wavelength or absolute-wavenumber axes, "
+        f"and used for the computed intensities (default {DEFAULT_LASER_NM:g}). {LASER_CAUTION}",
+    )  # fmt: skip
+    parser.add_argument(
+        "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
+    )
+    parser.add_argument(
+        "--range-cm1", metavar="LOW:HIGH", help="use only this part of the measured spectra"
+    )
+    parser.add_argument(
+        "--no-baseline", action="store_true", help="keep the baseline (already subtracted)"
+    )
+    parser.add_argument(
+        "--min-snr", type=float, default=5.0,
+        help="smallest band height and prominence in noise units (default 5)",
+    )  # fmt: skip
+    parser.add_argument(
+        "--scale", default="auto", metavar="auto|F",
+        help="scale factor: fitted with the assignment (auto, the default; starts from the "
+        "published factor of the method when known) or fixed at F",
+    )  # fmt: skip
+    parser.add_argument(
+        "--scale-for", metavar="METHOD/BASIS",
+        help="start the fit from the published factor of this method, e.g. B3LYP/6-31G*",
+    )  # fmt: skip
+    parser.add_argument(
+        "--position-tolerance", type=float, metavar="REL",
+        help="relative position tolerance σ/ν̃ of the cost (default 0.02; 0.03 for low levels "
+        "such as HF/3-21G)",
+    )  # fmt: skip
+    parser.add_argument(
+        "--no-symmetry", action="store_true", help="do not look for the point group"
+    )
+    parser.add_argument("--force", action="store_true", help="overwrite existing output files")
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Arguments of ``vibrapol match``."""
+    parser.add_argument("source", help="*.modes.json or quantum-chemistry output")
+    add_measurement_arguments(parser)
+    parser.add_argument("-o", "--output", metavar="ASSIGNMENT.csv", help="write the CSV here")
+    parser.add_argument(
+        "--figure", metavar="FILE", action="append", default=[],
+        help="match figure (.svg, .pdf or .png); repeat for several formats",
+    )  # fmt: skip
+
+
+def figure_format(path: str) -> str:
+    """Format of a figure file from its suffix."""
+    fmt = path.rsplit(".", 1)[-1].lower() if "." in path else ""
+    if fmt not in ("png", "svg", "pdf"):
+        raise VibrapolError(f"{path}: figure files must end in .png, .svg or .pdf")
+    return fmt
+
+
+def measure(args: argparse.Namespace):  # noqa: ANN201
+    """Read, crop, clean and fit the measured pair: (cleaned pair, MeasuredBands)."""
+    from vibrapol import measured
+
+    options: dict[str, object] = {"axis": args.axis}
+    if args.laser_nm is not None:
+        options["laser_nm"] = args.laser_nm
+    pair = measured.read_pair(args.vv, args.vh, **options)
+    if args.range_cm1:
+        lo, hi = parse_range(args.range_cm1)
+        pair = measured.PolarizedPair(
+            pair.vv.crop(lo, hi), None if pair.vh is None else pair.vh.crop(lo, hi)
+        )
+    pair, _, _ = measured.clean_pair(pair, **({"baseline": None} if args.no_baseline else {}))
+    starts = measured.find_bands(pair.vv, min_snr=args.min_snr)
+    if not starts:
+        raise VibrapolError(
+            f"{args.vv}: no bands found above {args.min_snr:g} noise units; lower --min-snr"
+        )
+    return pair, measured.measure_bands(pair, starts)
+
+
+def assign_options(args: argparse.Namespace) -> dict[str, object]:
+    """Keyword arguments of :func:`vibrapol.compare.assign` from the options."""
+    from vibrapol.compare import DEFAULT_MODEL
+    from vibrapol.scaling import FrequencyScale
+
+    out: dict[str, object] = {}
+    if args.scale != "auto":
+        try:
+            out["scale"] = float(args.scale)
+        except ValueError:
+            raise VibrapolError(f"--scale must be auto or a number, got {args.scale!r}") from None
+    elif args.scale_for:
+        out["start"] = FrequencyScale.published(args.scale_for).factor
+    if args.position_tolerance is not None:
+        if not 0 < args.position_tolerance < 0.5:
+            raise VibrapolError(
+                f"--position-tolerance must be between 0 and 0.5, got {args.position_tolerance}"
+            )
+        out["model"] = dataclasses.replace(DEFAULT_MODEL, sigma_rel=args.position_tolerance)
+    return out
+
+
+def laser_nm(args: argparse.Namespace) -> float:
+    """Laser line for the computed intensities."""
+    return DEFAULT_LASER_NM if args.laser_nm is None else float(args.laser_nm)
+
+
+def check_outputs(args: argparse.Namespace, paths: list[str]) -> None:
+    """Fail before any work when an output may not be written."""
+    for path in paths:
+        check_writable(path, args.force)
+
+
+def run(args: argparse.Namespace) -> int:
+    """Read, measure, assign; write the CSV and figures (all or nothing); print the summary."""
+    from vibrapol.compare import assign, candidate_from_modes
+    from vibrapol.compare.output import assignment_csv, assignment_summary
+
+    outputs = [p for p in [args.output, *args.figure] if p]
+    check_outputs(args, outputs)
+    formats = [figure_format(p) for p in args.figure]
+    opts = assign_options(args)
+    modes = read_modes(args.source, kind=args.kind)
+    pair, bands = measure(args)
+    cand = candidate_from_modes(
+        modes, laser_nm=laser_nm(args), temperature_k=args.temperature_k,
+        symmetry=not args.no_symmetry,
+    )  # fmt: skip
+    result = assign(cand, bands, pair=pair, **opts)  # type: ignore[arg-type]
+    files: list[tuple[str, str | bytes]] = []
+    if args.output:
+        files.append((args.output, assignment_csv(result)))
+    if args.figure:
+        from vibrapol.plotting_match import match_figure
+        from vibrapol.plotting_style import figure_bytes
+
+        fig = match_figure(result, pair)
+        files += [(p, figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)]
+    for path, data in files:
+        write_atomic(path, data, force=args.force)
+        print(f"wrote {path}", file=sys.stderr)
+    text = assignment_summary(result)
+    if args.laser_nm is None:
+        text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
+    if not args.output:
+        text += "\n" + assignment_csv(result)
+    sys.stdout.write(text)
+    return 0

@@ -1,0 +1,107 @@
+"""Rank candidate structures (isomers, conformers, levels of theory) against one measurement.
+
+Every SOURCE is one candidate; each --mixture adds a Boltzmann mixture of conformers as one
+more candidate (populations from the sources' electronic energies at --temperature-k).  All
+candidates are assigned to the same measured bands (see ``vibrapol match``) and printed best
+first with their overall score.
+
+Laser safety: recording the spectra means working with a laser, which can injure eyes and
+skin; follow your institution's laser safety rules and local regulations.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from vibrapol.cli.match import (
+    add_measurement_arguments,
+    assign_options,
+    check_outputs,
+    laser_nm,
+    measure,
+)
+from vibrapol.errors import VibrapolError
+from vibrapol.fileio import write_atomic
+from vibrapol.sources import read_modes
+
+HELP = "rank candidate structures by how well they match a measured VV/VH spectrum"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Arguments of ``vibrapol rank``."""
+    parser.add_argument(
+        "sources",
+        nargs="*",
+        metavar="SOURCE",
+        help="*.modes.json or QC outputs, one candidate each",
+    )
+    add_measurement_arguments(parser)
+    parser.add_argument(
+        "--mixture", action="append", default=[], metavar="A,B[,...]",
+        help="comma-separated conformer sources forming one Boltzmann-mixture candidate "
+        "(repeatable)",
+    )  # fmt: skip
+    parser.add_argument(
+        "--degeneracy", action="append", default=[], metavar="SOURCE=G",
+        help="number of equivalent copies of a conformer in a mixture (e.g. gauche.json=2)",
+    )  # fmt: skip
+    parser.add_argument(
+        "-o", "--output", metavar="RANKING.txt", help="also write the ranking table here"
+    )
+
+
+def _degeneracies(items: list[str]) -> dict[str, float]:
+    out = {}
+    for item in items:
+        name, sep, value = item.rpartition("=")
+        try:
+            g = float(value)
+        except ValueError:
+            g = -1.0
+        if not sep or g <= 0:
+            raise VibrapolError(f"--degeneracy must be SOURCE=G with G > 0, got {item!r}")
+        out[name] = g
+    return out
+
+
+def run(args: argparse.Namespace) -> int:
+    """Build the candidates, rank them, print (and write) the table."""
+    from vibrapol.compare import candidate_from_modes, mixture_candidate, rank
+    from vibrapol.compare.output import ranking_text
+
+    if not args.sources and not args.mixture:
+        raise VibrapolError("give at least one SOURCE or --mixture")
+    check_outputs(args, [args.output] if args.output else [])
+    opts = assign_options(args)
+    degeneracy = _degeneracies(args.degeneracy)
+    common = dict(
+        laser_nm=laser_nm(args), temperature_k=args.temperature_k, symmetry=not args.no_symmetry
+    )
+    candidates = [
+        candidate_from_modes(read_modes(s, kind=args.kind), label=Path(s).name, **common)  # type: ignore[arg-type]
+        for s in args.sources
+    ]
+    for group in args.mixture:
+        files = [f.strip() for f in group.split(",") if f.strip()]
+        if not files:
+            raise VibrapolError("--mixture needs comma-separated source files")
+        modesets = [read_modes(f, kind=args.kind) for f in files]
+        candidates.append(
+            mixture_candidate(
+                modesets,
+                degeneracies=[degeneracy.get(f, 1.0) for f in files],
+                labels=[Path(f).name for f in files],
+                label="mixture(" + "+".join(Path(f).name for f in files) + ")",
+                **common,  # type: ignore[arg-type]
+            )
+        )
+    pair, bands = measure(args)
+    ranking = rank(candidates, bands, pair=pair, **opts)
+    text = ranking_text(ranking)
+    if args.output:
+        write_atomic(args.output, text, force=args.force)
+        print(f"wrote {args.output}", file=sys.stderr)
+    sys.stdout.write(text)
+    return 0

@@ -5,9 +5,9 @@
 - Every ``pycon`` block of docs/api.md is run as a doctest, in order, in one namespace, from
   the project root.  Its expected outputs are checked numbers: hand-derived values stated beside
   them in the page (invariants of diag(1, 0, 0); channel heights for a² = γ² = 1; ρ = 3/4 for a
-  non-totally-symmetric mode, common practice), values of the invented spectrum they were built
-  from, published HF/STO-3G water frequencies (NIST CCCBDB, from memory), and regression
-  values of our own for examples/water.modes.json.
+  non-totally-symmetric mode and Γ_vib = 2A1 + B2 of water, common practice), the values the
+  invented spectrum was built from, published HF/STO-3G water frequencies (NIST CCCBDB, from
+  memory), and regression values of our own for examples/water.modes.json.
 - Every ``vibrapol ...`` command line in the shell blocks of docs/*.md and README.md parses with
   the real parser (options and choices exist), and every ``vibrapol`` import in a Python block
   resolves.
@@ -22,6 +22,7 @@ import importlib
 import importlib.util
 import re
 import shlex
+import tempfile
 from pathlib import Path
 
 import pytest
@@ -56,10 +57,11 @@ def test_cli_page_covers_every_subcommand():
         assert f"## vibrapol {name}\n" in page
 
 
-def test_api_examples_run(monkeypatch):
+def test_api_examples_run(monkeypatch, tmp_path):
     blocks = fenced_blocks(DOCS / "api.md", "pycon")
     assert len(blocks) >= 10, "docs/api.md lost its runnable examples"
     monkeypatch.chdir(PROJECT_ROOT)
+    monkeypatch.setattr(tempfile, "tempdir", str(tmp_path))  # the page's mkdtemp() lands here
     parser = doctest.DocTestParser()
     test = parser.get_doctest("\n".join(blocks), {}, "docs/api.md", str(DOCS / "api.md"), 0)
     flags = doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE | doctest.IGNORE_EXCEPTION_DETAIL

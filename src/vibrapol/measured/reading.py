@@ -105,9 +105,10 @@ def read_spectra(
         The file (a ``StringIO`` works too).
     axis : {"auto", "shift", "wavenumber", "wavelength"}
         Kind of x axis (see :mod:`vibrapol.measured.axis`).  ``"auto"`` takes it from the units
-        in the file (JCAMP ``##XUNITS``, or the x column header): nm or µm → wavelength, cm⁻¹ or
-        "Raman shift" → shift; without units the axis is taken as Raman shift (and a note says
-        so).  An absolute-wavenumber axis must be asked for.
+        in the file (JCAMP ``##XUNITS``, or the x column header): nm or µm → wavelength,
+        "absolute wavenumber" → wavenumber, cm⁻¹ or "Raman shift" → shift; without units the
+        axis is taken as Raman shift (and a note says so).  An absolute-wavenumber axis whose
+        units say only cm⁻¹ must be asked for.
     laser_nm : float, optional
         Excitation wavelength in nm; required for wavelength and absolute-wavenumber axes.
     file_format : {"auto", "jcamp", "delimited"}

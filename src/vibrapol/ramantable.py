@@ -162,3 +162,31 @@ def raman_table(
         provenance=modes.provenance,
         **rules,
     )
+
+
+def symmetry_table(
+    modes: ModeSet,
+    *,
+    tolerance_ang: float | None = None,
+    symmetrize: str = "auto",
+    degeneracy_tol_cm1: float = inv.DEGENERACY_TOL_CM1,
+) -> tuple[ModeSet, RamanTable]:
+    """Raman table with species and degenerate sets from the point group of the structure.
+
+    The point group is found from the coordinates (:func:`vibrapol.symmetry.mode_symmetry`);
+    with ``symmetrize="auto"`` impure modes are first averaged over the group, so the modes
+    returned may differ slightly from those given (the table's provenance says so).  A single
+    atom gets the table without symmetry, sets from ``degeneracy_tol_cm1``.
+
+    Returns
+    -------
+    (ModeSet, RamanTable)
+        The modes the table describes, and the table.
+    """
+    from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, mode_symmetry
+
+    if modes.n_atoms < 2:
+        return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
+    tol = DEFAULT_TOLERANCE_ANG if tolerance_ang is None else tolerance_ang
+    sym = mode_symmetry(modes, tolerance_ang=tol, symmetrize=symmetrize)
+    return sym.modes, raman_table(sym.modes, symmetry=sym)

@@ -27,7 +27,7 @@ from vibrapol.lineshapes import LineShape
 from vibrapol.modeset import ModeSet
 from vibrapol.orientation import Orientation, oriented_channel_activity
 from vibrapol.quantities import QUANTITY_UNITS, SIDES, quantity_factor, thermal_factor
-from vibrapol.ramantable import RamanTable, raman_table
+from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 
 #: Bands below this wavenumber are suspicious (residual rotations/translations): warned.
@@ -183,6 +183,22 @@ def _band_irrep(irreps: Sequence[str], members: Sequence[int]) -> str:
     return "/".join(dict.fromkeys(labels))
 
 
+def _default_table(
+    modes: ModeSet, symmetry: bool, degeneracy_tol_cm1: float
+) -> tuple[ModeSet, RamanTable]:
+    if symmetry:
+        try:
+            return symmetry_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
+        except VibrapolError as exc:
+            warnings.warn(
+                f"{modes.provenance.source_file or 'mode set'}: no symmetry species ({exc}); "
+                "degenerate sets from frequencies",
+                AccuracyWarning,
+                stacklevel=3,
+            )
+    return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
+
+
 def stick_spectrum(
     modes: ModeSet,
     *,
@@ -197,6 +213,7 @@ def stick_spectrum(
     table: RamanTable | None = None,
     degeneracy_tol_cm1: float = DEGENERACY_TOL_CM1,
     label: str = "",
+    symmetry: bool = True,
 ) -> StickSpectrum:
     """Sticks of one molecule: one band per degenerate set, heights per channel.
 
@@ -213,8 +230,12 @@ def stick_spectrum(
     orientation : Orientation, optional
         Oriented sample (:mod:`vibrapol.orientation`); default: isotropic (closed form).
     table : RamanTable, optional
-        Supplies the degenerate sets, ρ and irreps; default ``raman_table(modes)`` with
-        ``degeneracy_tol_cm1``.
+        Supplies the degenerate sets, ρ and irreps.  Default: with ``symmetry`` the table of
+        :func:`vibrapol.ramantable.symmetry_table` (species and sets from the point group; the
+        modes may be averaged over the group when their labels are impure), else
+        ``raman_table(modes)`` with sets from ``degeneracy_tol_cm1``.
+    symmetry : bool
+        Label the bands by symmetry species when no ``table`` is given (default True).
 
     Warns
     -----
@@ -226,7 +247,7 @@ def stick_spectrum(
     desc = "isotropic" if orientation is None else orientation.description
     cond = Conditions(quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc)
     if table is None:
-        table = raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
+        modes, table = _default_table(modes, symmetry, degeneracy_tol_cm1)
     if orientation is None:
         a2, gamma2 = modes.raman_invariants()
         per_mode = isotropic_channel_activity(a2, gamma2, chans, geometry_deg)

@@ -7,10 +7,9 @@ import argparse
 from vibrapol.cli._common import add_output_arguments, check_output, emit
 from vibrapol.cli.symmetry import add_symmetry_arguments
 from vibrapol.invariants import DEGENERACY_TOL_CM1
-from vibrapol.ramantable import raman_table
+from vibrapol.ramantable import raman_table, symmetry_table
 from vibrapol.report import FORMATTERS
 from vibrapol.sources import read_modes, readers
-from vibrapol.symmetry import mode_symmetry
 
 HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
 
@@ -44,12 +43,14 @@ def run(args: argparse.Namespace) -> int:
     """Read the source, compute the table, print or write it."""
     check_output(args)
     modes = read_modes(args.source, kind=args.kind)
-    if args.no_symmetry or modes.n_atoms < 2:
+    if args.no_symmetry:
         table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
     else:
-        symmetry = mode_symmetry(
-            modes, tolerance_ang=args.symmetry_tolerance_ang, symmetrize=args.symmetrize
+        _, table = symmetry_table(
+            modes,
+            tolerance_ang=args.symmetry_tolerance_ang,
+            symmetrize=args.symmetrize,
+            degeneracy_tol_cm1=args.degeneracy_tol_cm1,
         )
-        table = raman_table(symmetry.modes, symmetry=symmetry)
     emit(args, FORMATTERS[args.format](table))
     return 0

@@ -16,6 +16,7 @@ from vibrapol.conformers import boltzmann_weights, mixture, source_energies_kjmo
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable, raman_table
+from vibrapol.ramantable import symmetry_table as labelled_table
 from vibrapol.scaling import FrequencyScale, lookup_factor
 from vibrapol.spectrum import StickSpectrum, stick_spectrum
 
@@ -60,17 +61,12 @@ def published_scale(modes: ModeSet) -> FrequencyScale | None:
 def symmetry_table(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
     """Raman table with symmetry species and degenerate sets from the point group.
 
-    Returns the (possibly symmetrized) modes, the table and a note.  When the point group
-    cannot be found, the table has no species and degenerate sets come from frequencies.
+    :func:`vibrapol.ramantable.symmetry_table` plus a note; when the point group cannot be
+    found, the table has no species and degenerate sets come from frequencies (with a warning).
     """
-    from vibrapol.symmetry import analyse_modes, find_point_group
-
     where = modes.provenance.source_file or "mode set"
     try:
-        group = find_point_group(
-            modes.atomic_numbers, modes.coordinates_ang, modes.masses_da, where=where
-        )
-        sym = analyse_modes(modes, group)
+        sym_modes, table = labelled_table(modes)
     except (VibrapolError, ValueError) as exc:
         warnings.warn(
             f"{where}: no symmetry species ({exc}); degenerate sets from frequencies",
@@ -78,8 +74,10 @@ def symmetry_table(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
             stacklevel=2,
         )
         return modes, raman_table(modes), "symmetry not found"
-    note = f"point group {group.symbol}" + (" (modes symmetrized)" if sym.symmetrized else "")
-    return sym.modes, raman_table(sym.modes, symmetry=sym), note
+    note = f"point group {table.point_group}" + (
+        " (modes symmetrized)" if sym_modes is not modes else ""
+    )
+    return sym_modes, table, note
 
 
 def _sticks(

@@ -94,3 +94,16 @@ def test_output_file_gets_ordinary_permissions(tmp_path):
     umask = os.umask(0)
     os.umask(umask)
     assert stat.S_IMODE(out.stat().st_mode) == 0o666 & ~umask
+
+
+def test_python_dash_m_runs_the_command_line():
+    import subprocess
+    import sys
+
+    done = subprocess.run(
+        [sys.executable, "-m", "vibrapol", "table", str(EXAMPLE), "--format", "csv"],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert done.returncode == 0 and done.stdout.startswith("mode,frequency_cm1,")

@@ -215,3 +215,10 @@ def test_near_zero_band_is_warned_for_intensities():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         stick_spectrum(m, quantity="activity")
+
+
+def test_restricted_method_names_find_the_published_factor():
+    # "RHF" (as PySCF and several programs record it) is the closed-shell HF of the table.
+    from vibrapol.scaling import lookup_factor
+
+    assert lookup_factor("RHF/6-31G*").factor == lookup_factor("HF/6-31G*").factor

@@ -56,8 +56,14 @@ SCALE_FACTORS: tuple[PublishedFactor, ...] = (
 )
 
 
+#: Closed-shell spellings that name the same method as the table's entry (restricted HF and
+#: Kohn–Sham: the published factors are for closed-shell molecules).
+_METHOD_ALIASES = {"RHF": "HF", "RB3LYP": "B3LYP"}
+
+
 def _norm_method(method: str) -> str:
-    return re.sub(r"[\s\-_]", "", method).upper()
+    m = re.sub(r"[\s\-_]", "", method).upper()
+    return _METHOD_ALIASES.get(m, m)
 
 
 def _norm_basis(basis: str) -> str:

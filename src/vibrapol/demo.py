@@ -26,11 +26,17 @@ from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 from time import perf_counter
+from typing import TYPE_CHECKING
 
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable
+
+if TYPE_CHECKING:  # pragma: no cover
+    from vibrapol.compare import Assignment, Ranking
+    from vibrapol.measured import PolarizedPair
+    from vibrapol.symmetry import ModeSymmetry
 
 #: The bundled measured pair (package data, INVENTED).
 SAMPLE_SPECTRUM = "dichloromethane_liquid_vv_vh_INVENTED.txt"
@@ -190,10 +196,10 @@ class DemoResult:
     output_dir: Path
     files: tuple[tuple[Path, str], ...]
     modes: dict[str, ModeSet]
-    symmetry: object
+    symmetry: ModeSymmetry
     table: RamanTable
-    assignment: object
-    ranking: object
+    assignment: Assignment
+    ranking: Ranking
     seconds_compute: dict[str, float] = field(default_factory=dict)
     reused: dict[str, bool] = field(default_factory=dict)
     summary: str = ""
@@ -222,7 +228,7 @@ def prepare_output_dir(output_dir: str | Path, names: list[str], force: bool) ->
         taken = [n for n in names if (out / n).exists()]
         if taken:
             raise VibrapolError(
-                f"{out}: already holds the demo's files ({taken[0]} and {len(taken) - 1} more); "
+                f"{out}: already holds the demo's files ({_some(taken)}); "
                 "pass --force to overwrite them (computed results are reused from the "
                 "checkpoints) or give another --output-dir"
             )
@@ -233,6 +239,10 @@ def prepare_output_dir(output_dir: str | Path, names: list[str], force: bool) ->
     for n in names:
         check_writable(out / n, force=True)
     return out
+
+
+def _some(names: list[str]) -> str:
+    return names[0] if len(names) == 1 else f"{names[0]} and {len(names) - 1} more"
 
 
 def _stderr(message: str) -> None:
@@ -307,7 +317,7 @@ def run_demo(
     for name, data in figures(sym, table, scenario, sample.name):
         write(name, data)
 
-    log(f"[4/{n_steps}] measured VV/VH pair (INVENTED data): cleaning, band fit, assignment")
+    log(f"[4/{n_steps}] measured VV/VH pair (INVENTED data): spikes, baseline, band fit")
     write(MEASURED_COPY, data_path(scenario.measured).read_text(encoding="utf-8"))
     pair = measured.read_pair(out / MEASURED_COPY)
     pair, _, _ = measured.clean_pair(pair)
@@ -321,7 +331,7 @@ def run_demo(
         )
         for m in scenario.molecules
     ]
-    log(f"[5/{n_steps}] ranking {len(candidates)} candidate molecules")
+    log(f"[5/{n_steps}] assignment and ranking of {len(candidates)} candidate molecules")
     ranking = rank(candidates, bands, pair=pair)
     assignment = next(a for a in ranking.assignments if a.label == sample.label)
     for name, data in _match_files(assignment, pair, ranking):
@@ -380,7 +390,9 @@ def _compute(
     return read_modes(target), run.seconds_wall, was_reused
 
 
-def _match_files(assignment, pair, ranking) -> list[tuple[str, str | bytes]]:  # noqa: ANN001
+def _match_files(
+    assignment: Assignment, pair: PolarizedPair, ranking: Ranking
+) -> list[tuple[str, str | bytes]]:
     from vibrapol.compare.output import assignment_csv, ranking_text
     from vibrapol.plotting_match import match_figure
     from vibrapol.plotting_style import figure_bytes

@@ -66,12 +66,12 @@ OVERTONE = LiquidBand("2nu2 overtone", "a1", 2830.0, 14.0, 4.0, 0.30)
 
 AXIS_CM1 = np.arange(150.0, 3300.0, 1.0)
 LASER_NM = 532.0
-SEED = 2072
+RANDOM_STATE = 2072  # numpy default_rng argument
 
 HEADER = """\
 # INVENTED DATA - NOT A MEASUREMENT.
 # Parallel (VV) and crossed (VH) Raman spectrum of liquid dichloromethane, made up for the
-# vibrapol demo by examples/solvent-check/make_demo_data.py (seed {seed}).
+# vibrapol demo by examples/solvent-check/make_demo_data.py (numpy default_rng({state})).
 # Band positions: liquid-phase fundamentals of CH2Cl2 from T. Shimanouchi, Tables of Molecular
 # Vibrational Frequencies, Consolidated Volume I, NSRDS-NBS 39 (1972), written from memory.
 # Invented: band areas, widths, the ratios of the totally symmetric bands, one weak overtone
@@ -83,7 +83,7 @@ HEADER = """\
 
 def invented_pair():
     """The invented VV/VH pair (a :class:`~vibrapol.measured.PolarizedPair`)."""
-    rng = np.random.default_rng(SEED)
+    rng = np.random.default_rng(RANDOM_STATE)
     bands = [TrueBand(b.position_cm1, b.fwhm_cm1, b.area, b.rho) for b in (*BANDS, OVERTONE)]
     tallest = max(b.area * 2.0 / (np.pi * b.fwhm_cm1) for b in bands)  # Lorentzian peak
     t = (AXIS_CM1 - AXIS_CM1[0]) / (AXIS_CM1[-1] - AXIS_CM1[0])
@@ -101,7 +101,7 @@ def invented_pair():
 
 def write_spectra(out_dir: Path = DATA) -> Path:
     pair = invented_pair()
-    lines = [HEADER.format(seed=SEED, laser=LASER_NM) + "shift_cm1 VV VH"]
+    lines = [HEADER.format(state=RANDOM_STATE, laser=LASER_NM) + "shift_cm1 VV VH"]
     for x, vv, vh in zip(pair.vv.shift_cm1, pair.vv.intensity, pair.vh.intensity, strict=True):
         lines.append(f"{x:.1f} {vv:.5f} {vh:.5f}")
     path = out_dir / SPECTRA_FILE

@@ -25,6 +25,7 @@ SUBCOMMANDS = {
     "sweep": "vibrapol.cli.sweep",
     "match": "vibrapol.cli.match",
     "rank": "vibrapol.cli.rank",
+    "demo": "vibrapol.cli.demo",
 }
 
 

@@ -68,6 +68,8 @@ def _norm_method(method: str) -> str:
 
 def _norm_basis(basis: str) -> str:
     b = re.sub(r"\s", "", basis).upper()
+    # the engine records "6-31g* (Cartesian d)"; the d-shell form is not part of the name
+    b = re.sub(r"\((CARTESIAN|SPHERICAL)[^)]*\)", "", b)
     b = b.replace("**", "(D,P)").replace("*", "(D)")
     return b
 

@@ -7,6 +7,8 @@ atoms, non-finite or absurd coordinates) before any work is done, with one line 
 
 from __future__ import annotations
 
+import codecs
+import io
 from pathlib import Path
 
 import numpy as np
@@ -71,6 +73,16 @@ def check_structure(
         )
 
 
+def _ase_read(path: Path):  # noqa: ANN202
+    import ase.io
+    from ase.io.formats import filetype
+
+    data = path.read_bytes()
+    if data.startswith(codecs.BOM_UTF8):  # ase's text readers trip over the byte-order mark
+        return ase.io.read(io.StringIO(data.decode("utf-8-sig")), format=filetype(str(path)))
+    return ase.io.read(str(path))
+
+
 def read_structure(path: str | Path):  # noqa: ANN201
     """The last frame of a structure file (any format ``ase.io.read`` accepts), checked.
 
@@ -81,17 +93,17 @@ def read_structure(path: str | Path):  # noqa: ANN201
     GeometryError
         Structures :func:`check_structure` refuses.
     """
-    import ase.io
-
     from vibrapol.sources.registry import read_text
 
     p = Path(path)
     if not p.exists():
         raise InputFormatError(f"{p}: no such structure file")
-    read_text(p)  # the same one-line errors as every reader: missing, empty, binary, UTF-16
     try:
-        atoms = ase.io.read(p)
+        atoms = _ase_read(p)
     except Exception as exc:  # ase raises many kinds for files it cannot parse
+        # An empty, text-less or UTF-16 file gets the one-line error every reader gives
+        # (binary formats ase knows, such as .traj, are read above and never get here).
+        read_text(p)
         reason = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
         raise InputFormatError(
             f"{p}: cannot read a structure, no atomic coordinates found "

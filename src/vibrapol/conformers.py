@@ -8,7 +8,6 @@ References
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 
 import numpy as np
@@ -16,6 +15,7 @@ import numpy as np
 from vibrapol import units
 from vibrapol.errors import VibrapolError
 from vibrapol.modeset import ModeSet
+from vibrapol.quantities import check_temperature
 from vibrapol.spectrum import StickSpectrum, stick_spectrum
 
 
@@ -34,8 +34,7 @@ def boltzmann_weights(
     g = np.ones_like(e) if degeneracies is None else np.asarray(degeneracies, dtype=float)
     if g.shape != e.shape or np.any(g <= 0):
         raise VibrapolError("give one positive degeneracy per species")
-    if temperature_k < 0 or not math.isfinite(temperature_k):
-        raise VibrapolError(f"temperature must be ≥ 0 K, got {temperature_k}")
+    temperature_k = check_temperature(temperature_k)
     de = e - e.min()
     if temperature_k == 0:
         w = np.where(de == 0, g, 0.0)

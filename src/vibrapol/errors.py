@@ -20,6 +20,14 @@ class ShapeError(VibrapolError, ValueError):
     """An array has the wrong shape for what it describes."""
 
 
+class GeometryError(VibrapolError, ValueError):
+    """A structure that cannot be analysed (one atom, overlapping atoms, bad shape)."""
+
+
+class OptionError(VibrapolError, ValueError):
+    """A parameter or command-line option has a value outside its allowed range."""
+
+
 class VibrapolWarning(UserWarning):
     """Base class of vibrapol's warnings."""
 

@@ -12,21 +12,36 @@ from vibrapol.errors import VibrapolError
 def check_writable(path: str | Path, force: bool = False) -> Path:
     """Check, before any work is done, that ``path`` may be written.
 
+    The directory is tested by creating (and removing) an empty temporary file in it:
+    permission bits alone say nothing for root or on read-only file systems.
+
     Raises
     ------
     VibrapolError
-        If the file exists and ``force`` is False, or its directory is missing or not writable.
+        If the file exists and ``force`` is False, is a directory or another non-regular file
+        (a device, a pipe), or its directory is missing, is a file, or cannot be written.
     """
     p = Path(path)
+    if p.is_dir():
+        raise VibrapolError(f"{p}: is a directory, expected a file name")
     if p.exists() and not force:
         raise VibrapolError(f"{p}: already exists; pass --force to overwrite it")
-    if p.exists() and p.is_dir():
-        raise VibrapolError(f"{p}: is a directory, expected a file name")
+    if p.exists() and not p.is_file():
+        raise VibrapolError(f"{p}: is not a regular file (a device or pipe?); give a file name")
     parent = p.parent if str(p.parent) else Path(".")
+    if parent.exists() and not parent.is_dir():
+        raise VibrapolError(f"{p}: {parent} is a file, not a directory")
     if not parent.is_dir():
         raise VibrapolError(f"{p}: directory {parent} does not exist")
-    if not os.access(parent, os.W_OK):
-        raise VibrapolError(f"{p}: directory {parent} is not writable")
+    try:
+        fd, probe = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".check", dir=parent)
+    except OSError as exc:
+        raise VibrapolError(
+            f"{p}: cannot write in directory {parent} ({exc.strerror or exc}); "
+            "choose another output location"
+        ) from None
+    os.close(fd)
+    os.unlink(probe)
     return p
 
 
@@ -38,10 +53,11 @@ def write_atomic(path: str | Path, data: str | bytes, force: bool = False) -> Pa
     """
     p = check_writable(path, force)
     mode = "wb" if isinstance(data, bytes) else "w"
-    fd, tmp = tempfile.mkstemp(
-        prefix=f".{p.name}.", suffix=".tmp", dir=p.parent if str(p.parent) else "."
-    )
+    tmp = ""
     try:
+        fd, tmp = tempfile.mkstemp(
+            prefix=f".{p.name}.", suffix=".tmp", dir=p.parent if str(p.parent) else "."
+        )
         # mkstemp creates the file with mode 0600; give it the mode a plain open() would.
         umask = os.umask(0)
         os.umask(umask)
@@ -51,8 +67,10 @@ def write_atomic(path: str | Path, data: str | bytes, force: bool = False) -> Pa
         ) as fh:
             fh.write(data)
         os.replace(tmp, p)
-    except BaseException:
-        if os.path.exists(tmp):
+    except BaseException as exc:
+        if tmp and os.path.exists(tmp):
             os.unlink(tmp)
+        if isinstance(exc, OSError):  # disk full, file system gone read-only, ...
+            raise VibrapolError(f"{p}: could not be written ({exc.strerror or exc})") from exc
         raise
     return p

@@ -18,6 +18,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from vibrapol.errors import OptionError
+
 #: Modes whose activity is below this fraction of the largest activity in the set are treated
 #: as Raman-inactive: their depolarization ratio is undefined (NaN).
 INACTIVE_FRACTION = 1e-6
@@ -152,6 +154,20 @@ def inactive_mask(activities: np.ndarray, fraction: float = INACTIVE_FRACTION) -
     return np.abs(s) <= fraction * scale if scale > 0 else np.ones(s.shape, dtype=bool)
 
 
+def check_degeneracy_tol(tol_cm1: float) -> float:
+    """The degeneracy tolerance as a float.
+
+    Raises
+    ------
+    OptionError
+        When it is negative, NaN or infinite.
+    """
+    tol = float(tol_cm1)
+    if not (np.isfinite(tol) and tol >= 0):
+        raise OptionError(f"degeneracy tolerance must be ≥ 0 cm⁻¹, got {tol_cm1}")
+    return tol
+
+
 def degenerate_sets(
     freqs_cm1: np.ndarray, tol_cm1: float = DEGENERACY_TOL_CM1
 ) -> list[tuple[int, ...]]:
@@ -168,8 +184,7 @@ def degenerate_sets(
     list of tuple of int
         Mode indices of each set, in ascending frequency.
     """
-    if tol_cm1 < 0:
-        raise ValueError(f"degeneracy tolerance must be ≥ 0 cm⁻¹, got {tol_cm1}")
+    tol_cm1 = check_degeneracy_tol(tol_cm1)
     f = np.asarray(freqs_cm1, dtype=float)
     order = np.argsort(f, kind="stable")
     sets: list[list[int]] = []

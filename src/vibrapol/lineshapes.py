@@ -31,6 +31,10 @@ GAUSS_FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
 #: Names of the available shapes.
 SHAPES = ("lorentzian", "gaussian", "voigt")
 
+#: Widest line accepted (cm⁻¹): wider than the whole vibrational range, so nothing real is
+#: lost, while absurd widths (whose squares overflow) are refused.
+MAX_FWHM_CM1 = 1.0e4
+
 
 def lorentzian(x: np.ndarray, center: np.ndarray, fwhm: np.ndarray) -> np.ndarray:
     """Area-normalised Lorentzian (Cauchy) profile.
@@ -131,10 +135,13 @@ class LineShape:
             raise VibrapolError(
                 f"unknown line shape {self.shape!r}; choose one of {', '.join(SHAPES)}"
             )
-        if not (math.isfinite(self.fwhm_cm1) and self.fwhm_cm1 > 0):
-            raise VibrapolError(f"fwhm_cm1 must be a positive number of cm⁻¹, got {self.fwhm_cm1}")
-        if not (math.isfinite(self.fwhm_slope) and self.fwhm_slope >= 0):
-            raise VibrapolError(f"fwhm_slope must be ≥ 0, got {self.fwhm_slope}")
+        if not 0 < self.fwhm_cm1 <= MAX_FWHM_CM1:  # also refuses NaN
+            raise VibrapolError(
+                f"fwhm_cm1 must be a positive number of cm⁻¹ up to {MAX_FWHM_CM1:g}, "
+                f"got {self.fwhm_cm1}"
+            )
+        if not 0 <= self.fwhm_slope <= 1:
+            raise VibrapolError(f"fwhm_slope must be between 0 and 1, got {self.fwhm_slope}")
         if not 0.0 <= self.lorentzian_share <= 1.0:
             raise VibrapolError(
                 f"lorentzian_share must be between 0 and 1, got {self.lorentzian_share}"

@@ -22,10 +22,20 @@ DEFAULT_MASSES_NOTE = "most abundant isotope of each element (ase.data.atomic_ma
 #: Tolerance for |LLᵀ − I| when checking that normal modes are orthonormal.
 ORTHONORMAL_TOL = 1e-3
 
+#: Largest |wavenumber| accepted: far above any molecular fundamental (the highest, the H₂
+#: stretch, is near 4160 cm⁻¹; common practice) and above any imaginary mode of a saddle point.
+MAX_FREQUENCY_CM1 = 1.0e5
+
+#: Largest magnitude accepted in any other array.  No quantity in vibrapol's units comes near
+#: it; larger numbers are a damaged file, and their squares overflow in later steps.
+MAX_ABS_VALUE = 1.0e30
+
 
 def default_masses(atomic_numbers: np.ndarray) -> np.ndarray:
     """Mass of the most abundant isotope of each element, in Da."""
     z = np.asarray(atomic_numbers, dtype=int)
+    if np.any(z < 1) or np.any(z >= len(atomic_masses_common)):
+        raise ShapeError(f"atomic numbers must be between 1 and 118, got {sorted(set(z.tolist()))}")
     masses = atomic_masses_common[z]
     if np.any(~np.isfinite(masses)):
         bad = sorted({chemical_symbols[i] for i in z[~np.isfinite(masses)]})
@@ -78,6 +88,12 @@ def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = f
         raise ShapeError(f"{name} should be an array of shape {want}, got shape {arr.shape}")
     if dtype is float and not np.all(np.isfinite(arr)):
         raise ShapeError(f"{name} contains NaN or infinite values")
+    limit = MAX_FREQUENCY_CM1 if name == "freqs_cm1" else MAX_ABS_VALUE
+    if dtype is float and arr.size and np.max(np.abs(arr)) > limit:
+        raise ShapeError(
+            f"{name} holds {np.max(np.abs(arr)):.3g}, beyond the largest accepted magnitude "
+            f"({limit:g}); the file is damaged or in other units"
+        )
     arr.setflags(write=False)
     return arr
 
@@ -145,6 +161,10 @@ class ModeSet:
         n_atoms = z.shape[0]
         if n_atoms == 0:
             raise ShapeError("a ModeSet needs at least one atom")
+        if np.any(z < 1) or np.any(z > 118):
+            raise ShapeError(
+                f"atomic numbers must be between 1 and 118, got {sorted(set(z.tolist()))}"
+            )
         set_(self, "atomic_numbers", z)
         set_(self, "coordinates_ang", _array(self.coordinates_ang, "coordinates_ang", (n_atoms, 3)))
         freqs = _array(self.freqs_cm1, "freqs_cm1", (None,))
@@ -162,6 +182,16 @@ class ModeSet:
                 raise ShapeError("masses_da must all be positive")
             set_(self, "masses_da", masses)
         set_(self, "provenance", provenance)
+        if self.energy_hartree is not None:
+            try:
+                energy = float(self.energy_hartree)
+            except (TypeError, ValueError):
+                raise ShapeError(
+                    f"energy_hartree must be a number, got {self.energy_hartree!r}"
+                ) from None
+            if not np.isfinite(energy) or abs(energy) > MAX_ABS_VALUE:
+                raise ShapeError(f"energy_hartree must be a finite number, got {energy}")
+            set_(self, "energy_hartree", energy)
         set_(self, "dalpha_dx", _optional(self.dalpha_dx, "dalpha_dx", (3 * n_atoms, 3, 3)))
         dq = _optional(self.dalpha_dq, "dalpha_dq", (n_modes, 3, 3))
         if dq is None and self.dalpha_dx is not None:

@@ -213,8 +213,12 @@ def uniaxial(
     """
     if n_azimuth < 5 or (twist_deg is None and n_twist < 5):
         raise VibrapolError("uniaxial averages need at least 5 azimuth and 5 twist nodes")
-    if tilt_spread_deg < 0 or not math.isfinite(tilt_deg):
-        raise VibrapolError(f"tilt spread must be ≥ 0 degrees, got {tilt_spread_deg}")
+    if not (math.isfinite(tilt_deg) and 0.0 <= tilt_deg <= 180.0):
+        raise VibrapolError(f"tilt must be between 0 and 180 degrees, got {tilt_deg}")
+    if not tilt_spread_deg >= 0:  # also refuses NaN; inf means no preferred tilt
+        raise VibrapolError(f"tilt spread must be ≥ 0 degrees (or inf), got {tilt_spread_deg}")
+    if twist_deg is not None and not math.isfinite(twist_deg):
+        raise VibrapolError(f"twist must be a finite angle in degrees, got {twist_deg}")
     if math.isinf(tilt_spread_deg):
         u, w = np.polynomial.legendre.leggauss(max(n_tilt, 3))
         what = "no preferred tilt"

@@ -85,13 +85,21 @@ LABEL_PT = 6.5
 SHIFT_LABEL = "Raman shift (cm$^{-1}$)"
 
 
+#: Widths in inches a figure may have (a poster panel at most).
+WIDTH_RANGE_IN = (1.0, 40.0)
+
+
 def figure_width(width: str | float) -> float:
     """Width in inches of ``"single"``, ``"double"`` or a number of inches."""
     if isinstance(width, str):
         if width not in WIDTHS_IN:
             raise VibrapolError(f"figure width must be single, double or inches, got {width!r}")
         return WIDTHS_IN[width]
-    return float(width)
+    inches = float(width)
+    lo, hi = WIDTH_RANGE_IN
+    if not lo <= inches <= hi:  # also refuses NaN
+        raise VibrapolError(f"figure width must be between {lo:g} and {hi:g} inches, got {width}")
+    return inches
 
 
 def new_figure(width_in: float, height_in: float) -> Figure:

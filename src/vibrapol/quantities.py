@@ -40,6 +40,24 @@ INTENSITY_REFERENCE_CM1 = 1.0e4
 #: Stokes, anti-Stokes or both.
 SIDES = ("stokes", "anti-stokes", "both")
 
+#: Highest temperature accepted (K): far above where any molecule survives; beyond it the
+#: population factors overflow.
+MAX_TEMPERATURE_K = 1.0e5
+
+
+def check_temperature(temperature_k: float) -> float:
+    """The temperature as a float, checked to lie in 0–:data:`MAX_TEMPERATURE_K`.
+
+    Raises
+    ------
+    VibrapolError
+        For negative, NaN or absurdly high temperatures.
+    """
+    t = float(temperature_k)
+    if not 0.0 <= t <= MAX_TEMPERATURE_K:  # also refuses NaN
+        raise VibrapolError(f"temperature must be between 0 and {MAX_TEMPERATURE_K:g} K, got {t}")
+    return t
+
 
 def thermal_factor(freqs_cm1: np.ndarray, temperature_k: float, side: str = "stokes") -> np.ndarray:
     """Population factor of a harmonic mode: n̄ + 1 (Stokes) or n̄ (anti-Stokes) [Long]_.
@@ -48,8 +66,7 @@ def thermal_factor(freqs_cm1: np.ndarray, temperature_k: float, side: str = "sto
     is 1 and the anti-Stokes factor 0.
     """
     nu = np.asarray(freqs_cm1, dtype=float)
-    if temperature_k < 0 or not math.isfinite(temperature_k):
-        raise VibrapolError(f"temperature must be ≥ 0 K, got {temperature_k}")
+    temperature_k = check_temperature(temperature_k)
     if temperature_k == 0:
         return np.ones_like(nu) if side == "stokes" else np.zeros_like(nu)
     x = units.HC_OVER_K_CM_K * nu / temperature_k

@@ -185,6 +185,7 @@ def symmetry_table(
     """
     from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, mode_symmetry
 
+    inv.check_degeneracy_tol(degeneracy_tol_cm1)  # refused even when symmetry makes the sets
     if modes.n_atoms < 2:
         return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
     tol = DEFAULT_TOLERANCE_ANG if tolerance_ang is None else tolerance_ang

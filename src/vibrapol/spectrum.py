@@ -22,7 +22,7 @@ import numpy as np
 
 from vibrapol.channels import check_geometry, isotropic_channel_activity, with_base_channels
 from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
-from vibrapol.invariants import DEGENERACY_TOL_CM1, sum_over_sets
+from vibrapol.invariants import DEGENERACY_TOL_CM1, check_degeneracy_tol, sum_over_sets
 from vibrapol.lineshapes import LineShape
 from vibrapol.modeset import ModeSet
 from vibrapol.orientation import Orientation, oriented_channel_activity
@@ -186,6 +186,7 @@ def _band_irrep(irreps: Sequence[str], members: Sequence[int]) -> str:
 def _default_table(
     modes: ModeSet, symmetry: bool, degeneracy_tol_cm1: float
 ) -> tuple[ModeSet, RamanTable]:
+    check_degeneracy_tol(degeneracy_tol_cm1)
     if symmetry:
         try:
             return symmetry_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)

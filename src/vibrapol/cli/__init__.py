@@ -12,6 +12,7 @@ import importlib
 import sys
 import warnings
 from collections.abc import Sequence
+from typing import NoReturn
 
 from vibrapol import __version__
 from vibrapol.errors import VibrapolError
@@ -29,9 +30,27 @@ SUBCOMMANDS = {
 }
 
 
+class OneLineParser(argparse.ArgumentParser):
+    """An argument parser whose usage errors are one line, like every other vibrapol error.
+
+    argparse prints the whole usage block before the message; for a command with many
+    options that buries the one line that matters.  ``--help`` still shows the usage.
+    """
+
+    def error(self, message: str) -> NoReturn:
+        """Print ``PROG: error: MESSAGE`` and a pointer to ``--help``; exit with status 2."""
+        hint = ""
+        if message.endswith("expected one argument"):
+            # "--range-cm1 -3600:3600": argparse takes a value starting with '-' for an option
+            hint = (
+                " (a value starting with '-' must be joined with '=', e.g. --range-cm1=-3600:3600)"
+            )
+        self.exit(2, f"{self.prog}: error: {message}{hint}; see {self.prog} --help\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The top-level parser with every subcommand attached."""
-    parser = argparse.ArgumentParser(
+    parser = OneLineParser(
         prog="vibrapol",
         description="Polarized Raman spectra of molecules: invariants, depolarization ratios, "
         "symmetry, spectra and assignment.",
@@ -60,7 +79,10 @@ def _format_warning(message, category, filename, lineno, line=None):  # noqa: AN
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``vibrapol`` console script; returns the exit status."""
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help, --version, or a usage error (already printed)
+        return exc.code if isinstance(exc.code, int) else 0 if exc.code is None else 2
     warnings.formatwarning = _format_warning
     try:
         return int(args._run(args) or 0)

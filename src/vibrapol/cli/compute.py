@@ -11,14 +11,13 @@ from __future__ import annotations
 
 import argparse
 import sys
-from pathlib import Path
 
 from vibrapol.engine.checkpoint import checkpoint_path_for
 from vibrapol.engine.compute import DEFAULT_STEP_ANG, run_engine
 from vibrapol.engine.displacements import ROUTES
-from vibrapol.errors import InputFormatError
 from vibrapol.fileio import check_writable
 from vibrapol.sources.modes_json import write_modes_json
+from vibrapol.structure import read_structure
 
 HELP = "compute modes and Raman tensors of a structure with the embedded PySCF engine"
 
@@ -85,28 +84,6 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "-o", "--output", required=True, metavar="NAME.modes.json", help="file to write"
     )
     parser.add_argument("--force", action="store_true", help="overwrite an existing output file")
-
-
-def read_structure(path: str):  # noqa: ANN201
-    """The last frame of ``path`` as an ``ase.Atoms`` (any format ``ase.io.read`` accepts)."""
-    import ase.io
-
-    p = Path(path)
-    if not p.is_file():
-        raise InputFormatError(f"{p}: no such structure file")
-    try:
-        atoms = ase.io.read(p)
-    except Exception as exc:  # ase raises many kinds for unreadable files
-        reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise InputFormatError(
-            f"{p}: cannot read a structure ({reason}); "
-            "give a file ase.io.read understands (xyz, pdb, cif …)"
-        ) from exc
-    if isinstance(atoms, list):
-        atoms = atoms[-1]
-    if len(atoms) == 0:
-        raise InputFormatError(f"{p}: the structure has no atoms")
-    return atoms
 
 
 def run(args: argparse.Namespace) -> int:

@@ -12,6 +12,7 @@ skin; follow your institution's laser safety rules and local regulations.
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from pathlib import Path
 
@@ -60,7 +61,7 @@ def _degeneracies(items: list[str]) -> dict[str, float]:
             g = float(value)
         except ValueError:
             g = -1.0
-        if not sep or g <= 0:
+        if not sep or not 0 < g < math.inf:  # also refuses NaN
             raise VibrapolError(f"--degeneracy must be SOURCE=G with G > 0, got {item!r}")
         out[name] = g
     return out
@@ -83,6 +84,13 @@ def run(args: argparse.Namespace) -> int:
         candidate_from_modes(read_modes(s, kind=args.kind), label=Path(s).name, **common)  # type: ignore[arg-type]
         for s in args.sources
     ]
+    members = {f.strip() for group in args.mixture for f in group.split(",")}
+    unused = sorted(set(degeneracy) - members)
+    if unused:
+        raise VibrapolError(
+            f"--degeneracy names {', '.join(unused)}, which is in no --mixture; "
+            "use the file name exactly as given to --mixture"
+        )
     for group in args.mixture:
         files = [f.strip() for f in group.split(",") if f.strip()]
         if not files:

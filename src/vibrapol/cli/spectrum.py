@@ -12,6 +12,7 @@ Computed spectra are predictions, not a substitute for measurement.
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 
 from vibrapol.channels import GEOMETRIES
@@ -41,17 +42,22 @@ def parse_range(text: str) -> tuple[float, float]:
         raise VibrapolError(
             f"range must be LOW:HIGH in cm-1, e.g. 100:3600, got {text!r}"
         ) from None
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        raise VibrapolError(f"range must have finite bounds in cm-1, got {text!r}")
     if not hi > lo:
         raise VibrapolError(f"range must run from low to high, got {text!r}")
     return lo, hi
 
 
 def parse_floats(text: str, what: str) -> list[float]:
-    """Comma-separated numbers."""
+    """Comma-separated finite numbers."""
     try:
-        return [float(t) for t in text.split(",") if t.strip()]
+        values = [float(t) for t in text.split(",") if t.strip()]
     except ValueError:
         raise VibrapolError(f"{what} must be comma-separated numbers, got {text!r}") from None
+    if not all(math.isfinite(v) for v in values):
+        raise VibrapolError(f"{what} must be finite numbers, got {text!r}")
+    return values
 
 
 def add_physics_arguments(parser: argparse.ArgumentParser) -> None:

@@ -30,6 +30,9 @@ HELP = "band intensities versus polarizer angle for isotropic or oriented sample
 
 ORIENTATIONS = ("isotropic", "fixed", "aligned", "uniaxial")
 
+#: Most polarizer angles in one sweep (0.01° steps over a full turn).
+MAX_ANGLES = 36_001
+
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol sweep``."""
@@ -119,7 +122,13 @@ def parse_angles(text: str) -> np.ndarray:
     if len(parts) != 3 or parts[2] <= 0 or parts[1] < parts[0]:
         raise VibrapolError(f"--angles-deg must be START:STOP:STEP with STEP > 0, got {text!r}")
     start, stop, step = parts
-    return start + step * np.arange(int(math.floor((stop - start) / step + 1e-9)) + 1)
+    count = math.floor((stop - start) / step + 1e-9) + 1
+    if count > MAX_ANGLES:
+        raise VibrapolError(
+            f"--angles-deg {text!r} gives {count:.3g} angles, more than {MAX_ANGLES}; "
+            "use a larger step"
+        )
+    return start + step * np.arange(count)
 
 
 def run(args: argparse.Namespace) -> int:

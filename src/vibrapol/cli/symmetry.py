@@ -14,11 +14,11 @@ from pathlib import Path
 import numpy as np
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
-from vibrapol.errors import InputFormatError
 from vibrapol.modeset import ModeSet
 from vibrapol.report import symmetry_json, symmetry_text
 from vibrapol.sources import read_modes, readers
 from vibrapol.sources.registry import read_text, sniff_text
+from vibrapol.structure import read_structure
 from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, analyse_modes, find_point_group
 
 HELP = "point group, Γ_vib and selection rules of a structure or of computed modes"
@@ -74,19 +74,7 @@ def read_structure_or_modes(
     text = read_text(path)
     if sniff_text(text) is not None:
         return read_modes(path)
-    import ase.io
-
-    try:
-        atoms = ase.io.read(path)
-    except Exception as exc:  # ase raises many kinds for files it cannot parse
-        raise InputFormatError(
-            f"{path}: no atomic coordinates found ({type(exc).__name__}: {exc}); give a structure "
-            "file ase can read (e.g. .xyz) or a quantum-chemistry output"
-        ) from exc
-    if len(atoms) == 0:
-        raise InputFormatError(
-            f"{path}: the file holds no atoms; give a structure with coordinates"
-        )
+    atoms = read_structure(path)
     return atoms.get_atomic_numbers(), atoms.get_positions()
 
 

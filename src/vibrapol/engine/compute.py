@@ -39,6 +39,7 @@ from vibrapol.engine.scf import (
     build_molecule,
 )
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance, default_masses
+from vibrapol.structure import check_structure
 from vibrapol.vibrations import harmonic_analysis
 
 #: Default displacement (Å): activities change ≤ 3e-4 relative between 0.001 and 0.01 Å with
@@ -70,8 +71,7 @@ def as_structure(atoms: Any) -> Structure:
         raise EngineInputError(
             f"need N atomic numbers and (N, 3) coordinates, got {z.shape} and {xyz.shape}"
         )
-    if z.shape[0] < 2:
-        raise EngineInputError("a molecule needs at least two atoms to vibrate")
+    check_structure(z, xyz)  # one atom, overlapping atoms, NaN: refused before any SCF
     return Structure(z, xyz)
 
 

@@ -148,13 +148,13 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             mol.build(dump_input=False, parse_arg=False)
-    except BasisNotFoundError as exc:
+    except (BasisNotFoundError, KeyError) as exc:  # PySCF: KeyError for an unknown basis name
         raise EngineInputError(
             f"unknown basis {spec.basis!r} (or not defined for these elements): "
             "use a name PySCF knows, "
             "e.g. 'sto-3g', '6-31g*', 'cc-pvdz'"
         ) from exc
-    except (KeyError, RuntimeError, ValueError) as exc:
+    except (RuntimeError, ValueError) as exc:
         raise EngineInputError(
             f"PySCF cannot build this molecule with basis {spec.basis!r}: {exc}"
         ) from exc

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.signal import find_peaks, savgol_filter
 
+from vibrapol.errors import VibrapolError
 from vibrapol.measured.cleaning import noise_sigma
 from vibrapol.measured.spectrum import MeasuredSpectrum, check_range
 
@@ -145,8 +146,10 @@ def find_bands(
     Raises
     ------
     VibrapolError
-        For a reversed or empty ``range_cm1``.
+        For a reversed or empty ``range_cm1``, or a ``min_snr`` that is not positive.
     """
+    if not (np.isfinite(min_snr) and min_snr > 0):
+        raise VibrapolError(f"min_snr (--min-snr) must be a positive number, got {min_snr}")
     x, y = spectrum.shift_cm1, spectrum.intensity
     lo, hi = check_range(*range_cm1, "band range") if range_cm1 else (-np.inf, np.inf)
     sigma = noise_sigma(y) if noise is None else float(noise)

@@ -34,6 +34,10 @@ from vibrapol.sources.registry import read_text
 
 Source = str | Path | TextIO
 
+#: Largest |intensity| accepted.  Detector counts and arbitrary units stay far below it;
+#: larger numbers are a damaged file, and their squares overflow in the baseline and band fits.
+MAX_ABS_INTENSITY = 1.0e50
+
 #: Header words that mark the parallel and crossed channels of a two-column file.
 _VV_NAMES = re.compile(r"\bvv\b|parallel|\bpar\b|\bzz\b|∥|\|\|", re.IGNORECASE)
 _VH_NAMES = re.compile(r"\bvh\b|\bhv\b|perpendicular|crossed|\bperp\b|\bzx\b|⊥", re.IGNORECASE)
@@ -77,6 +81,12 @@ def _spectrum(
     bad = np.flatnonzero(~np.isfinite(y))
     if bad.size:
         raise InputFormatError(f"{where}: line {int(lines[bad[0]])}: intensity is NaN or infinite")
+    big = np.flatnonzero(np.abs(y) > MAX_ABS_INTENSITY)
+    if big.size:
+        raise InputFormatError(
+            f"{where}: line {int(lines[big[0]])}: intensity {y[big[0]]:.3g} is beyond "
+            f"{MAX_ABS_INTENSITY:g}; the file is damaged (or rescale the intensities)"
+        )
     kind, factor, note = _axis_kind(axis, units, where)
     shift, conversion = to_raman_shift(
         x * factor, kind, laser_nm, where=where, max_shift_cm1=max_shift_cm1
@@ -242,6 +252,11 @@ def read_pair(
     PolarizedPair
         VV and VH on the VV axis (VH interpolated when the files' axes differ, with a note);
         ``vh`` is None when only a one-column VV file is given.
+
+    Raises
+    ------
+    InputFormatError
+        What :func:`read_spectra` raises, and a channel whose intensities are all the same.
     """
     spectra = read_spectra(vv_source, **options)  # type: ignore[arg-type]
     where = spectra[0].where
@@ -257,7 +272,7 @@ def read_pair(
             )
         vh = read_spectrum(vh_source, column=vh_column, **options)
     elif len(spectra) == 1 and vh_column is None:
-        return PolarizedPair(_rename(spectra[0], "VV"))
+        return PolarizedPair(_rename(_with_signal(spectra[0]), "VV"))
     else:
         if vv_column is None or vh_column is None:
             default_vv, default_vh = _vv_vh_columns(spectra, where)
@@ -265,7 +280,19 @@ def read_pair(
             vh_column = default_vh if vh_column is None else vh_column
         vv = _select(spectra, vv_column, where)
         vh = _select(spectra, vh_column, where)
-    return align_pair(_rename(vv, "VV"), _rename(vh, "VH"))
+    return align_pair(_rename(_with_signal(vv), "VV"), _rename(_with_signal(vh), "VH"))
+
+
+def _with_signal(spectrum: MeasuredSpectrum) -> MeasuredSpectrum:
+    """The spectrum itself; raises when every intensity is the same (no spectrum recorded)."""
+    y = spectrum.intensity
+    if np.all(y == y[0]):
+        label = spectrum.label if not spectrum.label.startswith("column ") else ""
+        column = f" ({label})" if label else ""
+        raise InputFormatError(
+            f"{spectrum.where}: every intensity{column} is {y[0]:g}; the file holds no spectrum"
+        )
+    return spectrum
 
 
 def _rename(spectrum: MeasuredSpectrum, channel: str) -> MeasuredSpectrum:

@@ -106,6 +106,10 @@ def read_modes_json(path: str | Path) -> ModeSet:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
         raise InputFormatError(f"{path}: invalid JSON at line {exc.lineno} ({exc.msg})") from exc
+    except RecursionError:
+        raise InputFormatError(
+            f"{path}: JSON nested too deeply; not a vibrapol modes file"
+        ) from None
     modes = modeset_from_dict(data, where=str(path))
     if not modes.provenance.source_file:
         modes = dataclasses.replace(

@@ -217,10 +217,12 @@ def _mode_table(
         match = _TABLE_ROW.match(lines[j])
         if not match:
             break
-        values = match.group(2).replace("(", " ").replace(")", " ")
-        rows[int(match.group(1))] = floats(
-            " ".join(values.split()[:n_values]), f"{where}: line {j + 1}"
-        )
+        values = match.group(2).replace("(", " ").replace(")", " ").split()[:n_values]
+        if len(values) < n_values:
+            raise truncated_error(
+                where, f"ORCA {block} row at line {j + 1} has {len(values)} of {n_values} numbers"
+            )
+        rows[int(match.group(1))] = floats(" ".join(values), f"{where}: line {j + 1}")
     if not rows:
         raise _truncated(where, block, i + 1)
     return rows

@@ -175,6 +175,9 @@ def vibration_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> 
         i += 1
         if i < len(lines) and lines[i].lstrip().startswith("TransDip"):
             i += 1
+    else:
+        # Q-Chem always prints more after the last mode block (thermochemistry, job time)
+        raise _error(where, i - 1, "the file ends inside the vibrational analysis")
     n = len(rows["Frequency"])
     if n == 0 or len(disp) != n:
         raise _error(where, i - 1, "no complete vibrational mode block")

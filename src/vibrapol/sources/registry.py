@@ -48,22 +48,53 @@ def readers() -> dict[str, Reader]:
     return dict(_READERS)
 
 
+#: Byte-order marks of the encodings vibrapol does not read (UTF-32 first: its LE mark starts
+#: with the UTF-16 LE one).
+_OTHER_BOMS = {
+    b"\xff\xfe\x00\x00": "UTF-32",
+    b"\x00\x00\xfe\xff": "UTF-32",
+    b"\xff\xfe": "UTF-16",
+    b"\xfe\xff": "UTF-16",
+}
+
+
 def read_text(path: str | Path) -> str:
-    """Read a text file, raising :class:`InputFormatError` for missing or binary files."""
+    """Read a text file: UTF-8 (a byte-order mark is dropped), else Latin-1; any line endings.
+
+    Line endings are left as they are: every reader splits with ``str.splitlines``, which
+    takes LF, CRLF and CR alike.
+
+    Raises
+    ------
+    InputFormatError
+        For missing, unreadable, empty or binary files, and for UTF-16/UTF-32 text.
+    """
     p = Path(path)
     if not p.exists():
         raise InputFormatError(f"{p}: no such file")
     if p.is_dir():
         raise InputFormatError(f"{p}: is a directory, expected a file")
-    data = p.read_bytes()
-    if not data.strip():
-        raise InputFormatError(f"{p}: file is empty")
-    if b"\x00" in data[:SNIFF_CHARS]:
-        raise InputFormatError(f"{p}: looks like a binary file, expected text")
     try:
-        return data.decode("utf-8")
+        data = p.read_bytes()
+    except OSError as exc:
+        raise InputFormatError(f"{p}: cannot be read ({exc.strerror or exc})") from exc
+    for bom, encoding in _OTHER_BOMS.items():
+        if data.startswith(bom):
+            raise InputFormatError(
+                f"{p}: text in {encoding}; save it as UTF-8 (or plain ASCII) and try again"
+            )
+    if b"\x00" in data[:SNIFF_CHARS]:
+        raise InputFormatError(
+            f"{p}: contains NUL bytes: a binary file, or UTF-16/UTF-32 text without a "
+            "byte-order mark; expected UTF-8 text"
+        )
+    try:
+        text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
-        return data.decode("latin-1")
+        text = data.decode("latin-1")
+    if not text.strip():
+        raise InputFormatError(f"{p}: file is empty")
+    return text
 
 
 def _head_tail(text: str) -> tuple[str, str]:
@@ -120,4 +151,7 @@ def read_modes(path: str | Path, kind: str | None = None) -> ModeSet:
     except InputFormatError:
         raise
     except (ValueError, IndexError, KeyError) as exc:
-        raise InputFormatError(f"{path}: could not be read as {name} ({exc})") from exc
+        raise InputFormatError(
+            f"{path}: could not be read as {name}; the file looks truncated or edited "
+            f"({type(exc).__name__}: {exc})"
+        ) from exc

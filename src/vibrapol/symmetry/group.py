@@ -8,12 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.spatial.distance import cdist
 
-from vibrapol.errors import VibrapolError
 from vibrapol.symmetry.printed import normalize_label
-
-
-class GeometryError(VibrapolError, ValueError):
-    """A structure that cannot be analysed (one atom, overlapping atoms, bad shape)."""
 
 
 @dataclass(frozen=True, eq=False)

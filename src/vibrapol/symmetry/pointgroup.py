@@ -17,11 +17,12 @@ import numpy as np
 from ase.data import covalent_radii
 from scipy.spatial.distance import cdist
 
-from vibrapol.errors import AccuracyWarning
+from vibrapol.errors import AccuracyWarning, GeometryError
 from vibrapol.modeset import default_masses
+from vibrapol.structure import check_structure
 from vibrapol.symmetry import _msym
 from vibrapol.symmetry.abelian import abelian_group
-from vibrapol.symmetry.group import GeometryError, PointGroup, match_atoms, symmetrize_coordinates
+from vibrapol.symmetry.group import PointGroup, match_atoms, symmetrize_coordinates
 from vibrapol.symmetry.labels import CONVENTION_DEFAULT, GroupFacts, standard_names
 from vibrapol.symmetry.linear import linear_axis, linear_group
 from vibrapol.symmetry.operations import improper_angle, operation_kind, rotation_angle
@@ -43,31 +44,9 @@ DEFAULT_TOLERANCE_ANG = 0.01
 #: Largest tolerance a user may set; beyond it "symmetry" means little for a molecule.
 MAX_TOLERANCE_ANG = 0.3
 
-#: Atoms closer than this are taken to overlap (a broken structure).
-MIN_SEPARATION_ANG = 0.3
-
 #: Two atoms are bonded when closer than this factor times the sum of covalent radii (used
 #: only to break ties in the axis conventions).
 BOND_FACTOR = 1.2
-
-
-def _check_structure(z: np.ndarray, coords: np.ndarray, where: str) -> None:
-    prefix = f"{where}: " if where else ""
-    if coords.ndim != 2 or coords.shape[1] != 3 or coords.shape[0] != z.shape[0]:
-        raise GeometryError(f"{prefix}coordinates should be an (N, 3) array for {z.shape[0]} atoms")
-    if not np.all(np.isfinite(coords)):
-        raise GeometryError(f"{prefix}coordinates contain NaN or infinite values")
-    if z.shape[0] < 2:
-        raise GeometryError(
-            f"{prefix}a single atom has no vibrations; give a molecule with at least two atoms"
-        )
-    d = cdist(coords, coords) + np.eye(len(coords)) * 1e9
-    i, j = np.unravel_index(np.argmin(d), d.shape)
-    if d[i, j] < MIN_SEPARATION_ANG:
-        raise GeometryError(
-            f"{prefix}atoms {min(i, j) + 1} and {max(i, j) + 1} are only {d[i, j]:.3f} Å apart "
-            "(overlapping atoms); check the structure"
-        )
 
 
 def _species_ids(z: np.ndarray, masses: np.ndarray) -> np.ndarray:
@@ -192,7 +171,7 @@ def find_point_group(
     """
     z = np.asarray(atomic_numbers, dtype=int).ravel()
     coords = np.asarray(coordinates_ang, dtype=float)
-    _check_structure(z, coords, where)
+    check_structure(z, coords, where)
     if not 0 < tolerance_ang <= MAX_TOLERANCE_ANG:
         raise GeometryError(
             f"symmetry tolerance must be > 0 and ≤ {MAX_TOLERANCE_ANG} Å, got {tolerance_ang} Å"

@@ -185,7 +185,11 @@ def field_plan(
     frame = np.eye(3) if axes is None else np.asarray(axes, dtype=float)
     cands = _candidates() @ frame
     best: tuple | None = None
-    for size in range(1, 7):
+    if len(ops) == 1:  # no symmetry: the six face diagonals, the best-conditioned 13 points
+        points = _points_for(cands[3:9], ops, f)
+        dirs, pairs = _design(points, ops)
+        best = (len(points), _sigma_min(dirs), points, dirs, pairs)
+    for size in range(1, 7 if best is None else 1):
         if best is not None and size > best[0] - 1:
             break
         for subset in itertools.combinations(range(len(cands)), size):

@@ -46,6 +46,23 @@ class TaskStats:
     seconds_wall: float
     seconds_tasks: float
     peak_mb_worker: float = 0.0
+    task_reused: tuple[bool, ...] = ()
+    task_seconds: tuple[float, ...] = ()
+
+    def subset(self, start: int, stop: int) -> TaskStats:
+        """The counts of tasks ``start:stop`` (one molecule of a batch); wall time shared."""
+        reused = self.task_reused[start:stop]
+        seconds = self.task_seconds[start:stop]
+        return TaskStats(
+            stop - start,
+            sum(reused),
+            stop - start - sum(reused),
+            self.seconds_wall,
+            float(sum(seconds)),
+            self.peak_mb_worker,
+            reused,
+            seconds,
+        )
 
 
 def run_tasks(
@@ -96,11 +113,14 @@ def run_tasks(
     bar = progress.bar(len(jobs), n_reused, desc)
     seconds_tasks = 0.0
     peak_mb = 0.0
+    reused = [a is not None for a in results]
+    task_seconds = [0.0] * len(jobs)
 
     def finish(i: int, value: np.ndarray, seconds: float, memory_mb: float) -> None:
         nonlocal seconds_tasks, peak_mb
         results[i] = value
         seconds_tasks += seconds
+        task_seconds[i] = seconds
         peak_mb = max(peak_mb, memory_mb)
         if store is not None:
             store.put(keys[i], jobs[i].kind, labels[i], {jobs[i].result_name: value}, seconds)
@@ -125,7 +145,16 @@ def run_tasks(
             _run_on_executor(jobs, todo, backend, finish, fail)
     finally:
         bar.close()
-    stats = TaskStats(len(jobs), n_reused, len(todo), perf_counter() - t0, seconds_tasks, peak_mb)
+    stats = TaskStats(
+        len(jobs),
+        n_reused,
+        len(todo),
+        perf_counter() - t0,
+        seconds_tasks,
+        peak_mb,
+        tuple(reused),
+        tuple(task_seconds),
+    )
     return results, stats
 
 

@@ -23,10 +23,20 @@ cheapest set of computed fields whose orbits contain ± pairs along six well-con
 directions, and :func:`dalpha_dx_from_gradients` solves the quadratic forms by least squares.
 Benzene (D6h) needs 3 gradients, CCl4 (Td) 3, water (C2v) 5, a C1 molecule 13.
 
-Field strength (study in ``bench/field_strength.py``; water and CCl4, HF/3-21G, against the
-Cartesian route at h = 0.002 Å): the error of the activities grows as F² from higher
-hyperpolarizability derivatives (≈ 1e-4 relative at 0.003 au) and, below about 5e-4 au, SCF
-noise divided by F² takes over; 0.003 au sits between the two.
+Field strength (study: ``bench/field_strength.py``, HF/3-21G, max relative activity error
+against the Cartesian route at h = 0.002 Å, field SCF orbital gradient 1e-9):
+
+=========  =======  =======  =======  =======  =======  =======  =======
+F (au)     1e-4     3e-4     1e-3     2e-3     3e-3     5e-3     1e-2
+=========  =======  =======  =======  =======  =======  =======  =======
+water C1   7.2e-3   7.9e-4   7.3e-5   3.1e-5   4.4e-5   1.0e-4   3.6e-4
+CCl4 Td    2.6e-4   6.3e-5   6.8e-5   2.7e-4   6.1e-4   1.7e-3   6.7e-3
+=========  =======  =======  =======  =======  =======  =======  =======
+
+Below 1e-3 au the SCF noise divided by F² grows (with the displacement setting, orbital
+gradient 1e-7, water at 3e-4 au is 10× worse); above it the O(F²) contamination from higher
+field derivatives grows, faster for the more polarizable CCl4.  1e-3 au keeps both molecules
+below 1e-4; the floor near 3e-5 is partly the Cartesian reference's own O(h²) error.
 """
 
 from __future__ import annotations
@@ -40,7 +50,7 @@ from vibrapol.errors import ShapeError
 from vibrapol.units import BOHR2_TO_ANG2
 
 #: Default field strength (atomic units, hartree e⁻¹ bohr⁻¹); see the module notes.
-DEFAULT_FIELD_AU = 0.003
+DEFAULT_FIELD_AU = 0.001
 
 #: Smallest singular value accepted for the matrix of quadratic forms (the plain 13-point
 #: stencil has 0.29); a smaller one would amplify the finite-difference noise.

@@ -31,6 +31,10 @@ from vibrapol.engine.scf import SCF_CONV_TOL, SCF_CONV_TOL_GRAD, MethodSpec
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
 from vibrapol.vibrations import HarmonicModes, harmonic_analysis
 
+#: A symmetrized geometry closer than this to the given one is taken as the given one, so that
+#: a rerun on an already symmetric geometry finds its checkpointed stages.
+SAME_GEOMETRY_ANG = 1e-10
+
 
 @dataclass(frozen=True)
 class EngineSettings:
@@ -89,6 +93,8 @@ def _impose_symmetry(z, coords, masses, report: Progress):  # noqa: ANN001, ANN2
         return group, coords, 0.0
     symmetric = symmetrize_coordinates(coords, group)
     shift = float(np.max(np.linalg.norm(symmetric - coords, axis=1)))
+    if shift < SAME_GEOMETRY_ANG:  # already symmetric: keep the exact bytes (checkpoint keys)
+        return group, coords, shift
     report.stage(f"point group {group.symbol}; geometry symmetrized (max shift {shift:.1e} Å)")
     return group, symmetric, shift
 

@@ -21,7 +21,7 @@ D(R) moving atom i's vector to its partner π_R(i) and rotating it: (D(R)g)_π(i
 computed field gives the gradients in its whole orbit {R F}; :func:`field_plan` picks the
 cheapest set of computed fields whose orbits contain ± pairs along six well-conditioned
 directions, and :func:`dalpha_dx_from_gradients` solves the quadratic forms by least squares.
-Benzene (D6h) needs 3 gradients, CCl4 (Td) 3, water (C2v) 5, a C1 molecule 13.
+Benzene (D6h) needs 3 gradients, CCl4 (Td) 2, water (C2v) 5, a C1 molecule 13.
 
 Field strength (study: ``bench/field_strength.py``, HF/3-21G, max relative activity error
 against the Cartesian route at h = 0.002 Å, field SCF orbital gradient 1e-9):

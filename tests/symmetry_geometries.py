@@ -8,6 +8,7 @@ few general points under the group's generators.
 
 from __future__ import annotations
 
+import itertools
 import re
 
 import numpy as np
@@ -157,6 +158,19 @@ def b12h12():
     v = np.array(v, dtype=float)
     v /= np.linalg.norm(v, axis=1)[:, None]
     return [5] * 12 + [1] * 12, np.vstack([1.70 * v, 2.90 * v])
+
+
+def c60():
+    """Buckminsterfullerene as a truncated icosahedron (edge 1.40 Å: cyclic permutations of
+    (0, ±1, ±3φ), (±1, ±(2+φ), ±2φ), (±φ, ±2, ±(2φ+1)) for edge 2), group Ih."""
+    phi = (1 + 5**0.5) / 2
+    points = set()
+    for base in ((0, 1, 3 * phi), (1, 2 + phi, 2 * phi), (phi, 2, 2 * phi + 1)):
+        for signs in itertools.product((1, -1), repeat=3):
+            v = np.array(base) * signs
+            for k in range(3):
+                points.add(tuple(np.round(np.roll(v, k), 9)))
+    return [6] * 60, 0.70 * np.array(sorted(points))
 
 
 def chfclbr():

@@ -277,7 +277,7 @@ def symmetry_text(
         lines += [f"note: {n}" for n in symmetry.notes]
         lines.append(
             f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'set':>4} {'purity':>7} "
-            f"{'IR':>3} {'Ra':>3}  expected band"
+            f"{'IR':>3} {'Ra':>3}  Raman band"
         )
         for row in mode_rows(symmetry):
             lines.append(

@@ -1,4 +1,13 @@
-"""Molecular symmetry: point group, species of every normal mode, selection rules."""
+"""Molecular symmetry: point group, species of every normal mode, selection rules.
+
+- :func:`find_point_group` → :class:`PointGroup` (operations, atom permutations, character
+  table, labelling frame and axis convention): adapter over the pymsym library with our own
+  check in Å (``tolerance_ang``) and help where the library fails (docs/symmetry.md);
+- :func:`gamma_vib`, :func:`species_rules`, :func:`band_counts`: structure-only prediction;
+- :func:`mode_symmetry` / :func:`analyse_modes` → :class:`ModeSymmetry`: species of every mode
+  and degenerate set, with purity, optionally after averaging over the group
+  (:func:`symmetrize_modeset`, :func:`symmetrize_hessian`, :func:`symmetrize_dalpha_dx`).
+"""
 
 from vibrapol.symmetry.characters import (
     BandCounts,
@@ -8,7 +17,6 @@ from vibrapol.symmetry.characters import (
     gamma_vib,
     species_rules,
 )
-from vibrapol.symmetry.labels import normalize_label
 from vibrapol.symmetry.modes import (
     PURITY_MIN,
     ModeSymmetry,
@@ -25,6 +33,7 @@ from vibrapol.symmetry.pointgroup import (
     find_point_group,
     symmetrize_coordinates,
 )
+from vibrapol.symmetry.printed import normalize_label
 
 __all__ = [
     "DEFAULT_TOLERANCE_ANG",

@@ -9,7 +9,7 @@ import numpy as np
 from scipy.spatial.distance import cdist
 
 from vibrapol.errors import VibrapolError
-from vibrapol.symmetry.labels import normalize_label
+from vibrapol.symmetry.printed import normalize_label
 
 
 class GeometryError(VibrapolError, ValueError):

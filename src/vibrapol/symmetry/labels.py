@@ -21,16 +21,24 @@ but some do, and there the literature follows fixed conventions which this modul
 - Linear molecules: Σ⁺, Σ⁻, Π (C∞v) and Σg⁺, Σu⁺, Πg, Πu, ... (D∞h); see
   :mod:`vibrapol.symmetry.pointgroup` for how they are computed.
 
-:func:`normalize_label` reads labels printed by quantum-chemistry programs ('AG', 'B1U', 'F2',
-'SGG', 'PIU', 'A"', ...) into these names.
+:func:`vibrapol.symmetry.printed.normalize_label` reads labels printed by quantum-chemistry
+programs ('AG', 'B1U', 'F2', 'SGG', 'PIU', 'A"', ...) into these names.
 """
 
 from __future__ import annotations
 
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
+
+from vibrapol.symmetry.operations import (
+    improper_angle,
+    operation_axis,
+    operation_kind,
+    rotation_angle,
+)
 
 #: Two directions are the same axis when |cos| exceeds this.
 _PARALLEL = 0.99
@@ -130,39 +138,8 @@ class GroupFacts:
         return int(fixed.sum()), int(cut), int(self.atomic_numbers[fixed].sum())
 
 
-def operation_kind(matrix: np.ndarray) -> str:
-    """Kind of an orthogonal 3×3 matrix: 'E', 'C', 'σ', 'i' or 'S'."""
-    det = np.linalg.det(matrix)
-    if det > 0:
-        return "E" if np.allclose(matrix, np.eye(3), atol=1e-6) else "C"
-    if np.allclose(matrix, -np.eye(3), atol=1e-6):
-        return "i"
-    return "σ" if abs(np.trace(matrix) - 1.0) < 1e-6 else "S"
-
-
-def operation_axis(matrix: np.ndarray) -> np.ndarray:
-    """Unit axis of a rotation or improper rotation, or the normal of a reflection plane."""
-    det = np.sign(np.linalg.det(matrix))
-    _, _, vt = np.linalg.svd(np.asarray(matrix) - det * np.eye(3))
-    return vt[-1]
-
-
-def rotation_angle(matrix: np.ndarray) -> float:
-    """Angle (rad, in [0, π]) of the proper rotation det(M)·M."""
-    proper = np.sign(np.linalg.det(matrix)) * np.asarray(matrix)
-    return float(np.arccos(np.clip((np.trace(proper) - 1.0) / 2.0, -1.0, 1.0)))
-
-
 def _is_c2(facts: GroupFacts, c: int) -> bool:
     return facts.kind(c) == "C" and abs(rotation_angle(facts.matrices[facts.rep(c)]) - np.pi) < 1e-3
-
-
-def improper_angle(matrix: np.ndarray) -> float:
-    """Angle θ (rad) of the rotation part of an improper rotation S(θ) = σh·C(θ).
-
-    tr S(θ) = 2cos θ − 1, so a reflection gives 0 and the inversion π.
-    """
-    return float(np.arccos(np.clip((np.trace(matrix) + 1.0) / 2.0, -1.0, 1.0)))
 
 
 def _principal_axis(facts: GroupFacts) -> np.ndarray | None:
@@ -193,10 +170,20 @@ def _frame(z: np.ndarray, x_hint: np.ndarray | None, centred: np.ndarray) -> np.
     raise AssertionError("no axis perpendicular to z")  # pragma: no cover
 
 
-def _best(facts: GroupFacts, classes: list[int], notes: list[str], what: str) -> tuple[int, int]:
-    """The class with the higher score and the other; notes a tie."""
+def _best(
+    facts: GroupFacts,
+    classes: list[int],
+    notes: list[str],
+    what: str,
+    extra: Callable[[int], tuple] | None = None,
+) -> tuple[int, int]:
+    """The class with the higher score (then ``extra(c)``) and the other; notes a tie."""
     a, b = classes
-    sa, sb = facts.score(a), facts.score(b)
+
+    def key(c: int) -> tuple:
+        return (facts.score(c), extra(c) if extra else ())
+
+    sa, sb = key(a), key(b)
     if sa == sb:
         notes.append(f"{what}: both candidates hold the same atoms; the choice is arbitrary")
     return (a, b) if sa >= sb else (b, a)
@@ -314,7 +301,9 @@ def standard_names(facts: GroupFacts) -> NamedTable:
                 if _is_c2(facts, c) and abs(facts.axis(c) @ z) < _PERPENDICULAR
             ]
             if n % 2 == 0 and len(perp) == 2 and sub != "d":
-                c2p, c2pp = _best(facts, perp, notes, f"{symbol} C2' axes")
+                c2p, c2pp = _best(
+                    facts, perp, notes, f"{symbol} C2' axes", _plane_holding(facts, z)
+                )
                 for r in one_d:
                     if names[r].startswith("B"):
                         names[r] = _b_name(names[r], "1" if chars[r, c2p] > 0 else "2")
@@ -359,6 +348,22 @@ def standard_names(facts: GroupFacts) -> NamedTable:
     return NamedTable(tuple(names), tuple(labels), axes, convention, tuple(notes))
 
 
+def _plane_holding(facts: GroupFacts, z: np.ndarray) -> Callable[[int], tuple]:
+    """Score of the vertical mirror planes that contain a class's axis (tie-break for C2')."""
+
+    def score(c: int) -> tuple:
+        a = facts.axis(c)
+        for p in _find(facts, "σ"):
+            if abs(facts.axis(p) @ z) < _PERPENDICULAR and any(
+                abs(operation_axis(facts.matrices[g]) @ a) < _PERPENDICULAR
+                for g in np.flatnonzero(facts.op_class == p)
+            ):
+                return facts.score(p)
+        return (0, 0, 0)
+
+    return score
+
+
 def _b2_is_z(facts: GroupFacts, names: list[str], one_d: list[int], z: np.ndarray) -> None:
     """In Dnd with even n, B2 is the B species that transforms as z (standard tables)."""
     chi_z = np.array([float(z @ facts.matrices[facts.rep(c)] @ z) for c in range(facts.n_classes)])
@@ -367,45 +372,3 @@ def _b2_is_z(facts: GroupFacts, names: list[str], one_d: list[int], z: np.ndarra
             names[r] = _b_name(
                 names[r], "2" if np.allclose(facts.characters[r], chi_z, atol=1e-6) else "1"
             )
-
-
-_SPECIES_ALIASES = {
-    "SG": "Σ⁺",
-    "SG+": "Σ⁺",
-    "SIGMA+": "Σ⁺",
-    "SG-": "Σ⁻",
-    "SIGMA-": "Σ⁻",
-    "SGG": "Σg⁺",
-    "SGG+": "Σg⁺",
-    "SGU": "Σu⁺",
-    "SGU+": "Σu⁺",
-    "SGG-": "Σg⁻",
-    "SGU-": "Σu⁻",
-    "PI": "Π",
-    "PIG": "Πg",
-    "PIU": "Πu",
-    "DLT": "Δ",
-    "DLTG": "Δg",
-    "DLTU": "Δu",
-    "PHI": "Φ",
-}
-
-
-def normalize_label(text: str) -> str:
-    """Read a species label as programs print it into the names used here.
-
-    'AG' → 'Ag', 'B1U' → 'B1u', 'F2' → 'T2', "A'" → "A'", 'A"' → "A''", 'E1G' → 'E1g',
-    'SGG' or 'Sigma_g+' → 'Σg⁺', 'PIU' → 'Πu'.  Unknown or placeholder labels ('?A', '') give
-    ''.  Whether 'E1' means 'E' depends on the group; see :meth:`PointGroup.species_name`.
-    """
-    t = text.strip().replace('"', "''").replace("′", "'").replace("″", "''")
-    if not t or "?" in t:
-        return ""
-    key = t.upper().replace("_", "").replace("^", "").replace("SIGMA", "SG").replace("DELTA", "DLT")
-    if key in _SPECIES_ALIASES:
-        return _SPECIES_ALIASES[key]
-    m = re.fullmatch(r"([ABETFGH])(\d*)([GU]?)('{0,2})", key)
-    if not m:
-        return ""
-    letter = "T" if m.group(1) == "F" else m.group(1)
-    return f"{letter}{m.group(2)}{m.group(3).lower()}{m.group(4)}"

@@ -97,6 +97,31 @@ class ModeSymmetry:
     symmetrized: bool
     notes: tuple[str, ...] = ()
 
+    def __post_init__(self) -> None:
+        n = self.modes.n_modes
+        members = sorted(k for s in self.sets for k in s)
+        if len(self.irreps) != n or members != list(range(n)):
+            raise ShapeError(f"species and sets must cover the {n} modes exactly once")
+        if not (
+            len(self.set_irreps)
+            == len(self.set_purity)
+            == len(self.set_invariance)
+            == len(self.sets)
+        ):
+            raise ShapeError("one species, purity and invariance per set")
+        for name in (
+            "set_purity",
+            "set_invariance",
+            "ir_active",
+            "raman_active",
+            "totally_symmetric",
+        ):
+            value = np.array(getattr(self, name), copy=True)
+            if name in ("ir_active", "raman_active", "totally_symmetric") and value.shape != (n,):
+                raise ShapeError(f"{name} should have shape ({n},), got {value.shape}")
+            value.setflags(write=False)
+            object.__setattr__(self, name, value)
+
     @property
     def n_modes(self) -> int:
         """Number of modes."""
@@ -295,7 +320,8 @@ def symmetrize_modeset(modes: ModeSet, group: PointGroup) -> ModeSet:
     averaged over the group and diagonalised again at the symmetrized geometry with
     :func:`vibrapol.vibrations.harmonic_analysis`.  ∂α/∂x (or ∂α/∂Q re-expanded on the
     Cartesians) is averaged the same way.  Sources with only a² and γ² per mode pass them on
-    weighted by |⟨new|old⟩|², which keeps their sums over each degenerate set.  New modes keep
+    weighted by |⟨new|old⟩|²: invariants cannot be averaged over the group, but their sums
+    over each degenerate set are kept up to the (small) mixing between sets.  New modes keep
     the order of the old ones (best overlap).
 
     Raises

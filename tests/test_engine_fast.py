@@ -91,8 +91,9 @@ def test_field_route_matches_cartesian_route_on_water(water_runs):
     for name in ("field", "field_c1"):
         act, rho = _compare(water_runs["full"].modes, water_runs[name].modes)
         assert act < 0.01 and rho < 0.01, name
-    assert water_runs["field"].tasks.n_tasks == 5  # C2v: 5 of the 13 fields
-    assert water_runs["field_c1"].tasks.n_tasks == 13
+    # Field gradients besides the reference's zero-field one: C2v 4 of the 12.
+    assert water_runs["field"].tasks.n_tasks == 4
+    assert water_runs["field_c1"].tasks.n_tasks == 12
     # The antisymmetric stretch (B2, highest mode) is depolarized: ρ = 3/4 (common practice).
     assert raman_table(water_runs["field"].modes).rho_linear[-1] == pytest.approx(0.75, abs=1e-6)
 
@@ -116,13 +117,13 @@ def test_auto_route_records_its_choice(water_runs):
 
 def test_tetrahedral_molecule_field_and_reduced_routes():
     # CH4 (Td), HF/STO-3G: the symmetry-reduced route needs 3 of 30 displaced geometries and
-    # must rebuild the full tensor to 1e-6; the field route needs 2 gradients (zero field and
-    # one face diagonal whose orbit holds all 12) and must agree within 1% / 0.01.
+    # must rebuild the full tensor to 1e-6; the field route needs 1 gradient besides the zero
+    # field (one face diagonal, whose orbit holds all 12) and must agree within 1% / 0.01.
     full = run_engine(molecule("CH4"), "hf", "sto-3g", symmetry=False, step_ang=0.002)
     geometry = (full.modes.atomic_numbers, full.modes.coordinates_ang)
     reduced = run_engine(geometry, "hf", "sto-3g", optimize=False, step_ang=0.002)
     field = run_engine(geometry, "hf", "sto-3g", optimize=False, route="field")
-    assert reduced.tasks.n_tasks == 3 and field.tasks.n_tasks == 2
+    assert reduced.tasks.n_tasks == 3 and field.tasks.n_tasks == 1
     ref = full.modes.dalpha_dx
     assert np.abs(reduced.modes.dalpha_dx - ref).max() < 1e-6 * np.abs(ref).max()
     act, rho = _compare(full.modes, field.modes)
@@ -139,7 +140,7 @@ def test_c1_molecule_falls_back_to_the_full_sets():
     run = run_engine((z, x), "hf", "sto-3g", optimize=False, route="cartesian")
     assert run.point_group == "C1" and run.tasks.n_tasks == 24
     plan = field_plan(0.003, group.operations, group.permutations, group.axes)
-    assert plan.n_tasks == 13
+    assert plan.n_tasks == 12
 
 
 def test_field_count_does_not_grow_with_size():
@@ -149,5 +150,5 @@ def test_field_count_does_not_grow_with_size():
         atoms = molecule(name)
         g = find_point_group(atoms.numbers, atoms.positions)
         counts[name] = field_plan(0.003, g.operations, g.permutations, g.axes).n_tasks
-    assert max(counts.values()) <= 13
-    assert counts["C6H6"] == 3 and counts["CH4"] == 2
+    assert max(counts.values()) <= 12
+    assert counts["C6H6"] == 2 and counts["CH4"] == 1

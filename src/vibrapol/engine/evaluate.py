@@ -105,7 +105,8 @@ class ReferenceResult:
     density : ndarray (nao, nao)
         Converged AO density matrix, used as the start of every displaced SCF.
     gradient_hartree_bohr : ndarray (N, 3)
-        Analytic gradient (how far from a stationary point; its time feeds the cost model).
+        Analytic gradient (with the DFT grid response), from the SCF converged to the field
+        route's tolerance: the zero-field point of that route; its time feeds the cost model.
     seconds_scf, seconds_hessian, seconds_alpha, seconds_gradient : float
         Wall time of each step.
     """
@@ -171,15 +172,15 @@ def reference_calculation(
 
     mol = build_molecule(atomic_numbers, coordinates_ang, spec)
     t0 = perf_counter()
-    mf = run_scf(mol, spec)
+    from vibrapol.engine.fieldgrad import field_gradient, tighten_scf
+
+    mf = tighten_scf(run_scf(mol, spec), spec)
     t1 = perf_counter()
     hessian = analytic_hessian(mf)
     t2 = perf_counter()
     alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
     t3 = perf_counter()
-    grad = mf.nuc_grad_method()
-    grad.verbose = 0
-    gradient = np.asarray(grad.kernel())
+    gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
     t4 = perf_counter()
     return ReferenceResult(
         energy_hartree=float(mf.e_tot),

@@ -86,6 +86,22 @@ def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | Non
     return mf
 
 
+def tighten_scf(mf, spec: MethodSpec):
+    """Converge a converged SCF further, to the field route's settings (in place).
+
+    The reference calculation does this so that its gradient can serve as the zero-field
+    point of the field stencil.
+    """
+    mf.conv_tol = FIELD_SCF_CONV_TOL
+    mf.conv_tol_grad = FIELD_SCF_CONV_TOL_GRAD
+    mf.kernel(dm0=mf.make_rdm1())
+    if not mf.converged:
+        raise EngineConvergenceError(
+            f"{spec.label()} SCF did not reach the tight convergence at the reference geometry"
+        )
+    return mf
+
+
 def field_energy(mol, spec: MethodSpec, field_au: np.ndarray, dm0=None) -> float:
     """E(F) in hartree (electrons, nuclear repulsion and the nuclei's field energy)."""
     mf = field_scf(mol, spec, field_au, dm0)

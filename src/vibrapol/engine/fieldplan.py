@@ -21,7 +21,8 @@ D(R) moving atom i's vector to its partner π_R(i) and rotating it: (D(R)g)_π(i
 computed field gives the gradients in its whole orbit {R F}; :func:`field_plan` picks the
 cheapest set of computed fields whose orbits contain ± pairs along six well-conditioned
 directions, and :func:`dalpha_dx_from_gradients` solves the quadratic forms by least squares.
-Benzene (D6h) needs 3 gradients, CCl4 (Td) 2, water (C2v) 5, a C1 molecule 13.
+Besides the zero-field gradient, which the reference calculation provides, benzene (D6h)
+needs 2 field gradients, CCl4 (Td) 1, water (C2v) 4, a C1 molecule 12.
 
 Field strength (study: ``bench/field_strength.py``, HF/3-21G, max relative activity error
 against the Cartesian route at h = 0.002 Å, field SCF orbital gradient 1e-9):
@@ -86,8 +87,10 @@ class FieldPlan:
     field_au : float
         Field strength F.
     fields_au : ndarray (n_points, 3)
-        Field vectors to compute (input frame); point 0 is the zero field.
+        Field vectors (input frame); point 0 is the zero field, whose gradient comes from the
+        reference calculation, the others are the tasks.
     labels : tuple of str
+        One per task (points 1 …).
     operations : ndarray (g, 3, 3)
         Symmetry operations used (just E for C1 or when symmetry is off).
     permutations : ndarray of int (g, N)
@@ -107,8 +110,13 @@ class FieldPlan:
 
     @property
     def n_tasks(self) -> int:
-        """Number of field gradients to compute (including the zero field)."""
-        return int(self.fields_au.shape[0])
+        """Number of field gradients to compute (the zero-field one is the reference's)."""
+        return int(self.fields_au.shape[0]) - 1
+
+    @property
+    def task_fields_au(self) -> np.ndarray:
+        """The field vector of each task, shape (n_tasks, 3)."""
+        return self.fields_au[1:]
 
 
 def _known(points: list[np.ndarray], ops: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -215,10 +223,7 @@ def field_plan(
                 best = (cost, sigma, points, dirs, pairs)
     assert best is not None  # the 13-point stencil always qualifies
     points = np.array(best[2])
-    labels = tuple(
-        "F=0" if k == 0 else "F=(" + ", ".join(f"{c:+.4f}" for c in p) + ")"
-        for k, p in enumerate(points)
-    )
+    labels = tuple("F=(" + ", ".join(f"{c:+.4f}" for c in p) + ")" for p in points[1:])
     return FieldPlan(f, points, labels, ops, np.asarray(permutations, dtype=int), best[4], best[3])
 
 
@@ -230,10 +235,15 @@ def transform_gradient(matrix: np.ndarray, perm: np.ndarray, grad: np.ndarray) -
 
 
 def dalpha_dx_from_gradients(plan: FieldPlan, gradients: np.ndarray) -> np.ndarray:
-    """∂α/∂x (3N, 3, 3) in Å² from the gradients (n_points, N, 3, hartree/bohr) of ``plan``."""
+    """∂α/∂x (3N, 3, 3) in Å² from the gradients of ``plan``'s points.
+
+    ``gradients`` has shape (n_tasks + 1, N, 3) in hartree/bohr: the zero-field gradient
+    first, then one per task.
+    """
     g = np.asarray(gradients, dtype=float)
-    if g.ndim != 3 or g.shape[0] != plan.n_tasks or g.shape[2] != 3:
-        raise ShapeError(f"need gradients of shape ({plan.n_tasks}, N, 3), got {g.shape}")
+    n = plan.n_tasks + 1
+    if g.ndim != 3 or g.shape[0] != n or g.shape[2] != 3:
+        raise ShapeError(f"need gradients of shape ({n}, N, 3), got {g.shape}")
     n_atoms = g.shape[1]
 
     def known(k: int, r: int) -> np.ndarray:

@@ -155,7 +155,7 @@ def prepare(
 
 def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings) -> ModeSet:
     """The ModeSet of a prepared molecule from its tasks' results."""
-    deriv = derivatives(prep.plan, results)
+    deriv = derivatives(prep.plan, results, prep.reference)
     normal = route_name(prep.plan) == "normal-mode"
     ref = prep.reference
     return ModeSet(

@@ -99,7 +99,8 @@ def make_jobs(
     """Jobs, checkpoint keys and labels of every task of ``plan``."""
     z = atomic_numbers
     if isinstance(plan, FieldPlan):
-        jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in plan.fields_au]
+        fields = plan.task_fields_au
+        jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in fields]
         keys = [
             task_key(
                 "field-gradient",
@@ -109,7 +110,7 @@ def make_jobs(
                 field_au=f.tolist(),
                 field_conv=[FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
             )
-            for f in plan.fields_au
+            for f in fields
         ]
         return jobs, keys, plan.labels
     jobs = [PolarizabilityJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
@@ -117,11 +118,12 @@ def make_jobs(
     return jobs, keys, plan.labels
 
 
-def derivatives(plan: Plan, results: list[np.ndarray]) -> np.ndarray:
+def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> np.ndarray:
     """∂α/∂x (Å², Cartesian and field routes) or ∂α/∂Q (Å² Da⁻¹ᐟ², normal-mode route)."""
-    stacked = np.array(results)
     if isinstance(plan, FieldPlan):
-        return dalpha_dx_from_gradients(plan, stacked)
+        gradients = np.array([ref.gradient_hartree_bohr, *results])
+        return dalpha_dx_from_gradients(plan, gradients)
+    stacked = np.array(results)
     if isinstance(plan, SymmetricPlan):
         return rebuild_dalpha_dx(plan, stacked)
     return central_differences(plan, stacked)

@@ -12,6 +12,7 @@ import numpy as np
 
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
 from vibrapol.engine.evaluate import ReferenceResult, reference_calculation
+from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
 from vibrapol.engine.optimize import OptimizationResult, optimize_geometry
 from vibrapol.engine.scf import MethodSpec
 
@@ -61,7 +62,14 @@ def reference(
     store: CheckpointStore | None,
 ) -> tuple[ReferenceResult, bool]:
     """SCF, Hessian and α at the reference geometry (from the store when present)."""
-    key = task_key("reference", atomic_numbers, coordinates_ang, spec)
+    key = task_key(
+        "reference",
+        atomic_numbers,
+        coordinates_ang,
+        spec,
+        reference_conv=[FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
+        grid_response=True,
+    )
     stored = store.get(key) if store is not None else None
     if stored is not None and all(k in stored for k in _REFERENCE_FIELDS + _REFERENCE_TIMES):
         values = {k: stored[k] for k in _REFERENCE_FIELDS}

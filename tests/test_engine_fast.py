@@ -41,7 +41,11 @@ def _compare(ref, other):
     return act, rho
 
 
-@pytest.mark.parametrize("spec", [HF_STO, MethodSpec("b3lyp", "sto-3g")], ids=["hf", "b3lyp"])
+@pytest.mark.parametrize(
+    "spec",
+    [HF_STO, pytest.param(MethodSpec("b3lyp", "sto-3g"), marks=pytest.mark.slow)],
+    ids=["hf", "b3lyp"],
+)
 def test_field_gradient_equals_finite_difference_of_the_field_energy(spec):
     # dE(F)/dR_Aκ by central differences of E(F), h = 1e-4 bohr (error O(h²) ≈ 1e-9), at a
     # strong field so that the field terms are a large part of the gradient (0.01–0.02 au vs

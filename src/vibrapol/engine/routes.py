@@ -10,7 +10,7 @@
 
 ``auto`` estimates the serial cost of each route as (number of tasks) × (cost of one task),
 with the costs of an SCF, a CPHF α and a gradient measured at the reference geometry of the
-molecule itself, and takes the cheapest.
+molecule itself (times the factors below), and takes the cheapest.
 """
 
 from __future__ import annotations
@@ -36,14 +36,14 @@ from vibrapol.symmetry import PointGroup
 #: Route names; ``normal`` is accepted for ``normal-mode``.
 ROUTES = ("auto", "cartesian", "normal-mode", "field")
 
-#: A field SCF costs this many times the reference SCF: it starts from the reference density
-#: but converges 100× tighter (measured here: water and CCl4 HF/6-31G*, 0.9–1.4; the larger
-#: value is used so the estimate does not favour the field route).
-FIELD_SCF_FACTOR = 1.4
+#: A field task (tight SCF from the reference density + gradient, one thread) costs this many
+#: times the reference SCF + gradient (all threads).  Measured here, HF/6-31G* on 2 shared
+#: cores (bench/engine.py --compare-routes): CCl4 1.15, benzene 1.56; the larger is used.
+FIELD_TASK_FACTOR = 1.5
 
-#: A displaced-geometry SCF costs this many times the reference SCF (it starts from the
-#: reference density; measured here 0.6–1.0).
-DISPLACED_SCF_FACTOR = 1.0
+#: A displaced-geometry task (SCF from the reference density + CPHF, one thread) costs this many
+#: times the reference SCF + CPHF.  Measured as above: CCl4 0.65–1.1, benzene 0.73–1.14.
+DISPLACED_TASK_FACTOR = 1.0
 
 
 def normalize_route(route: str) -> str:
@@ -157,8 +157,8 @@ class RouteChoice:
 def task_seconds(route: str, ref: ReferenceResult) -> float:
     """Estimated serial seconds of one task of ``route`` from the reference timings."""
     if route == "field":
-        return FIELD_SCF_FACTOR * ref.seconds_scf + ref.seconds_gradient
-    return DISPLACED_SCF_FACTOR * ref.seconds_scf + ref.seconds_alpha
+        return FIELD_TASK_FACTOR * (ref.seconds_scf + ref.seconds_gradient)
+    return DISPLACED_TASK_FACTOR * (ref.seconds_scf + ref.seconds_alpha)
 
 
 def choose_route(

@@ -126,7 +126,14 @@ def prepare(
     )
     plans = {
         r: build_plan(
-            r, coords, harmonic.modes, masses_da, settings.step_ang, settings.field_au, group
+            r,
+            coords,
+            harmonic.modes,
+            masses_da,
+            settings.step_ang,
+            settings.field_au,
+            group,
+            grid_free=spec.is_hf,
         )
         for r in wanted
     }

@@ -156,3 +156,18 @@ def test_field_count_does_not_grow_with_size():
         counts[name] = field_plan(0.003, g.operations, g.permutations, g.axes).n_tasks
     assert max(counts.values()) <= 12
     assert counts["C6H6"] == 2 and counts["CH4"] == 1
+
+
+def test_dft_field_route_keeps_only_grid_preserving_operations():
+    # Lebedev grids are invariant under the 48 operations of the cube (signed permutations of
+    # the axes; V. I. Lebedev, USSR Comput. Math. Math. Phys. 16, 10 (1976)).  Benzene in ASE's
+    # frame (plane xy, an atom on an axis) keeps the D2h subgroup, 8 of 24 operations; CCl4
+    # with its S4 axes along x, y, z keeps all of Td.
+    from vibrapol.engine.routes import grid_operations
+
+    for name, kept in (("C6H6", 8), ("CCl4", 24)):
+        atoms = molecule(name)
+        g = find_point_group(atoms.numbers, atoms.positions)
+        ops, perms = grid_operations(g.operations, g.permutations)
+        assert len(ops) == kept and perms.shape == (kept, len(atoms))
+        assert all(np.allclose(np.abs(m).sum(axis=1), 1.0) for m in ops)

@@ -158,7 +158,7 @@ def compute_modes(
     route : {"cartesian", "normal-mode", "field", "auto"}
         ``cartesian``: α at displaced Cartesian coordinates (6N tasks, fewer with symmetry;
         gives ∂α/∂x); ``normal-mode`` (or ``normal``): α along each normal mode (2·n_modes
-        tasks; gives ∂α/∂Q only); ``field``: analytic gradients in uniform fields (13 tasks
+        tasks; gives ∂α/∂Q only); ``field``: analytic gradients in uniform fields (12 tasks
         or fewer with symmetry, for any molecule size; gives ∂α/∂x); ``auto``: the route with
         the least estimated time (:mod:`vibrapol.engine.routes`).  The route taken, its task
         count and the reason are recorded in the provenance.

@@ -4,6 +4,13 @@ Each configuration runs in a fresh Python process so that its peak memory is its
 
     PYTHONPATH=src python bench/engine.py                      # water, CCl4; HF; 1 and 2 workers
     PYTHONPATH=src python bench/engine.py --methods hf,b3lyp --systems water
+    PYTHONPATH=src python bench/engine.py --compare-routes --systems water,ccl4,benzene
+
+``--compare-routes`` runs every route on each molecule at one optimised, symmetrized
+geometry (the reference stage and its Hessian computed once and reused from a checkpoint):
+QC evaluations, wall time of the tasks, their ratio to the analytic-Hessian time, and the
+accuracy against the symmetry-reduced Cartesian route at h = 0.002 Å (which equals the full
+6N route to 1e-9, tests/test_engine_fast.py).
 
 Prints a table and, last, one JSON line with every figure.  Times are wall-clock seconds on
 this machine; on shared cores they are contended and vary from run to run.
@@ -20,7 +27,141 @@ import subprocess
 import sys
 from pathlib import Path
 
-SYSTEMS = {"water": "H2O", "ccl4": "CCl4", "methane": "CH4", "ch2cl2": "CH2Cl2"}
+SYSTEMS = {
+    "water": "H2O",
+    "ccl4": "CCl4",
+    "methane": "CH4",
+    "ch2cl2": "CH2Cl2",
+    "benzene": "C6H6",
+    "naphthalene": "C10H8",
+}
+
+#: Route variants of --compare-routes: (name, route, symmetry).
+ROUTE_VARIANTS = {
+    "cartesian": ("cartesian", True),
+    "cartesian-full": ("cartesian", False),
+    "normal-mode": ("normal-mode", True),
+    "field": ("field", True),
+    "field-c1": ("field", False),
+    "auto": ("auto", True),
+}
+
+
+def _atoms(system: str):  # noqa: ANN202
+    from ase.build import molecule
+
+    if system == "naphthalene":
+        from ase import Atoms
+
+        # Planar D2h naphthalene from ideal hexagons (C–C 1.40 Å, C–H 1.09 Å); our own model
+        # geometry, optimised by the engine before use.
+        c, h = 1.40, 1.09
+        s3 = 3**0.5 / 2
+        carbons = [
+            (0, 0.7),
+            (0, -0.7),
+            (1.2124, 1.4),
+            (1.2124, -1.4),
+            (2.4249, 0.7),
+            (2.4249, -0.7),
+            (-1.2124, 1.4),
+            (-1.2124, -1.4),
+            (-2.4249, 0.7),
+            (-2.4249, -0.7),
+        ]
+        hyd = [
+            (1.2124, 1.4 + h),
+            (1.2124, -1.4 - h),
+            (2.4249 + h * s3, 0.7 + h / 2),
+            (2.4249 + h * s3, -0.7 - h / 2),
+            (-1.2124, 1.4 + h),
+            (-1.2124, -1.4 - h),
+            (-2.4249 - h * s3, 0.7 + h / 2),
+            (-2.4249 - h * s3, -0.7 - h / 2),
+        ]
+        del c
+        pos = [(x, y, 0.0) for x, y in carbons + hyd]
+        return Atoms("C10H8", positions=pos)
+    return molecule(SYSTEMS[system])
+
+
+def _accuracy(ref_modes, modes) -> tuple[float, float]:
+    from vibrapol.ramantable import raman_table
+
+    t_ref, t = raman_table(ref_modes), raman_table(modes)
+    seen = t_ref.activity > 1e-3 * t_ref.activity.max()
+    act = float((abs(t.activity[seen] / t_ref.activity[seen] - 1.0)).max())
+    rho = float((abs(t.rho_linear[seen] - t_ref.rho_linear[seen])).max())
+    return act, rho
+
+
+def compare_routes(system: str, method: str, basis: str, workers: int, variants: list) -> dict:
+    import tempfile
+
+    from vibrapol.engine.compute import run_engine
+
+    rows = []
+    with tempfile.TemporaryDirectory() as tmp:
+        ck = Path(tmp) / "bench.checkpoint.sqlite"
+        common = {"workers": workers, "progress": False, "checkpoint": ck}
+        ref = run_engine(_atoms(system), method, basis, step_ang=0.002, **common)
+        geometry = (ref.modes.atomic_numbers, ref.modes.coordinates_ang)
+        by_route = {}
+        for name in variants:
+            route, symmetry = ROUTE_VARIANTS[name]
+            run = run_engine(
+                geometry, method, basis, optimize=False, route=route, symmetry=symmetry, **common
+            )
+            act, rho = _accuracy(ref.modes, run.modes)
+            row = {
+                "system": system,
+                "method": method,
+                "basis": basis,
+                "variant": name,
+                "route": run.route,
+                "point_group": run.point_group,
+                "n_atoms": int(run.modes.n_atoms),
+                "workers": run.workers,
+                "qc_evaluations": run.n_qc_evaluations,
+                "tasks_computed": run.tasks.n_computed,
+                "seconds_tasks_wall": round(run.tasks.seconds_wall, 2),
+                "seconds_tasks_sum": round(run.tasks.seconds_tasks, 2),
+                "seconds_hessian": round(ref.seconds_hessian, 2),
+                "seconds_scf": round(ref.seconds_scf, 2),
+                "seconds_alpha": round(ref.seconds_alpha, 3),
+                "seconds_gradient": round(ref.seconds_gradient, 3),
+                "max_rel_activity_error": act,
+                "max_abs_rho_error": rho,
+            }
+            if name == "auto":
+                same = by_route.get((run.route, True))
+                row["reason"] = run.route_reason
+                if same is not None:  # its tasks came from the checkpoint: use that route's time
+                    row["seconds_tasks_wall"] = same["seconds_tasks_wall"]
+                    row["seconds_tasks_sum"] = same["seconds_tasks_sum"]
+            else:
+                by_route[(run.route, symmetry)] = row
+            row["ratio_to_hessian"] = round(row["seconds_tasks_wall"] / ref.seconds_hessian, 3)
+            rows.append(row)
+            print(_route_line(row), file=sys.stderr, flush=True)
+    return {"rows": rows}
+
+
+def _route_line(r: dict) -> str:
+    if "error" in r:
+        return f"{r['system']:<11} {r['method']:<6} error: {r['error']}"
+    return (
+        f"{r['system']:<11} {r['method']:<6} {r['variant']:<14} {r['route']:<11} "
+        f"{r['point_group']:<4} {r['qc_evaluations']:>4} {r['seconds_tasks_wall']:>8.1f} "
+        f"{r['seconds_hessian']:>7.1f} {r['ratio_to_hessian']:>6.2f} "
+        f"{r['max_rel_activity_error']:>9.1e} {r['max_abs_rho_error']:>9.1e}"
+    )
+
+
+ROUTE_HEAD = (
+    f"{'system':<11} {'method':<6} {'variant':<14} {'route':<11} {'PG':<4} {'QC':>4} "
+    f"{'tasks/s':>8} {'Hess/s':>7} {'ratio':>6} {'max dS/S':>9} {'max drho':>9}"
+)
 
 
 def run_one(system: str, method: str, basis: str, workers: int, route: str, optimize: bool) -> dict:
@@ -152,7 +293,16 @@ def main() -> None:
     parser.add_argument(
         "--one", nargs=3, metavar=("SYSTEM", "METHOD", "WORKERS"), help=argparse.SUPPRESS
     )
+    parser.add_argument("--compare-routes", action="store_true", help="every route per molecule")
+    parser.add_argument(
+        "--variants",
+        default=",".join(ROUTE_VARIANTS),
+        help=f"route variants for --compare-routes ({', '.join(ROUTE_VARIANTS)})",
+    )
     args = parser.parse_args()
+    if args.compare_routes:
+        _main_routes(args)
+        return
     if args.one:
         system, method, workers = args.one
         print(
@@ -186,6 +336,50 @@ def main() -> None:
     print(
         json.dumps({"bench": "engine", "machine": machine, "results": rows, "speedups": speedups})
     )
+
+
+def _main_routes(args: argparse.Namespace) -> None:
+    workers = int(args.workers.split(",")[-1])
+    variants = args.variants.split(",")
+    if args.one:
+        system, method, _ = args.one
+        result = compare_routes(system, method, args.basis, workers, variants)
+        print(json.dumps(result))
+        return
+    print(ROUTE_HEAD, file=sys.stderr, flush=True)
+    rows = []
+    for system in args.systems.split(","):
+        for method in args.methods.split(","):
+            cmd = [
+                sys.executable,
+                str(Path(__file__).resolve()),
+                "--compare-routes",
+                "--one",
+                system,
+                method,
+                str(workers),
+                "--basis",
+                args.basis,
+                "--variants",
+                args.variants,
+                "--workers",
+                str(workers),
+            ]
+            proc = subprocess.run(cmd, capture_output=True, text=True, check=False)
+            sys.stderr.write("".join(proc.stderr.splitlines(keepends=True)[-len(variants) :]))
+            if proc.returncode != 0:
+                tail = proc.stderr.strip().splitlines()[-1:] or ["(no message)"]
+                rows.append({"system": system, "method": method, "error": tail[0]})
+                continue
+            rows += json.loads(proc.stdout.strip().splitlines()[-1])["rows"]
+    print(ROUTE_HEAD)
+    print("\n".join(_route_line(r) for r in rows))
+    machine = {
+        "cores": os.cpu_count(),
+        "python": platform.python_version(),
+        "load_average_1min": os.getloadavg()[0],
+    }
+    print(json.dumps({"bench": "engine-routes", "machine": machine, "results": rows}))
 
 
 if __name__ == "__main__":

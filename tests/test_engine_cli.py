@@ -20,7 +20,7 @@ from vibrapol.sources.modes_json import read_modes_json
 
 WATER_XYZ = "3\nwater (own test input)\nO 0 0 0.1173\nH 0 0.7572 -0.4692\nH 0 -0.7572 -0.4692\n"
 RUN_CLI = "import sys; from vibrapol.cli import main; sys.exit(main(sys.argv[1:]))"
-SUMMARY = re.compile(r"(\d+) displaced geometries: (\d+) computed, (\d+) reused")
+SUMMARY = re.compile(r"(\d+) tasks: (\d+) computed, (\d+) reused")
 
 
 @pytest.fixture
@@ -58,13 +58,25 @@ def _done_tasks(db: Path) -> int:
 def test_compute_writes_a_modes_file_that_table_reads(water_file, tmp_path, capsys):
     out = tmp_path / "water.modes.json"
     status = main(
-        ["compute", str(water_file), "--basis", "sto-3g", "--workers", "1", "-o", str(out)]
+        [
+            "compute",
+            str(water_file),
+            "--basis",
+            "sto-3g",
+            "--route",
+            "cartesian",
+            "--workers",
+            "1",
+            "-o",
+            str(out),
+        ]
     )
     assert status == 0
     modes = read_modes_json(out)
     assert modes.n_modes == 3 and modes.dalpha_dx.shape == (9, 3, 3)
     assert modes.provenance.source_kind == "engine"
-    assert "18 displaced geometries: 18 computed, 0 reused" in capsys.readouterr().err
+    # Water is C2v: 9 of the 18 displaced geometries are computed (symdisplace module notes).
+    assert "cartesian route, 9 tasks: 9 computed, 0 reused" in capsys.readouterr().err
     assert main(["table", str(out), "--format", "json"]) == 0
     rows = json.loads(capsys.readouterr().out)["modes"]
     # Water: the antisymmetric (B2) stretch, the highest mode, has ρ = 3/4 (common practice).
@@ -73,6 +85,7 @@ def test_compute_writes_a_modes_file_that_table_reads(water_file, tmp_path, caps
 
 def test_resume_after_sigkill_computes_only_the_missing_tasks(water_file, tmp_path):
     args = [str(water_file), "--basis", "6-31g*", "--workers", "1", "--no-progress"]
+    args += ["--route", "cartesian", "--no-symmetry"]  # all 18 tasks: time to kill the run
     out = tmp_path / "water.modes.json"
     db = tmp_path / "water.modes.checkpoint.sqlite"
     proc = _cli(["compute", *args, "-o", str(out)], tmp_path)

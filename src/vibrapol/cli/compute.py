@@ -1,23 +1,35 @@
-"""Compute modes and polarizability derivatives of a structure with the embedded engine.
+"""Compute modes and polarizability derivatives of structures with the embedded engine.
 
-Runs PySCF on the structure and writes frequencies, normal modes and polarizability
-derivatives as a *.modes.json file.
+Runs PySCF on each structure and writes its frequencies, normal modes and polarizability
+derivatives as a *.modes.json file.  Several structures (files or directories of them) run in
+one go: their tasks share one pool of workers or Dask cluster, each gets its own output, and a
+structure that fails is reported without stopping the others.
 
-Finished tasks go to a checkpoint file beside the output (NAME.modes.checkpoint.sqlite); rerun
-the same command after an interruption to resume, or pass --fresh to start over.
+Finished tasks go to a checkpoint file beside each output (NAME.modes.checkpoint.sqlite);
+rerun the same command after an interruption to resume, or pass --fresh to start over.
 """
 
 from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 from vibrapol.engine.checkpoint import checkpoint_path_for
-from vibrapol.engine.compute import DEFAULT_STEP_ANG, run_engine
-from vibrapol.engine.displacements import ROUTES
+from vibrapol.engine.compute import (
+    DEFAULT_FIELD_AU,
+    DEFAULT_STEP_ANG,
+    BatchItem,
+    engine_settings,
+    run_batch,
+)
+from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import check_writable
 from vibrapol.sources.modes_json import write_modes_json
 from vibrapol.structure import read_structure
+
+#: File endings taken from a directory given as a structure.
+STRUCTURE_SUFFIXES = (".xyz", ".extxyz", ".pdb", ".cif", ".sdf", ".mol", ".traj")
 
 HELP = "compute modes and Raman tensors of a structure with the embedded PySCF engine"
 
@@ -25,7 +37,11 @@ HELP = "compute modes and Raman tensors of a structure with the embedded PySCF e
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol compute``."""
     parser.add_argument(
-        "structure", help="structure file (any format ase.io.read reads: xyz, pdb, cif, …)"
+        "structures",
+        nargs="+",
+        metavar="STRUCTURE",
+        help="structure files (any format ase.io.read reads: xyz, pdb, cif, …) or directories "
+        f"of them ({', '.join(STRUCTURE_SUFFIXES)})",
     )
     parser.add_argument(
         "--method", default="hf", help="'hf' or a DFT functional such as b3lyp, pbe0 (default: hf)"
@@ -54,9 +70,24 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--route",
-        choices=ROUTES,
-        default="cartesian",
-        help="displace Cartesians or follow normal modes",
+        choices=("auto", "cartesian", "normal", "field"),
+        default="auto",
+        help="how to get the polarizability derivatives: displaced Cartesians, displaced normal "
+        "modes, analytic gradients in electric fields, or auto: the cheapest by a cost model "
+        "measured on the molecule (default: auto)",
+    )
+    parser.add_argument(
+        "--field-au",
+        type=float,
+        default=DEFAULT_FIELD_AU,
+        help=f"field strength of the field route, atomic units (default: {DEFAULT_FIELD_AU})",
+    )
+    parser.add_argument(
+        "--symmetry",
+        action=argparse.BooleanOptionalAction,
+        default=True,
+        help="impose the point group on the geometry and compute only symmetry-inequivalent "
+        "tasks (default: yes)",
     )
     parser.add_argument(
         "--cartesian-d",
@@ -81,18 +112,63 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="progress bar on stderr (default: only on a terminal)",
     )
     parser.add_argument(
-        "-o", "--output", required=True, metavar="NAME.modes.json", help="file to write"
+        "-o",
+        "--output",
+        metavar="NAME.modes.json",
+        help="file to write, for a single structure (default: STRUCTURE's name with "
+        ".modes.json, beside it or in --output-dir)",
+    )
+    parser.add_argument(
+        "--output-dir", metavar="DIR", help="write every NAME.modes.json into this directory"
     )
     parser.add_argument("--force", action="store_true", help="overwrite an existing output file")
 
 
+def structure_files(paths: list[str]) -> list[Path]:
+    """The structure files named, with each directory replaced by its structure files."""
+    files: list[Path] = []
+    for name in paths:
+        p = Path(name)
+        if p.is_dir():
+            found = sorted(q for q in p.iterdir() if q.suffix.lower() in STRUCTURE_SUFFIXES)
+            if not found:
+                raise InputFormatError(
+                    f"{p}: no structure files ({', '.join(STRUCTURE_SUFFIXES)}) in this directory"
+                )
+            files += found
+        else:
+            files.append(p)
+    return files
+
+
+def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
+    """Where each structure's modes file goes, checked writable before any work."""
+    if args.output and len(files) > 1:
+        raise VibrapolError(
+            f"-o/--output names one file but {len(files)} structures were given; "
+            "use --output-dir DIR"
+        )
+    if args.output_dir and not Path(args.output_dir).is_dir():
+        raise VibrapolError(f"{args.output_dir}: --output-dir must be an existing directory")
+    outputs = []
+    for f in files:
+        if args.output:
+            out = Path(args.output)
+        else:
+            stem = f.name[: -len(f.suffix)] if f.suffix else f.name
+            out = (Path(args.output_dir) if args.output_dir else f.parent) / f"{stem}.modes.json"
+        outputs.append(check_writable(out, args.force))
+    if len(set(outputs)) < len(outputs):
+        raise VibrapolError("two structures would write the same modes file; rename one")
+    return outputs
+
+
 def run(args: argparse.Namespace) -> int:
-    """Read the structure, run the engine, write the modes file atomically."""
-    output = check_writable(args.output, args.force)
-    atoms = read_structure(args.structure)
-    checkpoint = checkpoint_path_for(output)
-    result = run_engine(
-        atoms,
+    """Read the structures, run the engine on them together, write each modes file atomically.
+
+    Returns 0 when every structure succeeded, 2 when any failed (each failure one line).
+    """
+    settings = engine_settings(
         args.method,
         args.basis,
         charge=args.charge,
@@ -100,28 +176,61 @@ def run(args: argparse.Namespace) -> int:
         optimize=args.optimize,
         step_ang=args.step_ang,
         route=args.route,
+        field_au=args.field_au,
+        symmetry=args.symmetry,
         cartesian_d=args.cartesian_d,
+    )
+    files = structure_files(args.structures)
+    outputs = output_paths(files, args)
+    say = lambda text: print(f"vibrapol compute: {text}", file=sys.stderr)  # noqa: E731
+    single = len(files) == 1
+    items, failures = [], []
+    for f, out in zip(files, outputs, strict=True):
+        try:
+            atoms = read_structure(str(f))
+        except VibrapolError as exc:
+            if single:
+                raise
+            failures.append(str(exc))
+            continue
+        items.append((BatchItem(atoms, str(f), checkpoint_path_for(out)), out))
+    outcomes = run_batch(
+        [item for item, _ in items],
+        settings,
         workers=args.workers,
         scheduler=args.scheduler,
-        checkpoint=checkpoint,
         fresh=args.fresh,
         progress=args.progress,
+        raise_errors=single,
     )
-    write_modes_json(result.modes, output, force=args.force)
-    say = lambda text: print(f"vibrapol compute: {text}", file=sys.stderr)  # noqa: E731
+    for (item, out), outcome in zip(items, outcomes, strict=True):
+        if outcome.run is None:
+            failures.append(f"{item.name}: {outcome.error}")
+            continue
+        _report(outcome.run, item, out, say, args.force)
+    for message in failures:
+        print(f"vibrapol compute: error: {message}", file=sys.stderr)
+    if failures and not single:
+        say(f"{len(files) - len(failures)} of {len(files)} structures done, {len(failures)} failed")
+    return 2 if failures else 0
+
+
+def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  # noqa: ANN001
+    write_modes_json(result.modes, output, force=force)
+    prefix = f"{item.name}: " if item.name else ""
     if result.optimization is not None:
         say(
-            f"geometry optimised in {result.optimization.n_steps} steps, "
+            f"{prefix}geometry optimised in {result.optimization.n_steps} steps, "
             f"final max force {result.optimization.max_force_hartree_bohr:.2e} hartree/bohr"
         )
     t = result.tasks
     say(
-        f"{t.n_tasks} displaced geometries: {t.n_computed} computed, "
-        f"{t.n_reused} reused from {checkpoint} "
-        f"({result.backend}, {result.workers} worker(s), {result.seconds_wall:.1f} s)"
+        f"{prefix}point group {result.point_group}, {result.route} route, "
+        f"{t.n_tasks} tasks: {t.n_computed} computed, {t.n_reused} reused "
+        f"from {item.checkpoint} ({result.backend}, {result.workers} worker(s), "
+        f"{result.seconds_wall:.1f} s)"
     )
     n_imag = int((result.modes.freqs_cm1 < 0).sum())
     if n_imag:
-        say(f"warning: {n_imag} imaginary mode(s) (not a minimum)")
+        say(f"{prefix}warning: {n_imag} imaginary mode(s) (not a minimum)")
     say(f"wrote {output}")
-    return 0

@@ -169,3 +169,33 @@ def checkpoint_path_for(output: str | Path) -> Path:
     p = Path(output)
     name = p.name[: -len(".json")] if p.name.endswith(".json") else p.name
     return p.with_name(f"{name}.checkpoint.sqlite")
+
+
+class StoreRouter:
+    """Several checkpoint stores seen as one: each key goes to the store it was assigned to.
+
+    Used when the tasks of several molecules, each with its own checkpoint file, run in one
+    batch.
+    """
+
+    def __init__(self) -> None:
+        self._by_key: dict[str, CheckpointStore] = {}
+
+    def assign(self, keys: Iterable[str], store: CheckpointStore | None) -> None:
+        """Route ``keys`` to ``store`` (None: results of these keys are not kept)."""
+        for key in keys:
+            if store is not None:
+                self._by_key[key] = store
+
+    def get(self, key: str) -> dict[str, np.ndarray] | None:
+        """The stored arrays of ``key`` in its store, or None."""
+        store = self._by_key.get(key)
+        return None if store is None else store.get(key)
+
+    def put(
+        self, key: str, kind: str, label: str, arrays: Mapping[str, np.ndarray], seconds: float
+    ) -> None:
+        """Store one finished task in its store (dropped when the key has none)."""
+        store = self._by_key.get(key)
+        if store is not None:
+            store.put(key, kind, label, arrays, seconds)

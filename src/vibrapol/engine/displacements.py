@@ -19,9 +19,6 @@ import numpy as np
 
 from vibrapol.errors import ShapeError
 
-#: Routes by name.
-ROUTES = ("cartesian", "normal-mode")
-
 
 @dataclass(frozen=True, eq=False)
 class DisplacementPlan:

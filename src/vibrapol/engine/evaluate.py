@@ -1,7 +1,8 @@
-"""The engine's units of work: the reference calculation and one displaced-geometry α.
+"""The engine's units of work: reference calculation, displaced-geometry α, gradient in a field.
 
-Both are plain functions of picklable inputs so they can run in another process or on a Dask
-worker.  Results are in the package units (Å³ for α); PySCF works in bohr internally.
+Jobs are picklable frozen dataclasses with a ``run()`` method, so they can run in another
+process or on a Dask worker.  α is returned in the package units (Å³); gradients stay in
+hartree/bohr (they are only intermediate results of the field route).
 """
 
 from __future__ import annotations
@@ -9,6 +10,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
+from typing import ClassVar
 
 import numpy as np
 
@@ -39,6 +41,57 @@ class PolarizabilityJob:
     dm0: np.ndarray | None = None
     threads: int | None = None
 
+    kind: ClassVar[str] = "alpha"
+    result_name: ClassVar[str] = "alpha_ang3"
+
+    def result_shape(self) -> tuple[int, ...]:
+        """Shape of the result array."""
+        return (3, 3)
+
+    def run(self) -> np.ndarray:
+        """α in Å³ (see :func:`evaluate_polarizability`)."""
+        return evaluate_polarizability(self)
+
+
+@dataclass(frozen=True, eq=False)
+class FieldGradientJob:
+    """One analytic nuclear gradient in a uniform field, at a fixed geometry.
+
+    Attributes
+    ----------
+    atomic_numbers : ndarray (N,)
+    coordinates_ang : ndarray (N, 3)
+    spec : MethodSpec
+    field_au : ndarray (3,)
+        Field vector in atomic units (input frame).
+    dm0 : ndarray (nao, nao), optional
+        Starting density (the zero-field reference).
+    threads : int, optional
+    """
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    spec: MethodSpec
+    field_au: np.ndarray
+    dm0: np.ndarray | None = None
+    threads: int | None = None
+
+    kind: ClassVar[str] = "field-gradient"
+    result_name: ClassVar[str] = "gradient_hartree_bohr"
+
+    def result_shape(self) -> tuple[int, ...]:
+        """Shape of the result array."""
+        return (len(self.atomic_numbers), 3)
+
+    def run(self) -> np.ndarray:
+        """dE(F)/dR in hartree/bohr, shape (N, 3)."""
+        from vibrapol.engine.fieldgrad import field_gradient, field_scf
+
+        with threads_limited(self.threads):
+            mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
+            mf = field_scf(mol, self.spec, self.field_au, dm0=self.dm0)
+            return field_gradient(mf, self.field_au)
+
 
 @dataclass(frozen=True, eq=False)
 class ReferenceResult:
@@ -51,7 +104,10 @@ class ReferenceResult:
     alpha_ang3 : ndarray (3, 3)
     density : ndarray (nao, nao)
         Converged AO density matrix, used as the start of every displaced SCF.
-    seconds_scf, seconds_hessian, seconds_alpha : float
+    gradient_hartree_bohr : ndarray (N, 3)
+        Analytic gradient (with the DFT grid response), from the SCF converged to the field
+        route's tolerance: the zero-field point of that route; its time feeds the cost model.
+    seconds_scf, seconds_hessian, seconds_alpha, seconds_gradient : float
         Wall time of each step.
     """
 
@@ -59,9 +115,11 @@ class ReferenceResult:
     hessian_hartree_bohr2: np.ndarray
     alpha_ang3: np.ndarray
     density: np.ndarray
+    gradient_hartree_bohr: np.ndarray
     seconds_scf: float = 0.0
     seconds_hessian: float = 0.0
     seconds_alpha: float = 0.0
+    seconds_gradient: float = 0.0
 
 
 def limit_threads(threads: int | None) -> None:
@@ -114,20 +172,26 @@ def reference_calculation(
 
     mol = build_molecule(atomic_numbers, coordinates_ang, spec)
     t0 = perf_counter()
-    mf = run_scf(mol, spec)
+    from vibrapol.engine.fieldgrad import field_gradient, tighten_scf
+
+    mf = tighten_scf(run_scf(mol, spec), spec)
     t1 = perf_counter()
     hessian = analytic_hessian(mf)
     t2 = perf_counter()
     alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
     t3 = perf_counter()
+    gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
+    t4 = perf_counter()
     return ReferenceResult(
         energy_hartree=float(mf.e_tot),
         hessian_hartree_bohr2=hessian,
         alpha_ang3=alpha,
         density=np.asarray(mf.make_rdm1()),
+        gradient_hartree_bohr=gradient,
         seconds_scf=t1 - t0,
         seconds_hessian=t2 - t1,
         seconds_alpha=t3 - t2,
+        seconds_gradient=t4 - t3,
     )
 
 
@@ -145,10 +209,14 @@ def peak_memory_mb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
-def timed_polarizability(job: PolarizabilityJob) -> tuple[np.ndarray, float, float]:
-    """:func:`evaluate_polarizability`, its wall time (s) and the worker's peak memory (MB)."""
+def timed_task(job: PolarizabilityJob | FieldGradientJob) -> tuple[np.ndarray, float, float]:
+    """``job.run()``, its wall time (s) and the worker's peak memory (MB)."""
     from time import perf_counter
 
     t0 = perf_counter()
-    alpha = evaluate_polarizability(job)
-    return alpha, perf_counter() - t0, peak_memory_mb()
+    result = job.run()
+    return result, perf_counter() - t0, peak_memory_mb()
+
+
+#: The name the engine's first version used.
+timed_polarizability = timed_task

@@ -1,8 +1,9 @@
-"""Run the displaced-geometry tasks on a backend, reusing and filling the checkpoint store."""
+"""Run independent engine tasks on a backend, reusing and filling the checkpoint store."""
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+import dataclasses
+from collections.abc import Callable, Sequence
 from concurrent.futures import FIRST_COMPLETED, Future, wait
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
@@ -11,10 +12,12 @@ from time import perf_counter
 import numpy as np
 
 from vibrapol.engine.checkpoint import CheckpointStore
-from vibrapol.engine.evaluate import PolarizabilityJob, timed_polarizability
+from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityJob, timed_task
 from vibrapol.engine.executors import Backend
 from vibrapol.engine.progress import Progress
 from vibrapol.errors import VibrapolError
+
+Job = PolarizabilityJob | FieldGradientJob
 
 
 @dataclass(frozen=True)
@@ -43,6 +46,116 @@ class TaskStats:
     seconds_wall: float
     seconds_tasks: float
     peak_mb_worker: float = 0.0
+    task_reused: tuple[bool, ...] = ()
+    task_seconds: tuple[float, ...] = ()
+
+    def subset(self, start: int, stop: int) -> TaskStats:
+        """The counts of tasks ``start:stop`` (one molecule of a batch); wall time shared."""
+        reused = self.task_reused[start:stop]
+        seconds = self.task_seconds[start:stop]
+        return TaskStats(
+            stop - start,
+            sum(reused),
+            stop - start - sum(reused),
+            self.seconds_wall,
+            float(sum(seconds)),
+            self.peak_mb_worker,
+            reused,
+            seconds,
+        )
+
+
+def run_tasks(
+    jobs: Sequence[Job],
+    keys: Sequence[str],
+    labels: Sequence[str],
+    backend: Backend,
+    store: CheckpointStore | None = None,
+    progress: Progress | None = None,
+    *,
+    desc: str = "tasks",
+    on_error: Callable[[int, Exception], None] | None = None,
+) -> tuple[list[np.ndarray | None], TaskStats]:
+    """The result of every job, in order, computing only those not already in ``store``.
+
+    Each result is written to the store as soon as it arrives, so an interrupted run keeps
+    everything that finished.
+
+    Parameters
+    ----------
+    jobs : sequence of PolarizabilityJob or FieldGradientJob
+        Anything with ``run()``, ``kind``, ``result_name`` and ``result_shape()``.
+    keys, labels : sequence of str
+        Checkpoint key and readable name of each job.
+    backend : Backend
+    store : CheckpointStore, optional
+    progress : Progress, optional
+    desc : str
+        Name of the progress bar.
+    on_error : callable, optional
+        Called with (job index, exception) when a job fails with a
+        :class:`~vibrapol.errors.VibrapolError`; the job's result is then None and the other
+        jobs go on.  Without it the first failure is raised.
+
+    Returns
+    -------
+    results : list of ndarray (None for failed jobs)
+    stats : TaskStats
+    """
+    progress = progress or Progress(False)
+    t0 = perf_counter()
+    results: list[np.ndarray | None] = [None] * len(jobs)
+    if store is not None:
+        for i, found in _stored(store, jobs, keys).items():
+            results[i] = found
+    todo = [i for i, a in enumerate(results) if a is None]
+    n_reused = len(jobs) - len(todo)
+    bar = progress.bar(len(jobs), n_reused, desc)
+    seconds_tasks = 0.0
+    peak_mb = 0.0
+    reused = [a is not None for a in results]
+    task_seconds = [0.0] * len(jobs)
+
+    def finish(i: int, value: np.ndarray, seconds: float, memory_mb: float) -> None:
+        nonlocal seconds_tasks, peak_mb
+        results[i] = value
+        seconds_tasks += seconds
+        task_seconds[i] = seconds
+        peak_mb = max(peak_mb, memory_mb)
+        if store is not None:
+            store.put(keys[i], jobs[i].kind, labels[i], {jobs[i].result_name: value}, seconds)
+        bar.update(1)
+
+    def fail(i: int, exc: Exception) -> None:
+        if on_error is None or not isinstance(exc, VibrapolError):
+            raise exc
+        on_error(i, exc)
+        bar.update(1)
+
+    try:
+        if backend.executor is None:
+            for i in todo:
+                try:
+                    outcome = timed_task(jobs[i])
+                except VibrapolError as exc:
+                    fail(i, exc)
+                    continue
+                finish(i, *outcome)
+        else:
+            _run_on_executor(jobs, todo, backend, finish, fail)
+    finally:
+        bar.close()
+    stats = TaskStats(
+        len(jobs),
+        n_reused,
+        len(todo),
+        perf_counter() - t0,
+        seconds_tasks,
+        peak_mb,
+        tuple(reused),
+        tuple(task_seconds),
+    )
+    return results, stats
 
 
 def run_polarizability_tasks(
@@ -53,74 +166,40 @@ def run_polarizability_tasks(
     store: CheckpointStore | None = None,
     progress: Progress | None = None,
 ) -> tuple[np.ndarray, TaskStats]:
-    """α (Å³) of every job, in order, computing only those not already in ``store``.
-
-    Each result is written to the store as soon as it arrives, so an interrupted run keeps
-    everything that finished.
-
-    Returns
-    -------
-    alphas : ndarray, shape (n_jobs, 3, 3)
-    stats : TaskStats
-    """
-    progress = progress or Progress(False)
-    t0 = perf_counter()
-    alphas: list[np.ndarray | None] = [None] * len(jobs)
-    if store is not None:
-        for i, found in _stored(store, keys).items():
-            alphas[i] = found
-    todo = [i for i, a in enumerate(alphas) if a is None]
-    n_reused = len(jobs) - len(todo)
-    bar = progress.bar(len(jobs), n_reused, "displacements")
-    seconds_tasks = 0.0
-    peak_mb = 0.0
-
-    def finish(i: int, alpha: np.ndarray, seconds: float, memory_mb: float) -> None:
-        nonlocal seconds_tasks, peak_mb
-        alphas[i] = alpha
-        seconds_tasks += seconds
-        peak_mb = max(peak_mb, memory_mb)
-        if store is not None:
-            store.put(keys[i], "alpha", labels[i], {"alpha_ang3": alpha}, seconds)
-        bar.update(1)
-
-    try:
-        if backend.executor is None:
-            for i in todo:
-                finish(i, *timed_polarizability(jobs[i]))
-        else:
-            _run_on_executor(jobs, todo, backend, finish)
-    finally:
-        bar.close()
-    stats = TaskStats(len(jobs), n_reused, len(todo), perf_counter() - t0, seconds_tasks, peak_mb)
+    """α (Å³) of every job, in order, as one (n_jobs, 3, 3) array (see :func:`run_tasks`)."""
+    alphas, stats = run_tasks(jobs, keys, labels, backend, store, progress, desc="displacements")
     return np.array(alphas), stats
 
 
-def _stored(store: CheckpointStore, keys: Sequence[str]) -> dict[int, np.ndarray]:
+def _stored(store: CheckpointStore, jobs: Sequence[Job], keys: Sequence[str]) -> dict:
     found = {}
     for i, key in enumerate(keys):
         value = store.get(key)
-        if value is not None and value.get("alpha_ang3", np.zeros(0)).shape == (3, 3):
-            found[i] = value["alpha_ang3"]
+        name, shape = jobs[i].result_name, jobs[i].result_shape()
+        if value is not None and value.get(name, np.zeros(0)).shape == shape:
+            found[i] = value[name]
     return found
 
 
-def _run_on_executor(jobs, todo, backend: Backend, finish) -> None:  # noqa: ANN001
+def _run_on_executor(jobs, todo, backend: Backend, finish, fail) -> None:  # noqa: ANN001
     executor = backend.executor
     pending: dict[Future, int] = {}
     for i in todo:
         job = jobs[i]
         if backend.task_threads is not None:
-            job = PolarizabilityJob(
-                job.atomic_numbers, job.coordinates_ang, job.spec, job.dm0, backend.task_threads
-            )
-        pending[executor.submit(timed_polarizability, job)] = i
+            job = dataclasses.replace(job, threads=backend.task_threads)
+        pending[executor.submit(timed_task, job)] = i
     try:
         while pending:
             done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for future in done:
                 i = pending.pop(future)
-                finish(i, *future.result())
+                try:
+                    outcome = future.result()
+                except VibrapolError as exc:
+                    fail(i, exc)
+                    continue
+                finish(i, *outcome)
     except BrokenProcessPool as exc:
         raise VibrapolError(
             "a worker process died (out of memory, killed, or a script calling the engine without "

@@ -12,6 +12,7 @@ import numpy as np
 
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
 from vibrapol.engine.evaluate import ReferenceResult, reference_calculation
+from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
 from vibrapol.engine.optimize import OptimizationResult, optimize_geometry
 from vibrapol.engine.scf import MethodSpec
 
@@ -50,8 +51,8 @@ def optimized(
     return result, seconds, False
 
 
-_REFERENCE_FIELDS = ("hessian_hartree_bohr2", "alpha_ang3", "density")
-_REFERENCE_TIMES = ("seconds_scf", "seconds_hessian", "seconds_alpha")
+_REFERENCE_FIELDS = ("hessian_hartree_bohr2", "alpha_ang3", "density", "gradient_hartree_bohr")
+_REFERENCE_TIMES = ("seconds_scf", "seconds_hessian", "seconds_alpha", "seconds_gradient")
 
 
 def reference(
@@ -61,9 +62,16 @@ def reference(
     store: CheckpointStore | None,
 ) -> tuple[ReferenceResult, bool]:
     """SCF, Hessian and α at the reference geometry (from the store when present)."""
-    key = task_key("reference", atomic_numbers, coordinates_ang, spec)
+    key = task_key(
+        "reference",
+        atomic_numbers,
+        coordinates_ang,
+        spec,
+        reference_conv=[FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
+        grid_response=True,
+    )
     stored = store.get(key) if store is not None else None
-    if stored is not None:
+    if stored is not None and all(k in stored for k in _REFERENCE_FIELDS + _REFERENCE_TIMES):
         values = {k: stored[k] for k in _REFERENCE_FIELDS}
         times = {k: float(stored[k]) for k in _REFERENCE_TIMES}
         return ReferenceResult(
@@ -74,6 +82,6 @@ def reference(
         arrays = {
             k: getattr(result, k) for k in (*_REFERENCE_FIELDS, *_REFERENCE_TIMES, "energy_hartree")
         }
-        seconds = result.seconds_scf + result.seconds_hessian + result.seconds_alpha
+        seconds = sum(getattr(result, k) for k in _REFERENCE_TIMES)
         store.put(key, "reference", "reference SCF, Hessian, alpha", arrays, seconds)
     return result, False

@@ -1,0 +1,229 @@
+"""One molecule's part of an engine run: the stages before its tasks and the ModeSet after.
+
+:func:`prepare` optimises the geometry, finds and imposes its point group, runs the reference
+calculation (SCF, analytic Hessian, CPHF α, gradient), picks the route and lists the tasks;
+:func:`assemble` turns the tasks' results into a :class:`~vibrapol.modeset.ModeSet`.  Between
+the two the tasks of any number of molecules can share one executor
+(:mod:`vibrapol.engine.batch`).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol.engine import stages
+from vibrapol.engine.checkpoint import CheckpointStore
+from vibrapol.engine.fieldplan import FieldPlan
+from vibrapol.engine.optimize import OptimizationResult
+from vibrapol.engine.progress import Progress
+from vibrapol.engine.routes import (
+    Plan,
+    RouteChoice,
+    build_plan,
+    choose_route,
+    derivatives,
+    make_jobs,
+    route_name,
+)
+from vibrapol.engine.scf import SCF_CONV_TOL, SCF_CONV_TOL_GRAD, MethodSpec
+from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
+from vibrapol.vibrations import HarmonicModes, harmonic_analysis
+
+#: A symmetrized geometry closer than this to the given one is taken as the given one, so that
+#: a rerun on an already symmetric geometry finds its checkpointed stages.
+SAME_GEOMETRY_ANG = 1e-10
+
+
+@dataclass(frozen=True)
+class EngineSettings:
+    """What every molecule of a run shares.
+
+    Attributes
+    ----------
+    spec : MethodSpec
+    optimize : bool
+    step_ang : float
+        Displacement of the Cartesian and normal-mode routes.
+    route : str
+        ``auto``, ``cartesian``, ``normal-mode`` or ``field``.
+    field_au : float
+        Field strength of the field route.
+    symmetry : bool
+        Find the point group, impose it on the geometry and use it to cut the tasks.
+    """
+
+    spec: MethodSpec
+    optimize: bool
+    step_ang: float
+    route: str
+    field_au: float
+    symmetry: bool
+
+
+@dataclass(frozen=True, eq=False)
+class Prepared:
+    """A molecule ready for its tasks."""
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    masses_da: np.ndarray
+    default_masses: bool
+    optimization: OptimizationResult | None
+    reused_optimization: bool
+    seconds_optimize: float
+    reference: stages.ReferenceResult
+    reused_reference: bool
+    harmonic: HarmonicModes
+    point_group: str
+    symmetry_shift_ang: float
+    choice: RouteChoice
+    plan: Plan
+    jobs: list
+    keys: list[str]
+    labels: tuple[str, ...]
+
+
+def _impose_symmetry(z, coords, masses, report: Progress):  # noqa: ANN001, ANN202
+    from vibrapol.symmetry import find_point_group, symmetrize_coordinates
+
+    group = find_point_group(z, coords, masses)
+    if group.order == 1:
+        return group, coords, 0.0
+    symmetric = symmetrize_coordinates(coords, group)
+    shift = float(np.max(np.linalg.norm(symmetric - coords, axis=1)))
+    if shift < SAME_GEOMETRY_ANG:  # already symmetric: keep the exact bytes (checkpoint keys)
+        return group, coords, shift
+    report.stage(f"point group {group.symbol}; geometry symmetrized (max shift {shift:.1e} Å)")
+    return group, symmetric, shift
+
+
+def prepare(
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    masses_da: np.ndarray,
+    default_masses: bool,
+    settings: EngineSettings,
+    store: CheckpointStore | None,
+    report: Progress,
+) -> Prepared:
+    """Optimisation, symmetry, reference calculation, route choice and task list."""
+    z, spec = atomic_numbers, settings.spec
+    coords, opt, seconds_opt, reused_opt = coordinates_ang, None, 0.0, False
+    if settings.optimize:
+        report.stage(f"optimising the geometry ({spec.label()}, ASE BFGS)")
+        opt, seconds_opt, reused_opt = stages.optimized(z, coords, spec, store)
+        coords = opt.coordinates_ang
+    group, shift = None, 0.0
+    if settings.symmetry:
+        group, coords, shift = _impose_symmetry(z, coords, masses_da, report)
+    report.stage("reference SCF, analytic Hessian, polarizability and gradient")
+    ref, reused_ref = stages.reference(z, coords, spec, store)
+    harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
+    wanted = (
+        ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
+    )
+    plans = {
+        r: build_plan(
+            r,
+            coords,
+            harmonic.modes,
+            masses_da,
+            settings.step_ang,
+            settings.field_au,
+            group,
+            grid_free=spec.is_hf,
+        )
+        for r in wanted
+    }
+    choice, plan = choose_route(settings.route, plans, ref)
+    jobs, keys, labels = make_jobs(plan, z, coords, spec, ref)
+    return Prepared(
+        atomic_numbers=z,
+        coordinates_ang=coords,
+        masses_da=masses_da,
+        default_masses=default_masses,
+        optimization=opt,
+        reused_optimization=reused_opt,
+        seconds_optimize=seconds_opt,
+        reference=ref,
+        reused_reference=reused_ref,
+        harmonic=harmonic,
+        point_group="C1" if group is None else group.symbol,
+        symmetry_shift_ang=shift,
+        choice=choice,
+        plan=plan,
+        jobs=jobs,
+        keys=keys,
+        labels=labels,
+    )
+
+
+def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings) -> ModeSet:
+    """The ModeSet of a prepared molecule from its tasks' results."""
+    deriv = derivatives(prep.plan, results, prep.reference)
+    normal = route_name(prep.plan) == "normal-mode"
+    ref = prep.reference
+    return ModeSet(
+        atomic_numbers=prep.atomic_numbers,
+        coordinates_ang=prep.coordinates_ang,
+        freqs_cm1=prep.harmonic.freqs_cm1,
+        modes=prep.harmonic.modes,
+        masses_da=prep.masses_da,
+        dalpha_dx=None if normal else deriv,
+        dalpha_dq=deriv if normal else None,
+        polarizability_ang3=ref.alpha_ang3,
+        energy_hartree=ref.energy_hartree,
+        provenance=_provenance(prep, settings),
+    )
+
+
+def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
+    import pyscf
+
+    spec, plan, opt = settings.spec, prep.plan, prep.optimization
+    if opt is None:
+        notes = ["geometry used as given (not optimised)"]
+    else:
+        notes = [
+            f"geometry optimised with ASE BFGS in {opt.n_steps} steps; "
+            f"final max force {opt.max_force_hartree_bohr:.2e} hartree/bohr"
+        ]
+    if settings.symmetry:
+        notes.append(
+            f"point group {prep.point_group}"
+            + (
+                f"; geometry symmetrized (max shift {prep.symmetry_shift_ang:.1e} Å) and "
+                "symmetry used to reduce the tasks"
+                if prep.point_group != "C1"
+                else ""
+            )
+        )
+    route = route_name(plan)
+    if isinstance(plan, FieldPlan):
+        how = (
+            f"dalpha/dx from analytic gradients in uniform fields (field route), "
+            f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients"
+        )
+    else:
+        how = (
+            f"dalpha by central differences, {route} route, step {plan.step_ang} Å, "
+            f"{plan.n_tasks} displaced geometries"
+        )
+    notes.append(
+        f"analytic Hessian; CPHF static polarizability; {how}; "
+        f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
+    )
+    notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
+    if spec.cartesian_d:
+        notes.append("Cartesian (6d) basis functions")
+    return Provenance(
+        source_kind="engine",
+        program="PySCF",
+        program_version=pyscf.__version__,
+        method="HF" if spec.is_hf else spec.method.upper(),
+        basis=spec.basis,
+        masses=DEFAULT_MASSES_NOTE if prep.default_masses else "given by the caller",
+        notes=tuple(notes),
+    )

@@ -1,0 +1,213 @@
+"""The three ways to ∂α, their task lists, and the automatic choice by a measured cost model.
+
+* ``cartesian``: α at ±h along Cartesian displacements (symmetry-reduced when the molecule has
+  symmetry, :mod:`vibrapol.engine.symdisplace`); one SCF + one CPHF per task.
+* ``normal-mode``: α at ±h along each normal mode; one SCF + one CPHF per task; gives ∂α/∂Q
+  only.
+* ``field``: analytic gradients in a few uniform fields (:mod:`vibrapol.engine.fieldplan`);
+  one tight SCF + one gradient per task; gives the full ∂α/∂x with a number of tasks that does
+  not grow with the molecule.
+
+``auto`` estimates the serial cost of each route as (number of tasks) × (cost of one task),
+with the costs of an SCF, a CPHF α and a gradient measured at the reference geometry of the
+molecule itself (times the factors below), and takes the cheapest.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol.engine.checkpoint import task_key
+from vibrapol.engine.displacements import (
+    DisplacementPlan,
+    cartesian_plan,
+    central_differences,
+    normal_mode_plan,
+)
+from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityJob, ReferenceResult
+from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
+from vibrapol.engine.fieldplan import FieldPlan, dalpha_dx_from_gradients, field_plan
+from vibrapol.engine.scf import EngineInputError, MethodSpec
+from vibrapol.engine.symdisplace import SymmetricPlan, rebuild_dalpha_dx, symmetric_cartesian_plan
+from vibrapol.symmetry import PointGroup
+
+#: Route names; ``normal`` is accepted for ``normal-mode``.
+ROUTES = ("auto", "cartesian", "normal-mode", "field")
+
+#: A field task (tight SCF from the reference density + gradient, one thread) costs this many
+#: times the reference SCF + gradient (all threads).  Measured here, HF/6-31G* on 2 shared
+#: cores (bench/engine.py --compare-routes): CCl4 1.15, benzene 1.56; the larger is used.
+FIELD_TASK_FACTOR = 1.5
+
+#: A displaced-geometry task (SCF from the reference density + CPHF, one thread) costs this many
+#: times the reference SCF + CPHF.  Measured as above: CCl4 0.65–1.1, benzene 0.73–1.14.
+DISPLACED_TASK_FACTOR = 1.0
+
+
+def normalize_route(route: str) -> str:
+    """The canonical route name; raises :class:`EngineInputError` for an unknown one."""
+    name = "normal-mode" if route == "normal" else route
+    if name not in ROUTES:
+        raise EngineInputError(
+            f"unknown route {route!r}; choose one of auto, cartesian, normal, field"
+        )
+    return name
+
+
+Plan = DisplacementPlan | SymmetricPlan | FieldPlan
+
+
+def build_plan(
+    route: str,
+    coordinates_ang: np.ndarray,
+    modes: np.ndarray,
+    masses_da: np.ndarray,
+    step_ang: float,
+    field_au: float,
+    group: PointGroup | None,
+    grid_free: bool = True,
+) -> Plan:
+    """The task plan of a concrete route (not ``auto``); ``group`` None means no symmetry.
+
+    ``grid_free`` is False for DFT: the field route then uses only the operations that map
+    the integration grid onto itself (:func:`grid_operations`).
+    """
+    if route == "cartesian":
+        if group is None or group.order == 1:
+            return cartesian_plan(coordinates_ang, step_ang)
+        return symmetric_cartesian_plan(
+            coordinates_ang,
+            step_ang,
+            group.operations,
+            group.permutations,
+            group.centre_ang,
+            group.axes,
+        )
+    if route == "normal-mode":
+        return normal_mode_plan(coordinates_ang, modes, masses_da, step_ang)
+    if route == "field":
+        if group is None:
+            return field_plan(field_au, n_atoms=len(coordinates_ang))
+        ops, perms = group.operations, group.permutations
+        if not grid_free:
+            ops, perms = grid_operations(ops, perms)
+        return field_plan(field_au, ops, perms, group.axes)
+    raise EngineInputError(f"no plan for route {route!r}")
+
+
+def grid_operations(
+    operations: np.ndarray, permutations: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """The operations that are signed permutations of the Cartesian axes (a subgroup).
+
+    PySCF's DFT grids are Lebedev spheres fixed to the Cartesian axes, invariant under exactly
+    these operations (those of the cube).  An operation outside them (the C6 of benzene in its
+    usual frame) maps the grid of one field onto a different grid, and the field route, which
+    divides gradient differences by F² ≈ 1e-6, turns that grid error (≈ 1e-6 hartree/bohr) into
+    errors of order one in ∂α/∂x; measured: benzene B3LYP/6-31G* activities off by 100×.
+    """
+    ops = np.asarray(operations, dtype=float)
+    rounded = np.rint(ops)
+    keep = [
+        k
+        for k, m in enumerate(ops)
+        if np.abs(m - rounded[k]).max() < 1e-8 and np.all(np.abs(rounded[k]).sum(axis=1) == 1)
+    ]
+    return ops[keep], np.asarray(permutations)[keep]
+
+
+def make_jobs(
+    plan: Plan,
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    ref: ReferenceResult,
+) -> tuple[list, list[str], tuple[str, ...]]:
+    """Jobs, checkpoint keys and labels of every task of ``plan``."""
+    z = atomic_numbers
+    if isinstance(plan, FieldPlan):
+        fields = plan.task_fields_au
+        jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in fields]
+        keys = [
+            task_key(
+                "field-gradient",
+                z,
+                coordinates_ang,
+                spec,
+                field_au=f.tolist(),
+                field_conv=[FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
+            )
+            for f in fields
+        ]
+        return jobs, keys, plan.labels
+    jobs = [PolarizabilityJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
+    keys = [task_key("alpha", z, x, spec) for x in plan.coordinates_ang]
+    return jobs, keys, plan.labels
+
+
+def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> np.ndarray:
+    """∂α/∂x (Å², Cartesian and field routes) or ∂α/∂Q (Å² Da⁻¹ᐟ², normal-mode route)."""
+    if isinstance(plan, FieldPlan):
+        gradients = np.array([ref.gradient_hartree_bohr, *results])
+        return dalpha_dx_from_gradients(plan, gradients)
+    stacked = np.array(results)
+    if isinstance(plan, SymmetricPlan):
+        return rebuild_dalpha_dx(plan, stacked)
+    return central_differences(plan, stacked)
+
+
+def route_name(plan: Plan) -> str:
+    """``cartesian``, ``normal-mode`` or ``field``."""
+    return "field" if isinstance(plan, FieldPlan) else plan.route
+
+
+@dataclass(frozen=True)
+class RouteChoice:
+    """The route taken and why.
+
+    Attributes
+    ----------
+    route : str
+    n_tasks : int
+    reason : str
+        One sentence for the provenance: requested, or the cost estimate of every route.
+    estimates_s : dict
+        Estimated serial seconds of each route (empty when the route was requested).
+    """
+
+    route: str
+    n_tasks: int
+    reason: str
+    estimates_s: dict
+
+
+def task_seconds(route: str, ref: ReferenceResult) -> float:
+    """Estimated serial seconds of one task of ``route`` from the reference timings."""
+    if route == "field":
+        return FIELD_TASK_FACTOR * (ref.seconds_scf + ref.seconds_gradient)
+    return DISPLACED_TASK_FACTOR * (ref.seconds_scf + ref.seconds_alpha)
+
+
+def choose_route(
+    requested: str, plans: dict[str, Plan], ref: ReferenceResult
+) -> tuple[RouteChoice, Plan]:
+    """The requested route, or for ``auto`` the one of ``plans`` with the least estimated time.
+
+    Ties go to the Cartesian route (it needs no field-strength choice), then to the field route
+    (it gives ∂α/∂x, the normal-mode route only ∂α/∂Q).
+    """
+    if requested != "auto":
+        plan = plans[requested]
+        return RouteChoice(requested, plan.n_tasks, "requested", {}), plan
+    estimates = {r: p.n_tasks * task_seconds(r, ref) for r, p in plans.items()}
+    order = ("cartesian", "field", "normal-mode")
+    best = min(estimates, key=lambda r: (round(estimates[r], 6), order.index(r)))
+    costs = ", ".join(f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order)
+    reason = (
+        f"auto: least estimated serial time ({costs}; from SCF {ref.seconds_scf:.2f} s, "
+        f"CPHF {ref.seconds_alpha:.2f} s, gradient {ref.seconds_gradient:.2f} s measured at "
+        "the reference geometry)"
+    )
+    return RouteChoice(best, plans[best].n_tasks, reason, estimates), plans[best]

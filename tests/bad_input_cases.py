@@ -171,6 +171,8 @@ MEASURED_FILES = [
      "line 5: intensity 1e+300 is beyond"),
     ("measured-flat", "flat.csv", None, [],
      "every intensity (VV) is 7; the file holds no spectrum"),
+    ("measured-tiny-intensity", "tiny_intensity.csv", None, [],
+     "the largest intensity (VV) is 1.8e-60, below 1e-50"),
     ("measured-text-in-data", "text_in_data.csv", None, [],
      "line 6: 'saturated detector, scan aborted' is not a row of numbers"),
     ("measured-ragged", "ragged.csv", None, [], "line 5: cannot split the numbers"),

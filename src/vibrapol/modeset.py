@@ -33,7 +33,10 @@ MAX_ABS_VALUE = 1.0e30
 
 def default_masses(atomic_numbers: np.ndarray) -> np.ndarray:
     """Mass of the most abundant isotope of each element, in Da."""
-    z = np.asarray(atomic_numbers, dtype=int)
+    try:
+        z = np.asarray(atomic_numbers, dtype=int)
+    except (OverflowError, TypeError, ValueError):
+        raise ShapeError("atomic numbers must be whole numbers between 1 and 118") from None
     if np.any(z < 1) or np.any(z >= len(atomic_masses_common)):
         raise ShapeError(f"atomic numbers must be between 1 and 118, got {sorted(set(z.tolist()))}")
     masses = atomic_masses_common[z]
@@ -80,7 +83,10 @@ class Provenance:
 
 
 def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:
-    arr = np.array(value, dtype=dtype, copy=True)
+    try:
+        arr = np.array(value, dtype=dtype, copy=True)
+    except OverflowError:
+        raise ShapeError(f"{name} holds a number too large for an array") from None
     if arr.ndim != len(shape) or any(
         s is not None and s != a for s, a in zip(shape, arr.shape, strict=False)
     ):

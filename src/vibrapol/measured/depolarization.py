@@ -25,6 +25,7 @@ from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import write_atomic
 from vibrapol.measured.fitting import SHAPE, BandFit, Starts, fit_bands, fit_joint
 from vibrapol.measured.spectrum import MeasuredSpectrum, PolarizedPair
+from vibrapol.sources.registry import read_text
 
 #: Schema name and version of stored corrections.
 CORRECTION_SCHEMA = "vibrapol.polarization-correction"
@@ -147,7 +148,7 @@ class PolarizationCorrection:
                 laser_nm=None if data.get("laser_nm") is None else float(data["laser_nm"]),  # type: ignore[arg-type]
                 note=str(data.get("note", "")),
             )
-        except (KeyError, TypeError, ValueError) as exc:
+        except (KeyError, TypeError, ValueError, OverflowError) as exc:
             raise InputFormatError(
                 f"{where}: polarization correction is incomplete ({exc})"
             ) from exc
@@ -382,11 +383,11 @@ def read_correction(path: str | Path) -> PolarizationCorrection:
     """
     p = Path(path)
     try:
-        data = json.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputFormatError(f"{p}: no such file") from None
+        data = json.loads(read_text(p))  # one-line errors for missing, empty or binary files
     except json.JSONDecodeError as exc:
         raise InputFormatError(f"{p}: not valid JSON (line {exc.lineno}: {exc.msg})") from None
+    except RecursionError:
+        raise InputFormatError(f"{p}: JSON nested too deeply") from None
     if not isinstance(data, dict):
         raise InputFormatError(f"{p}: not a vibrapol polarization correction")
     return PolarizationCorrection.from_dict(data, str(p))

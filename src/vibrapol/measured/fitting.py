@@ -300,11 +300,16 @@ def _fit_once(
         cluster[(x >= lo) & (x <= hi)] = k
     sel = cluster >= 0
     xs, ks = x[sel], cluster[sel]
-    ys = [s.intensity[sel] for s in spectra]
-    sigmas = []
+    noise = []
     for s in spectra:
         sig = noise_sigma(s.intensity)
-        sigmas.append(sig if sig > 0 else 1e-9 * max(float(np.max(np.abs(s.intensity))), 1e-300))
+        noise.append(sig if sig > 0 else 1e-9 * max(float(np.max(np.abs(s.intensity))), 1e-300))
+    # Fit in units of the largest intensity: the residuals do not change, but areas and
+    # baselines become numbers of order one beside positions in cm-1, which the optimizer's
+    # tolerances need (counts or cross sections of 1e-30 cm^2/sr fit alike).
+    unit = max(float(np.max(np.abs(spectra[0].intensity[sel]))), 1e-300)
+    ys = [s.intensity[sel] / unit for s in spectra]
+    sigmas = [sig / unit for sig in noise]
     centres = np.array([0.5 * (lo + hi) for lo, hi in windows])
 
     # Parameter layout.
@@ -392,6 +397,10 @@ def _fit_once(
     _, sv, vt = np.linalg.svd(jac, full_matrices=False)
     keep = sv > np.finfo(float).eps * max(jac.shape) * sv[0]
     cov = (vt[keep].T / sv[keep] ** 2) @ vt[keep] * chi2
+    scale = np.ones(n_p)  # back to the spectra's intensity units
+    scale[i_area.ravel()] = unit
+    scale[i_base.ravel()] = unit
+    p, cov = p * scale, cov * np.outer(scale, scale)
     err = np.sqrt(np.clip(np.diag(cov), 0.0, None))
     where = spectra[0].where
     problems = []
@@ -434,7 +443,7 @@ def _fit_once(
                 tuple(windows),
                 int(xs.size),
                 chi2,
-                sigmas[c],
+                noise[c],
                 bool(res.success),
                 str(res.message),
             )

@@ -37,6 +37,7 @@ AFFN ``1 2 3 3 2 1 0 -1 -2 -3``, PAC ``1+2+3+3+2+1+0-1-2-3``, SQZ ``ABCCBA@abc``
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 
@@ -229,9 +230,12 @@ def _number(rec: dict[str, str], key: str, where: str, default: float | None = N
             return default
         raise InputFormatError(f"{where}: ##{key}= is missing (needed for the X++(Y..Y) data)")
     try:
-        return float(rec[key])
+        value = float(rec[key])
     except ValueError as exc:
         raise InputFormatError(f"{where}: ##{key}={rec[key]!r} is not a number") from exc
+    if not math.isfinite(value):
+        raise InputFormatError(f"{where}: ##{key}={rec[key]!r} is not a finite number")
+    return value
 
 
 def _xpp_yy(

@@ -38,6 +38,9 @@ Source = str | Path | TextIO
 #: larger numbers are a damaged file, and their squares overflow in the baseline and band fits.
 MAX_ABS_INTENSITY = 1.0e50
 
+#: Smallest "largest |intensity|" of a channel accepted (see :func:`_with_signal`).
+MIN_SIGNAL = 1.0e-50
+
 #: Header words that mark the parallel and crossed channels of a two-column file.
 _VV_NAMES = re.compile(r"\bvv\b|parallel|\bpar\b|\bzz\b|∥|\|\|", re.IGNORECASE)
 _VH_NAMES = re.compile(r"\bvh\b|\bhv\b|perpendicular|crossed|\bperp\b|\bzx\b|⊥", re.IGNORECASE)
@@ -284,13 +287,23 @@ def read_pair(
 
 
 def _with_signal(spectrum: MeasuredSpectrum) -> MeasuredSpectrum:
-    """The spectrum itself; raises when every intensity is the same (no spectrum recorded)."""
+    """The spectrum itself; raises when it holds no signal the later steps can work with.
+
+    That is: every intensity the same (no spectrum recorded), or all of them so small (below
+    :data:`MIN_SIGNAL`) that their squares underflow in the baseline and noise estimates.
+    """
     y = spectrum.intensity
+    label = spectrum.label if not spectrum.label.startswith("column ") else ""
+    column = f" ({label})" if label else ""
     if np.all(y == y[0]):
-        label = spectrum.label if not spectrum.label.startswith("column ") else ""
-        column = f" ({label})" if label else ""
         raise InputFormatError(
             f"{spectrum.where}: every intensity{column} is {y[0]:g}; the file holds no spectrum"
+        )
+    top = float(np.max(np.abs(y)))
+    if top < MIN_SIGNAL:
+        raise InputFormatError(
+            f"{spectrum.where}: the largest intensity{column} is {top:.3g}, below {MIN_SIGNAL:g}; "
+            "multiply the intensities by a constant (band positions and ρ do not change)"
         )
     return spectrum
 

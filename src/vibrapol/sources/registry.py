@@ -150,7 +150,7 @@ def read_modes(path: str | Path, kind: str | None = None) -> ModeSet:
         return _READERS[name].read(Path(path))
     except InputFormatError:
         raise
-    except (ValueError, IndexError, KeyError) as exc:
+    except (ValueError, IndexError, KeyError, ArithmeticError) as exc:
         raise InputFormatError(
             f"{path}: could not be read as {name}; the file looks truncated or edited "
             f"({type(exc).__name__}: {exc})"

@@ -94,6 +94,13 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("vibrapol: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # The reader of standard output went away (``vibrapol table … | head``): stop quietly,
+        # and point stdout at /dev/null so the interpreter's final flush does not fail again.
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 1
 
 
 if __name__ == "__main__":  # pragma: no cover

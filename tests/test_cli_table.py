@@ -107,4 +107,3 @@ def test_python_dash_m_runs_the_command_line():
         check=False,
     )
     assert done.returncode == 0 and done.stdout.startswith("mode,frequency_cm1,")
-

@@ -32,7 +32,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from vibrapol.engine.scf import EngineConvergenceError, MethodSpec, build_scf
+from vibrapol.engine.scf import EngineConvergenceError, MethodSpec, build_scf, converge
 
 #: SCF settings of the field calculations.  The field route divides gradient errors by F²
 #: (1e-6 for F = 0.001 au), so the orbital gradient is converged 100× tighter than for the
@@ -70,14 +70,7 @@ def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | Non
     mf.conv_tol_grad = FIELD_SCF_CONV_TOL_GRAD
     hcore = mf.get_hcore() + np.einsum("a,apq->pq", f, dipole_integrals(mol))
     mf.get_hcore = lambda *args, h=hcore: h
-    if dm0 is not None and np.shape(dm0) != (mol.nao, mol.nao):
-        dm0 = None
-    mf.kernel(dm0=dm0)
-    if not mf.converged:
-        mf.level_shift = 0.3
-        mf.kernel()
-        mf.level_shift = 0.0
-        mf.kernel(dm0=mf.make_rdm1())
+    mf = converge(mf, dm0)
     if not mf.converged:
         raise EngineConvergenceError(
             f"{spec.label()} SCF did not converge in the field {np.round(f, 5).tolist()} au; "

@@ -179,6 +179,27 @@ def build_scf(mol, spec: MethodSpec):
     return mf
 
 
+def converge(mf, dm0=None, restart=None):  # noqa: ANN001, ANN201
+    """Run ``mf`` from ``dm0``; when it does not converge, try again with a level shift.
+
+    The second attempt runs on ``restart()`` (a fresh SCF object) when given, else on ``mf``
+    itself; it starts from the default guess with a 0.3 hartree level shift, then removes the
+    shift and converges from that density.  Returns the SCF object of the last attempt; the
+    caller checks ``converged``.  A ``dm0`` of the wrong shape is ignored.
+    """
+    if dm0 is not None and np.shape(dm0) != (mf.mol.nao, mf.mol.nao):
+        dm0 = None
+    mf.kernel(dm0=dm0)
+    if not mf.converged:
+        if restart is not None:
+            mf = restart()
+        mf.level_shift = 0.3
+        mf.kernel()
+        mf.level_shift = 0.0
+        mf.kernel(dm0=mf.make_rdm1())
+    return mf
+
+
 def run_scf(
     mol, spec: MethodSpec, dm0: np.ndarray | None = None, where: str = "reference geometry"
 ):
@@ -189,17 +210,8 @@ def run_scf(
     EngineConvergenceError
         When the SCF does not converge within :data:`SCF_MAX_CYCLE` iterations.
     """
-    mf = build_scf(mol, spec)
-    if dm0 is not None and np.shape(dm0) != (mol.nao, mol.nao):
-        dm0 = None
-    mf.kernel(dm0=dm0)
-    if not mf.converged:
-        # A second attempt from the default guess with level shifting usually rescues it.
-        mf = build_scf(mol, spec)
-        mf.level_shift = 0.3
-        mf.kernel()
-        mf.level_shift = 0.0
-        mf.kernel(dm0=mf.make_rdm1())
+    # A second attempt from the default guess with level shifting usually rescues a failure.
+    mf = converge(build_scf(mol, spec), dm0, restart=lambda: build_scf(mol, spec))
     if not mf.converged:
         raise EngineConvergenceError(
             f"{spec.label()} SCF did not converge at the {where} in {SCF_MAX_CYCLE} cycles; "

@@ -75,9 +75,8 @@ def test_compute_writes_a_modes_file_that_table_reads(water_file, tmp_path, caps
     modes = read_modes_json(out)
     assert modes.n_modes == 3 and modes.dalpha_dx.shape == (9, 3, 3)
     assert modes.provenance.source_kind == "engine"
-    # Every one of the 6N = 18 displaced geometries is computed (the symmetry-reduced plan is
-    # switched off, see vibrapol.engine.routes.build_plan).
-    assert "cartesian route, 18 tasks: 18 computed, 0 reused" in capsys.readouterr().err
+    # Water is C2v: 9 of the 18 displaced geometries are computed (symdisplace module notes).
+    assert "cartesian route, 9 tasks: 9 computed, 0 reused" in capsys.readouterr().err
     assert main(["table", str(out), "--format", "json"]) == 0
     rows = json.loads(capsys.readouterr().out)["modes"]
     # Water: the antisymmetric (B2) stretch, the highest mode, has ρ = 3/4 (common practice).

@@ -102,10 +102,6 @@ def test_field_route_matches_cartesian_route_on_water(water_runs):
     assert raman_table(water_runs["field"].modes).rho_linear[-1] == pytest.approx(0.75, abs=1e-6)
 
 
-@pytest.mark.skip(
-    reason="symmetry-reduced Cartesian displacements are switched off in routes.build_plan: "
-    "wrong dalpha/dx for propyne (C3v) against the full plan; to be fixed"
-)
 def test_symmetry_reduced_cartesian_route_rebuilds_the_full_tensor(water_runs):
     full = water_runs["full"].modes.dalpha_dx
     reduced = water_runs["reduced"]
@@ -131,7 +127,7 @@ def test_tetrahedral_molecule_field_and_reduced_routes():
     geometry = (full.modes.atomic_numbers, full.modes.coordinates_ang)
     reduced = run_engine(geometry, "hf", "sto-3g", optimize=False, step_ang=0.002)
     field = run_engine(geometry, "hf", "sto-3g", optimize=False, route="field")
-    assert reduced.tasks.n_tasks == 30 and field.tasks.n_tasks == 1  # reduction off: 6N
+    assert reduced.tasks.n_tasks == 3 and field.tasks.n_tasks == 1
     ref = full.modes.dalpha_dx
     assert np.abs(reduced.modes.dalpha_dx - ref).max() < 1e-6 * np.abs(ref).max()
     act, rho = _compare(full.modes, field.modes)

@@ -30,7 +30,7 @@ from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityJob, Refere
 from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
 from vibrapol.engine.fieldplan import FieldPlan, dalpha_dx_from_gradients, field_plan
 from vibrapol.engine.scf import EngineInputError, MethodSpec
-from vibrapol.engine.symdisplace import SymmetricPlan, rebuild_dalpha_dx
+from vibrapol.engine.symdisplace import SymmetricPlan, rebuild_dalpha_dx, symmetric_cartesian_plan
 from vibrapol.symmetry import PointGroup
 
 #: Route names; ``normal`` is accepted for ``normal-mode``.
@@ -75,11 +75,16 @@ def build_plan(
     the integration grid onto itself (:func:`grid_operations`).
     """
     if route == "cartesian":
-        # The symmetry-reduced plan (vibrapol.engine.symdisplace) is switched off: its rebuild
-        # gave wrong ∂α/∂x for propyne (C3v; activities off by up to 50x against this full 6N
-        # plan, tests/test_compare_fixtures.py), also with the axis-permutation subgroup only.
-        # Until that is understood, the Cartesian route displaces every atom.
-        return cartesian_plan(coordinates_ang, step_ang)
+        if group is None or group.order == 1:
+            return cartesian_plan(coordinates_ang, step_ang)
+        return symmetric_cartesian_plan(
+            coordinates_ang,
+            step_ang,
+            group.operations,
+            group.permutations,
+            group.centre_ang,
+            group.axes,
+        )
     if route == "normal-mode":
         return normal_mode_plan(coordinates_ang, modes, masses_da, step_ang)
     if route == "field":

@@ -16,7 +16,7 @@ from vibrapol.engine.fieldgrad import field_energy, field_gradient, field_scf
 from vibrapol.engine.fieldplan import field_plan
 from vibrapol.engine.scf import MethodSpec, build_molecule
 from vibrapol.ramantable import raman_table
-from vibrapol.symmetry import find_point_group
+from vibrapol.symmetry import find_point_group, symmetrize_coordinates
 
 HF_STO = MethodSpec("hf", "sto-3g")
 # Water off its symmetric geometry (Cs only) so that no gradient component vanishes.
@@ -135,6 +135,25 @@ def test_tetrahedral_molecule_field_and_reduced_routes():
     # Td: the totally symmetric stretch has ρ = 0 exactly (common practice).
     t = raman_table(field.modes)
     assert t.rho_linear[t.activity.argmax()] == pytest.approx(0.0, abs=1e-6)
+
+
+def test_symmetry_reduced_route_on_a_c3v_molecule():
+    # NH3 (C3v), HF/STO-3G: a hydrogen's site group is one mirror, the case an earlier
+    # condition test got wrong.  7 of 24 displaced geometries; the rebuilt tensor must equal
+    # the full Cartesian route's (PySCF, all 24 geometries, same symmetrized geometry).  The
+    # reduced plan displaces along directions off the axes, so the two central differences
+    # are different estimates: measured 1.2e-6 (h = 0.002 Å) and 1.6e-6 (h = 0.001 Å) of the
+    # largest element, SCF/CPHF noise rather than step error; 5e-6 leaves room for that.
+    z, x = molecule("NH3").numbers, molecule("NH3").positions
+    x = symmetrize_coordinates(x, find_point_group(z, x))
+    full = run_engine((z, x), "hf", "sto-3g", optimize=False, symmetry=False, step_ang=0.002)
+    reduced = run_engine((z, x), "hf", "sto-3g", optimize=False, step_ang=0.002)
+    assert full.tasks.n_tasks == 24
+    assert reduced.point_group == "C3v" and reduced.tasks.n_tasks == 7
+    ref = full.modes.dalpha_dx
+    assert np.abs(reduced.modes.dalpha_dx - ref).max() < 5e-6 * np.abs(ref).max()
+    act, rho = _compare(full.modes, reduced.modes)
+    assert act < 1e-4 and rho < 1e-5
 
 
 def test_c1_molecule_falls_back_to_the_full_sets():

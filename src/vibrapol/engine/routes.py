@@ -71,30 +71,27 @@ def build_plan(
 ) -> Plan:
     """The task plan of a concrete route (not ``auto``); ``group`` None means no symmetry.
 
-    ``grid_free`` is False for DFT: the field route then uses only the operations that map
-    the integration grid onto itself (:func:`grid_operations`).
+    ``grid_free`` is False for DFT: the symmetry-using routes then use only the operations
+    that map the integration grid onto itself (:func:`grid_operations`).
     """
-    if route == "cartesian":
-        if group is None or group.order == 1:
-            return cartesian_plan(coordinates_ang, step_ang)
-        return symmetric_cartesian_plan(
-            coordinates_ang,
-            step_ang,
-            group.operations,
-            group.permutations,
-            group.centre_ang,
-            group.axes,
-        )
     if route == "normal-mode":
         return normal_mode_plan(coordinates_ang, modes, masses_da, step_ang)
+    if route not in ("cartesian", "field"):
+        raise EngineInputError(f"no plan for route {route!r}")
+    if group is None or group.order == 1:
+        if route == "cartesian":
+            return cartesian_plan(coordinates_ang, step_ang)
+        return field_plan(field_au, n_atoms=len(coordinates_ang))
+    ops, perms = group.operations, group.permutations
+    if not grid_free:
+        ops, perms = grid_operations(ops, perms)
     if route == "field":
-        if group is None:
-            return field_plan(field_au, n_atoms=len(coordinates_ang))
-        ops, perms = group.operations, group.permutations
-        if not grid_free:
-            ops, perms = grid_operations(ops, perms)
         return field_plan(field_au, ops, perms, group.axes)
-    raise EngineInputError(f"no plan for route {route!r}")
+    if len(ops) == 1:
+        return cartesian_plan(coordinates_ang, step_ang)
+    return symmetric_cartesian_plan(
+        coordinates_ang, step_ang, ops, perms, group.centre_ang, group.axes
+    )
 
 
 def grid_operations(
@@ -104,7 +101,7 @@ def grid_operations(
 
     PySCF's DFT grids are Lebedev spheres fixed to the Cartesian axes, invariant under exactly
     these operations (those of the cube).  An operation outside them (the C6 of benzene in its
-    usual frame) maps the grid of one field onto a different grid, and the field route, which
+    usual frame) maps the grid of one task onto a different grid, and the field route, which
     divides gradient differences by F² ≈ 1e-6, turns that grid error (≈ 1e-6 hartree/bohr) into
     errors of order one in ∂α/∂x; measured: benzene B3LYP/6-31G* activities off by 100×.
     """

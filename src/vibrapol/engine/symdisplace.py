@@ -90,7 +90,11 @@ def _site_choice(
             flips = [_flipper(d, site_ops, ops) for d in dirs]
             cost = sum(1 if f >= 0 else 2 for f in flips)
             images = np.array([ops[r] @ d for d in dirs for r in site_ops])
-            sigma = np.linalg.svd(images, compute_uv=False)[-1] / np.sqrt(len(images) / 3.0)
+            # The smallest of the three singular values of the 3-column image matrix, from the
+            # 3 × 3 Gram matrix: with fewer than three images an SVD of ``images`` itself
+            # returns fewer than three values and would hide a missing direction.
+            gram = images.T @ images
+            sigma = np.sqrt(max(np.linalg.eigvalsh(gram)[0], 0.0) / (len(images) / 3.0))
             if sigma < MIN_CONDITION:
                 continue
             if best is None or cost < best[0] or (cost == best[0] and sigma > best[1] + 1e-9):

@@ -10,7 +10,8 @@ Each configuration runs in a fresh Python process so that its peak memory is its
 geometry (the reference stage and its Hessian computed once and reused from a checkpoint):
 QC evaluations, wall time of the tasks, their ratio to the analytic-Hessian time, and the
 accuracy against the symmetry-reduced Cartesian route at h = 0.002 Å (which equals the full
-6N route to 1e-9, tests/test_engine_fast.py).
+6N route to 1e-6 with HF, tests/test_engine_fast.py and tests/test_symdisplace.py; DFT runs
+use the grid-preserving subgroup, docs/engine-routes.md).
 
 Prints a table and, last, one JSON line with every figure.  Times are wall-clock seconds on
 this machine; on shared cores they are contended and vary from run to run.

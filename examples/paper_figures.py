@@ -11,7 +11,8 @@ Writes into DIR (default ``paper-figures``):
 - ``spectrum.pdf`` and ``spectrum.png``: VV over VH in two stacked panels, double column width,
   the strongest bands labelled with wavenumber, species and (polarized bands) ρ;
 - ``rho.pdf``: depolarization ratio of every band against the 3/4 limit;
-- ``modes.tex``: a booktabs table of the Raman-active bands (wavenumber, species, activity, ρ);
+- ``modes.tex``: a booktabs table of the Raman-active bands (wavenumber, species, activity, ρ,
+  p/dp), from :func:`vibrapol.report.table_latex`;
 - ``modes.csv``: the full per-mode table.
 
 Wavenumbers are scaled by the method's published factor when vibrapol knows one.  Laser
@@ -30,9 +31,8 @@ from vibrapol import plotting, raman_table, read_modes
 from vibrapol.compare import published_scale
 from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.lineshapes import LineShape
-from vibrapol.ramantable import RamanTable
-from vibrapol.report import table_csv
-from vibrapol.scaling import NO_SCALE, FrequencyScale
+from vibrapol.report import table_csv, table_latex
+from vibrapol.scaling import NO_SCALE
 from vibrapol.spectrum import broaden, stick_spectrum
 from vibrapol.symmetry import mode_symmetry
 
@@ -43,44 +43,6 @@ WATER = ROOT / "examples" / "water.modes.json"
 
 def default_source() -> Path:
     return SHARED_GAUSSIAN if SHARED_GAUSSIAN.is_file() else WATER
-
-
-def latex_irrep(name: str) -> str:
-    """'B1u' → 'B$_{1u}$', 'A1' → 'A$_{1}$', "A'" stays."""
-    head, tail = name[:1], name[1:]
-    return f"{head}$_{{{tail}}}$" if tail and tail[0].isalnum() else name
-
-
-def latex_table(table: RamanTable, scale: FrequencyScale, caption: str) -> str:
-    """Booktabs table: one row per Raman-active band (degenerate sets once)."""
-    rows = []
-    for s in table.sets():
-        k = s[0]
-        if not np.isfinite(table.rho_linear[k]):
-            continue  # Raman-inactive
-        freq = scale.apply(np.array([table.freqs_cm1[k]]))[0]
-        activity = float(np.sum(table.activity[list(s)]))
-        pol = " (p)" if table.polarized[k] else ""
-        rows.append(
-            f"  {freq:.0f} & {latex_irrep(table.irreps[k])} & {activity:.2f} & "
-            f"{table.rho_linear[k]:.3f}{pol} \\\\"
-        )
-    return "\n".join(
-        [
-            "\\begin{table}",
-            f"\\caption{{{caption}}}",
-            "\\begin{tabular}{rlrl}",
-            "\\toprule",
-            "$\\tilde\\nu$ / cm$^{-1}$ & species & $S$ / \\AA$^4$\\,amu$^{-1}$ & "
-            "$\\rho_\\perp$ \\\\",
-            "\\midrule",
-            *rows,
-            "\\bottomrule",
-            "\\end{tabular}",
-            "\\end{table}",
-            "",
-        ]
-    )
 
 
 def main(argv: list[str] | None = None) -> None:
@@ -117,17 +79,11 @@ def main(argv: list[str] | None = None) -> None:
     grid = broaden(sticks, LineShape("lorentzian", args.fwhm_cm1), range_cm1=span)
     spectrum = plotting.spectrum_figure(grid, layout="stacked", width="double", label_count=8)
     rho = plotting.depolarization_figure(sticks, width="single", xlim_cm1=span)
-    p = modes.provenance
-    how = "scaled by " + f"{scale.factor:g}" if scale.factor != 1.0 else "unscaled"
-    caption = (
-        f"Computed Raman bands ({p.program} {p.method}/{p.basis}, {how}; "
-        f"point group {table.point_group}); (p): polarized."
-    )
     files = {
         "spectrum.pdf": plotting.figure_bytes(spectrum, "pdf"),
         "spectrum.png": plotting.figure_bytes(spectrum, "png"),
         "rho.pdf": plotting.figure_bytes(rho, "pdf"),
-        "modes.tex": latex_table(table, scale, caption),
+        "modes.tex": table_latex(table, scale),
         "modes.csv": table_csv(table),
     }
     for name, data in files.items():

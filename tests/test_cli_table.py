@@ -107,3 +107,49 @@ def test_python_dash_m_runs_the_command_line():
         check=False,
     )
     assert done.returncode == 0 and done.stdout.startswith("mode,frequency_cm1,")
+
+
+def _pipe_rows(text):
+    return [line.split("|")[1:-1] for line in text.splitlines() if line.startswith("| ")][1:]
+
+
+def test_markdown_table_lists_the_raman_active_bands(capsys):
+    # Water: three Raman-active fundamentals, 2 A1 + B2 (Herzberg 1945, from memory); the B2
+    # one is depolarized with ρ = 3/4 (common practice).
+    assert main(["table", str(EXAMPLE), "--format", "markdown"]) == 0
+    rows = _pipe_rows(capsys.readouterr().out)
+    assert [r[1].strip() for r in rows] == ["A1", "A1", "B2"]
+    assert float(rows[2][3]) == pytest.approx(0.75, abs=1e-3) and rows[2][4].strip() == "dp"
+    assert [r[4].strip() for r in rows].count("p") == 2
+
+
+def test_latex_table_of_a_linear_molecule(capsys):
+    # CO2 (D∞h): of its fundamentals only the symmetric stretch Σg⁺ is Raman-active (mutual
+    # exclusion; Herzberg 1945, from memory), and it is polarized.  ORCA 5.0.0 output.
+    source = Path(__file__).resolve().parent / "fixtures" / "orca5_co2.out"
+    assert main(["table", str(source), "--format", "latex"]) == 0
+    text = capsys.readouterr().out
+    rows = [r for r in text.splitlines() if r.rstrip().endswith("\\\\")][1:]
+    assert (
+        len(rows) == 1
+        and "$\\Sigma_{g}^+$" in rows[0]
+        and rows[0].split("&")[4].strip(" \\") == "p"
+    )
+    assert "$D_{\\infty h}$" in text and "\\toprule" in text and "\\end{table}" in text
+
+
+@pytest.mark.parametrize(
+    ("name", "tex"),
+    [("B1u", "$B_{1u}$"), ("A''", "$A''$"), ("E'", "$E'$"), ("Πu", "$\\Pi_{u}$"),
+     ("Σ⁻", "$\\Sigma^-$"), ("T2g", "$T_{2g}$"), ("E", "$E$")],
+)  # fmt: skip
+def test_latex_species_names(name, tex):
+    from vibrapol.report import latex_species
+
+    assert latex_species(name) == tex
+
+
+def test_tex_escape_of_free_text():
+    from vibrapol.report import tex_escape
+
+    assert tex_escape("a_b & c%{d}") == "a\\_b \\& c\\%\\{d\\}"

@@ -88,6 +88,16 @@ def test_json_round_trip_is_lossless(tmp_path):
     assert sniff(path) == "modes-json"
 
 
+def test_read_json_names_the_given_file(tmp_path):
+    # Messages about a mode set name its source_file: after reading a *.modes.json that is
+    # the path given, not the program output it was once converted from (kept as a note).
+    prov = Provenance(source_file="/elsewhere/run.log", program="test")
+    path = write_modes_json(small_modeset(provenance=prov), tmp_path / "x.modes.json")
+    back = read_modes(path)
+    assert back.provenance.source_file == str(path)
+    assert "converted from /elsewhere/run.log" in back.provenance.notes
+
+
 def test_json_refuses_to_overwrite(tmp_path):
     path = write_modes_json(small_modeset(), tmp_path / "x.modes.json")
     before = path.read_bytes()

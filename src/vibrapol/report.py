@@ -11,6 +11,7 @@ import math
 import numpy as np
 
 from vibrapol.ramantable import RamanTable
+from vibrapol.scaling import FrequencyScale
 from vibrapol.symmetry import (
     ModeSymmetry,
     PointGroup,
@@ -190,7 +191,171 @@ def _text_flag(value: bool | None) -> str:
     return "" if value is None else ("y" if value else "-")
 
 
-FORMATTERS = {"text": table_text, "csv": table_csv, "json": table_json}
+# -- band tables for a paper: one row per band (a degenerate set once) ------------------------
+
+_GREEK_TEX = {"Σ": r"\Sigma", "Π": r"\Pi", "Δ": r"\Delta", "Φ": r"\Phi"}
+
+
+def latex_species(name: str) -> str:
+    r"""A species name in LaTeX math.
+
+    'B1u' → '$B_{1u}$', "A''" → "$A''$", 'Σg⁺' → '$\Sigma_{g}^+$'.
+    """
+    if not name:
+        return ""
+    head, rest = name[0], name[1:]
+    head = _GREEK_TEX.get(head, head)
+    sign = ""
+    if rest.endswith(("⁺", "⁻")):
+        sign, rest = ("^+" if rest[-1] == "⁺" else "^-"), rest[:-1]
+    primes = rest[len(rest.rstrip("'")) :]
+    rest = rest.rstrip("'")
+    sub = f"_{{{rest}}}" if rest else ""
+    return f"${head}{sub}{sign}{primes}$"
+
+
+def band_rows(
+    table: RamanTable, scale: FrequencyScale | None = None, include_inactive: bool = False
+) -> list[dict[str, object]]:
+    """One dictionary per band, the rows of the paper tables.
+
+    A band is a degenerate set counted once: wavenumber (scaled when ``scale`` is given),
+    species, number of degenerate modes, activity summed over them, ρ (linear; None when
+    Raman-inactive or unknown) and ``polarized``.  Raman-inactive bands (by their species, or
+    with zero polarizability derivative) are left out unless ``include_inactive``.
+    """
+    rows = []
+    for members in table.sets():
+        k = members[0]
+        freq = float(table.freqs_cm1[k])
+        if scale is not None:
+            freq = float(scale.apply(np.array([freq]))[0])
+        rho = float(table.rho_linear[k])
+        known = math.isfinite(float(table.a2[k]))
+        inactive = (table.raman_active is not None and not table.raman_active[k]) or (
+            known and not math.isfinite(rho)
+        )
+        if inactive and not include_inactive:
+            continue
+        rows.append(
+            {
+                "wavenumber_cm1": freq,
+                "species": table.irreps[k],
+                "degeneracy": len(members),
+                "activity": float(np.sum(table.activity[list(members)])),
+                "rho_linear": rho if math.isfinite(rho) else None,
+                "polarized": bool(table.polarized[k]) if known and math.isfinite(rho) else None,
+            }
+        )
+    return rows
+
+
+def _caption_parts(table: RamanTable, scale: FrequencyScale | None) -> tuple[str, str, str]:
+    """(what was computed, how the wavenumbers were scaled, point group) for a caption."""
+    h = _header(table)
+    what = " ".join(x for x in (h["program"], h["method"]) if x) or h["source"]
+    how = "unscaled" if scale is None else scale.describe()
+    return what, how, h["point_group"]
+
+
+_CAPTION_TAIL = (
+    "ρ for linearly polarized light at 90°; p: polarized, dp: depolarized; "
+    "Raman-inactive bands omitted."
+)
+
+
+def _pol_mark(row: dict[str, object]) -> str:
+    if row["polarized"] is None:
+        return ""
+    return "p" if row["polarized"] else "dp"
+
+
+def table_markdown(table: RamanTable, scale: FrequencyScale | None = None) -> str:
+    """A Markdown (pipe) table of the Raman-active bands, a caption line first."""
+    what, how, group = _caption_parts(table, scale)
+    group = f", point group {group}" if group else ""
+    lines = [
+        f"Computed Raman bands ({what}, harmonic wavenumbers {how}{group}); activity S in "
+        f"Å⁴/amu; {_CAPTION_TAIL}",
+        "",
+        "| ν̃ / cm⁻¹ | species | S / Å⁴ amu⁻¹ | ρ | |",
+        "|---:|:---|---:|---:|:---|",
+    ]
+    for row in band_rows(table, scale):
+        rho = "–" if row["rho_linear"] is None else f"{row['rho_linear']:.3f}"
+        lines.append(
+            f"| {row['wavenumber_cm1']:.0f} | {row['species'] or '–'} | {row['activity']:.2f}"
+            f" | {rho} | {_pol_mark(row)} |"
+        )
+    return "\n".join(lines) + "\n"
+
+
+_TEX_SPECIAL = {
+    "\\": r"\textbackslash{}",
+    "&": r"\&",
+    "%": r"\%",
+    "_": r"\_",
+    "#": r"\#",
+    "$": r"\$",
+    "{": r"\{",
+    "}": r"\}",
+    "~": r"\textasciitilde{}",
+    "^": r"\textasciicircum{}",
+}
+
+
+def tex_escape(text: str) -> str:
+    """Plain text (a file name, a method) made safe inside a LaTeX paragraph."""
+    return "".join(_TEX_SPECIAL.get(c, c) for c in text)
+
+
+def latex_point_group(symbol: str) -> str:
+    r"""A Schoenflies symbol in LaTeX math: 'C2v' → '$C_{2v}$', 'D∞h' → '$D_{\infty h}$'."""
+    if len(symbol) < 2:
+        return f"${symbol}$" if symbol else ""
+    return f"${symbol[0]}_{{{symbol[1:].replace('∞', chr(92) + 'infty ')}}}$"
+
+
+def table_latex(table: RamanTable, scale: FrequencyScale | None = None) -> str:
+    r"""A booktabs LaTeX table of the Raman-active bands (needs ``\usepackage{booktabs}``)."""
+    what, how, group = _caption_parts(table, scale)
+    group = f", point group {latex_point_group(group)}" if group else ""
+    tail = _CAPTION_TAIL.replace("ρ", r"$\rho$").replace("90°", r"90$^\circ$")
+    caption = (
+        f"Computed Raman bands ({tex_escape(what)}, harmonic wavenumbers {tex_escape(how)}"
+        f"{group}); activity $S$ in \\AA$^4$\\,amu$^{{-1}}$; {tail}"
+    )
+    rows = []
+    for row in band_rows(table, scale):
+        rho = "--" if row["rho_linear"] is None else f"{row['rho_linear']:.3f}"
+        rows.append(
+            f"  {row['wavenumber_cm1']:.0f} & {latex_species(str(row['species'])) or '--'} & "
+            f"{row['activity']:.2f} & {rho} & {_pol_mark(row)} \\\\"
+        )
+    return "\n".join(
+        [
+            "\\begin{table}",
+            f"\\caption{{{caption}}}",
+            "\\begin{tabular}{rlrrl}",
+            "\\toprule",
+            "$\\tilde\\nu$ / cm$^{-1}$ & species & $S$ / \\AA$^4$\\,amu$^{-1}$ & $\\rho$ & \\\\",
+            "\\midrule",
+            *rows,
+            "\\bottomrule",
+            "\\end{tabular}",
+            "\\end{table}",
+            "",
+        ]
+    )
+
+
+FORMATTERS = {
+    "text": table_text,
+    "csv": table_csv,
+    "json": table_json,
+    "markdown": table_markdown,
+    "latex": table_latex,
+}
 
 
 # -- symmetry report (``vibrapol symmetry``) ----------------------------------------------------

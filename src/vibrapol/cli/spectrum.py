@@ -197,6 +197,15 @@ def build_sticks(
     args: argparse.Namespace, channels: list[str], geometry: int, **extra: object
 ) -> StickSpectrum:
     """Read the sources and compute their (mixture) stick spectrum."""
+    if len(args.sources) == 1:
+        for option, given in (
+            ("--energies-kjmol", getattr(args, "energies_kjmol", None)),
+            ("--zero-point", getattr(args, "zero_point", False)),
+        ):
+            if given:
+                raise VibrapolError(
+                    f"{option} needs two or more sources (a conformer mixture); got one"
+                )
     modesets = [read_modes(s, kind=args.kind) for s in args.sources]
     options = dict(
         channels=channels,
@@ -240,6 +249,8 @@ def run(args: argparse.Namespace) -> int:
             check_writable(path, args.force)
     for path in [*args.figure, *args.rho_figure]:
         _suffix(path)
+    if args.labels < 0:
+        raise VibrapolError(f"--labels must be 0 or more, got {args.labels}")
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
     default_range = "-3600:3600" if args.anti_stokes else "100:3600"
     span = parse_range(args.range_cm1 or default_range)

@@ -111,11 +111,12 @@ def read_modes_json(path: str | Path) -> ModeSet:
             f"{path}: JSON nested too deeply; not a vibrapol modes file"
         ) from None
     modes = modeset_from_dict(data, where=str(path))
-    if not modes.provenance.source_file:
-        modes = dataclasses.replace(
-            modes, provenance=dataclasses.replace(modes.provenance, source_file=str(path))
-        )
-    return modes
+    # Messages about this data must name the file the user gave; the file the data first came
+    # from (a program output converted earlier) is kept as a note.
+    prov = modes.provenance
+    if prov.source_file and prov.source_file != str(path):
+        prov = prov.with_note(f"converted from {prov.source_file}")
+    return dataclasses.replace(modes, provenance=dataclasses.replace(prov, source_file=str(path)))
 
 
 def _sniff(head: str, tail: str) -> bool:

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import sqlite3
+from concurrent.futures import Executor, Future
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -120,3 +122,29 @@ def test_checkpoint_file_sits_beside_the_output(tmp_path):
         == tmp_path / "water.modes.checkpoint.sqlite"
     )
     assert checkpoint_path_for("out").name == "out.checkpoint.sqlite"
+
+
+class _LosingExecutor(Executor):
+    """An executor whose every task fails the way a Dask cluster reports a lost worker."""
+
+    def submit(self, fn, /, *args, **kwargs):
+        from distributed import KilledWorker
+
+        future = Future()
+        worker = SimpleNamespace(address="tcp://127.0.0.1:1")  # stands in for a WorkerState
+        future.set_exception(KilledWorker("alpha-1", worker, allowed_failures=3))
+        return future
+
+
+def test_lost_dask_worker_is_a_one_line_error():
+    # KilledWorker is distributed's own exception for a task whose workers kept dying; the run
+    # must end with a VibrapolError (one line at the command line), not a traceback.
+    from vibrapol.engine.evaluate import PolarizabilityJob
+    from vibrapol.engine.executors import Backend
+    from vibrapol.engine.runner import run_tasks
+
+    atoms = molecule("H2O")
+    job = PolarizabilityJob(atoms.numbers, atoms.positions, MethodSpec(METHOD, BASIS), None)
+    backend = Backend(_LosingExecutor(), "dask", 2, 1)
+    with pytest.raises(VibrapolError, match="Dask cluster lost a task.*KilledWorker"):
+        run_tasks([job, job], ["k1", "k2"], ["a", "b"], backend)

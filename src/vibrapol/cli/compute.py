@@ -23,6 +23,7 @@ from vibrapol.engine.compute import (
     engine_settings,
     run_batch,
 )
+from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD
 from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import check_writable
 from vibrapol.sources.modes_json import write_modes_json
@@ -44,10 +45,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         f"of them ({', '.join(STRUCTURE_SUFFIXES)})",
     )
     parser.add_argument(
-        "--method", default="hf", help="'hf' or a DFT functional such as b3lyp, pbe0 (default: hf)"
+        "--method",
+        default=DEFAULT_METHOD,
+        help=f"'hf' or a DFT functional such as b3lyp, pbe0 (default: {DEFAULT_METHOD})",
     )
     parser.add_argument(
-        "--basis", default="6-31g*", help="basis set name known to PySCF (default: 6-31g*)"
+        "--basis",
+        default=DEFAULT_BASIS,
+        help=f"basis set name known to PySCF (default: {DEFAULT_BASIS})",
     )
     parser.add_argument("--charge", type=int, default=0, help="total charge (default: 0)")
     parser.add_argument(

@@ -25,7 +25,7 @@ from vibrapol.engine.displacements import check_step
 from vibrapol.engine.fieldplan import DEFAULT_FIELD_AU
 from vibrapol.engine.prepare import EngineSettings
 from vibrapol.engine.routes import ROUTES, normalize_route
-from vibrapol.engine.scf import MethodSpec
+from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, MethodSpec
 from vibrapol.errors import ShapeError
 from vibrapol.modeset import ModeSet
 
@@ -50,8 +50,8 @@ DEFAULT_STEP_ANG = 0.005
 
 
 def engine_settings(
-    method: str = "hf",
-    basis: str = "sto-3g",
+    method: str = DEFAULT_METHOD,
+    basis: str = DEFAULT_BASIS,
     *,
     charge: int = 0,
     multiplicity: int = 1,
@@ -74,8 +74,8 @@ def engine_settings(
 
 def run_engine(
     atoms: Any,
-    method: str = "hf",
-    basis: str = "sto-3g",
+    method: str = DEFAULT_METHOD,
+    basis: str = DEFAULT_BASIS,
     *,
     charge: int = 0,
     multiplicity: int = 1,
@@ -121,8 +121,8 @@ def run_engine(
 
 def compute_modes(
     atoms: Any,
-    method: str = "hf",
-    basis: str = "sto-3g",
+    method: str = DEFAULT_METHOD,
+    basis: str = DEFAULT_BASIS,
     *,
     charge: int = 0,
     multiplicity: int = 1,

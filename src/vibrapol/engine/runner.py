@@ -206,6 +206,25 @@ def _run_on_executor(jobs, todo, backend: Backend, finish, fail) -> None:  # noq
             "the `if __name__ == '__main__':` guard that process pools need); rerun to resume from "
             "the checkpoint, or use one worker"
         ) from exc
+    except Exception as exc:
+        if not _is_cluster_failure(exc):
+            raise
+        raise VibrapolError(
+            f"the Dask cluster lost a task ({type(exc).__name__}); workers died or the "
+            "connection dropped (often memory: give each worker more, or run fewer per machine); "
+            "rerun to resume from the checkpoint"
+        ) from exc
     finally:
         for future in pending:
             future.cancel()
+
+
+def _is_cluster_failure(exc: BaseException) -> bool:
+    """True for the errors by which Dask reports lost workers or a dropped scheduler."""
+    try:
+        from distributed import KilledWorker
+        from distributed.client import FutureCancelledError
+        from distributed.comm.core import CommClosedError
+    except ImportError:  # pragma: no cover - a declared dependency
+        return False
+    return isinstance(exc, KilledWorker | CommClosedError | FutureCancelledError)

@@ -35,6 +35,11 @@ class EngineConvergenceError(VibrapolError, RuntimeError):
     """A self-consistent-field or optimisation run did not converge."""
 
 
+#: Defaults of the engine, shared by the command line and the Python API.
+DEFAULT_METHOD = "hf"
+DEFAULT_BASIS = "6-31g*"
+
+
 @dataclass(frozen=True)
 class MethodSpec:
     """Electronic-structure model of a calculation.

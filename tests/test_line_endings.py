@@ -1,7 +1,8 @@
 """Files written on other systems read exactly like the originals.
 
-Windows line endings (CRLF), old Mac ones (CR), a UTF-8 byte-order mark and a Latin-1 byte in
-a comment are not bad input: every reader must give the same result as for the file itself.
+Windows line endings (CRLF), old Mac ones (CR), a UTF-8 byte-order mark, UTF-16 text with its
+byte-order mark (little- or big-endian) and a Latin-1 byte in a comment are not bad input:
+every reader must give the same result as for the file itself.
 The reference of each check is the same file with Unix line endings and plain UTF-8 (the
 fixtures of tests/fixtures, all of our own, and the real outputs of ../shared/qc-outputs).
 """
@@ -23,6 +24,9 @@ VARIANTS = {
     "crlf": lambda b: b.replace(b"\n", b"\r\n"),
     "cr": lambda b: b.replace(b"\n", b"\r"),
     "utf8-bom": lambda b: b"\xef\xbb\xbf" + b,
+    # "Unicode" text as some Windows programs save it: UTF-16 with a byte-order mark
+    "utf16": lambda b: b"\xff\xfe" + b.decode("utf-8").encode("utf-16-le"),
+    "utf16-be": lambda b: b"\xfe\xff" + b.decode("utf-8").encode("utf-16-be"),
     # a Latin-1 "é" at the end of the first line (a title or comment in every fixture)
     "latin1": lambda b: b.replace(b"\n", b" \xe9\n", 1),
 }
@@ -56,7 +60,7 @@ def test_quantum_chemistry_outputs(name, variant, tmp_path, capsys):
     assert _table_csv(changed, capsys) == expected
 
 
-@pytest.mark.parametrize("variant", ["crlf", "utf8-bom"])
+@pytest.mark.parametrize("variant", ["crlf", "utf8-bom", "utf16"])
 def test_modes_json(variant, tmp_path, capsys):
     original = PROJECT_ROOT / "examples" / "water.modes.json"
     changed = tmp_path / "water.modes.json"
@@ -109,7 +113,7 @@ def test_match_with_windows_line_endings(tmp_path, capsys):
     assert results["lf"].count("\n") == 8  # header, six fundamentals and the overtone
 
 
-@pytest.mark.parametrize("variant", ["crlf", "cr", "utf8-bom"])
+@pytest.mark.parametrize("variant", ["crlf", "cr", "utf8-bom", "utf16", "utf16-be"])
 def test_structure_files(variant, tmp_path, capsys):
     xyz = b"3\nwater\nO 0.0 0.0 0.1173\nH 0.0 0.7572 -0.4692\nH 0.0 -0.7572 -0.4692\n"
     reports = []

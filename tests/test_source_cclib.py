@@ -176,3 +176,13 @@ def test_real_gaussian_cli_table(capsys):
     # Raman Activ 1064.0059 printed for the strongest band; the CSV keeps 6 significant digits
     assert max(float(r["activity"]) for r in rows) == pytest.approx(1064.0059, rel=5e-6)
     assert all(r["rho_linear"] == "" and r["a2"] == "" for r in rows)
+
+
+def test_utf16_copy_reads_like_the_original(tmp_path):
+    # cclib gets the text vibrapol decoded, so a UTF-16 copy (with its byte-order mark, as
+    # Windows programs save "Unicode" text) gives the same numbers as the UTF-8 original.
+    copy = tmp_path / "co2_utf16.out"
+    copy.write_bytes(QCHEM_CO2.read_text(encoding="utf-8").encode("utf-16"))
+    ms, back = read_cclib(QCHEM_CO2), read_cclib(copy)
+    np.testing.assert_array_equal(back.freqs_cm1, ms.freqs_cm1)
+    np.testing.assert_array_equal(back.activity, ms.activity)

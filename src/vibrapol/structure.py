@@ -73,13 +73,19 @@ def check_structure(
         )
 
 
+_BOMS = (codecs.BOM_UTF8, codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE, codecs.BOM_UTF32_BE)
+
+
 def _ase_read(path: Path):  # noqa: ANN202
     import ase.io
     from ase.io.formats import filetype
 
+    from vibrapol.sources.registry import decode_text
+
     data = path.read_bytes()
-    if data.startswith(codecs.BOM_UTF8):  # ase's text readers trip over the byte-order mark
-        return ase.io.read(io.StringIO(data.decode("utf-8-sig")), format=filetype(str(path)))
+    if data.startswith(_BOMS):  # ase's text readers trip over byte-order marks and UTF-16
+        text = decode_text(data, str(path))
+        return ase.io.read(io.StringIO(text), format=filetype(str(path), read=False))
     return ase.io.read(str(path))
 
 
@@ -101,7 +107,7 @@ def read_structure(path: str | Path):  # noqa: ANN201
     try:
         atoms = _ase_read(p)
     except Exception as exc:  # ase raises many kinds for files it cannot parse
-        # An empty, text-less or UTF-16 file gets the one-line error every reader gives
+        # An empty or text-less file gets the one-line error every reader gives
         # (binary formats ase knows, such as .traj, are read above and never get here).
         read_text(p)
         reason = str(exc).strip().splitlines()[0] if str(exc).strip() else ""

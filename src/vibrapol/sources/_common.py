@@ -6,7 +6,6 @@ import io
 import re
 import warnings
 from collections.abc import Iterable, Iterator
-from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -192,9 +191,12 @@ def atomic_numbers_from_symbols(symbols: Iterable[str], where: str) -> np.ndarra
 
 
 def parse_with_cclib(
-    parser: str, path: Path, where: str, *, required: Iterable[str], hint: str
+    parser: str, text: str, where: str, *, required: Iterable[str], hint: str
 ) -> Any:
-    """Parse ``path`` with cclib's parser class ``parser`` (e.g. ``"GAMESS"``).
+    """Parse ``text`` (the file ``where``, decoded) with cclib's parser class ``parser``.
+
+    ``parser`` is a class name such as ``"GAMESS"``; ``text`` comes from :func:`read_text`, so
+    any encoding and line ending it takes reaches cclib as plain text.
 
     cclib's log is kept in a buffer, not printed on the user's terminal.  A file that ends in
     the middle of a block (cclib only logs "end of logfile" then), any exception cclib raises,
@@ -210,7 +212,7 @@ def parse_with_cclib(
 
     log = io.StringIO()
     try:
-        data = getattr(cclib.parser, parser)(str(path), logstream=log).parse()
+        data = getattr(cclib.parser, parser)(io.StringIO(text, newline=None), logstream=log).parse()
     except Exception as exc:  # cclib raises assorted errors on damaged files
         raise InputFormatError(
             f"{where}: cclib could not parse it ({type(exc).__name__}); is the output complete?"

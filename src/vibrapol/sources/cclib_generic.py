@@ -26,6 +26,7 @@ warning and a provenance note.
 
 from __future__ import annotations
 
+import io
 import logging
 import warnings
 from pathlib import Path
@@ -62,7 +63,8 @@ def _parse(path: Path) -> Any:
     import cclib
 
     where = str(path)
-    program = _cclib_program(read_text(path)[:SNIFF_CHARS])  # also: our errors for bad files
+    text = read_text(path)  # also: our errors for bad files, and UTF-16 decoded
+    program = _cclib_program(text[:SNIFF_CHARS])
     if program is None:
         raise InputFormatError(
             f"{where}: cclib does not recognise the program that wrote this file"
@@ -70,7 +72,7 @@ def _parse(path: Path) -> Any:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         try:
-            data = cclib.io.ccread(where, loglevel=logging.CRITICAL)
+            data = cclib.io.ccread(io.StringIO(text, newline=None), loglevel=logging.CRITICAL)
         except Exception as exc:  # cclib raises anything from IndexError to StopIteration
             own = program.lower()
             hint = (

@@ -274,10 +274,11 @@ def read_dalton(path: str | Path) -> ModeSet:
         Raman table beyond print precision.
     """
     where = str(path)
-    lines = read_text(path).splitlines()
+    text = read_text(path)
+    lines = text.splitlines()
     freqs = read_frequencies(lines, where)
     data = parse_with_cclib(
-        "DALTON", Path(path), where, required=("atomnos", "atomcoords"), hint="truncated output?"
+        "DALTON", text, where, required=("atomnos", "atomcoords"), hint="truncated output?"
     )
     z = np.asarray(data.atomnos, dtype=int)
     disps = read_normal_coordinates(lines, len(freqs), len(z), where)

@@ -276,11 +276,12 @@ def read_firefly(path: str | Path) -> ModeSet:
         disagree with the printed ones beyond print precision.
     """
     where = str(path)
-    lines = read_text(path).splitlines()
+    text = read_text(path)
+    lines = text.splitlines()
     table = read_mode_table(lines, where)
     data = parse_with_cclib(
         "GAMESS",
-        Path(path),
+        text,
         where,
         required=("atomnos", "atomcoords", "vibfreqs", "vibdisps"),
         hint="truncated output, or not a frequency job?",

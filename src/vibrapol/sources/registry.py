@@ -48,18 +48,48 @@ def readers() -> dict[str, Reader]:
     return dict(_READERS)
 
 
-#: Byte-order marks of the encodings vibrapol does not read (UTF-32 first: its LE mark starts
-#: with the UTF-16 LE one).
-_OTHER_BOMS = {
-    b"\xff\xfe\x00\x00": "UTF-32",
-    b"\x00\x00\xfe\xff": "UTF-32",
-    b"\xff\xfe": "UTF-16",
-    b"\xfe\xff": "UTF-16",
-}
+#: Byte-order marks of the wider Unicode encodings (UTF-32 first: its LE mark starts with the
+#: UTF-16 LE one).  Text with one of them is decoded (the mark is dropped); some Windows
+#: programs save "Unicode" text this way.
+_WIDE_BOMS = (
+    (b"\xff\xfe\x00\x00", "utf-32"),
+    (b"\x00\x00\xfe\xff", "utf-32"),
+    (b"\xff\xfe", "utf-16"),
+    (b"\xfe\xff", "utf-16"),
+)
+
+
+def decode_text(data: bytes, where: str) -> str:
+    """Bytes of a text file as str: UTF-16/32 with a byte-order mark, UTF-8, else Latin-1.
+
+    Raises
+    ------
+    InputFormatError
+        For NUL bytes without a byte-order mark (binary, or UTF-16 without its mark) and for
+        UTF-16/32 text that does not decode.
+    """
+    for bom, encoding in _WIDE_BOMS:
+        if data.startswith(bom):
+            try:
+                return data.decode(encoding)  # these codecs consume the mark
+            except UnicodeDecodeError as exc:
+                raise InputFormatError(
+                    f"{where}: starts with a {encoding.upper()} byte-order mark but is not "
+                    f"{encoding.upper()} text (byte {exc.start}); save it as UTF-8"
+                ) from None
+    if b"\x00" in data[:SNIFF_CHARS]:
+        raise InputFormatError(
+            f"{where}: contains NUL bytes: a binary file, or UTF-16/UTF-32 text without a "
+            "byte-order mark; expected UTF-8 text"
+        )
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
 
 
 def read_text(path: str | Path) -> str:
-    """Read a text file: UTF-8 (a byte-order mark is dropped), else Latin-1; any line endings.
+    """Read a text file in any encoding :func:`decode_text` takes, with any line endings.
 
     Line endings are left as they are: every reader splits with ``str.splitlines``, which
     takes LF, CRLF and CR alike.
@@ -67,7 +97,7 @@ def read_text(path: str | Path) -> str:
     Raises
     ------
     InputFormatError
-        For missing, unreadable, empty or binary files, and for UTF-16/UTF-32 text.
+        For missing, unreadable, empty or binary files.
     """
     p = Path(path)
     if not p.exists():
@@ -78,20 +108,7 @@ def read_text(path: str | Path) -> str:
         data = p.read_bytes()
     except OSError as exc:
         raise InputFormatError(f"{p}: cannot be read ({exc.strerror or exc})") from exc
-    for bom, encoding in _OTHER_BOMS.items():
-        if data.startswith(bom):
-            raise InputFormatError(
-                f"{p}: text in {encoding}; save it as UTF-8 (or plain ASCII) and try again"
-            )
-    if b"\x00" in data[:SNIFF_CHARS]:
-        raise InputFormatError(
-            f"{p}: contains NUL bytes: a binary file, or UTF-16/UTF-32 text without a "
-            "byte-order mark; expected UTF-8 text"
-        )
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = data.decode("latin-1")
+    text = decode_text(data, str(p))
     if not text.strip():
         raise InputFormatError(f"{p}: file is empty")
     return text

@@ -153,3 +153,15 @@ def test_tex_escape_of_free_text():
     from vibrapol.report import tex_escape
 
     assert tex_escape("a_b & c%{d}") == "a\\_b \\& c\\%\\{d\\}"
+
+
+def test_band_tables_leave_out_imaginary_modes():
+    # An imaginary mode (printed as a negative wavenumber) means the structure is not a
+    # minimum; it is no band of a spectrum, and the caption says it was left out.
+    from test_modeset import small_modeset
+    from vibrapol.ramantable import raman_table
+    from vibrapol.report import band_rows, table_markdown
+
+    table = raman_table(small_modeset())  # modes at −50, 1600 and 3800 cm⁻¹
+    assert [round(r["wavenumber_cm1"]) for r in band_rows(table)] == [1600, 3800]
+    assert "1 imaginary mode omitted" in table_markdown(table)

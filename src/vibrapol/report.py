@@ -222,12 +222,15 @@ def band_rows(
     A band is a degenerate set counted once: wavenumber (scaled when ``scale`` is given),
     species, number of degenerate modes, activity summed over them, ρ (linear; None when
     Raman-inactive or unknown) and ``polarized``.  Raman-inactive bands (by their species, or
-    with zero polarizability derivative) are left out unless ``include_inactive``.
+    with zero polarizability derivative) are left out unless ``include_inactive``; imaginary
+    modes (negative wavenumbers: not a minimum) always are.
     """
     rows = []
     for members in table.sets():
         k = members[0]
         freq = float(table.freqs_cm1[k])
+        if freq < 0.0:
+            continue
         if scale is not None:
             freq = float(scale.apply(np.array([freq]))[0])
         rho = float(table.rho_linear[k])
@@ -255,6 +258,9 @@ def _caption_parts(table: RamanTable, scale: FrequencyScale | None) -> tuple[str
     h = _header(table)
     what = " ".join(x for x in (h["program"], h["method"]) if x) or h["source"]
     how = "unscaled" if scale is None else scale.describe()
+    n_imag = int(np.sum(table.freqs_cm1 < 0.0))
+    if n_imag:
+        how += f"; {n_imag} imaginary mode{'s' if n_imag > 1 else ''} omitted"
     return what, how, h["point_group"]
 
 

@@ -74,6 +74,38 @@ def test_match_writes_csv_and_figure(chcl3_files, tmp_path, capsys):
     assert svg.startswith("<?xml") and "measured VV" in svg
 
 
+def test_match_writes_paper_tables(chcl3_files, tmp_path, capsys):
+    # Markdown and LaTeX tables of the same assignment: one row per measured band, species of
+    # each published CHCl3 fundamental (Shimanouchi 1972, from memory) and the overtone left
+    # unassigned; the invented measured ρ of ν2 (0.05) carries its standard error.
+    vv, vh = chcl3_files
+    md, tex = tmp_path / "assignment.md", tmp_path / "assignment.tex"
+    code = main(["match", str(CHCL3_MODES), "--vv", str(vv), "--vh", str(vh), "--laser-nm",
+                 "532", "--table", str(md), "--table", str(tex)])  # fmt: skip
+    assert code == 0
+    capsys.readouterr()
+    body = [line.split("|")[1:-1] for line in md.read_text().splitlines() if line[:2] == "| "]
+    cells = {round(float(r[0])): [c.strip() for c in r] for r in body[1:]}
+    assert len(cells) == 7
+    for f in CHCL3:
+        assert cells[round(f.position_cm1)][2] == f.species
+    assert cells[round(CHCL3_OVERTONE.position_cm1)][3] == "unassigned"
+    rho, err = cells[680][1].split(" ± ")
+    assert float(rho) == pytest.approx(0.05, abs=0.01) and 0.0 < float(err) < 0.05
+    text = tex.read_text()
+    rows_tex = [r for r in text.splitlines() if r.rstrip().endswith("\\\\")][1:]
+    assert len(rows_tex) == 7 and sum("$E$" in r for r in rows_tex) == 3
+    assert "\\toprule" in text and "$\\pm$" in text
+
+
+def test_match_refuses_an_unknown_table_suffix(chcl3_files, tmp_path, capsys):
+    vv, _ = chcl3_files
+    code = main(["match", str(CHCL3_MODES), "--vv", str(vv), "--table", str(tmp_path / "t.docx")])
+    assert code == 2
+    assert "table files must end in .md or .tex" in capsys.readouterr().err
+    assert not (tmp_path / "t.docx").exists()
+
+
 def test_match_single_two_column_file_and_fixed_scale(chcl3_files, tmp_path, capsys):
     vv, vh = chcl3_files
     both = tmp_path / "both.txt"

@@ -91,6 +91,21 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--figure", metavar="FILE", action="append", default=[],
         help="match figure (.svg, .pdf or .png); repeat for several formats",
     )  # fmt: skip
+    parser.add_argument(
+        "--table", metavar="FILE", action="append", default=[],
+        help="assignment table for a paper: .md (Markdown) or .tex (LaTeX, booktabs); repeat "
+        "for both",
+    )  # fmt: skip
+
+
+def table_writer(path: str):  # noqa: ANN201
+    """The paper-table writer for a file from its suffix."""
+    from vibrapol.compare.output import PAPER_TABLES
+
+    suffix = "." + path.rsplit(".", 1)[-1].lower() if "." in path else ""
+    if suffix not in PAPER_TABLES:
+        raise VibrapolError(f"{path}: table files must end in .md or .tex")
+    return PAPER_TABLES[suffix]
 
 
 def figure_format(path: str) -> str:
@@ -161,9 +176,10 @@ def run(args: argparse.Namespace) -> int:
     from vibrapol.compare import assign, candidate_from_modes
     from vibrapol.compare.output import assignment_csv, assignment_summary
 
-    outputs = [p for p in [args.output, *args.figure] if p]
+    outputs = [p for p in [args.output, *args.figure, *args.table] if p]
     check_outputs(args, outputs)
     formats = [figure_format(p) for p in args.figure]
+    writers = [table_writer(p) for p in args.table]
     opts = assign_options(args)
     modes = read_modes(args.source, kind=args.kind)
     pair, bands = measure(args)
@@ -175,6 +191,7 @@ def run(args: argparse.Namespace) -> int:
     files: list[tuple[str, str | bytes]] = []
     if args.output:
         files.append((args.output, assignment_csv(result)))
+    files += [(p, write(result)) for p, write in zip(args.table, writers, strict=True)]
     if args.figure:
         from vibrapol.plotting_match import match_figure
         from vibrapol.plotting_style import figure_bytes

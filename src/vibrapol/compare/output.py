@@ -1,10 +1,11 @@
-"""Assignments and rankings as CSV and text (for ``vibrapol match`` and ``vibrapol rank``)."""
+"""Assignments and rankings as CSV, text, Markdown and LaTeX (``vibrapol match`` and ``rank``)."""
 
 from __future__ import annotations
 
 import csv
 import io
 import math
+import os
 
 from vibrapol.compare.ranking import Ranking
 from vibrapol.compare.results import Assignment
@@ -90,6 +91,90 @@ def assignment_summary(assignment: Assignment) -> str:
             "the position tolerance (--position-tolerance) or check the scale factor"
         )
     return "\n".join(lines) + "\n"
+
+
+def _paper_rows(assignment: Assignment) -> list[tuple[str, str, str, str, str, str]]:
+    """(measured ν, measured ρ ± err, species, scaled computed ν, computed ρ, Δ) per band."""
+    rows = []
+    for b in assignment.bands:
+        rho = _fmt(b.band_rho)
+        if math.isfinite(b.band_rho) and math.isfinite(b.band_rho_err):
+            rho += f" ± {b.band_rho_err:.3f}"
+        assigned = bool(b.mode)
+        rows.append(
+            (
+                f"{b.band_cm1:.0f}",
+                rho,
+                b.irrep or ("?" if assigned else "–"),
+                _fmt(b.mode_cm1_scaled, ".0f") if assigned else "unassigned",
+                _fmt(b.mode_rho) if assigned else "",
+                _fmt(b.delta_cm1, "+.0f") if assigned else "",
+            )
+        )
+    return rows
+
+
+def _paper_caption(assignment: Assignment) -> str:
+    s = assignment.scores
+    return (
+        f"Assignment of the measured Raman bands to {os.path.basename(assignment.label)} "
+        f"({assignment.scale.describe()}); {s.n_assigned} of {s.n_bands} bands assigned, "
+        f"rms deviation {_fmt(s.rms_cm1, '.1f')} cm⁻¹, overall score {s.overall:.2f}; "
+        "ρ measured with its standard error, Δ = measured − computed."
+    )
+
+
+def assignment_markdown(assignment: Assignment) -> str:
+    """The assignment as a Markdown (pipe) table for a paper or a lab notebook."""
+    lines = [
+        _paper_caption(assignment),
+        "",
+        "| ν̃ meas. / cm⁻¹ | ρ meas. | species | ν̃ calc. / cm⁻¹ | ρ calc. | Δ / cm⁻¹ |",
+        "|---:|---:|:---|---:|---:|---:|",
+    ]
+    lines += ["| " + " | ".join(row) + " |" for row in _paper_rows(assignment)]
+    return "\n".join(lines) + "\n"
+
+
+def assignment_latex(assignment: Assignment) -> str:
+    r"""The assignment as a booktabs LaTeX table (needs ``\usepackage{booktabs}``)."""
+    from vibrapol.report import latex_species, tex_escape
+
+    caption = (
+        tex_escape(_paper_caption(assignment))
+        .replace("cm⁻¹", "cm$^{-1}$")
+        .replace("ρ", r"$\rho$")
+        .replace("Δ", r"$\Delta$")
+        .replace("±", r"$\pm$")
+        .replace("−", "$-$")
+    )
+    body = []
+    for meas, rho, species, calc, rho_calc, delta in _paper_rows(assignment):
+        tex_species = species if species in ("?", "–") else latex_species(species)
+        cells = [meas, rho.replace("±", r"$\pm$"), tex_species.replace("–", "--"), calc]
+        delta = delta.replace("+", "$+$").replace("-", "$-$")
+        body.append("  " + " & ".join([*cells, rho_calc, delta]) + r" \\")
+    return "\n".join(
+        [
+            r"\begin{table}",
+            rf"\caption{{{caption}}}",
+            r"\begin{tabular}{rrlrrr}",
+            r"\toprule",
+            r"$\tilde\nu_\mathrm{meas}$ / cm$^{-1}$ & $\rho_\mathrm{meas}$ & species & "
+            r"$\tilde\nu_\mathrm{calc}$ / cm$^{-1}$ & $\rho_\mathrm{calc}$ & "
+            r"$\Delta$ / cm$^{-1}$ \\",
+            r"\midrule",
+            *body,
+            r"\bottomrule",
+            r"\end{tabular}",
+            r"\end{table}",
+            "",
+        ]
+    )
+
+
+#: Paper-table writers by file ending.
+PAPER_TABLES = {".md": assignment_markdown, ".tex": assignment_latex}
 
 
 def ranking_text(ranking: Ranking) -> str:

@@ -165,3 +165,20 @@ def test_band_tables_leave_out_imaginary_modes():
     table = raman_table(small_modeset())  # modes at −50, 1600 and 3800 cm⁻¹
     assert [round(r["wavenumber_cm1"]) for r in band_rows(table)] == [1600, 3800]
     assert "1 imaginary mode omitted" in table_markdown(table)
+
+
+def test_band_table_with_a_published_scale_factor(capsys):
+    # The HF/6-31G(d) factor 0.8953 (Scott & Radom 1996, from memory) times the harmonic
+    # wavenumbers of the CSV table; the caption names the factor.
+    assert main(["table", str(EXAMPLE), "--format", "csv"]) == 0
+    harmonic = [float(r[1]) for r in list(csv.reader(io.StringIO(capsys.readouterr().out)))[1:]]
+    assert main(["table", str(EXAMPLE), "--format", "markdown", "--scale-for", "HF/6-31G*"]) == 0
+    text = capsys.readouterr().out
+    scaled = [float(r[0]) for r in _pipe_rows(text)]
+    assert scaled == [round(0.8953 * f) for f in harmonic]
+    assert "scaled by 0.8953" in text.splitlines()[0]
+
+
+def test_scale_with_a_per_mode_format_is_refused(capsys):
+    assert main(["table", str(EXAMPLE), "--format", "csv", "--scale", "0.9"]) == 2
+    assert "apply to the band tables" in capsys.readouterr().err

@@ -60,6 +60,23 @@ def parse_floats(text: str, what: str) -> list[float]:
     return values
 
 
+def add_scale_arguments(parser: argparse.ArgumentParser) -> None:
+    """``--scale``/``--scale-for`` and the two-region ``--scale-high``/``--split-cm1``."""
+    scale = parser.add_mutually_exclusive_group()
+    scale.add_argument("--scale", type=float, metavar="F", help="multiply all wavenumbers by F")
+    scale.add_argument(
+        "--scale-for",
+        metavar="METHOD/BASIS",
+        help="published factor for fundamentals, e.g. B3LYP/6-31G* (see vibrapol.scaling)",
+    )
+    parser.add_argument(
+        "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
+    )
+    parser.add_argument(
+        "--split-cm1", type=float, metavar="X", help="wavenumber where --scale-high starts"
+    )
+
+
 def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
     """Options shared by ``spectrum`` and ``sweep``: source kind, conditions, scaling."""
     parser.add_argument(
@@ -81,19 +98,7 @@ def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
         help="stick height: Raman activity, relative intensity at the laser and temperature "
         "(default), or absolute differential cross section in cm^2/sr",
     )
-    scale = parser.add_mutually_exclusive_group()
-    scale.add_argument("--scale", type=float, metavar="F", help="multiply all wavenumbers by F")
-    scale.add_argument(
-        "--scale-for",
-        metavar="METHOD/BASIS",
-        help="published factor for fundamentals, e.g. B3LYP/6-31G* (see vibrapol.scaling)",
-    )
-    parser.add_argument(
-        "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
-    )
-    parser.add_argument(
-        "--split-cm1", type=float, metavar="X", help="wavenumber where --scale-high starts"
-    )
+    add_scale_arguments(parser)
     parser.add_argument(
         "--degeneracy-tol-cm1",
         type=float,

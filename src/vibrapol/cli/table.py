@@ -5,7 +5,9 @@ from __future__ import annotations
 import argparse
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli.spectrum import add_scale_arguments, scale_from_args
 from vibrapol.cli.symmetry import add_symmetry_arguments
+from vibrapol.errors import VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.ramantable import raman_table, symmetry_table
 from vibrapol.report import FORMATTERS
@@ -36,12 +38,26 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="do not label the modes by symmetry; degenerate sets from frequencies alone",
     )
     add_symmetry_arguments(parser)
+    add_scale_arguments(parser)
     add_output_arguments(parser, "table")
+
+
+#: Formats with one row per band, which may show scaled wavenumbers.
+BAND_FORMATS = ("markdown", "latex")
 
 
 def run(args: argparse.Namespace) -> int:
     """Read the source, compute the table, print or write it."""
     check_output(args)
+    scaled = any(
+        getattr(args, n) is not None for n in ("scale", "scale_for", "scale_high", "split_cm1")
+    )
+    if scaled and args.format not in BAND_FORMATS:
+        raise VibrapolError(
+            "--scale, --scale-for, --scale-high and --split-cm1 apply to the band tables "
+            "(--format markdown or latex); the per-mode formats list harmonic wavenumbers"
+        )
+    scale = scale_from_args(args) if scaled else None
     modes = read_modes(args.source, kind=args.kind)
     if args.no_symmetry:
         table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
@@ -52,5 +68,8 @@ def run(args: argparse.Namespace) -> int:
             symmetrize=args.symmetrize,
             degeneracy_tol_cm1=args.degeneracy_tol_cm1,
         )
-    emit(args, FORMATTERS[args.format](table))
+    if args.format in BAND_FORMATS:
+        emit(args, FORMATTERS[args.format](table, scale))
+    else:
+        emit(args, FORMATTERS[args.format](table))
     return 0

@@ -109,6 +109,30 @@ def test_python_dash_m_runs_the_command_line():
     assert done.returncode == 0 and done.stdout.startswith("mode,frequency_cm1,")
 
 
+def test_closed_stdout_pipe_ends_quietly():
+    # `vibrapol table … | head -0`: the reader is gone before anything is written.  The read
+    # end of the pipe is closed before the command starts, so its first write fails for sure
+    # (no race); the command must stop with status 1 and print no traceback.
+    import os
+    import subprocess
+    import sys
+
+    read_end, write_end = os.pipe()
+    os.close(read_end)
+    try:
+        done = subprocess.run(
+            [sys.executable, "-m", "vibrapol", "table", str(EXAMPLE), "--format", "csv"],
+            stdout=write_end,
+            stderr=subprocess.PIPE,
+            text=True,
+            check=False,
+        )
+    finally:
+        os.close(write_end)
+    assert done.returncode == 1
+    assert "Traceback" not in done.stderr and "BrokenPipe" not in done.stderr
+
+
 def _pipe_rows(text):
     return [line.split("|")[1:-1] for line in text.splitlines() if line.startswith("| ")][1:]
 

@@ -365,6 +365,14 @@ def _geometry(
     return z, coords, masses, "as printed by ORCA (CARTESIAN COORDINATES (A.U.), 3 decimals)"
 
 
+def _check_not_cut_at_a_title(lines: list[str], where: str) -> None:
+    """A file whose last line is the bare title of a block ORCA prints was cut there."""
+    last = next((line.strip() for line in reversed(lines) if line.strip()), "")
+    for title in ("VIBRATIONAL FREQUENCIES", "NORMAL MODES", "RAMAN SPECTRUM"):
+        if last == title:
+            raise truncated_error(where, f"the file ends at the title of the {title} block")
+
+
 def _raman_invariants(
     lines: list[str], ftitle: int, vib: np.ndarray, freqs_all: np.ndarray, where: str
 ) -> tuple[np.ndarray | None, np.ndarray | None, list[str]]:
@@ -415,6 +423,7 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
         When the output has no frequency block, or a block is truncated or garbled.
     """
     lines = text.splitlines()
+    _check_not_cut_at_a_title(lines, where)
     freq_titles = find_titles(lines, "VIBRATIONAL FREQUENCIES")
     if not freq_titles:
         raise InputFormatError(

@@ -73,8 +73,8 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
     )  # fmt: skip
     parser.add_argument(
         "--position-tolerance", type=float, metavar="REL",
-        help="relative position tolerance σ/ν̃ of the cost (default 0.02; 0.03 for low levels "
-        "such as HF/3-21G)",
+        help="relative position tolerance σ/ν̃ of the cost (default 0.02; match: 0.03 for "
+        "STO-3G and 3-21G results)",
     )  # fmt: skip
     parser.add_argument(
         "--no-symmetry", action="store_true", help="do not look for the point group"
@@ -187,6 +187,11 @@ def run(args: argparse.Namespace) -> int:
         modes, laser_nm=laser_nm(args), temperature_k=args.temperature_k,
         symmetry=not args.no_symmetry,
     )  # fmt: skip
+    level_note = ""
+    if "model" not in opts:
+        from vibrapol.compare.costs import model_for_basis
+
+        opts["model"], level_note = model_for_basis(modes.provenance.basis)
     result = assign(cand, bands, pair=pair, **opts)  # type: ignore[arg-type]
     files: list[tuple[str, str | bytes]] = []
     if args.output:
@@ -202,6 +207,8 @@ def run(args: argparse.Namespace) -> int:
         write_atomic(path, data, force=args.force)
         print(f"wrote {path}", file=sys.stderr)
     text = assignment_summary(result)
+    if level_note:
+        text += f"note: {level_note}\n"
     if args.laser_nm is None:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
     if not args.output:

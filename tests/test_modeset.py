@@ -66,6 +66,11 @@ def test_arrays_are_read_only_copies():
         ("dalpha_dx", np.zeros((9, 3)), r"dalpha_dx should be an array of shape \(9, 3, 3\)"),
         ("freqs_cm1", [1.0, np.nan, 2.0], "NaN"),
         ("masses_da", [16.0, -1.0, 1.0], "positive"),
+        (
+            "ir_intensity_km_mol",
+            [1.0, 2.0],
+            r"ir_intensity_km_mol should be an array of shape \(3,\)",
+        ),
         ("modes", np.ones((3, 9)), "orthonormal"),
     ],
 )
@@ -75,9 +80,10 @@ def test_shape_errors_say_what_was_expected(field, value, message):
 
 
 def test_json_round_trip_is_lossless(tmp_path):
-    ms = small_modeset(energy_hartree=-76.0123456789012)
+    ms = small_modeset(energy_hartree=-76.0123456789012, ir_intensity_km_mol=[0.5, 71.25, 3.0])
     path = write_modes_json(ms, tmp_path / "x.modes.json")
     back = read_modes(path)
+    assert back.ir_intensity_km_mol is not None  # contract: the IR column survives the file
     for f in dataclasses.fields(ModeSet):
         a, b = getattr(ms, f.name), getattr(back, f.name)
         if isinstance(a, np.ndarray):

@@ -140,6 +140,9 @@ class ModeSet:
         Raman activity S = 45a² + 7γ² in Å⁴ Da⁻¹, only for sources that give the activity but
         no depolarization ratio and no tensors (a² and γ² are then unknown, so is ρ).  Not
         allowed together with tensors or a², γ², which determine the activity themselves.
+    ir_intensity_km_mol : array, shape (n_modes,), optional
+        Infrared intensity of each mode in km mol⁻¹ as the source printed or computed it
+        (papers show IR and Raman side by side); ``None`` when unknown.
 
     Notes
     -----
@@ -160,6 +163,7 @@ class ModeSet:
     energy_hartree: float | None = None
     provenance: Provenance = field(default_factory=Provenance)
     activity: np.ndarray | None = None
+    ir_intensity_km_mol: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         set_ = object.__setattr__
@@ -215,6 +219,11 @@ class ModeSet:
             raise ShapeError(
                 "give activity only when a2, gamma2 and the tensors are unknown (they determine it)"
             )
+        set_(
+            self,
+            "ir_intensity_km_mol",
+            _optional(self.ir_intensity_km_mol, "ir_intensity_km_mol", (n_modes,)),
+        )
         set_(
             self,
             "polarizability_ang3",
@@ -292,7 +301,7 @@ class ModeSet:
         """A new ModeSet with only the given modes (in the given order)."""
         idx = np.asarray(indices, dtype=int)
         pick = {}
-        for name in ("dalpha_dq", "a2", "gamma2", "activity"):
+        for name in ("dalpha_dq", "a2", "gamma2", "activity", "ir_intensity_km_mol"):
             value = getattr(self, name)
             pick[name] = None if value is None else value[idx]
         return dataclasses.replace(

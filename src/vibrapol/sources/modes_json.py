@@ -33,6 +33,7 @@ _ARRAY_FIELDS = {
     "gamma2": "gamma2_ang4_per_da",
     "polarizability_ang3": "polarizability_ang3",
     "activity": "activity_ang4_per_da",
+    "ir_intensity_km_mol": "ir_intensity_km_mol",
 }
 
 

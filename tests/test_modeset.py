@@ -69,7 +69,7 @@ def test_arrays_are_read_only_copies():
         (
             "ir_intensity_km_mol",
             [1.0, 2.0],
-            r"ir_intensity_km_mol should be an array of shape \(3,\)",
+            r"ir_intensity_km_mol should be an array of shape \(3\)",
         ),
         ("modes", np.ones((3, 9)), "orthonormal"),
     ],

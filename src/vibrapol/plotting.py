@@ -22,7 +22,14 @@ from matplotlib.lines import Line2D
 from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
-from vibrapol.plotting_labels import CURVE_HEADROOM, place_labels
+from vibrapol.plotting_labels import (
+    CURVE_HEADROOM,
+    box_of,
+    fix_layout,
+    marker_box,
+    place_labels,
+    place_point_labels,
+)
 from vibrapol.plotting_style import (
     CHANNEL_NAMES,
     DASHES,
@@ -264,7 +271,7 @@ def depolarization_figure(
         fig = new_figure(figure_width(width), height_in)
         ax = fig.add_subplot()
         ax.axhline(limit, color="#555555", lw=0.7, ls=(0, (3, 2)), zorder=1)
-        ax.annotate(
+        limit_label = ax.annotate(
             f"ρ = {limit_text}",
             (1.0, limit),
             xycoords=("axes fraction", "data"),
@@ -299,21 +306,6 @@ def depolarization_figure(
                 label="depolarized",
             ),
         ]
-        order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]][
-            :label_count
-        ]
-        for i in order:
-            irrep = f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else ""
-            ax.annotate(
-                f"{pos[i]:.0f}{irrep}",
-                (pos[i], rho[i]),
-                xytext=(0.5 * math.sqrt(size[i]) + 2.5, 0),
-                textcoords="offset points",
-                ha="left",
-                va="center",
-                fontsize=LABEL_PT,
-                color="#333333",
-            )
         ax.set_xlim(lo - pad, hi + pad)
         ax.set_ylim(-0.03, 0.92 if kind == "linear" else 1.02)
         ax.spines["left"].set_bounds(0.0, 0.75 if kind == "linear" else 1.0)
@@ -328,6 +320,35 @@ def depolarization_figure(
             handletextpad=0.2,
             columnspacing=1.0,
             borderaxespad=0.1,
+        )
+        light = "linearly polarized" if kind == "linear" else "natural (unpolarized)"
+        ax.set_title(
+            f"ρ for {light} excitation, 90° scattering\nmarker area ∝ band strength (VV + VH)",
+            loc="left",
+            fontsize=LABEL_PT,
+            color="#333333",
+        )
+        renderer = fix_layout(fig)
+        px_per_pt = fig.dpi / 72.0
+        markers = [
+            marker_box(
+                *ax.transData.transform((pos[i], rho[i])), 0.5 * math.sqrt(size[i]) * px_per_pt
+            )
+            for i in np.flatnonzero(keep)
+        ]
+        order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]]
+        points = []
+        for i in order:
+            irrep = f" {format_irrep(sticks.irreps[i])}" if sticks.irreps[i] else ""
+            points.append((pos[i], rho[i], 0.5 * math.sqrt(size[i]), f"{pos[i]:.0f}{irrep}"))
+        place_point_labels(
+            fig,
+            ax,
+            points,
+            label_count,
+            extra_obstacles=[*markers, box_of(limit_label.get_window_extent(renderer))],
+            fontsize=LABEL_PT,
+            color="#333333",
         )
     return fig
 

@@ -5,23 +5,29 @@ point.  Lower half: the computed spectra at the fitted scale factor, broadened w
 median measured width, normalized the same way, with their sticks.  A thin line joins each
 measured band to the computed band assigned to it (solid, darker for higher confidence);
 measured bands left unassigned get an open marker, computed bands in range left unassigned
-a short grey tick.  Object API only, like :mod:`vibrapol.plotting`; returns the Figure.
+a short grey tick.  Measured bands with a ratio carry their ρ (with its standard error); the
+title says what was done to the measured spectra (spikes, baseline, cropping) as recorded in
+their notes.  Labels that would overlap are left out, weakest first.  Object API only, like
+:mod:`vibrapol.plotting`; returns the Figure.
 """
 
 from __future__ import annotations
 
 import dataclasses
 import math
+import textwrap
 import warnings
 
 import numpy as np
 from matplotlib import rc_context
 from matplotlib.figure import Figure
+from matplotlib.text import Text
 
 from vibrapol.compare.results import Assignment
 from vibrapol.compare.scores import DEFAULT_FWHM_CM1, measured_curves
 from vibrapol.lineshapes import LineShape
 from vibrapol.measured import PolarizedPair
+from vibrapol.plotting_labels import Box, box_of, fix_layout, place_point_labels
 from vibrapol.plotting_style import (
     DASHES,
     LABEL_PT,
@@ -105,7 +111,8 @@ def match_figure(
         for j in assignment.unassigned_sticks:
             if xlim[0] <= pos[j] <= xlim[1]:
                 ax.vlines(pos[j], GAP_LOW - 0.06, GAP_LOW, colors="#999999", lw=0.8)
-        for b in assignment.bands:
+        mode_labels = []
+        for b in sorted(assignment.bands, key=lambda b: -b.band_area):
             if not xlim[0] <= b.band_cm1 <= xlim[1]:
                 continue
             if b.assigned:
@@ -118,10 +125,10 @@ def match_figure(
                     text = b.mode.replace(" ", ",")
                     if b.irrep:
                         text += f" {format_irrep(b.irrep)}"
-                    ax.text(
+                    mode_labels.append(ax.text(
                         b.mode_cm1_scaled, -0.04, text, rotation=90, ha="center", va="top",
                         fontsize=LABEL_PT - 1, color="#333333",
-                    )  # fmt: skip
+                    ))  # fmt: skip
             else:
                 ax.plot(
                     [b.band_cm1], [GAP_HIGH], marker="o", mfc="none", mec="black", ms=3.5,
@@ -139,7 +146,55 @@ def match_figure(
             title
             if title is not None
             else f"{assignment.label}\n{s.n_assigned}/{s.n_bands} bands assigned, "
-            f"scale {factor:.4f}, score {s.overall:.2f}",
+            f"scale {factor:.4f}, score {s.overall:.2f}\n"
+            + textwrap.fill(cleaning_note(pair), int(15 * figure_width(width))),
             fontsize=8.0,
         )
+        curves = [(x, base + vv / norm_meas), (grid_x, calc_vv / norm_calc)]
+        if vh is not None:
+            curves.append((x, base + vh / norm_meas))
+        renderer = fix_layout(fig)
+        mode_labels = _drop_overlapping(mode_labels, renderer)
+        points = []
+        for b in sorted(assignment.bands, key=lambda b: -b.band_area):
+            if math.isfinite(b.band_rho) and xlim[0] <= b.band_cm1 <= xlim[1]:
+                digits = 3 if b.band_rho_err < 0.01 else 2
+                text = f"ρ {b.band_rho:.{digits}f}"
+                if math.isfinite(b.band_rho_err):
+                    text += f" ± {b.band_rho_err:.{digits}f}"
+                y = base + float(np.interp(b.band_cm1, x, vv)) / norm_meas
+                points.append((b.band_cm1, y, 1.0, text))
+        place_point_labels(
+            fig,
+            ax,
+            points,
+            len(points),
+            extra_obstacles=[box_of(t.get_window_extent(renderer)) for t in mode_labels],
+            first="above",
+            curves=curves,
+            fontsize=LABEL_PT - 1,
+            color="#333333",
+        )
     return fig
+
+
+def cleaning_note(pair: PolarizedPair | None) -> str:
+    """One line saying what was done to the measured spectra, from their notes."""
+    if pair is None:
+        return "measured: the fitted band model (no cleaned spectra given)"
+    notes = list(dict.fromkeys((*pair.vv.notes, *(pair.vh.notes if pair.vh else ()))))
+    return "measured: " + ("; ".join(notes) if notes else "as read, no cleaning recorded")
+
+
+def _drop_overlapping(texts: list[Text], renderer: object) -> list[Text]:
+    """Remove texts that overlap one kept earlier (``texts`` in priority order); the rest."""
+    kept: list[Text] = []
+    boxes: list[Box] = []
+    for t in texts:
+        b = box_of(t.get_window_extent(renderer))
+        if any(b.overlaps(k) for k in boxes):
+            t.remove()
+        else:
+            kept.append(t)
+            boxes.append(b)
+    return kept

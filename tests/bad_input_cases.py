@@ -138,7 +138,7 @@ TABLE_FILES = [
     ("cut-qchem-after-last-mode", "q3.out", cut(QCHEM, "Mode:                 4", 13),
      "ends inside the vibrational analysis"),
     ("cut-gaussian-log", "g.log", cut("gaussian_hood_raman.log", "Harmonic frequencies", 12, 0.5),
-     "normal-mode table cut short after mode 3"),
+     "normal-mode table cut short at line 40"),
     ("cut-gaussian-fchk", "g.fchk",
      cut("gaussian_hood_raman.fchk", "Polarizability Derivatives", 3, 0.5),
      "'Polarizability Derivatives' has 18 values, expected 72"),

@@ -29,10 +29,10 @@ from vibrapol.sources.gaussian import (
     PrintedModes,
     PrintPrecision,
     program_version,
-    read_job,
     square_from_lower_triangle,
     tensors_from_lower_triangle,
 )
+from vibrapol.sources.gaussian_build import read_job
 from vibrapol.sources.registry import Reader, register
 from vibrapol.units import BOHR_ANG
 

@@ -113,6 +113,8 @@ class GaussianJob:
         Printed fields that overflowed (``****``), as "<quantity> of mode <k>".
     messages : tuple of str
         Gaussian's own lines about failures ("Error termination ..."), passed on as warnings.
+    dipole_deriv_au : ndarray (3N, 3), optional
+        ∂μ/∂x in atomic units (e), row per coordinate, columns μx, μy, μz.
     """
 
     atomic_numbers: np.ndarray
@@ -129,6 +131,7 @@ class GaussianJob:
     projected: bool = False
     overflow: tuple[str, ...] = ()
     messages: tuple[str, ...] = ()
+    dipole_deriv_au: np.ndarray | None = None
 
 
 def program_version(text: str) -> tuple[str, str]:

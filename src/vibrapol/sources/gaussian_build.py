@@ -15,6 +15,7 @@ from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
+import scipy.constants as sc
 
 from vibrapol import invariants as inv
 from vibrapol.errors import AccuracyWarning, InputFormatError, ShapeError
@@ -168,7 +169,7 @@ def _modes(job: GaussianJob, masses: np.ndarray, where: str):
             _check_frequencies(result, printed.freqs_cm1, job.precision, where)
         if printed.displacements is not None:
             _check_modes(result.modes, result.freqs_cm1, printed.displacements, masses, where)
-        return result.freqs_cm1, result.modes, prov
+        return result.freqs_cm1, result.modes, prov, True
     if printed.displacements is None or printed.freqs_cm1 is None:
         if job.projected:
             raise InputFormatError(
@@ -195,20 +196,59 @@ def _modes(job: GaussianJob, masses: np.ndarray, where: str):
     )
 
 
-def _ir_intensities(job: GaussianJob, n_modes: int, freqs: np.ndarray, where: str):
-    """Printed IR intensities (km/mol) when complete; notes on what was done."""
-    ir = job.printed.ir_intensity
-    if ir is None or ir.shape != (n_modes,):
+#: IR intensity in km/mol of a mode with |∂μ/∂Q| = 1 e amu⁻¹ᐟ²: N_A π e²/(3 c² 4πε₀ u), the
+#: double-harmonic formula (E. B. Wilson, J. C. Decius, P. C. Cross, Molecular Vibrations,
+#: 1955, ch. 7); 974.88 km/mol (common practice), from scipy.constants.
+IR_KM_MOL_PER_E2_AMU = (
+    sc.N_A * np.pi / (3 * sc.c**2) / (4 * np.pi * sc.epsilon_0) * sc.e**2 / sc.atomic_mass / 1e3
+)
+
+
+def ir_from_dipole_derivatives(
+    dipole_deriv_au: np.ndarray, modes: np.ndarray, masses_da: np.ndarray
+) -> np.ndarray:
+    """IR intensities (km/mol) of mass-weighted modes from ∂μ/∂x (e, shape (3N, 3))."""
+    inv_sqrt_m = np.repeat(1.0 / np.sqrt(masses_da), 3)
+    dmu_dq = np.einsum("ki,i,ia->ka", modes, inv_sqrt_m, dipole_deriv_au)
+    return IR_KM_MOL_PER_E2_AMU * np.sum(dmu_dq**2, axis=1)
+
+
+def _ir_intensities(
+    job: GaussianJob,
+    modes: np.ndarray,
+    freqs: np.ndarray,
+    masses: np.ndarray,
+    exact: bool,
+    where: str,
+) -> tuple[np.ndarray | None, tuple[str, ...]]:
+    """IR intensities (km/mol): from ∂μ/∂x for modes of the Hessian, else as printed.
+
+    Computed values are compared with the printed ones per degenerate set (the split inside a
+    set depends on the basis chosen in it; the sum does not).
+    """
+    printed = job.printed.ir_intensity
+    if printed is not None and printed.shape != freqs.shape:
+        printed = None
+    if exact and job.dipole_deriv_au is not None:
+        ir = ir_from_dipole_derivatives(job.dipole_deriv_au, modes, masses)
+        if printed is not None:
+            sets = inv.degenerate_sets(freqs)
+            check_printed(
+                "IR intensity (km/mol)",
+                inv.sum_over_sets(ir, sets),
+                inv.sum_over_sets(printed, sets),
+                where=where,
+                atol=job.precision.activity_atol,
+                rtol=job.precision.activity_rtol,
+                origin="from the dipole derivatives",
+                item="mode" if all(len(s) == 1 for s in sets) else "degenerate set",
+            )
+        return ir, ("IR intensities (km/mol) from the dipole derivatives",)
+    if printed is None:
         return None, ()
-    if not np.all(np.isfinite(ir)):
+    if not np.all(np.isfinite(printed)):
         return None, ("IR intensities left out: at least one was printed as **** (overflow)",)
-    notes = ["IR intensities (km/mol) as printed"]
-    if any(len(s) > 1 for s in inv.degenerate_sets(freqs)):
-        notes.append(
-            "within a degenerate set the printed IR intensities follow Gaussian's choice of "
-            "modes; only their sum over the set is meaningful"
-        )
-    return ir, tuple(notes)
+    return printed, ("IR intensities (km/mol) as printed",)
 
 
 def _raman_not_computed(job: GaussianJob) -> bool:
@@ -260,8 +300,8 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
     masses = job.masses_da
     if masses is None:
         masses = default_masses(job.atomic_numbers)
-    freqs, modes, prov = _modes(job, masses, where)
-    ir, ir_notes = _ir_intensities(job, len(freqs), freqs, where)
+    freqs, modes, prov, exact = _modes(job, masses, where)
+    ir, ir_notes = _ir_intensities(job, modes, freqs, masses, exact, where)
     for note in ir_notes:
         prov = prov.with_note(note)
     if job.overflow:

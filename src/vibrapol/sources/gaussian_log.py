@@ -278,6 +278,19 @@ def _tensor_field(archive: Archive, key: str, count: int, where: str) -> np.ndar
     return tensors_from_lower_triangle(values.reshape(-1, 6))
 
 
+def _dipole_derivatives(archive: Archive, n: int, rot: np.ndarray, where: str) -> np.ndarray | None:
+    """Archive ``DipoleDeriv`` (9N values: μx, μy, μz per coordinate, e) in the standard frame."""
+    if "DipoleDeriv" not in archive.results:
+        return None
+    values = np.array(_archive_numbers(archive.results["DipoleDeriv"], "DipoleDeriv", where))
+    if values.size != 9 * n:
+        raise InputFormatError(
+            f"{where}: archive DipoleDeriv has {values.size} values, expected {9 * n}"
+        )
+    d = values.reshape(n, 3, 3)  # atom, coordinate, dipole component
+    return np.einsum("cx,ixa,pa->icp", rot, d, rot).reshape(3 * n, 3)
+
+
 def _merge_sections(
     main: FrequencySection, twin: FrequencySection | None, where: str
 ) -> tuple[PrintedModes, list[str]]:
@@ -380,7 +393,7 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
     projected = asks_projected(routes[-1] if routes else "") or (
         archive is not None and asks_projected(archive.route)
     )
-    hessian = dalpha = polar = energy = gradient = None
+    hessian = dalpha = polar = energy = gradient = dipole = None
     if archive is not None:
         rot = np.eye(3) if given is None else frame_rotation(given[1], coords, where)
         if len(archive.header) > 5:
@@ -395,6 +408,7 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
             gradient = (archive.gradient.reshape(n, 3) @ rot.T).ravel()
         pd = _tensor_field(archive, "PolarDeriv", 18 * n, where)
         dalpha = None if pd is None else rotate_dalpha_dx(pd, rot)
+        dipole = _dipole_derivatives(archive, n, rot, where)
         pol = _tensor_field(archive, "Polar", 6, where)
         polar = None if pol is None else rot @ pol[0] @ rot.T
         if "HF" in archive.results:
@@ -417,6 +431,7 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
         gradient_au=gradient,
         projected=projected,
         messages=tuple(messages),
+        dipole_deriv_au=dipole,
         overflow=(*main.overflow, *(twin.overflow if twin is not None else ())),
     )
 

@@ -19,7 +19,7 @@ import scipy.constants as sc
 
 from vibrapol import invariants as inv
 from vibrapol.errors import AccuracyWarning, InputFormatError, ShapeError
-from vibrapol.modeset import ModeSet, default_masses
+from vibrapol.modeset import ModeSet, Provenance, default_masses
 from vibrapol.sources._common import check_printed
 from vibrapol.sources.gaussian import GaussianJob, PrintPrecision
 from vibrapol.sources.gaussian_path import path_projected_modes
@@ -147,8 +147,13 @@ def _check_raman(
         )
 
 
-def _modes(job: GaussianJob, masses: np.ndarray, where: str):
-    """Frequencies, modes and provenance: projected or plain Hessian, else printed modes."""
+def _modes(
+    job: GaussianJob, masses: np.ndarray, where: str
+) -> tuple[np.ndarray, np.ndarray, Provenance, bool]:
+    """Frequencies, modes, provenance and whether the modes are exact (from the Hessian).
+
+    Modes of the Hessian (projected for ``Freq=Projected``), else the printed modes.
+    """
     printed, prov = job.printed, job.provenance
     result: HarmonicModes | None = None
     if job.hessian_au is not None and job.projected and job.gradient_au is not None:
@@ -189,11 +194,8 @@ def _modes(job: GaussianJob, masses: np.ndarray, where: str):
         "Freq=Projected and no gradient in the file" if job.projected else "no Hessian in the file"
     )
     note = f"{why}: modes from the printed displacements (print precision)"
-    return (
-        printed.freqs_cm1,
-        modes_from_displacements(printed.displacements, masses),
-        (prov.with_note(note)),
-    )
+    modes = modes_from_displacements(printed.displacements, masses)
+    return printed.freqs_cm1, modes, prov.with_note(note), False
 
 
 #: IR intensity in km/mol of a mode with |∂μ/∂Q| = 1 e amu⁻¹ᐟ²: N_A π e²/(3 c² 4πε₀ u), the

@@ -36,7 +36,6 @@ FIELD_WIDTH = 10
 
 #: ``<label> --`` (usual block) or ``<label> ---`` (high-precision block), then the values.
 _ROW = re.compile(r"^\s+(?P<label>[A-Za-z][A-Za-z0-9 .()]*?)\s+(?P<dash>---|--)(?P<values>.*)$")
-_NUMBER = re.compile(r"\*+|[-+]?\d*\.\d+(?:[EeDd][-+]?\d+)?|[-+]?\d+")
 
 
 @dataclass(frozen=True, eq=False)
@@ -87,8 +86,42 @@ _QUANTITY = {
 }
 
 
+def _fields(text: str) -> list[list[float]] | None:
+    """Readings of a row's fields: one when plain numbers, two when stars make it ambiguous.
+
+    Fields are fixed-width (F10.4), so adjacent numbers may touch (``12345.678918442.5155``) and
+    an overflowed field is a run of stars that may touch its neighbours; numbers are then cut
+    after as many decimals as the row's plain numbers have (4 when none is plain).  A run of
+    stars is read both as one field and as one field per 10 characters; the caller keeps the
+    reading with the expected count.  None when the row holds something else.
+    """
+    tokens = text.split()
+    try:
+        return [[float(tok.replace("D", "E").replace("d", "e")) for tok in tokens]]
+    except ValueError:
+        pass
+    decimals = next(
+        (len(m.group(1)) for tok in tokens if (m := re.fullmatch(r"[-+]?\d+\.(\d+)", tok))), 4
+    )
+    pattern = re.compile(rf"\*+|[-+]?\d*\.\d{{{decimals}}}")
+    if pattern.sub("", text).strip():
+        return None
+    pieces = pattern.findall(text)
+    readings = []
+    for per_width in (True, False):
+        values: list[float] = []
+        for piece in pieces:
+            if piece.startswith("*"):
+                count = max(1, round(len(piece) / FIELD_WIDTH)) if per_width else 1
+                values += [np.nan] * count
+            else:
+                values.append(float(piece))
+        readings.append(values)
+    return readings
+
+
 def row_values(text: str, count: int, where: str, line_no: int, last: bool) -> list[float]:
-    """``count`` numbers of a row; '*' fields are NaN (a run of k·10 stars is k fields).
+    """``count`` numbers of a row; overflowed fields (stars) are NaN.
 
     Raises
     ------
@@ -96,23 +129,17 @@ def row_values(text: str, count: int, where: str, line_no: int, last: bool) -> l
         When the row holds another number of fields: "cut short" on the last line of the file,
         else "unrecognised layout".
     """
-    values: list[float] = []
-    for token in _NUMBER.findall(text):
-        if token.startswith("*"):
-            values += [np.nan] * max(1, round(len(token) / FIELD_WIDTH))
-        else:
-            values.append(float(token.replace("D", "E").replace("d", "e")))
-    leftover = _NUMBER.sub("", text).strip()
-    if len(values) != count or leftover:
-        if last:
-            raise InputFormatError(
-                f"{where}: frequency section cut short at line {line_no} (truncated file?)"
-            )
+    for values in _fields(text) or []:
+        if len(values) == count:
+            return values
+    if last:
         raise InputFormatError(
-            f"{where}: unrecognised layout of a frequency-section row at line {line_no} "
-            f"(expected {count} numbers, found {text.strip()!r})"
+            f"{where}: frequency section cut short at line {line_no} (truncated file?)"
         )
-    return values
+    raise InputFormatError(
+        f"{where}: unrecognised layout of a frequency-section row at line {line_no} "
+        f"(expected {count} numbers, found {text.strip()!r})"
+    )
 
 
 def _block_width(lines: list[str], i: int, found: int) -> int:
@@ -244,8 +271,8 @@ def read_section(lines: list[str], start: int, stop: int, n_atoms: int, where: s
             continue
         dash = match.group("dash")
         kinds.add(dash)
-        tokens = _NUMBER.findall(match.group("values"))
-        width = _block_width(lines, i, len(tokens))
+        readings = _fields(match.group("values")) or [[]]
+        width = _block_width(lines, i, len(readings[0]))
         first_mode = len(rows["freqs_cm1"])
         block, disp, i, single = _read_block(lines, i, stop, dash, width, n_atoms, where)
         single_ratio = single_ratio or single

@@ -310,11 +310,13 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
         shown = ", ".join(job.overflow[:4]) + (" …" if len(job.overflow) > 4 else "")
         note = f"printed as **** (field overflow, not a number): {shown}"
         prov = prov.with_note(note)
-        warnings.warn(
-            f"{where}: {note}; those printed values are unknown and were not used",
-            AccuracyWarning,
-            stacklevel=3,
+        done = (
+            "IR intensities left out"
+            if ir is None and job.printed.ir_intensity is not None
+            else "vibrapol's own values for them (from the Hessian and derivatives) are not "
+            "checked against print"
         )
+        warnings.warn(f"{where}: {note}; {done}", AccuracyWarning, stacklevel=3)
     dalpha = None if job.dalpha_dx_au is None else job.dalpha_dx_au * BOHR2_TO_ANG2
     polar = None if job.polarizability_au is None else job.polarizability_au * BOHR3_TO_ANG3
     modeset = ModeSet(

@@ -432,7 +432,7 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
         projected=projected,
         messages=tuple(messages),
         dipole_deriv_au=dipole,
-        overflow=(*main.overflow, *(twin.overflow if twin is not None else ())),
+        overflow=tuple(dict.fromkeys([*main.overflow, *(twin.overflow if twin else ())])),
     )
 
 

@@ -263,6 +263,19 @@ def _raman_not_computed(job: GaussianJob) -> bool:
     return act is not None and act.size > 0 and bool(np.all(act == 0.0))
 
 
+def _refuse_lost_raman(job: GaussianJob, where: str) -> None:
+    """Refuse when a printed activity or ratio overflowed and cannot be recomputed."""
+    printed = job.printed
+    lost = [item for item in job.overflow if item.startswith(("Raman activity", "depolarization"))]
+    if lost or not (
+        np.all(np.isfinite(printed.activity)) and np.all(np.isfinite(printed.rho_linear))
+    ):
+        raise InputFormatError(
+            f"{where}: {(lost or ['a printed Raman activity or ratio'])[0]} was printed as **** "
+            "(field overflow) and the file has no polarizability derivatives to recompute it"
+        )
+
+
 def build_modeset(job: GaussianJob, where: str) -> ModeSet:
     """The :class:`ModeSet` of a Gaussian job (:func:`_build`), then Gaussian's own messages.
 
@@ -303,6 +316,23 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
     if masses is None:
         masses = default_masses(job.atomic_numbers)
     freqs, modes, prov, exact = _modes(job, masses, where)
+    has_printed_raman = (
+        printed.activity is not None
+        and printed.rho_linear is not None
+        and printed.activity.shape == freqs.shape
+        and not _raman_not_computed(job)
+    )
+    dalpha = None if job.dalpha_dx_au is None else job.dalpha_dx_au * BOHR2_TO_ANG2
+    if dalpha is not None and not exact and has_printed_raman:
+        # derivatives projected on modes rebuilt from rounded displacements would not give the
+        # printed activities (0.3 % off with 2 decimals): keep the program's numbers
+        dalpha = None
+        prov = prov.with_note(
+            "polarizability derivatives not used: the modes come from rounded printed "
+            "displacements, so the printed activities and ratios are kept"
+        )
+    if dalpha is None and has_printed_raman:
+        _refuse_lost_raman(job, where)
     ir, ir_notes = _ir_intensities(job, modes, freqs, masses, exact, where)
     for note in ir_notes:
         prov = prov.with_note(note)
@@ -310,14 +340,12 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
         shown = ", ".join(job.overflow[:4]) + (" …" if len(job.overflow) > 4 else "")
         note = f"printed as **** (field overflow, not a number): {shown}"
         prov = prov.with_note(note)
-        done = (
-            "IR intensities left out"
-            if ir is None and job.printed.ir_intensity is not None
-            else "vibrapol's own values for them (from the Hessian and derivatives) are not "
-            "checked against print"
-        )
-        warnings.warn(f"{where}: {note}; {done}", AccuracyWarning, stacklevel=3)
-    dalpha = None if job.dalpha_dx_au is None else job.dalpha_dx_au * BOHR2_TO_ANG2
+        done = []
+        if ir is None and job.printed.ir_intensity is not None:
+            done.append("IR intensities left out")
+        if any(not item.startswith("IR") for item in job.overflow) or ir is not None:
+            done.append("vibrapol's own values (from the Hessian and derivatives) are unchecked")
+        warnings.warn(f"{where}: {note}; {'; '.join(done)}", AccuracyWarning, stacklevel=3)
     polar = None if job.polarizability_au is None else job.polarizability_au * BOHR3_TO_ANG3
     modeset = ModeSet(
         atomic_numbers=job.atomic_numbers,
@@ -338,20 +366,8 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
     if _raman_not_computed(job):
         note = "no Raman data: the Raman rows are all zero (Raman was not computed)"
         return dataclasses.replace(modeset, provenance=prov.with_note(note))
-    if (
-        printed.activity is None
-        or printed.rho_linear is None
-        or printed.activity.shape != freqs.shape
-    ):
+    if not has_printed_raman:
         return dataclasses.replace(modeset, provenance=prov.with_note("no Raman data in the file"))
-    lost = [item for item in job.overflow if item.startswith(("Raman activity", "depolarization"))]
-    if lost or not (
-        np.all(np.isfinite(printed.activity)) and np.all(np.isfinite(printed.rho_linear))
-    ):
-        raise InputFormatError(
-            f"{where}: {(lost or ['a printed Raman activity or ratio'])[0]} was printed as **** "
-            "(field overflow) and the file has no polarizability derivatives to recompute it"
-        )
     a2, gamma2 = inv.invariants_from_activity(printed.activity, printed.rho_linear)
     if printed.rho_natural is not None:
         check_printed(
@@ -362,9 +378,9 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
             atol=2 * job.precision.rho_atol,
             origin="computed from the printed plane-polarized one, 2ρ/(1+ρ),",
         )
-    note = (
-        "no polarizability derivatives: a², γ² from the printed activity and plane-polarized ratio"
-    )
+    note = "a², γ² from the printed activity and plane-polarized ratio"
+    if job.dalpha_dx_au is None:
+        note = "no polarizability derivatives: " + note
     return dataclasses.replace(modeset, a2=a2, gamma2=gamma2, provenance=prov.with_note(note))
 
 

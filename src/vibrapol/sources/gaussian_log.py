@@ -352,9 +352,11 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
     standard = read_orientation(lines, _ORIENTATION_STANDARD, end)
     given = read_orientation(lines, _ORIENTATIONS_INPUT, end)
     messages = [f"Gaussian printed {message}" for message in program_messages(lines)]
+    # the decisive line when the job died: "Error termination ..." if printed
+    worst = next((m for m in messages if "Error termination" in m), messages[0] if messages else "")
     if standard is None and given is None:
         if end == len(lines) and messages:
-            raise InputFormatError(f"{where}: no vibrational frequencies; {messages[0]}")
+            raise InputFormatError(f"{where}: no vibrational frequencies; {worst}")
         raise InputFormatError(f"{where}: no geometry (orientation table) before the frequencies")
     z, coords = standard if standard is not None else given
     n = len(z)
@@ -362,7 +364,7 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
         main, twin = read_sections(lines, n, where)
     except InputFormatError as exc:
         if messages and end == len(lines):
-            raise InputFormatError(f"{where}: no vibrational frequencies; {messages[0]}") from None
+            raise InputFormatError(f"{where}: no vibrational frequencies; {worst}") from None
         raise exc from None
     printed, block_notes = _merge_sections(main, twin, where)
     head = text[:200_000]

@@ -357,3 +357,31 @@ def test_real_ir_intensities_match_printed(name, printed_by, atol):
     modes, _ = _read(qc_output(name))
     data = cclib_data(printed_by)
     np.testing.assert_allclose(modes.ir_intensity_km_mol, data.vibirs, atol=atol, rtol=1e-6)
+
+
+def test_export_without_section_header_reads_the_same(tmp_path):
+    # some exports print the blocks without the "Harmonic frequencies ..." lines above them
+    lines = EXPORT.read_text().splitlines()
+    i = next(k for k, line in enumerate(lines) if "Harmonic frequencies" in line)
+    path = tmp_path / "bare.out"
+    path.write_text("\n".join(lines[:i] + lines[i + 3 :]) + "\n")
+    assert sniff(path) == "gaussian-log"
+    bare, _ = _read(path)
+    full, _ = _read(EXPORT)
+    np.testing.assert_array_equal(bare.freqs_cm1, full.freqs_cm1)
+    np.testing.assert_array_equal(bare.modes, full.modes)
+
+
+def test_every_truncation_of_the_g98_log_reads_or_refuses_in_one_line(tmp_path):
+    # contract of every reader (DEVELOPERS.md, bad input): a file cut at any line either
+    # reads or raises a one-line InputFormatError, never another exception
+    lines = G98.read_text().splitlines(keepends=True)
+    path = tmp_path / "cut.log"
+    for k in range(1, len(lines), 3):
+        path.write_text("".join(lines[:k]) + lines[k][: len(lines[k]) // 2])
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                read_modes(path, kind="gaussian-log")
+        except InputFormatError as exc:
+            assert "\n" not in str(exc)

@@ -38,6 +38,9 @@ FIELD_WIDTH = 10
 _ROW = re.compile(r"^\s+(?P<label>[A-Za-z][A-Za-z0-9 .()]*?)\s+(?P<dash>---|--)(?P<values>.*)$")
 
 
+_FIRST_ROW = re.compile(r"^ +Frequencies ---? ")
+
+
 @dataclass(frozen=True, eq=False)
 class FrequencySection:
     """What one frequency section printed, and how to read it.
@@ -325,6 +328,9 @@ def read_sections(
         No frequency section, or one vibrapol cannot read.
     """
     starts = [i for i, line in enumerate(lines) if FREQ_HEADER in line]
+    if not starts:  # an export without the section header: from the first Frequencies row
+        first = next((i for i, line in enumerate(lines) if _FIRST_ROW.match(line)), None)
+        starts = [] if first is None else [max(first - 3, 0)]
     if not starts:
         raise InputFormatError(f"{where}: no vibrational frequencies found (is it a Freq job?)")
     bounds = [*starts, len(lines)]

@@ -91,13 +91,12 @@ def is_program_log(head: str) -> bool:
 
 
 def has_frequency_blocks(text: str) -> bool:
-    """True when ``text`` holds a Gaussian-layout frequency section (any version, any writer).
+    """True when ``text`` holds a Gaussian-layout frequency block (any version, any writer).
 
-    The section header, a ``Frequencies --`` (or ``---``) row and a displacement-table header
-    must all be there.
+    A ``Frequencies --`` (or ``---``) row and a displacement-table header (``Atom AN X Y Z``
+    or ``Coord Atom Element:``) must both be there; the section header above them is not
+    required (some exports leave it out).
     """
-    if FREQ_HEADER not in text:
-        return False
     has_row = re.search(r"^ +Frequencies ---? ", text, re.MULTILINE) is not None
     has_table = re.search(r"^ +(Atom +AN +X +Y +Z|Coord +Atom +Element:)", text, re.MULTILINE)
     return has_row and has_table is not None

@@ -244,6 +244,20 @@ def test_projected_log_reproduces_the_printed_modes():
     assert "Freq=Projected" in " ".join(modes.provenance.notes)
 
 
+def test_projected_fchk_is_detected_from_its_route_field():
+    # Gaussian 16 fchk: Route "#p rb3lyp/6-31g(d) freq(projected,raman)", 9-digit Vib-E2
+    gen = _gen()
+    freqs, _, values = gen.job(*gen.path_hessian_and_gradient(gen.STD_ANG / gen.BOHR_ANG))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", PrintedValueMismatch)
+        modes = read_modes(FIXTURES / "gaussian_hood_projected.fchk")
+    assert modes.n_modes == 5
+    np.testing.assert_allclose(modes.freqs_cm1, freqs, rtol=1e-7)
+    activity, _ = _raman(modes)
+    np.testing.assert_allclose(activity, values["activity"], rtol=1e-6)
+    np.testing.assert_allclose(modes.ir_intensity_km_mol, values["ir"], rtol=1e-6)
+
+
 def test_projected_log_without_gradient_uses_printed_modes(tmp_path):
     text = PROJECTED.read_text()
     start = text.index(" 1\\1\\")

@@ -165,7 +165,7 @@ def _modes(
             raise InputFormatError(f"{where}: Freq=Projected job, but {exc}") from None
         prov = prov.with_note(
             "Freq=Projected: vibrapol projected the reaction-path direction (mass-weighted "
-            "gradient) out of the Hessian as Gaussian does, 3N-7 modes"
+            "gradient) out of the Hessian as Gaussian does: one mode fewer than 3N-6 (3N-5)"
         )
     elif job.hessian_au is not None and not job.projected:
         result = harmonic_analysis(job.hessian_au, masses, job.coordinates_ang)

@@ -439,7 +439,7 @@ def test_truncated_real_log_and_fchk(tmp_path):
 def test_garbled_files(tmp_path, capsys):
     bad_log = tmp_path / "garbled.log"
     bad_log.write_text(FIXTURE_LOG.read_text().replace("      9.1398", "      9.1x98"))
-    with pytest.raises(InputFormatError, match="expected numbers"):
+    with pytest.raises(InputFormatError, match="line 37 .expected 3 numbers, found .*9.1x98"):
         read_modes(bad_log)
     bad_fchk = tmp_path / "garbled.fchk"
     bad_fchk.write_text(FIXTURE_FCHK.read_text().replace("3.64779721E-01", "3.6477972XE-01"))

@@ -29,15 +29,22 @@ from vibrapol.sources.gaussian import (
     PrintedModes,
     PrintPrecision,
     program_version,
-    read_job,
     square_from_lower_triangle,
     tensors_from_lower_triangle,
 )
+from vibrapol.sources.gaussian_build import read_job
+from vibrapol.sources.gaussian_path import asks_projected
 from vibrapol.sources.registry import Reader, register
 from vibrapol.units import BOHR_ANG
 
 #: Rows of ``Vib-E2`` that vibrapol compares (0-based; each row holds one value per mode).
-VIB_E2_ROWS = {"freqs_cm1": 0, "activity": 4, "rho_linear": 5, "rho_natural": 6}
+VIB_E2_ROWS = {
+    "freqs_cm1": 0,
+    "ir_intensity": 3,
+    "activity": 4,
+    "rho_linear": 5,
+    "rho_natural": 6,
+}
 
 _COUNT = re.compile(r"^N=\s*(\d+)$")
 _PER_LINE = {"I": 6, "R": 5, "C": 5, "L": 72}
@@ -177,6 +184,36 @@ def read_printed_modes(fields: dict[str, FchkField], n_atoms: int, where: str) -
     return PrintedModes(**found)
 
 
+def _job_type(lines: list[str]) -> str:
+    """The job type of the title line (first 10 columns of the second line), e.g. ``Freq``."""
+    return lines[1][:10].strip() if len(lines) > 1 else ""
+
+
+def _hessian(fields: dict[str, FchkField], lines: list[str], n: int, where: str) -> np.ndarray:
+    """The Cartesian Hessian, or an error that names why the file has none to offer.
+
+    An fchk without ``Cartesian Force Constants`` comes from a job without frequencies; one
+    with them but neither a vibrational section (``Vib-E2``) nor a ``Freq`` job type holds an
+    optimizer's Hessian, an estimate updated step by step, not second derivatives at this
+    geometry.
+    """
+    job = _job_type(lines)
+    if "Cartesian Force Constants" not in fields:
+        raise InputFormatError(
+            f"{where}: no Hessian ('Cartesian Force Constants') in this checkpoint of a "
+            f"{job or 'non-frequency'} job; give the fchk of a Freq job"
+        )
+    if job and "FREQ" not in job.upper() and "Vib-E2" not in fields:
+        raise InputFormatError(
+            f"{where}: the Hessian of this {job} job is not from a frequency calculation (no "
+            "vibrational section; an optimisation stores an estimated Hessian); give the fchk "
+            "of a Freq job"
+        )
+    return square_from_lower_triangle(
+        _array(fields, "Cartesian Force Constants", where), 3 * n, where
+    )
+
+
 def parse_gaussian_fchk(text: str, where: str = "Gaussian fchk") -> GaussianJob:
     """Everything vibrapol needs from a formatted checkpoint (standard orientation)."""
     lines = text.splitlines()
@@ -184,21 +221,26 @@ def parse_gaussian_fchk(text: str, where: str = "Gaussian fchk") -> GaussianJob:
     z = _array(fields, "Atomic numbers", where).astype(int)
     n = z.size
     coords = _array(fields, "Current cartesian coordinates", where, 3 * n).reshape(n, 3) * BOHR_ANG
-    mass_field = "Vib-AtMass" if "Vib-AtMass" in fields else "Real atomic weights"
-    masses = _array(fields, mass_field, where, n)
-    hessian = square_from_lower_triangle(
-        _array(fields, "Cartesian Force Constants", where), 3 * n, where
-    )
-    dalpha = polar = None
+    hessian = _hessian(fields, lines, n, where)
+    mass_field = next((f for f in ("Vib-AtMass", "Real atomic weights") if f in fields), None)
+    masses = None if mass_field is None else _array(fields, mass_field, where, n)
+    dalpha = polar = gradient = None
     if "Polarizability Derivatives" in fields:
         pd = _array(fields, "Polarizability Derivatives", where, 18 * n)
         dalpha = tensors_from_lower_triangle(pd.reshape(3 * n, 6))
     if "Polarizability" in fields:
         polar = tensors_from_lower_triangle(_array(fields, "Polarizability", where, 6))
+    dipole = None
+    if "Dipole Derivatives" in fields:
+        dipole = _array(fields, "Dipole Derivatives", where, 9 * n).reshape(3 * n, 3)
+    if "Cartesian Gradient" in fields:
+        gradient = _array(fields, "Cartesian Gradient", where, 3 * n)
     energy = float(_array(fields, "Total Energy", where)[0]) if "Total Energy" in fields else None
     version_field = fields.get("Gaussian Version")
     program, version = program_version(version_field.values if version_field else "")
     method, basis = read_title(lines)
+    route = fields["Route"].values if "Route" in fields else ""
+    projected = asks_projected(str(route))
     prov = Provenance(
         source_file=where,
         source_kind="gaussian-fchk",
@@ -206,9 +248,15 @@ def parse_gaussian_fchk(text: str, where: str = "Gaussian fchk") -> GaussianJob:
         program_version=version,
         method=method,
         basis=basis,
-        masses=f"fchk field {mass_field!r}",
-        notes=("modes from vibrapol's harmonic analysis of 'Cartesian Force Constants'",),
+        masses=f"fchk field {mass_field!r}" if mass_field else "",
+        notes=()
+        if projected
+        else ("modes from vibrapol's harmonic analysis of 'Cartesian Force Constants'",),
     )
+    if mass_field is None:
+        prov = prov.with_note(
+            "no masses in the fchk (older Gaussian): most abundant isotopes, Gaussian's default"
+        )
     if not version:
         prov = prov.with_note("the fchk does not record the Gaussian version")
     # E16.8 reals: 9 significant digits, so each Hessian element is rounded to 5e-9 relative.
@@ -231,6 +279,9 @@ def parse_gaussian_fchk(text: str, where: str = "Gaussian fchk") -> GaussianJob:
         printed=read_printed_modes(fields, n, where),
         precision=precision,
         provenance=prov,
+        gradient_au=gradient,
+        projected=projected,
+        dipole_deriv_au=dipole,
     )
 
 

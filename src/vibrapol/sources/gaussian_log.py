@@ -32,19 +32,21 @@ import numpy as np
 
 from vibrapol.errors import InputFormatError
 from vibrapol.modeset import ModeSet, Provenance, default_masses
-from vibrapol.sources._common import floats
+from vibrapol.sources._common import check_printed, floats
 from vibrapol.sources.gaussian import (
     GaussianJob,
     PrintedModes,
     PrintPrecision,
     frame_rotation,
     program_version,
-    read_job,
     rotate_dalpha_dx,
     rotate_hessian,
     square_from_lower_triangle,
     tensors_from_lower_triangle,
 )
+from vibrapol.sources.gaussian_blocks import FREQ_HEADER, FrequencySection, read_sections
+from vibrapol.sources.gaussian_build import read_job
+from vibrapol.sources.gaussian_path import asks_projected, program_messages, route_blocks
 from vibrapol.sources.registry import Reader, register
 
 #: Log precision: Hessian 8 decimals; frequencies, activities and ratios 4 decimals.  The
@@ -64,14 +66,54 @@ MASS_PRINT_TOL_DA = 5e-6
 
 _ORIENTATIONS_INPUT = ("Input orientation:", "Z-Matrix orientation:")
 _ORIENTATION_STANDARD = ("Standard orientation:",)
-_FREQ_HEADER = "Harmonic frequencies (cm**-1)"
 _MASS_LINE = re.compile(r"^ Atom\s+\d+ has atomic number\s+(\d+) and mass\s+(\S+)")
-_ROW_LABELS = {"Raman Activ": "activity", "Depolar (P)": "rho_linear", "Depolar (U)": "rho_natural"}
+
+
+#: Lines only Gaussian itself prints at the start of a log (every version, every platform).
+_PROGRAM_MARKS = ("Gaussian, Inc.", "Entering Link 1 = ")
+
+#: Banners of Gaussian logs; the Windows builds of Gaussian 03 print only "Entering Link 1 =".
+_BANNERS = (
+    "Entering Gaussian System",
+    "This is part of the Gaussian(R)",
+    "This is the Gaussian(R)",
+)
+
+
+def is_program_log(head: str) -> bool:
+    """True when Gaussian itself wrote the file (its copyright or link lines are there).
+
+    Other programs that export frequency results in Gaussian's layout copy the frequency
+    blocks, sometimes the "Entering Gaussian System" line, but not these nor a build string
+    such as ``ES64L-G16RevC.01``.
+    """
+    return any(mark in head for mark in _PROGRAM_MARKS) or bool(program_version(head)[0])
+
+
+def has_frequency_blocks(text: str) -> bool:
+    """True when ``text`` holds a Gaussian-layout frequency block (any version, any writer).
+
+    A ``Frequencies --`` (or ``---``) row and a displacement-table header (``Atom AN X Y Z``
+    or ``Coord Atom Element:``) must both be there; the section header above them is not
+    required (some exports leave it out).
+    """
+    has_row = re.search(r"^ +Frequencies ---? ", text, re.MULTILINE) is not None
+    has_table = re.search(r"^ +(Atom +AN +X +Y +Z|Coord +Atom +Element:)", text, re.MULTILINE)
+    return has_row and has_table is not None
 
 
 def sniff_gaussian_log(head: str, tail: str) -> bool:
-    """True for a Gaussian log: its banner names the program."""
-    return "Entering Gaussian System" in head or "This is part of the Gaussian(R)" in head
+    r"""True for a Gaussian log, or a frequency export in Gaussian's layout.
+
+    A log is known by its banner (``Entering Gaussian System``; Windows builds of Gaussian 03
+    print only ``Entering Link 1 = C:\\...\\l1.exe`` and the copyright line); an export by
+    its frequency blocks themselves (:func:`has_frequency_blocks`).
+    """
+    if any(banner in head for banner in _BANNERS):
+        return True
+    if "Entering Link 1 = " in head and "Gaussian" in head:
+        return True
+    return has_frequency_blocks(head) or has_frequency_blocks(tail)
 
 
 def read_program(lines: list[str]) -> tuple[str, str]:
@@ -163,74 +205,15 @@ def _mass_precision(masses: np.ndarray, as_printed: np.ndarray) -> tuple[str, Pr
     return note, widened
 
 
-def _numbers(text: str, where: str) -> list[float]:
-    """Numbers of a printed row; a field Gaussian filled with '*' (overflow) becomes NaN."""
-    return [np.nan if set(tok) == {"*"} else floats(tok, where)[0] for tok in text.split()]
-
-
-def read_frequency_blocks(lines: list[str], n_atoms: int, where: str) -> PrintedModes:
-    """Per-mode rows and displacements of the last frequency section, three modes per block.
-
-    Layout (invented numbers)::
-
-                              1                      2                      3
-                              A                      A                      A
-         Frequencies --    412.3456              1023.4567              3456.7890
-         Red. masses --      1.2345                 2.3456                 1.0456
-         Frc consts  --      0.1234                 1.4567                 7.3456
-         IR Inten    --      3.4567                 0.1234                12.3456
-         Raman Activ --      1.2345                 7.6543                45.6789
-         Depolar (P) --      0.7500                 0.2345                 0.1234
-         Depolar (U) --      0.8571                 0.3799                 0.2197
-          Atom  AN      X      Y      Z        X      Y      Z        X      Y      Z
-             1   8     0.01  -0.02   0.03     0.10   0.20  -0.05     0.00   0.01   0.02
-             2   1    -0.50   0.40   0.30     0.12  -0.60   0.25     0.70  -0.70   0.01
-
-    Raises
-    ------
-    InputFormatError
-        No frequency section, or a block cut short (truncated file).
-    """
-    starts = [i for i, line in enumerate(lines) if _FREQ_HEADER in line]
-    if not starts:
-        raise InputFormatError(f"{where}: no vibrational frequencies found (is it a Freq job?)")
-    freqs: list[float] = []
-    rows: dict[str, list[float]] = {key: [] for key in _ROW_LABELS.values()}
-    columns: list[np.ndarray] = []
-    i = starts[-1]
-    while i < len(lines) and "Thermochemistry" not in lines[i]:
-        if not lines[i].startswith(" Frequencies -- "):
-            i += 1
-            continue
-        block = _numbers(lines[i].split("--", 1)[1], where)
-        freqs += block
-        i += 1
-        while i < len(lines) and not lines[i].startswith("  Atom  AN"):
-            label, _, values = lines[i].partition("--")
-            if label.strip() in _ROW_LABELS:
-                rows[_ROW_LABELS[label.strip()]] += _numbers(values, where)
-            i += 1
-        table = [_numbers(line, where) for line in lines[i + 1 : i + 1 + n_atoms]]
-        if len(table) < n_atoms or any(len(r) != 2 + 3 * len(block) for r in table):
-            raise InputFormatError(
-                f"{where}: normal-mode table cut short after mode {len(freqs)} (truncated file?)"
-            )
-        disp = np.array(table)[:, 2:].reshape(n_atoms, len(block), 3)
-        columns += [disp[:, k, :].ravel() for k in range(len(block))]
-        i += 1 + n_atoms
-    if not freqs:
-        raise InputFormatError(f"{where}: frequency section has no modes (truncated file?)")
-    found = {key: np.array(v) if len(v) == len(freqs) else None for key, v in rows.items()}
-    return PrintedModes(freqs_cm1=np.array(freqs), displacements=np.array(columns), **found)
-
-
 @dataclass(frozen=True, eq=False)
 class Archive:
-    """The archive block of one job: header fields, ``key=value`` results, Hessian values."""
+    """The archive block of one job: header fields, route, results, Hessian and gradient."""
 
     header: list[str]
     results: dict[str, str]
     hessian: np.ndarray | None
+    route: str = ""
+    gradient: np.ndarray | None = None
 
 
 def read_archive(lines: list[str], where: str) -> Archive | None:
@@ -243,7 +226,8 @@ def read_archive(lines: list[str], where: str) -> Archive | None:
          vC.01\HF=-150.123456\Polar=4.1,0.2,3.9,0.1,0.,2.8\PolarDeriv=1.234567
          8,0.,-0.5, ... \NImag=0\\0.51234567,0.,0.4, ... \\0.00001, ... \\@
 
-    The results section starts with ``Version=``; the section after it is the Hessian.
+    The results section starts with ``Version=``; the section after it is the Hessian, the
+    next one the Cartesian gradient (3N values); the route is the second section.
     """
     starts = [i for i, line in enumerate(lines) if line.startswith(" 1\\1\\")]
     if not starts:
@@ -263,10 +247,18 @@ def read_archive(lines: list[str], where: str) -> Archive | None:
     if k is None:
         raise InputFormatError(f"{where}: archive block has no results section (garbled file?)")
     results = dict(field.split("=", 1) for field in sections[k].split("\\") if "=" in field)
-    hessian = None
+    hessian = gradient = None
     if k + 1 < len(sections) and sections[k + 1] and sections[k + 1] != "@":
         hessian = np.array(_archive_numbers(sections[k + 1], "archive Hessian", where))
-    return Archive(header=sections[0].split("\\"), results=results, hessian=hessian)
+        if k + 2 < len(sections) and sections[k + 2] and sections[k + 2] != "@":
+            gradient = np.array(_archive_numbers(sections[k + 2], "archive gradient", where))
+    return Archive(
+        header=sections[0].split("\\"),
+        results=results,
+        hessian=hessian,
+        route=sections[1] if len(sections) > 1 else "",
+        gradient=gradient,
+    )
 
 
 def _archive_numbers(text: str, what: str, where: str) -> list[float]:
@@ -285,21 +277,108 @@ def _tensor_field(archive: Archive, key: str, count: int, where: str) -> np.ndar
     return tensors_from_lower_triangle(values.reshape(-1, 6))
 
 
+def _dipole_derivatives(archive: Archive, n: int, rot: np.ndarray, where: str) -> np.ndarray | None:
+    """Archive ``DipoleDeriv`` (9N values: μx, μy, μz per coordinate, e) in the standard frame."""
+    if "DipoleDeriv" not in archive.results:
+        return None
+    values = np.array(_archive_numbers(archive.results["DipoleDeriv"], "DipoleDeriv", where))
+    if values.size != 9 * n:
+        raise InputFormatError(
+            f"{where}: archive DipoleDeriv has {values.size} values, expected {9 * n}"
+        )
+    d = values.reshape(n, 3, 3)  # atom, coordinate, dipole component
+    return np.einsum("cx,ixa,pa->icp", rot, d, rot).reshape(3 * n, 3)
+
+
+def _merge_sections(
+    main: FrequencySection, twin: FrequencySection | None, where: str
+) -> tuple[PrintedModes, list[str]]:
+    """One set of printed values: the high-precision section's where printed, else the usual.
+
+    The usual section's values are compared with the high-precision ones (they are the same
+    numbers rounded); a disagreement is reported with :class:`PrintedValueMismatch`.
+    """
+    notes = []
+    if main.single_ratio or (twin is not None and twin.single_ratio):
+        notes.append("one depolarization row (Gaussian 98 layout): read as plane-polarized light")
+    if twin is None:
+        if main.high_precision:
+            notes.append("printed values from the high-precision block (Freq=HPModes)")
+        return main.printed, notes
+    hp, usual = (main, twin) if main.high_precision else (twin, main)
+    check_printed(
+        "frequency (cm⁻¹) of the usual block",
+        usual.printed.freqs_cm1,
+        hp.printed.freqs_cm1,
+        where=where,
+        atol=1e-4,
+        origin="",
+        reference="the high-precision block",
+    )
+    fields = {}
+    for field in dataclasses.fields(PrintedModes):
+        value = getattr(hp.printed, field.name)
+        fields[field.name] = value if value is not None else getattr(usual.printed, field.name)
+    notes.append(
+        "printed values from the high-precision block (Freq=HPModes: displacements with 5 "
+        "decimals) where it has them, else from the usual block"
+    )
+    return PrintedModes(**fields), notes
+
+
+def _require_finished(lines: list[str], text_head: str, messages: list[str], where: str) -> None:
+    """Refuse a Gaussian log that stopped before writing its archive, unless it says why."""
+    if not is_program_log(text_head):
+        return
+    if any("Normal termination" in line for line in lines[-50:]) or messages:
+        return
+    raise InputFormatError(
+        f"{where}: the job did not finish (no archive block, no normal termination); "
+        "give the complete log"
+    )
+
+
 def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
-    """Everything vibrapol needs from a Gaussian log, in the standard orientation."""
+    """Everything vibrapol needs from a Gaussian log (or an export in its layout).
+
+    Geometry in the standard orientation; printed values of the last frequency section (with
+    its high-precision twin when printed); Hessian, derivatives, α, energy and gradient from
+    the archive, rotated from the input orientation; the route's ``Freq=Projected``; and
+    Gaussian's own failure lines (warned about and noted).
+    """
     lines = text.splitlines()
-    end = next((i for i in range(len(lines) - 1, -1, -1) if _FREQ_HEADER in lines[i]), len(lines))
+    end = next((i for i in range(len(lines) - 1, -1, -1) if FREQ_HEADER in lines[i]), len(lines))
     standard = read_orientation(lines, _ORIENTATION_STANDARD, end)
     given = read_orientation(lines, _ORIENTATIONS_INPUT, end)
+    messages = [f"Gaussian printed {message}" for message in program_messages(lines)]
+    # the decisive line when the job died: "Error termination ..." if printed
+    worst = next((m for m in messages if "Error termination" in m), messages[0] if messages else "")
     if standard is None and given is None:
+        if end == len(lines) and messages:
+            raise InputFormatError(f"{where}: no vibrational frequencies; {worst}")
         raise InputFormatError(f"{where}: no geometry (orientation table) before the frequencies")
     z, coords = standard if standard is not None else given
     n = len(z)
-    printed = read_frequency_blocks(lines, n, where)
-    program, version = read_program(lines)
+    try:
+        main, twin = read_sections(lines, n, where)
+    except InputFormatError as exc:
+        if messages and end == len(lines):
+            raise InputFormatError(f"{where}: no vibrational frequencies; {worst}") from None
+        raise exc from None
+    printed, block_notes = _merge_sections(main, twin, where)
+    head = text[:200_000]
+    exported = not is_program_log(head)
+    program, version = ("", "") if exported else read_program(lines)
     prov = Provenance(
         source_file=where, source_kind="gaussian-log", program=program, program_version=version
     )
+    if exported:
+        prov = prov.with_note(
+            "no Gaussian banner or copyright line: read as a frequency export in Gaussian's "
+            "layout written by another program"
+        )
+    for note in [*block_notes, *messages]:
+        prov = prov.with_note(note)
     masses = read_masses(lines, n)
     precision = LOG_PRECISION
     if masses is None:
@@ -309,21 +388,28 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
         mass_note, precision = _mass_precision(masses, as_printed)
         prov = dataclasses.replace(prov, masses=mass_note)
     archive = read_archive(lines, where)
-    if archive is None and not any("Normal termination" in line for line in lines[-50:]):
-        raise InputFormatError(
-            f"{where}: the job did not finish (no archive block, no normal termination); "
-            "give the complete log"
-        )
-    hessian = dalpha = polar = energy = None
+    if archive is None:
+        _require_finished(lines, head, messages, where)
+    routes = [route for i, route in route_blocks(lines) if i < end]
+    projected = asks_projected(routes[-1] if routes else "") or (
+        archive is not None and asks_projected(archive.route)
+    )
+    hessian = dalpha = polar = energy = gradient = dipole = None
     if archive is not None:
         rot = np.eye(3) if given is None else frame_rotation(given[1], coords, where)
         if len(archive.header) > 5:
             prov = dataclasses.replace(prov, method=archive.header[4], basis=archive.header[5])
         if archive.hessian is not None:
             hessian = rotate_hessian(square_from_lower_triangle(archive.hessian, 3 * n, where), rot)
-            prov = prov.with_note("modes from vibrapol's harmonic analysis of the archive Hessian")
+            if not projected:
+                prov = prov.with_note(
+                    "modes from vibrapol's harmonic analysis of the archive Hessian"
+                )
+        if archive.gradient is not None and archive.gradient.size == 3 * n:
+            gradient = (archive.gradient.reshape(n, 3) @ rot.T).ravel()
         pd = _tensor_field(archive, "PolarDeriv", 18 * n, where)
         dalpha = None if pd is None else rotate_dalpha_dx(pd, rot)
+        dipole = _dipole_derivatives(archive, n, rot, where)
         pol = _tensor_field(archive, "Polar", 6, where)
         polar = None if pol is None else rot @ pol[0] @ rot.T
         if "HF" in archive.results:
@@ -343,6 +429,11 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
         printed=printed,
         precision=precision,
         provenance=prov,
+        gradient_au=gradient,
+        projected=projected,
+        messages=tuple(messages),
+        dipole_deriv_au=dipole,
+        overflow=tuple(dict.fromkeys([*main.overflow, *(twin.overflow if twin else ())])),
     )
 
 

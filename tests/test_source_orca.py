@@ -226,7 +226,7 @@ def test_real_mutual_exclusion(name):
 def test_real_mode_conversion(name):
     path = qc_output(name)
     lines = path.read_text().splitlines()
-    printed = normal_modes_block(lines, find_titles(lines, "NORMAL MODES")[-1], 60, str(path))
+    printed, _ = normal_modes_block(lines, find_titles(lines, "NORMAL MODES")[-1], 60, str(path))
     ms = read_orca(path)
     # ORCA: columns are L/√m normalised, so √m·column must be orthogonal (ORCA's own header text)
     w = printed[:, 6:].T * np.repeat(np.sqrt(ms.masses_da), 3)

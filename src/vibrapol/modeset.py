@@ -143,6 +143,15 @@ class ModeSet:
     ir_intensity_km_mol : array, shape (n_modes,), optional
         Infrared intensity of each mode in km mol⁻¹ as the source printed or computed it
         (papers show IR and Raman side by side); ``None`` when unknown.
+    program_irreps : tuple of str, optional
+        Symmetry species of each mode as the source program printed it (e.g. ``"Au"``), in the
+        program's own point group and axis convention, which may differ from vibrapol's (see
+        :func:`vibrapol.symmetry.compare_program_species`); ``None`` when not printed.
+    raman_scale : {"absolute", "relative"}
+        ``"absolute"`` (default): a², γ² and the activities are in Å⁴ Da⁻¹.  ``"relative"``:
+        the source printed only relative intensities, so a², γ² and the activities share one
+        unknown factor (the most active mode is set to 100); ratios are still right, absolute
+        cross sections are not available.
 
     Notes
     -----
@@ -164,6 +173,8 @@ class ModeSet:
     provenance: Provenance = field(default_factory=Provenance)
     activity: np.ndarray | None = None
     ir_intensity_km_mol: np.ndarray | None = None
+    program_irreps: tuple[str, ...] | None = None
+    raman_scale: str = "absolute"
 
     def __post_init__(self) -> None:
         set_ = object.__setattr__
@@ -224,6 +235,18 @@ class ModeSet:
             "ir_intensity_km_mol",
             _optional(self.ir_intensity_km_mol, "ir_intensity_km_mol", (n_modes,)),
         )
+        if self.program_irreps is not None:
+            labels = tuple(self.program_irreps)
+            if len(labels) != n_modes or not all(isinstance(x, str) for x in labels):
+                raise ShapeError(
+                    f"program_irreps should hold one species label (a string) per mode, "
+                    f"{n_modes} in all"
+                )
+            set_(self, "program_irreps", labels)
+        if self.raman_scale not in ("absolute", "relative"):
+            raise ShapeError(
+                f"raman_scale must be 'absolute' or 'relative', got {self.raman_scale!r}"
+            )
         set_(
             self,
             "polarizability_ang3",
@@ -304,6 +327,8 @@ class ModeSet:
         for name in ("dalpha_dq", "a2", "gamma2", "activity", "ir_intensity_km_mol"):
             value = getattr(self, name)
             pick[name] = None if value is None else value[idx]
+        if self.program_irreps is not None:
+            pick["program_irreps"] = tuple(self.program_irreps[int(i)] for i in idx)
         return dataclasses.replace(
             self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick
         )

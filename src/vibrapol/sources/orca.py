@@ -284,7 +284,7 @@ def _orca_warnings(lines: list[str], where: str) -> tuple[list[str], list[str]]:
         text = line.strip()
         meanings = [meaning for pattern, meaning in _RESULT_WARNINGS if pattern.search(text)]
         for meaning in meanings:
-            found.setdefault(f"{meaning}: {text!r}", []).append(i + 1)
+            found.setdefault(f"{meaning}: {text.strip('*= ')!r}", []).append(i + 1)
         if meanings or not re.match(r"WARNING\b", text):
             continue
         follow = lines[i + 1].strip() if i + 1 < len(lines) else ""

@@ -170,10 +170,13 @@ def _label_row(line: str, header: str, cols: list[int]) -> dict[int, str] | None
     """Column → species of a label row under a mode-number row (None if ``line`` is not one).
 
     Each label is matched to the mode number whose right end is nearest to its own, so rows
-    that leave some columns empty (rigid-body modes) are read right.
+    that leave some columns empty (rigid-body modes) are read right; a blank line there is a
+    row of empty labels (a block of rigid-body modes only).
     """
     tokens = list(re.finditer(r"\S+", line))
-    if not tokens or not all(_IRREP.match(t.group()) for t in tokens):
+    if not tokens:
+        return {}
+    if not all(_IRREP.match(t.group()) for t in tokens):
         return None
     ends = [m.end() for m in re.finditer(r"\S+", header)]
     out: dict[int, str] = {}

@@ -66,6 +66,11 @@ class Provenance:
         Where the atomic masses came from.
     notes : tuple of str
         Anything else a reader of the results should know (conversions made, quirks handled).
+    raman_scale : {"absolute", "relative"}
+        ``"absolute"`` (default): a², γ² and activities are in Å⁴ Da⁻¹.  ``"relative"``: the
+        source printed only relative intensities, so a², γ² and activities share one unknown
+        factor (the most active mode is set to 100); ratios are right, absolute cross sections
+        are not available.  Tables and spectra must say so in their headers.
     """
 
     source_file: str = ""
@@ -76,6 +81,13 @@ class Provenance:
     basis: str = ""
     masses: str = ""
     notes: tuple[str, ...] = ()
+    raman_scale: str = "absolute"
+
+    def __post_init__(self) -> None:
+        if self.raman_scale not in ("absolute", "relative"):
+            raise ShapeError(
+                f"raman_scale must be 'absolute' or 'relative', got {self.raman_scale!r}"
+            )
 
     def with_note(self, note: str) -> Provenance:
         """Return a copy with one more note."""
@@ -147,11 +159,6 @@ class ModeSet:
         Symmetry species of each mode as the source program printed it (e.g. ``"Au"``), in the
         program's own point group and axis convention, which may differ from vibrapol's (see
         :func:`vibrapol.symmetry.compare_program_species`); ``None`` when not printed.
-    raman_scale : {"absolute", "relative"}
-        ``"absolute"`` (default): a², γ² and the activities are in Å⁴ Da⁻¹.  ``"relative"``:
-        the source printed only relative intensities, so a², γ² and the activities share one
-        unknown factor (the most active mode is set to 100); ratios are still right, absolute
-        cross sections are not available.
 
     Notes
     -----
@@ -174,7 +181,6 @@ class ModeSet:
     activity: np.ndarray | None = None
     ir_intensity_km_mol: np.ndarray | None = None
     program_irreps: tuple[str, ...] | None = None
-    raman_scale: str = "absolute"
 
     def __post_init__(self) -> None:
         set_ = object.__setattr__
@@ -243,10 +249,6 @@ class ModeSet:
                     f"{n_modes} in all"
                 )
             set_(self, "program_irreps", labels)
-        if self.raman_scale not in ("absolute", "relative"):
-            raise ShapeError(
-                f"raman_scale must be 'absolute' or 'relative', got {self.raman_scale!r}"
-            )
         set_(
             self,
             "polarizability_ang3",

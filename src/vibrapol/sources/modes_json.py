@@ -61,7 +61,6 @@ def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
     for attr, key in _ARRAY_FIELDS.items():
         out[key] = _list(getattr(modes, attr))
     out["program_irreps"] = None if modes.program_irreps is None else list(modes.program_irreps)
-    out["raman_scale"] = modes.raman_scale
     return out
 
 
@@ -94,7 +93,6 @@ def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
             energy_hartree=data.get("energy_hartree"),
             provenance=Provenance(**prov),
             program_irreps=None if labels is None else tuple(labels),
-            raman_scale=data.get("raman_scale", "absolute"),
             **kwargs,
         )
     except VibrapolError as exc:

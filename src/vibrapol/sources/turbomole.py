@@ -253,6 +253,8 @@ def mode_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> ModeT
                     _atom_rows(lines, i, atom, atoms_seen, cols, vectors, where)
                     atoms_seen += 1
                     i += 2
+            except InputFormatError:
+                raise
             except (ValueError, IndexError):
                 raise _error(lines, i, where, "normal-mode block") from None
             i += 1
@@ -363,16 +365,20 @@ def relative_invariants(
             rtol=1e-3,
             origin="recomputed from (ort,unpol) and the depol. ratio",
         )
-    strong = rows["(ort,ort)"] >= 1.0
-    check_printed(
-        "depolarization ratio",
-        np.where(strong, rows["(par,par)"] / np.where(strong, rows["(ort,ort)"], 1), np.nan),
-        np.where(strong, rho, np.nan),
-        where=where,
-        atol=5e-5 + 0.005 / np.maximum(rows["(ort,ort)"], 1.0),
-        origin="from the (par,par)/(ort,ort) rows",
-        reference="the printed depol. ratio",
-    )
+    if normalisation.startswith("all three"):
+        # ρ from the two printed rows, where both are well above their print precision (0.005)
+        pp, oo = rows["(par,par)"], rows["(ort,ort)"]
+        strong = (oo >= 1.0) & (pp >= 0.1)
+        safe_pp, safe_oo = np.where(strong, pp, 1.0), np.where(strong, oo, 1.0)
+        check_printed(
+            "depolarization ratio",
+            np.where(strong, safe_pp / safe_oo, np.nan),
+            np.where(strong, rho, np.nan),
+            where=where,
+            atol=5e-5 + rho * (0.005 / safe_pp + 0.005 / safe_oo),
+            origin="from the (par,par)/(ort,ort) rows",
+            reference="the printed depol. ratio",
+        )
     return a2, gamma2, normalisation
 
 
@@ -485,6 +491,7 @@ def parse_turbomole(text: str, where: str = "TURBOMOLE output") -> ModeSet:
         program_version=".".join(g for g in version.groups() if g) if version else "",
         masses="as printed by TURBOMOLE (ATOMIC WEIGHTS)" if masses is not None else "",
         notes=tuple(notes),
+        raman_scale="relative" if a2 is not None else "absolute",
     )
     result = ModeSet(
         atomic_numbers=z,
@@ -497,7 +504,6 @@ def parse_turbomole(text: str, where: str = "TURBOMOLE output") -> ModeSet:
         provenance=provenance,
         ir_intensity_km_mol=ir,
         program_irreps=irreps if all(irreps) else None,
-        raman_scale="relative" if a2 is not None else "absolute",
     )
     if message:
         warnings.warn(message, AccuracyWarning, stacklevel=2)

@@ -250,3 +250,21 @@ def test_species_compared_with_ours(capsys):
 
     sym = mode_symmetry(ms, symmetrize="never")
     assert any("up to the choice of axes (printed B2 = B1, B1 = B2)" in n for n in sym.notes)
+
+
+def test_blank_species_cells_are_placed_by_column():
+    # an imaginary mode printed before the rigid-body ones, which have no species: the one
+    # label must go to its own column (the first), not to the last
+    lines = IR_ONLY.read_text().splitlines()
+    i = next(k for k, line in enumerate(lines) if line.strip().startswith("frequency"))
+    cells = lines[i].split()[1:]
+    lines[i] = lines[i].replace("frequency    " + "     0.00", "frequency    " + "   i88.00", 1)
+    j = next(k for k, line in enumerate(lines) if line.strip().startswith("symmetry"))
+    lines[j] = "     symmetry           a2"
+    assert cells == ["0.00"] * 6
+    from vibrapol.sources.turbomole import mode_blocks
+
+    title = next(k for k, line in enumerate(lines) if "NORMAL MODES and" in line)
+    table = mode_blocks(lines, title, 4, "t.out")
+    assert table.freqs_cm1[0] == -88.0
+    assert table.symmetry[:6] == ("a2", "", "", "", "", "")

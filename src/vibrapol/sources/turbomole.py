@@ -156,10 +156,21 @@ class ModeTable:
     vectors: np.ndarray  # (3N modes, 3N coordinates), as printed
 
 
-def _cells(line: str, label: str, n: int) -> list[str]:
-    """The last ``n`` fields of a row whose label is ``label`` (fewer fields: blank cells)."""
-    fields = line.strip()[len(label) :].split()
-    return fields[-n:] if len(fields) >= n else [""] * (n - len(fields)) + fields
+def _cells(line: str, label: str, header: str, n: int) -> list[str]:
+    """The ``n`` cells of a row whose label is ``label``, under the mode numbers of ``header``.
+
+    With fewer fields than modes (blank species of rigid-body modes) each field goes to the
+    mode number whose right end is nearest to its own.
+    """
+    start = line.index(label) + len(label)
+    fields = list(re.finditer(r"\S+", line[start:]))
+    if len(fields) >= n:
+        return [f.group() for f in fields[-n:]]
+    ends = [m.end() for m in re.finditer(r"\S+", header)][-n:]
+    cells = [""] * n
+    for f in fields:
+        cells[int(np.argmin([abs(e - (start + f.end())) for e in ends]))] = f.group()
+    return cells
 
 
 def _number(text: str) -> float:
@@ -228,7 +239,7 @@ def mode_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> ModeT
         if not (tokens and tokens[0] == "mode" and all(t.isdigit() for t in tokens[1:])):
             i += 1
             continue
-        cols = [int(t) - 1 for t in tokens[1:]]
+        cols, header = [int(t) - 1 for t in tokens[1:]], lines[i]
         if not cols or max(cols) >= n3:
             raise _error(lines, i, where, "normal-mode block")
         n, i = len(cols), i + 1
@@ -240,14 +251,22 @@ def mode_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> ModeT
                 if text.startswith("reduced mass"):
                     break
                 if text.startswith("frequency"):
-                    freqs.update(zip(cols, map(_number, _cells(text, "frequency", n)), strict=True))
+                    freqs.update(
+                        zip(
+                            cols,
+                            map(_number, _cells(lines[i], "frequency", header, n)),
+                            strict=True,
+                        )
+                    )
                 elif text.startswith("symmetry"):
-                    symmetry.update(zip(cols, _cells(text, "symmetry", n), strict=True))
+                    symmetry.update(zip(cols, _cells(lines[i], "symmetry", header, n), strict=True))
                 elif text.startswith("intensity (km/mol)"):
-                    values = _cells(text, "intensity (km/mol)", n)
+                    values = _cells(lines[i], "intensity (km/mol)", header, n)
                     ir.update(zip(cols, map(_number, values), strict=True))
                 elif (key := next((k for k in RAMAN_ROWS if text.startswith(k)), None)) is not None:
-                    raman[key].update(zip(cols, map(_number, _cells(text, key, n)), strict=True))
+                    raman[key].update(
+                        zip(cols, map(_number, _cells(lines[i], key, header, n)), strict=True)
+                    )
                 elif atom:
                     _atom_rows(lines, i, atom, atoms_seen, cols, vectors, where)
                     atoms_seen += 1

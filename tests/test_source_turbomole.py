@@ -268,3 +268,13 @@ def test_blank_species_cells_are_placed_by_column():
     table = mode_blocks(lines, title, 4, "t.out")
     assert table.freqs_cm1[0] == -88.0
     assert table.symmetry[:6] == ("a2", "", "", "", "", "")
+
+
+def test_no_absolute_cross_sections_from_relative_data():
+    from vibrapol.errors import VibrapolError
+    from vibrapol.spectrum import stick_spectrum
+
+    ms = _read(RAMAN.read_text(), "rel.out")
+    with pytest.raises(VibrapolError, match="only relative Raman intensities"):
+        stick_spectrum(ms, quantity="cross-section")
+    assert stick_spectrum(ms, quantity="intensity").heights.max() > 0

@@ -278,3 +278,23 @@ def test_no_absolute_cross_sections_from_relative_data():
     with pytest.raises(VibrapolError, match="only relative Raman intensities"):
         stick_spectrum(ms, quantity="cross-section")
     assert stick_spectrum(ms, quantity="intensity").heights.max() > 0
+
+
+@pytest.mark.parametrize(
+    ("heading", "laser_cm1"),
+    [
+        # 532 nm ↔ 18796.99 cm⁻¹ (10⁷/λ); 2.33 eV ↔ 18792.7 cm⁻¹ and 0.0856 hartree ↔
+        # 18787.0 cm⁻¹ (CODATA: 1 eV = 8065.544 cm⁻¹, 1 hartree = 219474.63 cm⁻¹)
+        (" RAMAN intensities for a laser line of 532 nm at 298.15 K", 1e7 / 532),
+        (" RAMAN cross sections, excitation 2.33 eV, T = 298.15 K", 2.33 * 8065.544),
+        (" RAMAN, frequency 0.0856 a.u., temperature 298.15 K", 0.0856 * 219474.63),
+    ],
+)
+def test_excitation_in_other_units(heading, laser_cm1):
+    from vibrapol.sources.turbomole import raman_conditions
+
+    lines = with_rows(RAMAN.read_text(), {}, heading).splitlines()
+    title = next(k for k, line in enumerate(lines) if "NORMAL MODES and" in line)
+    first = next(k for k, line in enumerate(lines) if line.split()[:1] == ["mode"])
+    laser, temperature = raman_conditions(lines, title, first, "t.out")
+    assert laser == pytest.approx(laser_cm1, rel=2e-6) and temperature == 298.15

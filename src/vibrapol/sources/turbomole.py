@@ -30,6 +30,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+from scipy.constants import e as ELEMENTARY_CHARGE_C
 
 from vibrapol.errors import AccuracyWarning, InputFormatError
 from vibrapol.modeset import ModeSet, Provenance, default_masses
@@ -39,9 +40,12 @@ from vibrapol.sources._common import (
 )
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.sources.turbomole_raman import relative_invariants
-from vibrapol.units import BOHR_ANG
+from vibrapol.units import BOHR_ANG, C_CM_S, HARTREE_J, PLANCK_J_S
 from vibrapol.vibrations import modes_from_displacements
 
+#: 1 eV and 1 hartree as wavenumbers, cm⁻¹ (E/(hc), scipy.constants via vibrapol.units).
+EV_TO_CM1 = ELEMENTARY_CHARGE_C / (PLANCK_J_S * C_CM_S)
+HARTREE_TO_CM1 = HARTREE_J / (PLANCK_J_S * C_CM_S)
 TITLE = "NORMAL MODES and VIBRATIONAL FREQUENCIES (cm**(-1))"
 BANNER = "a o f o r c e - program"
 RAMAN_ROWS = ("(par,par)", "(ort,ort)", "(ort,unpol)", "depol. ratio")
@@ -49,6 +53,9 @@ _VERSION = re.compile(r"TURBOMOLE(?: rev\.)? V(\d+)[.-](\d+)(?:[.-](\d+))?")
 _ATOM_ROW = re.compile(r"^\s*(\d+)\s+([A-Za-z]{1,3})\s+x\s+(.*)$")
 _LASER_CM1 = re.compile(r"(\d+(?:\.\d*)?)\s*cm\*\*\(?-1\)?|(\d+(?:\.\d*)?)\s*cm-1")
 _LASER_NM = re.compile(r"(\d+(?:\.\d*)?)\s*nm\b")
+_LASER_EV = re.compile(r"(\d+(?:\.\d*)?)\s*eV\b")
+_LASER_AU = re.compile(r"(\d*\.\d+)\s*(?:a\.u\.|hartree)", re.IGNORECASE)
+_COORDINATES_HEAD = re.compile(r"atomic coordinates\s+atom\b")
 _TEMPERATURE = re.compile(r"(\d+(?:\.\d*)?)\s*K\b")
 
 
@@ -74,7 +81,7 @@ def coordinates_block(lines: list[str], stop: int, where: str) -> tuple[list[str
                 0.00000000    0.00000000    2.28656861    o      8.000     0
         (blank line)
     """
-    heads = [i for i in range(stop) if "atomic coordinates" in lines[i] and "atom" in lines[i][30:]]
+    heads = [i for i in range(stop) if _COORDINATES_HEAD.search(lines[i])]
     if not heads:
         raise InputFormatError(f"{where}: no 'atomic coordinates' block before the normal modes")
     symbols, coords = [], []
@@ -132,17 +139,28 @@ def raman_conditions(lines: list[str], title: int, first: int, where: str) -> tu
     if start is None:
         return None
     text = " ".join(lines[start:first])
-    laser = _LASER_CM1.search(text)
-    nm = _LASER_NM.search(text)
+    laser_cm1 = _excitation_cm1(text)
     temperature = _TEMPERATURE.search(text)
-    if (laser is None and nm is None) or temperature is None:
-        missing = "excitation wavenumber" if laser is None and nm is None else "temperature"
+    if laser_cm1 is None or temperature is None:
+        missing = "excitation wavenumber" if laser_cm1 is None else "temperature"
         raise InputFormatError(
             f"{where}: unrecognised layout of the TURBOMOLE Raman heading at line {start + 1}: "
             f"no {missing} found in it, so the cross sections cannot be converted"
         )
-    laser_cm1 = float(laser.group(1) or laser.group(2)) if laser else 1e7 / float(nm.group(1))
     return laser_cm1, float(temperature.group(1))
+
+
+def _excitation_cm1(text: str) -> float | None:
+    """The excitation as a wavenumber in cm⁻¹: given in cm⁻¹, nm, eV or a.u. (hartree)."""
+    if found := _LASER_CM1.search(text):
+        return float(found.group(1) or found.group(2))
+    if found := _LASER_NM.search(text):
+        return 1e7 / float(found.group(1))
+    if found := _LASER_EV.search(text):
+        return float(found.group(1)) * EV_TO_CM1
+    if found := _LASER_AU.search(text):
+        return float(found.group(1)) * HARTREE_TO_CM1
+    return None
 
 
 @dataclass(frozen=True)

@@ -408,3 +408,15 @@ def test_unknown_layout_is_named_as_such(tmp_path):
     message = str(err.value)
     assert f"unrecognised layout of the ORCA NORMAL MODES block at line {k + 1}" in message
     assert "truncated" not in message
+
+
+def test_warning_inside_a_line_is_passed_on(tmp_path):
+    path = tmp_path / "w.out"
+    path.write_text(
+        CO2.read_text().replace(
+            "NORMAL MODES\n------------\n",
+            "NORMAL MODES\n------------\n  *** WARNING: the Raman activities are unreliable ***\n",
+        )
+    )
+    with pytest.warns(AccuracyWarning, match=r"ORCA printed: WARNING: the Raman activities are"):
+        read_orca(path)

@@ -273,9 +273,9 @@ def _orca_warnings(lines: list[str], where: str) -> tuple[list[str], list[str]]:
     """(warnings to pass on, provenance notes) from what ORCA says about its own run.
 
     ORCA's statements of failed or unconverged steps (:data:`_RESULT_WARNINGS`) and any line
-    beginning with ``WARNING`` after the echo of the input become warnings; the ``WARNINGS``
-    block ORCA prints before the input (about set-up: parallel start, symmetry switched off)
-    becomes notes only.  Repeated lines count once.
+    holding the word ``WARNING`` (in capitals) after the echo of the input become warnings;
+    the ``WARNINGS`` block ORCA prints before the input (about set-up: parallel start,
+    symmetry switched off) becomes notes only.  Repeated lines count once.
     """
     input_echo = next((i for i, line in enumerate(lines) if line.strip() == "INPUT FILE"), 0)
     setup: list[str] = []
@@ -285,10 +285,10 @@ def _orca_warnings(lines: list[str], where: str) -> tuple[list[str], list[str]]:
         meanings = [meaning for pattern, meaning in _RESULT_WARNINGS if pattern.search(text)]
         for meaning in meanings:
             found.setdefault(f"{meaning}: {text.strip('*= ')!r}", []).append(i + 1)
-        if meanings or not re.match(r"WARNING\b", text):
+        if meanings or not re.search(r"\bWARNING\b", text):
             continue
         follow = lines[i + 1].strip() if i + 1 < len(lines) else ""
-        said = text + (f" {follow}" if follow.startswith("===>") else "")
+        said = text.strip("* ") + (f" {follow}" if follow.startswith("===>") else "")
         if i < input_echo:
             setup.append(said)
         else:

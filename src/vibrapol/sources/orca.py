@@ -23,8 +23,20 @@ frequency jobs with ``%elprop polar 1``):
 * The static polarizability (``THE POLARIZABILITY TENSOR`` in 5.x, ``STATIC POLARIZABILITY
   TENSOR (Dipole/Dipole)`` in 6.x), raw Cartesian tensor in a.u. (bohr³), and ``FINAL SINGLE
   POINT ENERGY`` (hartree).
-* Not read: the IR block into the ModeSet (:func:`ir_spectrum_block` returns it separately),
-  thermochemistry, and any polarizability derivatives (ORCA does not print them).
+* ``IR SPECTRUM``: the column headed ``Int`` with ``km/mol`` beneath it, the IR intensity
+  (``ModeSet.ir_intensity_km_mol``); a block without that column is not read (noted).
+* With ``usesym`` (ORCA 6): the ``Point group:`` line and the species printed after each
+  wavenumber and under each row of NORMAL MODES column numbers (``2-Au`` → ``Au``), kept in
+  ``ModeSet.program_irreps``; the two sets of labels must agree.
+* ORCA's own warnings about its results (incomplete Hessian, unconverged SCF or geometry, error
+  termination, capitalised ``WARNING`` lines after the input) become
+  :class:`~vibrapol.errors.AccuracyWarning` and notes; the set-up warnings before the input
+  become notes.
+* Not read: thermochemistry, and any polarizability derivatives (ORCA does not print them).
+
+The block parsers live in :mod:`vibrapol.sources.orca_blocks`.  A block that stops with the
+file is reported as truncated; one laid out in a way they do not know, as an unrecognised
+layout with its line number.
 
 The method is described from the ``SCF SETTINGS`` block (e.g. "DFT (B88 exchange, LYP
 correlation, 20% HF exchange)"), since ORCA prints no functional name there; the simple-input

@@ -311,8 +311,10 @@ def test_usesym_labels_must_agree_between_blocks(tmp_path):
     lines[k] = lines[k].replace("1-Au", "1-Ag")  # only in the frequency list
     path = tmp_path / "edited.out"
     path.write_text("\n".join(lines))
-    with pytest.raises(InputFormatError, match="mode 7 is labelled Ag in VIBRATIONAL"):
-        read_orca(path)
+    with pytest.warns(AccuracyWarning, match="mode 7 is labelled Ag in VIBRATIONAL"):
+        ms = read_orca(path)
+    assert ms.program_irreps is None
+    np.testing.assert_array_equal(ms.freqs_cm1, read_orca(USESYM).freqs_cm1)
 
 
 def test_modes_json_keeps_program_species():

@@ -59,6 +59,7 @@ from vibrapol.sources._common import (
     truncated_error,
 )
 from vibrapol.sources.orca_blocks import (
+    Frequencies,
     coordinates_block,
     find_titles,
     frequencies_block,
@@ -251,34 +252,41 @@ def _ir_intensities(
 
 
 def _program_irreps(
-    freqs: object, nm_irreps: dict[int, str], vib: np.ndarray, where: str
-) -> tuple[tuple[str, ...] | None, list[str]]:
-    """Species ORCA printed for the vibrations (None without symmetry) and notes.
+    freqs: Frequencies, nm_irreps: dict[int, str], vib: np.ndarray, where: str
+) -> tuple[tuple[str, ...] | None, list[str], list[str]]:
+    """Species ORCA printed for the vibrations (None without symmetry), notes, and warnings.
 
-    The labels of the frequency list are used; those under the NORMAL MODES columns must agree
-    with them (they are the same labels printed twice).
+    The labels of the frequency list are used; those under the NORMAL MODES columns are the same
+    labels printed twice.  When the two disagree, or some vibration has none, no labels are kept
+    (the numbers are unaffected) and a warning says why.
     """
-    listed = {k: v for k, v in enumerate(freqs.irreps) if v}  # type: ignore[attr-defined]
+    listed = {k: v for k, v in enumerate(freqs.irreps) if v}
     if not listed and not nm_irreps:
-        return None, []
-    for k in sorted(set(listed) & set(nm_irreps)):
-        if listed[k] != nm_irreps[k]:
-            raise InputFormatError(
-                f"{where}: ORCA mode {k} is labelled {listed[k]} in VIBRATIONAL FREQUENCIES but "
-                f"{nm_irreps[k]} in NORMAL MODES; the file looks edited"
-            )
+        return None, [], []
+    differ = [k for k in sorted(set(listed) & set(nm_irreps)) if listed[k] != nm_irreps[k]]
     labels = {**nm_irreps, **listed}
     unlabelled = [int(k) for k in vib if int(k) not in labels]
-    if unlabelled:
-        raise InputFormatError(
-            f"{where}: ORCA printed species labels for some vibrations but not for mode "
-            f"{unlabelled[0]}; the file looks edited"
+    problem = ""
+    if differ:
+        k = differ[0]
+        problem = (
+            f"ORCA mode {k} is labelled {listed[k]} in VIBRATIONAL FREQUENCIES but "
+            f"{nm_irreps[k]} in NORMAL MODES"
         )
-    group = freqs.point_group or "its point group"  # type: ignore[attr-defined]
-    return tuple(labels[int(k)] for k in vib), [
-        f"ORCA ran with symmetry ({group}); its species label of every vibration is kept as "
-        "printed (program_irreps)"
-    ]
+    elif unlabelled:
+        problem = f"ORCA printed species for some vibrations but not for mode {unlabelled[0]}"
+    if problem:
+        note = f"{problem}: the printed species are not used"
+        return None, [note], [f"{where}: {note}"]
+    group = freqs.point_group or "its point group"
+    return (
+        tuple(labels[int(k)] for k in vib),
+        [
+            f"ORCA ran with symmetry ({group}); its species label of every vibration is kept as "
+            "printed (program_irreps)"
+        ],
+        [],
+    )
 
 
 def _orca_warnings(lines: list[str], where: str) -> tuple[list[str], list[str]]:
@@ -369,8 +377,9 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
     )
     a2, gamma2, raman_notes = _raman_invariants(lines, ftitle, vib, freqs_all, where)
     ir, ir_note = _ir_intensities(lines, ftitle, vib, where)
-    irreps, irrep_notes = _program_irreps(freq_block, nm_irreps, vib, where)
+    irreps, irrep_notes, irrep_messages = _program_irreps(freq_block, nm_irreps, vib, where)
     messages, warning_notes = _orca_warnings(lines, where)
+    messages = irrep_messages + messages
     notes = [
         f"ORCA printed all {n_coords} modes; the {n_coords - vib.size} rigid-body ones are dropped",
         *raman_notes,

@@ -298,3 +298,18 @@ def test_excitation_in_other_units(heading, laser_cm1):
     first = next(k for k, line in enumerate(lines) if line.split()[:1] == ["mode"])
     laser, temperature = raman_conditions(lines, title, first, "t.out")
     assert laser == pytest.approx(laser_cm1, rel=2e-6) and temperature == 298.15
+
+
+@pytest.mark.parametrize("path", [RAMAN, IR_ONLY])
+def test_fixture_layout_is_the_one_cclib_expects(path):
+    # reference library: cclib's TURBOMOLE parser (written from real aoforce outputs) reads the
+    # fixtures' frequencies, IR intensities and species as we do, Raman rows included
+    import io
+
+    import cclib
+
+    data = cclib.parser.Turbomole(io.StringIO(path.read_text())).parse()
+    ms = _read(path.read_text())
+    np.testing.assert_array_equal(data.vibfreqs, ms.freqs_cm1)
+    np.testing.assert_array_equal(data.vibirs, ms.ir_intensity_km_mol)
+    assert [s.lower() for s in data.vibsyms] == list(ms.program_irreps)

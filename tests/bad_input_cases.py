@@ -24,6 +24,8 @@ WATER = PROJECT_ROOT / "examples" / "water.modes.json"
 WATER_XYZ = "3\nwater\nO 0.0 0.0 0.1173\nH 0.0 0.7572 -0.4692\nH 0.0 -0.7572 -0.4692\n"
 ORCA = "orca5_co2.out"
 QCHEM = "qchem54_co2.out"
+USESYM = "orca6_n2h2_usesym.out"
+TURBOMOLE = "turbomole_h2co_raman.out"
 
 Content = bytes | str | Callable[[], bytes | str] | None
 
@@ -131,6 +133,16 @@ TABLE_FILES = [
      "ORCA NORMAL MODES block ends early"),
     ("cut-orca-raman-row", "o3.out", cut(ORCA, "RAMAN SPECTRUM", 6, 0.3),
      "ORCA RAMAN SPECTRUM row at line 125 has 1 of 3 numbers"),
+    ("cut-orca-usesym-label-row", "o6.out", cut(USESYM, "1-Bu       1-Au", 0, 0.5),
+     "ORCA NORMAL MODES block ends early at line 109"),
+    ("cut-orca-usesym-frequencies", "o7.out", cut(USESYM, "Irrep", 3, 0.5),
+     "3 frequencies printed for 4 atoms, expected 3N = 12"),
+    ("cut-turbomole-atom-rows", "t1.out", cut(TURBOMOLE, "mode               7", 20, 0.5),
+     "TURBOMOLE normal-mode block ends early at line 88"),
+    ("cut-turbomole-raman-row", "t2.out", cut(TURBOMOLE, "(ort,ort)", 0, 0.5),
+     "TURBOMOLE normal-mode block ends early at line 50"),
+    ("cut-turbomole-after-heading", "t3.out", cut(TURBOMOLE, "differential RAMAN", 1),
+     "TURBOMOLE normal modes: 0 of 3N = 12 modes printed in full"),
     ("cut-qchem-first-block", "q1.out", cut(QCHEM, "VIBRATIONAL ANALYSIS", 6, 0.5),
      "line 53: expected the 'X Y Z' header"),
     ("cut-qchem-mode-header", "q2.out", cut(QCHEM, "Mode:                 4", 3),

@@ -96,6 +96,9 @@ def _read_modes_and_table(path: Path, kind: str | None) -> None:
 QC_TARGETS = [
     ("orca5_co2.out", "orca"),
     ("orca6_nh3_planar.out", "orca"),
+    ("orca6_n2h2_usesym.out", "orca"),
+    ("turbomole_h2co_raman.out", "turbomole"),
+    ("turbomole_h2co_raman.out", None),
     ("qchem54_co2.out", "qchem"),
     ("firefly_water_raman.out", "firefly"),
     ("gamessuk_water_raman.out", "gamess-uk"),
@@ -124,7 +127,8 @@ REAL_TARGETS = [
 _N_MODES = {"orca5_co2.out": 4, "orca6_nh3_planar.out": 6, "qchem54_co2.out": 4,
             "firefly_water_raman.out": 3, "gamessuk_water_raman.out": 3,
             "dalton_water_raman.out": 3, "gaussian_hood_raman.log": 6,
-            "gaussian_hood_raman.fchk": 6, "compare/chcl3_hf_321g.modes.json": 9}  # fmt: skip
+            "gaussian_hood_raman.fchk": 6, "compare/chcl3_hf_321g.modes.json": 9,
+            "orca6_n2h2_usesym.out": 6, "turbomole_h2co_raman.out": 6}  # fmt: skip
 
 
 @pytest.mark.parametrize(("name", "kind"), QC_TARGETS, ids=_IDS)

@@ -34,6 +34,8 @@ VARIANTS = {
 QC_FIXTURES = [
     "orca5_co2.out",
     "orca6_nh3_planar.out",
+    "orca6_n2h2_usesym.out",
+    "turbomole_h2co_raman.out",
     "qchem54_co2.out",
     "firefly_water_raman.out",
     "gamessuk_water_raman.out",

@@ -15,7 +15,7 @@ from _paths import FIXTURES, qc_output
 from _source_contract import BOHR3_ANG3, cclib_data, table_rows
 from vibrapol import invariants as inv
 from vibrapol.cli import main
-from vibrapol.errors import InputFormatError
+from vibrapol.errors import AccuracyWarning, InputFormatError
 from vibrapol.ramantable import raman_table
 from vibrapol.sources import read_modes, sniff
 from vibrapol.sources.orca import (
@@ -226,7 +226,7 @@ def test_real_mutual_exclusion(name):
 def test_real_mode_conversion(name):
     path = qc_output(name)
     lines = path.read_text().splitlines()
-    printed = normal_modes_block(lines, find_titles(lines, "NORMAL MODES")[-1], 60, str(path))
+    printed, _ = normal_modes_block(lines, find_titles(lines, "NORMAL MODES")[-1], 60, str(path))
     ms = read_orca(path)
     # ORCA: columns are L/√m normalised, so √m·column must be orthogonal (ORCA's own header text)
     w = printed[:, 6:].T * np.repeat(np.sqrt(ms.masses_da), 3)
@@ -269,3 +269,156 @@ def test_real_cli_table(name, capsys):
 def test_parse_from_text_names_the_source():
     with pytest.raises(InputFormatError, match="^mytext: ORCA output has no vibrational data"):
         parse_orca("* O   R   C   A *\n", where="mytext")
+
+
+# -- ORCA 6 with symmetry (usesym): labelled frequency list and NORMAL MODES columns ------------
+USESYM = FIXTURES / "orca6_n2h2_usesym.out"
+WARNED = FIXTURES / "orca5_n2h2_warnings.out"
+
+
+def test_usesym_layout_is_read_with_the_printed_species():
+    ms = read_orca(USESYM)
+    # fixture: "6: 1364.33 cm**-1 1-Bu" ... (trans-diazene, PySCF RHF/STO-3G Hessian)
+    np.testing.assert_array_equal(ms.freqs_cm1, [1364.33, 1368.77, 1742.33, 2011.27, 4074.98,
+                                                 4077.13])  # fmt: skip
+    assert ms.program_irreps == ("Bu", "Au", "Ag", "Ag", "Ag", "Bu")
+    # the one Au vibration of planar trans-HN=NH (3Ag + Au + 2Bu, common practice) is the
+    # torsion, out of the molecular plane (z here): its displacements are along z only
+    au = ms.displacements()[1]
+    assert np.abs(au[:, :2]).max() < 1e-6 and np.abs(au[:, 2]).max() > 0.5
+    assert any("ORCA ran with symmetry (C2h)" in n for n in ms.provenance.notes)
+
+
+def test_usesym_symmetry_command_compares_species(capsys):
+    assert main(["symmetry", str(USESYM)]) == 0
+    assert "species labels agree with vibrapol's for all 6 modes" in capsys.readouterr().out
+
+
+def test_usesym_wrong_label_is_named(tmp_path):
+    # contract: a printed species that is not vibrapol's is reported with the mode number
+    path = tmp_path / "relabelled.out"
+    path.write_text(USESYM.read_text().replace("1-Au", "1-Bg"))
+    ms = read_orca(path)
+    from vibrapol.symmetry import mode_symmetry
+
+    with pytest.warns(AccuracyWarning, match=r"mode 2 \(printed Bg, vibrapol Au\)"):
+        mode_symmetry(ms, symmetrize="never")
+
+
+def test_usesym_labels_must_agree_between_blocks(tmp_path):
+    lines = USESYM.read_text().splitlines()
+    k = next(i for i, line in enumerate(lines) if line.rstrip().endswith("1-Au"))
+    lines[k] = lines[k].replace("1-Au", "1-Ag")  # only in the frequency list
+    path = tmp_path / "edited.out"
+    path.write_text("\n".join(lines))
+    with pytest.warns(AccuracyWarning, match="mode 7 is labelled Ag in VIBRATIONAL"):
+        ms = read_orca(path)
+    assert ms.program_irreps is None
+    np.testing.assert_array_equal(ms.freqs_cm1, read_orca(USESYM).freqs_cm1)
+
+
+def test_modes_json_keeps_program_species():
+    from vibrapol.sources.modes_json import modeset_from_dict, modeset_to_dict
+
+    ms = read_orca(USESYM)
+    back = modeset_from_dict(modeset_to_dict(ms))
+    assert back.program_irreps == ms.program_irreps
+    assert back.subset([1, 0]).program_irreps == ("Au", "Bu")
+
+
+# -- ORCA's own warnings -------------------------------------------------------------------------
+def test_orca_warnings_are_passed_on():
+    with pytest.warns(AccuracyWarning) as record:
+        ms = read_orca(WARNED)
+    said = [str(w.message) for w in record if issubclass(w.category, AccuracyWarning)]
+    # fixture lines: "SCF NOT CONVERGED", "It seems that the Hessian Matrix ISN'T COMPLETE!",
+    # "WARNING: the displaced calculation 7 did not finish" (twice)
+    assert len(said) == 3
+    assert any("Hessian is incomplete" in s for s in said)
+    assert any("SCF that did not converge" in s for s in said)
+    assert any("displaced calculation 7 did not finish (line 75, and 1 more times)" in s
+               for s in said)  # fmt: skip
+    assert all(s.startswith(str(WARNED)) for s in said)
+    notes = ms.provenance.notes
+    assert sum("ORCA warning passed on" in n for n in notes) == 3
+    # the set-up block before the input is kept as a note, not a warning
+    assert any(n.startswith("ORCA set-up: WARNING: Gradients needed") for n in notes)
+
+
+@pytest.mark.parametrize("name", REAL)
+def test_real_outputs_give_no_accuracy_warning(name):
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", AccuracyWarning)
+        ms = read_orca(qc_output(name))
+    # printed before the input: "WARNING: Symmetry is not implemented for Numerical Hessian ...
+    # ===> : Turning off Symmetry"
+    assert any("Turning off Symmetry" in n for n in ms.provenance.notes)
+    assert ms.program_irreps is None
+
+
+# -- IR intensities (km/mol) --------------------------------------------------------------------
+@pytest.mark.parametrize(
+    ("name", "mode", "km_mol"),
+    [
+        # pasted from the IR SPECTRUM blocks ('Int' column over 'km/mol'; ORCA's mode numbers)
+        ("ORCA5.0.0_dvb_raman.out", 6, 0.08),
+        ("ORCA5.0.0_dvb_raman.out", 8, 0.41),
+        ("ORCA6.0.1_dvb_raman.out", 6, 0.02),
+        ("ORCA6.0.1_dvb_raman.out", 8, 0.37),
+    ],
+)
+def test_real_ir_intensities_as_printed(name, mode, km_mol):
+    assert read_orca(qc_output(name)).ir_intensity_km_mol[mode - 6] == km_mol
+
+
+def test_real_orca5_ir_intensities_agree_with_cclib():
+    path = qc_output("ORCA5.0.0_dvb_raman.out")
+    data = cclib_data(path.name)  # reference library
+    np.testing.assert_array_equal(read_orca(path).ir_intensity_km_mol, data.vibirs)
+
+
+def test_fixture_ir_intensities():
+    # fixture IR SPECTRUM rows: 12.34, 12.34, 0.00, 345.67 km/mol
+    np.testing.assert_array_equal(read_orca(CO2).ir_intensity_km_mol, [12.34, 12.34, 0.0, 345.67])
+
+
+def test_ir_block_without_km_mol_column_is_not_guessed(tmp_path):
+    text = CO2.read_text().replace(
+        " Mode   freq       eps      Int      T**2         TX        TY        TZ\n"
+        "       cm**-1   L/(mol*cm) km/mol    a.u.\n",
+        " Mode    freq (cm**-1)   T**2         TX         TY         TZ\n",
+    )
+    assert "km/mol" not in text.split("IR SPECTRUM")[1].split("RAMAN")[0]
+    path = tmp_path / "old_ir.out"
+    path.write_text(text)
+    ms = read_orca(path)
+    assert ms.ir_intensity_km_mol is None
+    assert any("IR intensities not read" in n for n in ms.provenance.notes)
+
+
+# -- an unknown layout is not a truncated file ----------------------------------------------------
+def test_unknown_layout_is_named_as_such(tmp_path):
+    lines = CO2.read_text().splitlines()
+    k = next(i for i, line in enumerate(lines) if line.split() == ["6", "7", "8"]) + 4
+    lines[k] = "   something ORCA never printed before"
+    path = tmp_path / "variant.out"
+    path.write_text("\n".join(lines))
+    with pytest.raises(InputFormatError) as err:
+        read_orca(path)
+    message = str(err.value)
+    assert f"unrecognised layout of the ORCA NORMAL MODES block at line {k + 1}" in message
+    assert "truncated" not in message
+
+
+def test_warning_inside_a_line_is_passed_on(tmp_path):
+    path = tmp_path / "w.out"
+    path.write_text(
+        CO2.read_text().replace(
+            "NORMAL MODES\n------------\n",
+            "NORMAL MODES\n------------\n  *** WARNING: the Raman activities are unreliable ***\n",
+        )
+    )
+    with pytest.warns(AccuracyWarning, match=r"ORCA printed: WARNING: the Raman activities are"):
+        read_orca(path)

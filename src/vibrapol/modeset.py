@@ -66,6 +66,11 @@ class Provenance:
         Where the atomic masses came from.
     notes : tuple of str
         Anything else a reader of the results should know (conversions made, quirks handled).
+    raman_scale : {"absolute", "relative"}
+        ``"absolute"`` (default): a², γ² and activities are in Å⁴ Da⁻¹.  ``"relative"``: the
+        source printed only relative intensities, so a², γ² and activities share one unknown
+        factor (the most active mode is set to 100); ratios are right, absolute cross sections
+        are not available.  Tables and spectra must say so in their headers.
     """
 
     source_file: str = ""
@@ -76,6 +81,13 @@ class Provenance:
     basis: str = ""
     masses: str = ""
     notes: tuple[str, ...] = ()
+    raman_scale: str = "absolute"
+
+    def __post_init__(self) -> None:
+        if self.raman_scale not in ("absolute", "relative"):
+            raise ShapeError(
+                f"raman_scale must be 'absolute' or 'relative', got {self.raman_scale!r}"
+            )
 
     def with_note(self, note: str) -> Provenance:
         """Return a copy with one more note."""
@@ -143,6 +155,10 @@ class ModeSet:
     ir_intensity_km_mol : array, shape (n_modes,), optional
         Infrared intensity of each mode in km mol⁻¹ as the source printed or computed it
         (papers show IR and Raman side by side); ``None`` when unknown.
+    program_irreps : tuple of str, optional
+        Symmetry species of each mode as the source program printed it (e.g. ``"Au"``), in the
+        program's own point group and axis convention, which may differ from vibrapol's (see
+        :func:`vibrapol.symmetry.compare_program_species`); ``None`` when not printed.
 
     Notes
     -----
@@ -164,6 +180,7 @@ class ModeSet:
     provenance: Provenance = field(default_factory=Provenance)
     activity: np.ndarray | None = None
     ir_intensity_km_mol: np.ndarray | None = None
+    program_irreps: tuple[str, ...] | None = None
 
     def __post_init__(self) -> None:
         set_ = object.__setattr__
@@ -224,6 +241,14 @@ class ModeSet:
             "ir_intensity_km_mol",
             _optional(self.ir_intensity_km_mol, "ir_intensity_km_mol", (n_modes,)),
         )
+        if self.program_irreps is not None:
+            labels = tuple(self.program_irreps)
+            if len(labels) != n_modes or not all(isinstance(x, str) for x in labels):
+                raise ShapeError(
+                    f"program_irreps should hold one species label (a string) per mode, "
+                    f"{n_modes} in all"
+                )
+            set_(self, "program_irreps", labels)
         set_(
             self,
             "polarizability_ang3",
@@ -304,6 +329,8 @@ class ModeSet:
         for name in ("dalpha_dq", "a2", "gamma2", "activity", "ir_intensity_km_mol"):
             value = getattr(self, name)
             pick[name] = None if value is None else value[idx]
+        if self.program_irreps is not None:
+            pick["program_irreps"] = tuple(self.program_irreps[int(i)] for i in idx)
         return dataclasses.replace(
             self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick
         )

@@ -130,16 +130,17 @@ def _header(table: RamanTable) -> dict[str, str]:
     }
 
 
+def _relative(table: RamanTable) -> bool:
+    """True when the source gave only relative Raman intensities (Provenance.raman_scale)."""
+    return table.provenance.raman_scale == "relative"
+
+
 def table_json(table: RamanTable) -> str:
     """JSON document: header fields, units, and one record per mode."""
+    unit = "relative (largest activity 100)" if _relative(table) else "angstrom^4/amu"
     doc = {
         "header": _header(table),
-        "units": {
-            "frequency_cm1": "cm-1",
-            "a2": "angstrom^4/amu",
-            "gamma2": "angstrom^4/amu",
-            "activity": "angstrom^4/amu",
-        },
+        "units": {"frequency_cm1": "cm-1", "a2": unit, "gamma2": unit, "activity": unit},
         "constants": CODATA_VERSION,
         "modes": table_rows(table),
     }
@@ -158,7 +159,12 @@ def table_text(table: RamanTable) -> str:
         lines.append(f"species names: {h['symmetry_convention']}")
     lines += [f"note: {n}" for n in table.provenance.notes]
     lines += [
-        "a2, gamma2, activity in Å⁴/amu; rho for 90° scattering (linear / natural incident light)",
+        (
+            "a2, gamma2, activity RELATIVE (largest activity 100, not Å⁴/amu)"
+            if _relative(table)
+            else "a2, gamma2, activity in Å⁴/amu"
+        )
+        + "; rho for 90° scattering (linear / natural incident light)",
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
         f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4} {'IR':>3} {'Ra':>3}",

@@ -244,6 +244,12 @@ def stick_spectrum(
         When imaginary modes are dropped, or (for intensities and cross sections) a band lies
         below :data:`LOW_BAND_CM1`.
     """
+    if quantity == "cross-section" and modes.provenance.raman_scale == "relative":
+        raise VibrapolError(
+            f"{modes.provenance.source_file or 'mode set'}: the source gives only relative Raman "
+            "intensities, so absolute cross sections cannot be computed; use the activity or "
+            "the intensity quantity"
+        )
     chans = with_base_channels(channels)
     desc = "isotropic" if orientation is None else orientation.description
     cond = Conditions(quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc)

@@ -17,6 +17,7 @@ __all__ = ["Reader", "read_modes", "readers", "register", "sniff"]
 from vibrapol.sources import firefly as _firefly  # noqa: E402, F401, I001
 from vibrapol.sources import gamessuk as _gamessuk  # noqa: E402, F401
 from vibrapol.sources import dalton as _dalton  # noqa: E402, F401
+from vibrapol.sources import turbomole as _turbomole  # noqa: E402, F401
 from vibrapol.sources import gaussian_fchk, gaussian_log  # noqa: E402, F401, I001
 
 # The generic cclib reader is the fallback: registered last, so it is sniffed last.

@@ -60,6 +60,7 @@ def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
     }
     for attr, key in _ARRAY_FIELDS.items():
         out[key] = _list(getattr(modes, attr))
+    out["program_irreps"] = None if modes.program_irreps is None else list(modes.program_irreps)
     return out
 
 
@@ -75,6 +76,11 @@ def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
             f"{where}: schema version {version!r} is not supported "
             f"(this vibrapol reads {SCHEMA_VERSION})"
         )
+    labels = data.get("program_irreps")
+    if labels is not None and (
+        not isinstance(labels, list) or not all(isinstance(x, str) for x in labels)
+    ):
+        raise InputFormatError(f"{where}: program_irreps must be a list of strings or null")
     try:
         atoms = data["atoms"]
         prov = dict(data.get("provenance") or {})
@@ -86,6 +92,7 @@ def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
             coordinates_ang=atoms["coordinates_ang"],
             energy_hartree=data.get("energy_hartree"),
             provenance=Provenance(**prov),
+            program_irreps=None if labels is None else tuple(labels),
             **kwargs,
         )
     except VibrapolError as exc:

@@ -23,8 +23,20 @@ frequency jobs with ``%elprop polar 1``):
 * The static polarizability (``THE POLARIZABILITY TENSOR`` in 5.x, ``STATIC POLARIZABILITY
   TENSOR (Dipole/Dipole)`` in 6.x), raw Cartesian tensor in a.u. (bohr³), and ``FINAL SINGLE
   POINT ENERGY`` (hartree).
-* Not read: the IR block into the ModeSet (:func:`ir_spectrum_block` returns it separately),
-  thermochemistry, and any polarizability derivatives (ORCA does not print them).
+* ``IR SPECTRUM``: the column headed ``Int`` with ``km/mol`` beneath it, the IR intensity
+  (``ModeSet.ir_intensity_km_mol``); a block without that column is not read (noted).
+* With ``usesym`` (ORCA 6): the ``Point group:`` line and the species printed after each
+  wavenumber and under each row of NORMAL MODES column numbers (``2-Au`` → ``Au``), kept in
+  ``ModeSet.program_irreps``; the two sets of labels must agree.
+* ORCA's own warnings about its results (incomplete Hessian, unconverged SCF or geometry, error
+  termination, capitalised ``WARNING`` lines after the input) become
+  :class:`~vibrapol.errors.AccuracyWarning` and notes; the set-up warnings before the input
+  become notes.
+* Not read: thermochemistry, and any polarizability derivatives (ORCA does not print them).
+
+The block parsers live in :mod:`vibrapol.sources.orca_blocks`.  A block that stops with the
+file is reported as truncated; one laid out in a way they do not know, as an unrecognised
+layout with its line number.
 
 The method is described from the ``SCF SETTINGS`` block (e.g. "DFT (B88 exchange, LYP
 correlation, 20% HF exchange)"), since ORCA prints no functional name there; the simple-input
@@ -34,24 +46,33 @@ keyword lines (``! ...``) are kept in the provenance notes.
 from __future__ import annotations
 
 import re
+import warnings
 from pathlib import Path
 
 import numpy as np
 
-from vibrapol.errors import InputFormatError
+from vibrapol.errors import AccuracyWarning, InputFormatError
 from vibrapol.modeset import ModeSet, Provenance, default_masses
 from vibrapol.sources._common import (
     atomic_numbers_from_symbols,
-    floats,
     invariants_from_printed,
     truncated_error,
+)
+from vibrapol.sources.orca_blocks import (
+    Frequencies,
+    coordinates_block,
+    find_titles,
+    frequencies_block,
+    ir_spectrum_block,
+    masses_block,
+    normal_modes_block,
+    polarizability_block,
+    raman_block,
 )
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
 
-_FREQ_LINE = re.compile(r"^\s*(\d+):\s+(-?\d+\.\d+)\s+cm\*\*-1")
-_TABLE_ROW = re.compile(r"^\s*(\d+):\s+(.*)$")
 _FIRST_VIB = re.compile(r"The first frequency considered to be a vibration is\s+(\d+)")
 _N_VIB = re.compile(r"The total number of vibrations considered is\s+(\d+)")
 _ENERGY = re.compile(r"^FINAL SINGLE POINT ENERGY\s+(-?\d+\.\d+)")
@@ -60,236 +81,41 @@ _BASIS = re.compile(r"Your calculation utilizes the basis:\s*(\S+)")
 _KEYWORDS = re.compile(r"^\|\s*\d+>\s*!(.*)$")
 _SETTING = r"^\s*{label}\s+{key}\s+\.\.\.\.\s+(\S+)"
 
+__all__ = [
+    "find_titles",
+    "ir_spectrum_block",
+    "normal_modes_block",
+    "parse_orca",
+    "raman_block",
+    "read_orca",
+    "sniff_orca",
+]
 
-def find_titles(lines: list[str], title: str, stop: int | None = None) -> list[int]:
-    """Indices of the lines (before ``stop``) that are exactly ``title``, underlined by dashes."""
-    end = len(lines) if stop is None else stop
-    return [
-        i
-        for i in range(min(end, len(lines) - 1))
-        if lines[i].strip() == title and lines[i + 1].lstrip().startswith("---")
-    ]
-
-
-def _truncated(where: str, block: str, line: int) -> InputFormatError:
-    return truncated_error(where, f"ORCA {block} block ends early at line {line + 1}")
-
-
-def coordinates_block(lines: list[str], title: int, where: str) -> tuple[list[str], np.ndarray]:
-    """Element symbols and positions in Å.  ``title`` is the index of the title line.
-
-    Layout (own numbers)::
-
-        ---------------------------------
-        CARTESIAN COORDINATES (ANGSTROEM)
-        ---------------------------------
-          O      0.000000    0.000000    0.118300
-          H      0.000000    0.761200   -0.473200
-          H      0.000000   -0.761200   -0.473200
-        (blank line)
-    """
-    symbols, coords = [], []
-    for i in range(title + 2, len(lines)):
-        tokens = lines[i].split()
-        if not tokens:
-            break
-        if len(tokens) != 4:
-            raise InputFormatError(
-                f"{where}: line {i + 1}: expected 'symbol x y z', got {lines[i].strip()!r}"
-            )
-        symbols.append(tokens[0])
-        coords.append(floats(" ".join(tokens[1:]), f"{where}: line {i + 1}"))
-    if not symbols:
-        raise _truncated(where, "CARTESIAN COORDINATES (ANGSTROEM)", title + 2)
-    return symbols, np.array(coords)
-
-
-def masses_block(lines: list[str], title: int, n_atoms: int, where: str) -> np.ndarray:
-    """Atomic masses in Da from the a.u. coordinate table.
-
-    Layout (own numbers)::
-
-        ----------------------------
-        CARTESIAN COORDINATES (A.U.)
-        ----------------------------
-          NO LB      ZA    FRAG     MASS         X           Y           Z
-           0 O     8.0000    0    15.999    0.000000    0.000000    0.223553
-           1 H     1.0000    0     1.008    0.000000    1.438452   -0.894212
-    """
-    masses = []
-    for i in range(title + 3, title + 3 + n_atoms):
-        tokens = lines[i].split() if i < len(lines) else []
-        if len(tokens) < 8:
-            raise _truncated(where, "CARTESIAN COORDINATES (A.U.)", i)
-        masses.append(floats(tokens[4], f"{where}: line {i + 1}")[0])
-    return np.array(masses)
-
-
-def frequencies_block(lines: list[str], title: int, where: str) -> np.ndarray:
-    """All 3N wavenumbers in cm⁻¹ (imaginary ones negative), in ORCA's mode order.
-
-    Layout (own numbers; an imaginary mode is printed negative and flagged, from memory)::
-
-        -----------------------
-        VIBRATIONAL FREQUENCIES
-        -----------------------
-
-        Scaling factor for frequencies =  1.000000000 (already applied!)
-
-           0:         0.00 cm**-1
-           ...
-           6:      -120.40 cm**-1 ***imaginary mode***
-           7:      1650.25 cm**-1
-    """
-    freqs: list[float] = []
-    for i in range(title + 2, len(lines)):
-        match = _FREQ_LINE.match(lines[i])
-        if match:
-            if int(match.group(1)) != len(freqs):
-                raise InputFormatError(
-                    f"{where}: line {i + 1}: frequencies out of order in ORCA output"
-                )
-            freqs.append(float(match.group(2)))
-        elif freqs:
-            break
-    if not freqs:
-        raise _truncated(where, "VIBRATIONAL FREQUENCIES", title + 2)
-    return np.array(freqs)
-
-
-def normal_modes_block(lines: list[str], title: int, n_coords: int, where: str) -> np.ndarray:
-    """The 3N × 3N matrix of printed mode vectors, one column per mode.
-
-    Layout (own numbers; six columns per block, blocks follow each other directly)::
-
-        ------------
-        NORMAL MODES
-        ------------
-
-        These modes are the Cartesian displacements weighted by the diagonal matrix
-        M(i,i)=1/sqrt(m[i]) where m[i] is the mass of the displaced atom
-        Thus, these vectors are normalized but *not* orthogonal
-
-                          0          1          2          3          4          5
-              0       0.000000   0.000000   0.000000   0.000000   0.000000   0.000000
-              ...
-              8       0.000000   0.000000   0.000000   0.000000   0.000000   0.000000
-                          6          7          8
-              0      -0.068320  -0.050512   0.000000
-              ...
-    """
-    matrix = np.full((n_coords, n_coords), np.nan)
-    i = title + 2
-    while i < len(lines) and not _is_header(lines[i]):
-        if lines[i].lstrip().startswith("---") or "SPECTRUM" in lines[i]:
-            raise _truncated(where, "NORMAL MODES", i)
-        i += 1
-    while i < len(lines) and _is_header(lines[i]):
-        cols = [int(t) for t in lines[i].split()]
-        if max(cols) >= n_coords:
-            raise InputFormatError(f"{where}: line {i + 1}: mode index beyond 3N = {n_coords}")
-        for row in range(n_coords):
-            i += 1
-            tokens = lines[i].split() if i < len(lines) else []
-            if len(tokens) != len(cols) + 1 or tokens[0] != str(row):
-                raise _truncated(where, "NORMAL MODES", i)
-            matrix[row, cols] = floats(" ".join(tokens[1:]), f"{where}: line {i + 1}")
-        i += 1
-    if np.isnan(matrix).any():
-        raise _truncated(where, "NORMAL MODES", i)
-    return matrix
-
-
-def _is_header(line: str) -> bool:
-    tokens = line.split()
-    return bool(tokens) and all(t.isdigit() for t in tokens)
-
-
-def _mode_table(
-    lines: list[str], title: int, n_values: int, block: str, where: str
-) -> dict[int, list[float]]:
-    """Rows ``k: v1 v2 ...`` after the dashed rule under a column header, up to a blank line."""
-    i = title + 2
-    while i < len(lines) and not lines[i].startswith("---"):
-        i += 1
-    rows: dict[int, list[float]] = {}
-    for j in range(i + 1, len(lines)):
-        match = _TABLE_ROW.match(lines[j])
-        if not match:
-            break
-        values = match.group(2).replace("(", " ").replace(")", " ").split()[:n_values]
-        if len(values) < n_values:
-            raise truncated_error(
-                where, f"ORCA {block} row at line {j + 1} has {len(values)} of {n_values} numbers"
-            )
-        rows[int(match.group(1))] = floats(" ".join(values), f"{where}: line {j + 1}")
-    if not rows:
-        raise _truncated(where, block, i + 1)
-    return rows
-
-
-def raman_block(lines: list[str], title: int, where: str) -> dict[int, tuple[float, float, float]]:
-    """Mode index → (wavenumber cm⁻¹, activity Å⁴/amu, depolarization ratio, plane-polarized).
-
-    Layout (own numbers)::
-
-        --------------
-        RAMAN SPECTRUM
-        --------------
-
-         Mode    freq (cm**-1)   Activity   Depolarization
-        -------------------------------------------------------------------
-           6:      1650.25      5.123456      0.692110
-           7:      3802.77     88.004512      0.182233
-           8:      3911.40      0.000000      0.412345
-    """
-    rows = _mode_table(lines, title, 3, "RAMAN SPECTRUM", where)
-    return {k: (v[0], v[1], v[2]) for k, v in rows.items()}
-
-
-def ir_spectrum_block(lines: list[str], title: int, where: str) -> dict[int, float]:
-    """Mode index → IR intensity in km/mol (not stored in a ModeSet; used for checks).
-
-    Layout (own numbers)::
-
-        -----------
-        IR SPECTRUM
-        -----------
-
-         Mode   freq       eps      Int      T**2         TX        TY        TZ
-               cm**-1   L/(mol*cm) km/mol    a.u.
-        ----------------------------------------------------------------------------
-          6:   1650.25   0.012345   62.39  0.003740  ( 0.000000 -0.061155  0.000000)
-    """
-    rows = _mode_table(lines, title, 3, "IR SPECTRUM", where)
-    return {k: v[2] for k, v in rows.items()}
-
-
-def polarizability_block(lines: list[str], title: int, where: str) -> np.ndarray:
-    """Static polarizability, raw Cartesian tensor in a.u. (bohr³).
-
-    Layout (own numbers; ORCA 6 prints more digits and a few description lines first)::
-
-        -------------------------
-        THE POLARIZABILITY TENSOR
-        -------------------------
-
-        The raw cartesian tensor (atomic units):
-            8.51230      0.00000      0.00000
-            0.00000      6.92401      0.00000
-            0.00000      0.00000      7.71050
-    """
-    for i in range(title, min(title + 30, len(lines))):
-        if lines[i].strip().startswith("The raw cartesian tensor"):
-            rows = [
-                floats(lines[i + k], f"{where}: line {i + k + 1}")
-                for k in (1, 2, 3)
-                if i + k < len(lines)
-            ]
-            if len(rows) != 3 or any(len(r) != 3 for r in rows):
-                raise _truncated(where, "POLARIZABILITY TENSOR", i + 1)
-            return np.array(rows)
-    raise _truncated(where, "POLARIZABILITY TENSOR", title + 2)
+_ANY_CASE = re.IGNORECASE
+#: ORCA's statements that a result of the run is unreliable, anywhere in the output, and what
+#: they mean for the modes (the texts as ORCA prints them, from memory; matched ignoring case).
+_RESULT_WARNINGS = (
+    (
+        re.compile(r"Hessian Matrix ISN'T COMPLETE", _ANY_CASE),
+        "ORCA says its Hessian is incomplete (some displaced calculations failed): frequencies, "
+        "modes and Raman data are unreliable",
+    ),
+    (
+        re.compile(
+            r"SCF NOT CONVERGED|wavefunction IS NOT CONVERGED|SCF has not converged", _ANY_CASE
+        ),
+        "ORCA reports an SCF that did not converge",
+    ),
+    (
+        re.compile(r"optimi[sz]ation did not converge|OPTIMIZATION HAS NOT CONVERGED", _ANY_CASE),
+        "ORCA reports that the geometry optimization did not converge: the modes are not those "
+        "of a stationary point",
+    ),
+    (
+        re.compile(r"ORCA finished by error termination", _ANY_CASE),
+        "ORCA reports an error termination",
+    ),
+)
 
 
 def _vibration_indices(lines: list[str], start: int, displacements: np.ndarray) -> np.ndarray:
@@ -403,6 +229,99 @@ def _raman_invariants(
     )
 
 
+def _ir_intensities(
+    lines: list[str], ftitle: int, vib: np.ndarray, where: str
+) -> tuple[np.ndarray | None, str]:
+    """IR intensities (km/mol) of the vibrations from the IR SPECTRUM block, and a note."""
+    titles = [i for i in find_titles(lines, "IR SPECTRUM") if i > ftitle]
+    if not titles:
+        return None, "no IR SPECTRUM block: no IR intensities"
+    rows = ir_spectrum_block(lines, titles[0], where)
+    if rows is None:
+        return None, (
+            "IR SPECTRUM block without an 'Int' column in km/mol (another ORCA layout): IR "
+            "intensities not read"
+        )
+    missing = [int(k) for k in vib if int(k) not in rows]
+    if missing:
+        raise InputFormatError(
+            f"{where}: IR SPECTRUM block has no row for mode {missing[0]}; the file looks "
+            "truncated or edited"
+        )
+    return np.array([rows[int(k)] for k in vib]), "IR intensities (km/mol) as printed"
+
+
+def _program_irreps(
+    freqs: Frequencies, nm_irreps: dict[int, str], vib: np.ndarray, where: str
+) -> tuple[tuple[str, ...] | None, list[str], list[str]]:
+    """Species ORCA printed for the vibrations (None without symmetry), notes, and warnings.
+
+    The labels of the frequency list are used; those under the NORMAL MODES columns are the same
+    labels printed twice.  When the two disagree, or some vibration has none, no labels are kept
+    (the numbers are unaffected) and a warning says why.
+    """
+    listed = {k: v for k, v in enumerate(freqs.irreps) if v}
+    if not listed and not nm_irreps:
+        return None, [], []
+    differ = [k for k in sorted(set(listed) & set(nm_irreps)) if listed[k] != nm_irreps[k]]
+    labels = {**nm_irreps, **listed}
+    unlabelled = [int(k) for k in vib if int(k) not in labels]
+    problem = ""
+    if differ:
+        k = differ[0]
+        problem = (
+            f"ORCA mode {k} is labelled {listed[k]} in VIBRATIONAL FREQUENCIES but "
+            f"{nm_irreps[k]} in NORMAL MODES"
+        )
+    elif unlabelled:
+        problem = f"ORCA printed species for some vibrations but not for mode {unlabelled[0]}"
+    if problem:
+        note = f"{problem}: the printed species are not used"
+        return None, [note], [f"{where}: {note}"]
+    group = freqs.point_group or "its point group"
+    return (
+        tuple(labels[int(k)] for k in vib),
+        [
+            f"ORCA ran with symmetry ({group}); its species label of every vibration is kept as "
+            "printed (program_irreps)"
+        ],
+        [],
+    )
+
+
+def _orca_warnings(lines: list[str], where: str) -> tuple[list[str], list[str]]:
+    """(warnings to pass on, provenance notes) from what ORCA says about its own run.
+
+    ORCA's statements of failed or unconverged steps (:data:`_RESULT_WARNINGS`) and any line
+    holding the word ``WARNING`` (in capitals) after the echo of the input become warnings;
+    the ``WARNINGS`` block ORCA prints before the input (about set-up: parallel start,
+    symmetry switched off) becomes notes only.  Repeated lines count once.
+    """
+    input_echo = next((i for i, line in enumerate(lines) if line.strip() == "INPUT FILE"), 0)
+    setup: list[str] = []
+    found: dict[str, list[int]] = {}  # message → line numbers
+    for i, line in enumerate(lines):
+        text = line.strip()
+        meanings = [meaning for pattern, meaning in _RESULT_WARNINGS if pattern.search(text)]
+        for meaning in meanings:
+            found.setdefault(f"{meaning}: {text.strip('*= ')!r}", []).append(i + 1)
+        if meanings or not re.search(r"\bWARNING\b", text):
+            continue
+        follow = lines[i + 1].strip() if i + 1 < len(lines) else ""
+        said = text.strip("* ") + (f" {follow}" if follow.startswith("===>") else "")
+        if i < input_echo:
+            setup.append(said)
+        else:
+            found.setdefault(f"ORCA printed: {said}", []).append(i + 1)
+    passed = [
+        f"{m} (line {at[0]}" + (f", and {len(at) - 1} more times)" if len(at) > 1 else ")")
+        for m, at in found.items()
+    ]
+    notes = [f"ORCA set-up: {s}" for s in dict.fromkeys(setup)]
+    notes += [f"ORCA warning passed on: {m}" for m in passed]
+    return [f"{where}: {m}" for m in passed], notes
+
+
 def _polarizability_ang3(lines: list[str], ftitle: int, where: str) -> np.ndarray | None:
     """The last static polarizability printed before the frequencies, in Å³ (or None)."""
     titles = (
@@ -433,7 +352,8 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
     ftitle = freq_titles[-1]
     z, coords, masses, masses_note = _geometry(lines, ftitle, where)
     n_coords = 3 * len(z)
-    freqs_all = frequencies_block(lines, ftitle, where)
+    freq_block = frequencies_block(lines, ftitle, where)
+    freqs_all = freq_block.freqs_cm1
     if freqs_all.size != n_coords:
         raise InputFormatError(
             f"{where}: {freqs_all.size} frequencies printed for {len(z)} atoms, expected "
@@ -441,8 +361,11 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
         )
     nm_titles = [i for i in find_titles(lines, "NORMAL MODES") if i > ftitle]
     if not nm_titles:
-        raise _truncated(where, "VIBRATIONAL FREQUENCIES (no NORMAL MODES after it)", ftitle)
-    printed = normal_modes_block(lines, nm_titles[0], n_coords, where)
+        raise truncated_error(
+            where,
+            f"ORCA VIBRATIONAL FREQUENCIES block at line {ftitle + 1} has no NORMAL MODES after it",
+        )
+    printed, nm_irreps = normal_modes_block(lines, nm_titles[0], n_coords, where)
     vib = _vibration_indices(lines, nm_titles[0], printed)
     if vib.size == 0 or vib[-1] >= n_coords or np.any(np.all(printed[:, vib] == 0.0, axis=0)):
         raise InputFormatError(
@@ -453,9 +376,16 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
         printed[:, vib].T, default_masses(z) if masses is None else masses
     )
     a2, gamma2, raman_notes = _raman_invariants(lines, ftitle, vib, freqs_all, where)
+    ir, ir_note = _ir_intensities(lines, ftitle, vib, where)
+    irreps, irrep_notes, irrep_messages = _program_irreps(freq_block, nm_irreps, vib, where)
+    messages, warning_notes = _orca_warnings(lines, where)
+    messages = irrep_messages + messages
     notes = [
         f"ORCA printed all {n_coords} modes; the {n_coords - vib.size} rigid-body ones are dropped",
         *raman_notes,
+        ir_note,
+        *irrep_notes,
+        *warning_notes,
     ]
     keywords = [m.group(1).strip() for m in map(_KEYWORDS.match, lines) if m]
     if keywords:
@@ -471,7 +401,7 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
         masses=masses_note,
         notes=tuple(notes),
     )
-    return ModeSet(
+    modes_set = ModeSet(
         atomic_numbers=z,
         coordinates_ang=coords,
         freqs_cm1=freqs_all[vib],
@@ -482,7 +412,12 @@ def parse_orca(text: str, where: str = "ORCA output") -> ModeSet:
         polarizability_ang3=_polarizability_ang3(lines, ftitle, where),
         energy_hartree=energies[-1] if energies else None,
         provenance=provenance,
+        ir_intensity_km_mol=ir,
+        program_irreps=irreps,
     )
+    for message in messages:
+        warnings.warn(message, AccuracyWarning, stacklevel=2)
+    return modes_set
 
 
 def read_orca(path: str | Path) -> ModeSet:

@@ -33,7 +33,7 @@ from vibrapol.symmetry.pointgroup import (
     find_point_group,
     symmetrize_coordinates,
 )
-from vibrapol.symmetry.printed import normalize_label
+from vibrapol.symmetry.printed import compare_program_species, normalize_label
 
 __all__ = [
     "DEFAULT_TOLERANCE_ANG",
@@ -49,6 +49,7 @@ __all__ = [
     "PointGroup",
     "SpeciesRule",
     "band_counts",
+    "compare_program_species",
     "find_point_group",
     "format_representation",
     "gamma_vib",

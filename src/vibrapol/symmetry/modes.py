@@ -30,6 +30,7 @@ from vibrapol.symmetry.pointgroup import (
     find_point_group,
     symmetrize_coordinates,
 )
+from vibrapol.symmetry.printed import compare_program_species
 from vibrapol.units import cm1_to_hessian_eigenvalue
 
 #: A set whose species weight or invariance is below this is called impure; with
@@ -247,6 +248,8 @@ def analyse_modes(
     for s, name in zip(sets, set_irreps, strict=True):
         for k in s:
             irreps[k] = name
+    if modes.program_irreps is not None:
+        notes.append(compare_program_species(group, irreps, modes.program_irreps, where))
     return ModeSymmetry(
         group=group,
         modes=modes,

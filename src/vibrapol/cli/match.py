@@ -16,11 +16,11 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
-import sys
 
+from vibrapol import fileio
+from vibrapol.cli._common import input_paths, print_stdout, write_outputs
 from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.sources import read_modes, readers
 
 HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
@@ -166,9 +166,8 @@ def laser_nm(args: argparse.Namespace) -> float:
 
 
 def check_outputs(args: argparse.Namespace, paths: list[str]) -> None:
-    """Fail before any work when an output may not be written."""
-    for path in paths:
-        check_writable(path, args.force)
+    """Fail before any work when an output may not be written (or is an input, or twice)."""
+    fileio.check_outputs(paths, args.force, input_paths(args))
 
 
 def run(args: argparse.Namespace) -> int:
@@ -203,9 +202,7 @@ def run(args: argparse.Namespace) -> int:
 
         fig = match_figure(result, pair)
         files += [(p, figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)]
-    for path, data in files:
-        write_atomic(path, data, force=args.force)
-        print(f"wrote {path}", file=sys.stderr)
+    write_outputs(args, files)  # all or nothing
     text = assignment_summary(result)
     if level_note:
         text += f"note: {level_note}\n"
@@ -213,5 +210,5 @@ def run(args: argparse.Namespace) -> int:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
     if not args.output:
         text += "\n" + assignment_csv(result)
-    sys.stdout.write(text)
+    print_stdout(text)
     return 0

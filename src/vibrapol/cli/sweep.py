@@ -13,16 +13,14 @@ from __future__ import annotations
 
 import argparse
 import math
-import sys
 
 import numpy as np
 
 from vibrapol import orientation as orient
 from vibrapol.channels import GEOMETRIES
-from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
 from vibrapol.cli.spectrum import add_physics_arguments, parse_floats, scale_from_args
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.sources import read_modes
 from vibrapol.sweep import polar_sweep
 
@@ -133,9 +131,8 @@ def parse_angles(text: str) -> np.ndarray:
 
 def run(args: argparse.Namespace) -> int:
     """Compute the sweep and write the table (and the figure)."""
-    check_output(args)
+    check_output(args, args.figure)
     if args.figure:
-        check_writable(args.figure, args.force)
         fmt = args.figure.rsplit(".", 1)[-1].lower()
         if fmt not in ("png", "svg", "pdf"):
             raise VibrapolError(f"{args.figure}: figure files must end in .png, .svg or .pdf")
@@ -157,13 +154,15 @@ def run(args: argparse.Namespace) -> int:
     )
     from vibrapol import spectrum_io
 
+    figure = b""
     text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)
     if args.figure:
         from vibrapol import plotting
         from vibrapol.cli.spectrum import _width
 
         fig = plotting.polar_figure(sweep, width=_width(args.width))
-        write_atomic(args.figure, plotting.figure_bytes(fig, fmt), force=args.force)
-        print(f"wrote {args.figure}", file=sys.stderr)
-    emit(args, text)
+        figure = plotting.figure_bytes(fig, fmt)
+    write_outputs(args, [(args.figure, figure), (args.output, text)])  # all or nothing
+    if not args.output:
+        print_stdout(text)
     return 0

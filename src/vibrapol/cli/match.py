@@ -17,6 +17,8 @@ from __future__ import annotations
 import argparse
 import dataclasses
 
+import numpy as np
+
 from vibrapol import fileio
 from vibrapol.cli._common import input_paths, print_stdout, write_outputs
 from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
@@ -123,12 +125,15 @@ def measure(args: argparse.Namespace):  # noqa: ANN201
     options: dict[str, object] = {"axis": args.axis}
     if args.laser_nm is not None:
         options["laser_nm"] = args.laser_nm
+    if args.vh is not None:
+        check_distinct_channels(args.vv, args.vh)
     pair = measured.read_pair(args.vv, args.vh, **options)
     if args.range_cm1:
         lo, hi = parse_range(args.range_cm1)
         pair = measured.PolarizedPair(
             pair.vv.crop(lo, hi), None if pair.vh is None else pair.vh.crop(lo, hi)
         )
+    check_stokes(pair.vv.shift_cm1, args.vv)
     pair, _, _ = measured.clean_pair(pair, **({"baseline": None} if args.no_baseline else {}))
     starts = measured.find_bands(pair.vv, min_snr=args.min_snr)
     if not starts:
@@ -136,6 +141,31 @@ def measure(args: argparse.Namespace):  # noqa: ANN201
             f"{args.vv}: no bands found above {args.min_snr:g} noise units; lower --min-snr"
         )
     return pair, measured.measure_bands(pair, starts)
+
+
+def check_distinct_channels(vv: str, vh: str) -> None:
+    """Refuse a --vh that is the --vv file itself or a copy of it (ρ would be 1 everywhere)."""
+    from vibrapol.textio import MAX_SPECTRUM_BYTES, check_input_file, read_bytes
+
+    a, b = check_input_file(vv, MAX_SPECTRUM_BYTES), check_input_file(vh, MAX_SPECTRUM_BYTES)
+    if (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino):
+        raise VibrapolError(f"--vh {vh} is the same file as --vv {vv}; give the crossed (VH) file")
+    if a.st_size == b.st_size and read_bytes(vv, MAX_SPECTRUM_BYTES) == read_bytes(
+        vh, MAX_SPECTRUM_BYTES
+    ):
+        raise VibrapolError(
+            f"--vh {vh} has the same content as --vv {vv}; give the crossed (VH) file"
+        )
+
+
+def check_stokes(shift_cm1: np.ndarray, where: str) -> None:
+    """Refuse a spectrum with no positive Raman shift: computed bands are on the Stokes side."""
+    shift = np.asarray(shift_cm1, dtype=float)
+    if shift.size and np.max(shift) <= 0:
+        raise VibrapolError(
+            f"{where}: every Raman shift is ≤ 0 ({np.min(shift):.0f} to {np.max(shift):.0f} "
+            "cm⁻¹, the anti-Stokes side); assignment needs the Stokes side (positive shifts)"
+        )
 
 
 def assign_options(args: argparse.Namespace) -> dict[str, object]:

@@ -129,6 +129,23 @@ def parse_angles(text: str) -> np.ndarray:
     return start + step * np.arange(count)
 
 
+#: A band asked for with --bands must have a computed band this close (cm⁻¹): positions read off
+#: a measured spectrum differ from scaled computed ones by a few tens of cm⁻¹ at most.
+BAND_SEARCH_CM1 = 50.0
+
+
+def check_bands_found(wanted_cm1: list[float], found_cm1: np.ndarray) -> None:
+    """Refuse a ``--bands`` position with no computed band within :data:`BAND_SEARCH_CM1`."""
+    found = np.asarray(found_cm1, dtype=float)
+    for band in wanted_cm1:
+        nearest = float(found[np.argmin(np.abs(found - band))])
+        if abs(nearest - band) > BAND_SEARCH_CM1:
+            raise VibrapolError(
+                f"--bands {band:g}: no computed band within {BAND_SEARCH_CM1:g} cm⁻¹ "
+                f"(the nearest is at {nearest:.1f} cm⁻¹); give positions of computed bands"
+            )
+
+
 def run(args: argparse.Namespace) -> int:
     """Compute the sweep and write the table (and the figure)."""
     check_output(args, args.figure)
@@ -152,6 +169,8 @@ def run(args: argparse.Namespace) -> int:
         scale=scale_from_args(args),
         degeneracy_tol_cm1=args.degeneracy_tol_cm1,
     )
+    if args.bands:
+        check_bands_found(parse_floats(args.bands, "--bands"), sweep.positions_cm1)
     from vibrapol import spectrum_io
 
     figure = b""

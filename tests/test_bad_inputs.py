@@ -44,17 +44,28 @@ SUBPROCESS_IDS = (
     "output-parent-is-a-file",
     "measured-duplicate-x",
     "compute-one-atom",
+    "table-fifo",
+    "compute-fifo",
+    "table-dev-zero",
+    "match-vv-dev-zero",
 )
 
 
 def _snapshot(root: Path) -> dict[str, object]:
-    """Every path under ``root`` with its content (regular files) or its kind (others)."""
+    """Every path under ``root`` with its content (regular files; size and modification time
+    for the sparse oversized inputs), its link target (symbolic links) or its kind (others)."""
     found: dict[str, object] = {}
     for path in sorted(root.rglob("*")):
-        mode = path.lstat().st_mode
-        found[str(path.relative_to(root))] = (
-            path.read_bytes() if stat.S_ISREG(mode) else stat.S_IFMT(mode)
-        )
+        st = path.lstat()
+        if stat.S_ISREG(st.st_mode):
+            big = st.st_size > 10_000_000
+            found[str(path.relative_to(root))] = (
+                (st.st_size, st.st_mtime_ns) if big else path.read_bytes()
+            )
+        elif stat.S_ISLNK(st.st_mode):
+            found[str(path.relative_to(root))] = ("link", os.readlink(path))
+        else:
+            found[str(path.relative_to(root))] = stat.S_IFMT(st.st_mode)
     return found
 
 

@@ -134,7 +134,7 @@ def check_outputs(
     targets = [check_writable(p, force) for p in given]
     seen: dict[object, str | Path] = {}
     for name, target in zip(given, targets, strict=True):
-        keys = [os.path.normcase(os.path.abspath(target)), _identity(target)]
+        keys = [os.path.normcase(os.path.realpath(target)), _identity(target)]
         for key in keys:
             if key is None:
                 continue

@@ -50,9 +50,12 @@ _WIDE_BOMS = (
     (b"\xfe\xff", "utf-16"),
 )
 
-#: (device, inode) of every input file read by this process: outputs are checked against it,
-#: so that no command overwrites one of its own inputs (:mod:`vibrapol.fileio`).
-_INPUTS_READ: set[tuple[int, int]] = set()
+#: (device, inode) of every input file read inside :func:`tracking_inputs` (one command):
+#: outputs are checked against it, so that no command overwrites one of its own inputs
+#: (:mod:`vibrapol.fileio`).
+_INPUTS_READ: contextvars.ContextVar[set[tuple[int, int]] | None] = contextvars.ContextVar(
+    "vibrapol_inputs_read", default=None
+)
 
 #: Texts read inside :func:`reading_once`, by (device, inode, size, mtime).
 _ONCE: contextvars.ContextVar[dict[tuple[int, int, int, int], str] | None] = contextvars.ContextVar(
@@ -146,7 +149,7 @@ def read_bytes(path: str | Path, limit: int = MAX_QC_BYTES, what: str = "file") 
             f"{p}: holds more than the {_size(limit)} a {what} may have; "
             "check that this is the right file"
         )
-    _INPUTS_READ.add((st.st_dev, st.st_ino))
+    _note(st)
     return data
 
 
@@ -222,13 +225,22 @@ def reading_once() -> Iterator[None]:
         _ONCE.reset(token)
 
 
-def note_input(path: str | Path) -> None:
-    """Record ``path`` as an input of this run (for files read by other libraries)."""
-    with contextlib.suppress(OSError):
-        st = os.stat(path)
-        _INPUTS_READ.add((st.st_dev, st.st_ino))
+def _note(st: os.stat_result) -> None:
+    found = _INPUTS_READ.get()
+    if found is not None:
+        found.add((st.st_dev, st.st_ino))
+
+
+@contextlib.contextmanager
+def tracking_inputs() -> Iterator[None]:
+    """Within the block (one command), remember every input file read (see :func:`inputs_read`)."""
+    token = _INPUTS_READ.set(set())
+    try:
+        yield
+    finally:
+        _INPUTS_READ.reset(token)
 
 
 def inputs_read() -> frozenset[tuple[int, int]]:
-    """(device, inode) of every input file read so far by this process."""
-    return frozenset(_INPUTS_READ)
+    """(device, inode) of every input file read so far inside :func:`tracking_inputs`."""
+    return frozenset(_INPUTS_READ.get() or ())

@@ -18,6 +18,7 @@ from typing import NoReturn
 from vibrapol import __version__
 from vibrapol.cli._common import ascii_safe_streams, devnull_stdout
 from vibrapol.errors import VibrapolError
+from vibrapol.textio import tracking_inputs
 
 #: Operating-system errors a user's environment causes (a full disk, a read-only file system,
 #: a name too long): one line and exit status 2, like any other error a user can cause.
@@ -94,7 +95,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return exc.code if isinstance(exc.code, int) else 0 if exc.code is None else 2
     warnings.formatwarning = _format_warning
     try:
-        status = int(args._run(args) or 0)
+        with tracking_inputs():  # no output of this command may overwrite one of its inputs
+            status = int(args._run(args) or 0)
         sys.stdout.flush()  # a full disk behind standard output shows here, not at exit
         return status
     except VibrapolError as exc:

@@ -120,8 +120,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "-o",
         "--output",
         metavar="NAME.modes.json",
-        help="file to write, for a single structure (default: STRUCTURE's name with "
-        ".modes.json, beside it or in --output-dir)",
+        help="file to write, for a single structure and not with --output-dir (default: "
+        "STRUCTURE's name with .modes.json, beside it or in --output-dir)",
     )
     parser.add_argument(
         "--output-dir", metavar="DIR", help="write every NAME.modes.json into this directory"

@@ -32,6 +32,11 @@ ORIENTATIONS = ("isotropic", "fixed", "aligned", "uniaxial")
 MAX_ANGLES = 36_001
 
 
+#: A band asked for with --bands must have a computed band this close (cm⁻¹): positions read off
+#: a measured spectrum differ from scaled computed ones by a few tens of cm⁻¹ at most.
+BAND_SEARCH_CM1 = 50.0
+
+
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol sweep``."""
     parser.add_argument(
@@ -69,7 +74,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--angles-deg", default="0:360:5", help="polarizer angles START:STOP:STEP (default 0:360:5)"
     )
     parser.add_argument(
-        "--bands", help="Raman shifts of the bands to sweep, comma-separated (default: strongest)"
+        "--bands",
+        help="Raman shifts of the bands to sweep, comma-separated; each takes the nearest "
+        f"computed band, which must lie within {BAND_SEARCH_CM1:g} cm⁻¹ (default: strongest)",
     )
     parser.add_argument(
         "--top", type=int, default=4, help="number of strongest bands when --bands is not given"
@@ -127,11 +134,6 @@ def parse_angles(text: str) -> np.ndarray:
             "use a larger step"
         )
     return start + step * np.arange(count)
-
-
-#: A band asked for with --bands must have a computed band this close (cm⁻¹): positions read off
-#: a measured spectrum differ from scaled computed ones by a few tens of cm⁻¹ at most.
-BAND_SEARCH_CM1 = 50.0
 
 
 def check_bands_found(wanted_cm1: list[float], found_cm1: np.ndarray) -> None:

@@ -95,7 +95,8 @@ def check_writable(path: str | Path, force: bool = False) -> Path:
         ) from None
     os.close(fd)
     os.unlink(probe)
-    if len(target.name.encode()) > os.pathconf(parent, "PC_NAME_MAX"):
+    name_max = os.pathconf(parent, "PC_NAME_MAX") if hasattr(os, "pathconf") else 255
+    if len(target.name.encode()) > name_max:
         raise _oserror(p, OSError(errno.ENAMETOOLONG, os.strerror(errno.ENAMETOOLONG)))
     return target
 
@@ -170,7 +171,7 @@ def _write_temp(target: Path, data: bytes) -> str:
         # mkstemp creates the file with mode 0600; give it the mode a plain open() would.
         umask = os.umask(0)
         os.umask(umask)
-        os.fchmod(fd, 0o666 & ~umask)
+        os.chmod(tmp, 0o666 & ~umask)
         view = memoryview(data)
         while view:
             view = view[os.write(fd, view) :]

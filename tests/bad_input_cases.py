@@ -109,9 +109,41 @@ FAR_VH = "x,VH\n" + "".join(f"{4000 + i},{i % 3}\n" for i in range(9))
 DEEP_JSON = '{"format": "vibrapol.modes", "x": ' + "[" * 100_000 + "]" * 100_000 + "}"
 
 
-def _mkfifo(tmp: Path, name: str) -> str:
-    os.mkfifo(tmp / "out" / name)
-    return out(tmp, name)
+def _mkfifo(tmp: Path, name: str, where: str = "out") -> str:
+    os.mkfifo(tmp / where / name)
+    return str(tmp / where / name)
+
+
+def sparse(tmp: Path, name: str, size: int) -> str:
+    """An input of ``size`` bytes that takes no disk space (a sparse file): oversized input."""
+    path = tmp / "in" / name
+    with open(path, "wb") as fh:
+        fh.truncate(size)
+    return str(path)
+
+
+def linked(tmp: Path, target: str, name: str, hard: bool = False) -> str:
+    """A link ``out/name`` to ``target`` (symbolic, or hard)."""
+    path = tmp / "out" / name
+    (os.link if hard else os.symlink)(target, path)
+    return str(path)
+
+
+def water_json_copy(tmp: Path) -> str:
+    return put(tmp, "water.modes.json", WATER.read_text())
+
+
+def provenance_extra_key() -> str:
+    doc = json.loads(WATER.read_text())
+    doc["provenance"]["colour"] = "blue"
+    return json.dumps(doc)
+
+
+def anti_stokes_vv() -> str:
+    """The invented VV spectrum mirrored to negative shifts (an anti-Stokes-only export)."""
+    lines = good_pair_texts()[0].splitlines()
+    rows = [f"{-float(x):.2f},{y}" for x, y in (r.split(",") for r in lines[2:])]
+    return "\n".join([lines[0], lines[1], *rows]) + "\n"
 
 
 # --- files through `vibrapol table` (name, content, expected text) --------------------------
@@ -192,6 +224,8 @@ TABLE_FILES = [
     ("json-wrong-shape", "wrong_shape.modes.json", None,
      "coordinates_ang should be an array of shape (2, 3)"),
     ("json-no-raman", "no_raman.modes.json", None, "has no Raman data"),
+    ("json-provenance-extra-key", "extra.modes.json", provenance_extra_key,
+     "provenance has an unknown key 'colour'"),
 ]  # fmt: skip
 
 # --- measured files through `vibrapol match --vv FILE` (name, content, options, expected) ----
@@ -243,6 +277,7 @@ STRUCTURES = [
     ("unknown-element", "unknown_element.xyz", None, "no atomic coordinates found"),
     ("empty-xyz", "empty.xyz", "", "file is empty"),
     ("binary-xyz", "mol.xyz", BINARY, "NUL bytes"),
+    ("two-frames", "two.xyz", WATER_XYZ * 2, "holds 2 structures (frames); give one"),
 ]  # fmt: skip
 
 
@@ -400,6 +435,80 @@ OPTIONS = [
      "displacement step must be in (0, 0.1] Å", "displacement step"),
     ("compute-no-workers", lambda t: _compute(t, "--workers", "0"),
      "workers must be 1 or more", "workers"),
+    # inputs that are not regular files, or too large: refused before they are opened
+    ("table-dev-zero", lambda t: ["table", "/dev/zero", "-o", out(t)],
+     "is a device, not a regular file", "/dev/zero"),
+    ("symmetry-dev-urandom", lambda t: ["symmetry", "/dev/urandom"],
+     "is a device, not a regular file", "/dev/urandom"),
+    ("compute-dev-zero", lambda t: ["compute", "/dev/zero", "-o", out(t, "z.modes.json")],
+     "is a device, not a regular file", "/dev/zero"),
+    ("match-vv-dev-zero", lambda t: ["match", str(CHCL3_MODES), "--vv", "/dev/zero"],
+     "is a device, not a regular file", "/dev/zero"),
+    ("table-fifo", lambda t: ["table", _mkfifo(t, "pipe.out", "in")],
+     "is a named pipe, not a regular file", "pipe.out"),
+    ("symmetry-fifo", lambda t: ["symmetry", _mkfifo(t, "pipe.xyz", "in")],
+     "is a named pipe, not a regular file", "pipe.xyz"),
+    ("compute-fifo", lambda t: ["compute", _mkfifo(t, "pipe.xyz", "in"), "-o", out(t, "p.json")],
+     "is a named pipe, not a regular file", "pipe.xyz"),
+    ("rank-vv-fifo", lambda t: ["rank", str(CHCL3_MODES), "--vv", _mkfifo(t, "vv.csv", "in")],
+     "is a named pipe, not a regular file", "vv.csv"),
+    ("table-oversize", lambda t: ["table", sparse(t, "huge.out", 2 * 1024**3 + 1)],
+     "more than the 2 GB a file may have", "huge.out"),
+    ("compute-oversize", lambda t: ["compute", sparse(t, "huge.xyz", 200 * 1024**2 + 1),
+                                    "-o", out(t, "h.json")],
+     "more than the 200 MB a structure file may have", "huge.xyz"),
+    ("match-vv-oversize",
+     lambda t: ["match", str(CHCL3_MODES), "--vv", sparse(t, "huge.csv", 200 * 1024**2 + 1)],
+     "more than the 200 MB a measured spectrum may have", "huge.csv"),
+    # outputs: all checked before any is written
+    ("output-sticks-same-as-output", lambda t: _spectrum(t, "--sticks", out(t)),
+     "given twice as an output", "result.csv"),
+    ("output-figure-same-as-rho-figure",
+     lambda t: _spectrum(t, "--figure", out(t, "f.svg"), "--rho-figure", out(t, "f.svg")),
+     "given twice as an output", "f.svg"),
+    ("output-figure-link-to-rho-figure",
+     lambda t: _spectrum(t, "--figure", out(t, "f.svg"),
+                         "--rho-figure", linked(t, out(t, "f.svg"), "g.svg"), "--force"),
+     "are the same file", "g.svg"),
+    ("output-is-input-force",
+     lambda t: ["table", (w := water_json_copy(t)), "-o", w, "--force"],
+     "is the input", "water.modes.json"),
+    ("output-hard-link-to-input",
+     lambda t: ["table", (w := water_json_copy(t)), "-o", linked(t, w, "h.csv", hard=True),
+                "--force"],
+     "is the input", "h.csv"),
+    ("output-symlink-to-input",
+     lambda t: ["table", (w := water_json_copy(t)), "-o", linked(t, w, "s.csv"), "--force"],
+     "is the input", "s.csv"),
+    ("output-dangling-symlink",
+     lambda t: ["table", str(WATER), "-o", linked(t, out(t, "nowhere.csv"), "d.csv")],
+     "which does not exist; pass --force", "d.csv"),
+    ("output-trailing-slash", lambda t: ["table", str(WATER), "-o", out(t, "name") + "/"],
+     "ends in '/', a directory name", "name/"),
+    ("output-name-too-long", lambda t: ["table", str(WATER), "-o", out(t, "a" * 300 + ".csv")],
+     "file name too long", "aaaa"),
+    ("compute-output-is-input",
+     lambda t: ["compute", (w := put(t, "w.xyz", WATER_XYZ)), "-o", w, "--force"],
+     "is the input", "w.xyz"),
+    ("compute-output-and-output-dir", lambda t: _compute(t, "--output-dir", str(t / "out")),
+     "not both", "--output-dir"),
+    ("match-table-same-as-output", lambda t: _match(t, "--table", out(t)),
+     "given twice as an output", "result.csv"),
+    # quiet wrong answers
+    ("sweep-band-far-away", lambda t: _sweep(t, "isotropic", "--bands", "99999"),
+     "--bands 99999: no computed band within 50 cm⁻¹", "--bands"),
+    ("match-vh-same-file",
+     lambda t: ["match", str(CHCL3_MODES), "--vv", (v := good_pair(t)[1]), "--vh", v],
+     "is the same file as --vv", "good_vv.csv"),
+    ("match-vh-same-content",
+     lambda t: ["match", str(CHCL3_MODES), "--vv", good_pair(t)[1], "--vh",
+                put(t, "copy.csv", good_pair_texts()[0])],
+     "has the same content as --vv", "copy.csv"),
+    ("match-anti-stokes-only",
+     lambda t: ["match", str(CHCL3_MODES), "--vv", put(t, "as.csv", anti_stokes_vv())],
+     "every Raman shift is ≤ 0", "as.csv"),
+    ("table-xyz-structure", lambda t: ["table", put(t, "w.xyz", WATER_XYZ)],
+     "is a structure (XYZ) without normal modes", "w.xyz"),
 ]  # fmt: skip
 
 

@@ -14,7 +14,9 @@ of every error a user can cause (docs/cli.md, "Shared behaviour"):
   the test if called.
 
 A few cases also run as a real process (``python -m vibrapol``) to check the exit status the
-shell sees and that no traceback is printed.  Measured spectra here are invented data.
+shell sees and that no traceback is printed; the inputs that would hang or fill memory should
+their check break (named pipes, devices) run only so, with a timeout and a memory limit.
+Measured spectra here are invented data.
 """
 
 from __future__ import annotations
@@ -46,15 +48,26 @@ SUBPROCESS_IDS = (
     "compute-one-atom",
 )
 
+#: Cases that would hang (a pipe with no writer) or fill memory (a device) should the check
+#: ever break: run only as real processes, which the test stops after a timeout.
+PROCESS_ONLY_IDS = tuple(c.id for c in CASES if "fifo" in c.id or "-dev-" in c.id)
+
 
 def _snapshot(root: Path) -> dict[str, object]:
-    """Every path under ``root`` with its content (regular files) or its kind (others)."""
+    """Every path under ``root`` with its content (regular files; size and modification time
+    for the sparse oversized inputs), its link target (symbolic links) or its kind (others)."""
     found: dict[str, object] = {}
     for path in sorted(root.rglob("*")):
-        mode = path.lstat().st_mode
-        found[str(path.relative_to(root))] = (
-            path.read_bytes() if stat.S_ISREG(mode) else stat.S_IFMT(mode)
-        )
+        st = path.lstat()
+        if stat.S_ISREG(st.st_mode):
+            big = st.st_size > 10_000_000
+            found[str(path.relative_to(root))] = (
+                (st.st_size, st.st_mtime_ns) if big else path.read_bytes()
+            )
+        elif stat.S_ISLNK(st.st_mode):
+            found[str(path.relative_to(root))] = ("link", os.readlink(path))
+        else:
+            found[str(path.relative_to(root))] = stat.S_IFMT(st.st_mode)
     return found
 
 
@@ -92,7 +105,17 @@ def test_corpus_is_large_and_ids_unique():
     assert set(SUBPROCESS_IDS) <= set(ids)
 
 
-@pytest.mark.parametrize("case", CASES, ids=[c.id for c in CASES])
+def _limit_memory() -> None:
+    """At most 4 GB of address space: a device read to its end fails fast, not the machine."""
+    import resource
+
+    resource.setrlimit(resource.RLIMIT_AS, (4 * 1024**3, 4 * 1024**3))
+
+
+IN_PROCESS = [c for c in CASES if c.id not in PROCESS_ONLY_IDS]
+
+
+@pytest.mark.parametrize("case", IN_PROCESS, ids=[c.id for c in IN_PROCESS])
 def test_bad_input_one_line_exit_2_nothing_written(case, tmp_path, capsys, no_engine):
     argv = _prepare(case, tmp_path)
     before = _snapshot(tmp_path)
@@ -104,7 +127,9 @@ def test_bad_input_one_line_exit_2_nothing_written(case, tmp_path, capsys, no_en
     assert _snapshot(tmp_path) == before
 
 
-@pytest.mark.parametrize("case", [c for c in CASES if c.id in SUBPROCESS_IDS], ids=lambda c: c.id)
+@pytest.mark.parametrize(
+    "case", [c for c in CASES if c.id in SUBPROCESS_IDS + PROCESS_ONLY_IDS], ids=lambda c: c.id
+)
 def test_bad_input_as_a_real_process(case, tmp_path):
     argv = _prepare(case, tmp_path)
     before = _snapshot(tmp_path)
@@ -117,7 +142,8 @@ def test_bad_input_as_a_real_process(case, tmp_path):
         capture_output=True,
         text=True,
         env=env,
-        timeout=120,
+        timeout=60,  # a pipe with no writer or a device read to its end never returns
+        preexec_fn=_limit_memory if case.id in PROCESS_ONLY_IDS else None,
     )
     assert proc.returncode == 2, proc.stderr
     assert proc.stdout == ""

@@ -9,12 +9,14 @@ from __future__ import annotations
 
 import codecs
 import io
+import os
+import warnings
 from pathlib import Path
 
 import numpy as np
 from scipy.spatial.distance import cdist
 
-from vibrapol.errors import GeometryError, InputFormatError
+from vibrapol.errors import GeometryError, InputFormatError, VibrapolError, VibrapolWarning
 
 #: Atoms closer than this are taken to overlap (a broken structure): the shortest bond, H₂,
 #: is 0.74 Å (common practice).
@@ -76,49 +78,131 @@ def check_structure(
 _BOMS = (codecs.BOM_UTF8, codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE, codecs.BOM_UTF32_BE)
 
 
-def _ase_read(path: Path):  # noqa: ANN202
+def _xyz_atom(line: str) -> tuple[int, tuple[float, float, float]] | None:
+    """(atomic number, x, y, z) of an XYZ atom line, or None when it is not one."""
+    from ase.data import atomic_numbers
+
+    parts = line.split()
+    if len(parts) < 4:
+        return None
+    symbol = parts[0]
+    z = int(symbol) if symbol.isdigit() else atomic_numbers.get(symbol.capitalize(), 0)
+    if not 1 <= z <= 118:
+        return None
+    try:
+        xyz = (float(parts[1]), float(parts[2]), float(parts[3]))
+    except ValueError:
+        return None
+    return z, xyz
+
+
+def _xyz_frames(text: str, first_only: bool = False) -> list[tuple[list[int], list[tuple]]]:
+    """Frames of plain XYZ text, or [] when the text is not XYZ.
+
+    The layout, one block per frame (the comment line is free text)::
+
+        3
+        any comment, e.g. water_raman.out
+        O   0.000  0.000  0.117
+        H   0.000  0.757 -0.469
+        H   0.000 -0.757 -0.469
+    """
+    lines = text.splitlines()
+    frames: list[tuple[list[int], list[tuple]]] = []
+    i = 0
+    while i < len(lines):
+        if not lines[i].strip():
+            i += 1
+            continue
+        count = lines[i].strip()
+        if not count.isdigit() or int(count) == 0 or i + 1 + int(count) >= len(lines):
+            return []
+        atoms = [_xyz_atom(line) for line in lines[i + 2 : i + 2 + int(count)]]
+        if any(a is None for a in atoms):
+            return []
+        frames.append(([a[0] for a in atoms], [a[1] for a in atoms]))  # type: ignore[index]
+        if first_only:
+            break
+        i += 2 + int(count)
+    return frames
+
+
+def looks_like_xyz(text: str) -> bool:
+    """True when ``text`` starts with a complete XYZ frame (atom count, comment, atoms)."""
+    return bool(_xyz_frames(text[:200_000], first_only=True))
+
+
+def _read_frames(p: Path, warn_xyz: bool = True) -> list:
+    """Every frame of the structure file ``p`` as ase Atoms (the file checked and bounded)."""
+    import ase
     import ase.io
     from ase.io.formats import filetype
 
-    from vibrapol.sources.registry import decode_text
+    from vibrapol.textio import MAX_STRUCTURE_BYTES, decode_text, read_bytes
 
-    data = path.read_bytes()
+    data = read_bytes(p, MAX_STRUCTURE_BYTES, "structure file")
+    if b"\x00" in data[:200_000] and not data.startswith(_BOMS):
+        try:  # a binary format ase knows (.traj, ...)?
+            return ase.io.read(str(p), index=":")
+        except Exception:  # noqa: BLE001 - not one: say what is wrong with it as text
+            decode_text(data, str(p))
+            raise
+    text = decode_text(data, str(p))
+    if not text.strip():
+        raise InputFormatError(f"{p}: file is empty")
+    frames = _xyz_frames(text)
+    if frames:  # XYZ by its content, whatever the file is called
+        if p.suffix.lower() not in (".xyz", ".extxyz") and warn_xyz:
+            warnings.warn(f"{p}: the content is XYZ; read as XYZ", VibrapolWarning, stacklevel=3)
+        try:
+            # extended XYZ (key=value comment lines) first; a comment it cannot parse is
+            # free text, as in plain XYZ
+            return ase.io.read(io.StringIO(text), format="extxyz", index=":")
+        except Exception:  # noqa: BLE001 - ase raises many kinds for a comment it cannot parse
+            return [ase.Atoms(numbers=z, positions=xyz) for z, xyz in frames]
     if data.startswith(_BOMS):  # ase's text readers trip over byte-order marks and UTF-16
-        text = decode_text(data, str(path))
-        return ase.io.read(io.StringIO(text), format=filetype(str(path), read=False))
-    return ase.io.read(str(path))
+        return ase.io.read(io.StringIO(text), format=filetype(str(p), read=False), index=":")
+    return ase.io.read(str(p), index=":")
 
 
 def read_structure(path: str | Path):  # noqa: ANN201
-    """The last frame of a structure file (any format ``ase.io.read`` accepts), checked.
+    """The structure in a file (any format ``ase.io.read`` accepts), checked.
+
+    XYZ text is recognised by its content (whatever the file is called; a warning says so when
+    the name says otherwise) and its comment line is free text.  A file with more than one
+    frame (a trajectory) is refused: which frame to use is the user's choice.
 
     Raises
     ------
     InputFormatError
-        Missing, empty, binary or unreadable files, and files with no atoms.
+        Missing, non-regular, oversized, empty, binary or unreadable files, files with no
+        atoms, and files with more than one frame.
     GeometryError
         Structures :func:`check_structure` refuses.
     """
-    from vibrapol.sources.registry import read_text
-
     p = Path(path)
-    if not p.exists():
+    if not os.path.lexists(p):
         raise InputFormatError(f"{p}: no such structure file")
     try:
-        atoms = _ase_read(p)
+        frames = _read_frames(p)
+    except VibrapolError:
+        raise
     except Exception as exc:  # ase raises many kinds for files it cannot parse
-        # An empty or text-less file gets the one-line error every reader gives
-        # (binary formats ase knows, such as .traj, are read above and never get here).
-        read_text(p)
         reason = str(exc).strip().splitlines()[0] if str(exc).strip() else ""
         raise InputFormatError(
             f"{p}: cannot read a structure, no atomic coordinates found "
             f"({type(exc).__name__}: {reason}); "
             "give a structure file ase.io.read understands (xyz, pdb, cif …)"
         ) from exc
-    if isinstance(atoms, list):
-        atoms = atoms[-1]
-    if len(atoms) == 0:
+    if not isinstance(frames, list):
+        frames = [frames]
+    if len(frames) > 1:
+        raise InputFormatError(
+            f"{p}: holds {len(frames)} structures (frames); give one, e.g. the last: "
+            f"ase convert -n -1 {p} last.xyz"
+        )
+    if not frames or len(frames[0]) == 0:
         raise InputFormatError(f"{p}: the file holds no atoms; give a structure with coordinates")
+    atoms = frames[0]
     check_structure(atoms.get_atomic_numbers(), atoms.get_positions(), where=str(p))
     return atoms

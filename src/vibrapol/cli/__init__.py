@@ -8,6 +8,7 @@ the library.  A :class:`~vibrapol.errors.VibrapolError` prints one line and exit
 from __future__ import annotations
 
 import argparse
+import errno
 import importlib
 import sys
 import warnings
@@ -15,7 +16,15 @@ from collections.abc import Sequence
 from typing import NoReturn
 
 from vibrapol import __version__
+from vibrapol.cli._common import ascii_safe_streams, devnull_stdout
 from vibrapol.errors import VibrapolError
+from vibrapol.textio import tracking_inputs
+
+#: Operating-system errors a user's environment causes (a full disk, a read-only file system,
+#: a name too long): one line and exit status 2, like any other error a user can cause.
+_ENVIRONMENT_ERRNOS = frozenset(
+    {errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EROFS, errno.EIO, errno.ENAMETOOLONG}
+)
 
 #: Subcommand name → module in vibrapol.cli.
 SUBCOMMANDS = {
@@ -78,6 +87,7 @@ def _format_warning(message, category, filename, lineno, line=None):  # noqa: AN
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``vibrapol`` console script; returns the exit status."""
+    ascii_safe_streams()
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -85,7 +95,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         return exc.code if isinstance(exc.code, int) else 0 if exc.code is None else 2
     warnings.formatwarning = _format_warning
     try:
-        return int(args._run(args) or 0)
+        with tracking_inputs():  # no output of this command may overwrite one of its inputs
+            status = int(args._run(args) or 0)
+        sys.stdout.flush()  # a full disk behind standard output shows here, not at exit
+        return status
     except VibrapolError as exc:
         if args.traceback:
             raise
@@ -97,10 +110,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:
         # The reader of standard output went away (``vibrapol table … | head``): stop quietly,
         # and point stdout at /dev/null so the interpreter's final flush does not fail again.
-        import os
-
-        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        devnull_stdout()
         return 1
+    except OSError as exc:
+        if args.traceback:
+            raise
+        if exc.errno not in _ENVIRONMENT_ERRNOS:
+            raise
+        if not exc.filename:  # most likely standard output; stop the final flush failing too
+            devnull_stdout()
+        what = f"{exc.filename}: " if exc.filename else "writing failed: "
+        print(f"vibrapol {args.command}: error: {what}{exc.strerror or exc}", file=sys.stderr)
+        return 2
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -33,9 +33,24 @@ options as below, wrapped to your terminal.  Shared behaviour:
 - An error you can cause (a bad file, a bad option) prints one line,
   `vibrapol SUBCOMMAND: error: ...`, saying what is wrong, where, and what to do, and the
   command exits with status 2.  `--traceback` shows the Python stack instead.
-- Output files are checked before any work starts, never overwritten without `--force`, and
-  written atomically (a temporary file, then a rename): an interrupted command leaves either
-  the old file or the complete new one.
+- Inputs must be regular files (a symbolic link to one is fine): devices such as `/dev/zero`,
+  named pipes and directories are refused before they are opened.  Size bounds: 2 GB for
+  quantum-chemistry outputs and *.modes.json, 200 MB for structures and measured spectra.
+- A structure in XYZ format is recognised by its content, whatever the file is called, and
+  its comment line is free text.  A file with several structures (frames) is refused: keep
+  the one you want, e.g. the last with `ase convert -n -1 traj.xyz last.xyz`.
+- Every output of a command is checked before any work starts: never overwritten without
+  `--force`; a name ending in `/`, a directory, a device or a pipe is refused; two outputs
+  naming the same file are refused; an output that is one of the inputs is refused even with
+  `--force` (also through symbolic or hard links).
+- Symbolic links are followed, as editors do: the file the link points to is written and the
+  link stays.  A link to a file that does not exist yet counts as an existing file (it needs
+  `--force`).
+- All outputs are written to temporary files and renamed into place only when every one is
+  complete: a full disk, a name too long or any other failure leaves the old files as they
+  were and no partial new ones, with one line saying what went wrong.
+- Where the terminal cannot show characters such as ±, ρ, Å or ⁻¹ (for example under
+  `LC_ALL=C`), they are printed as `+/-`, `rho`, `A`, `^-1`; files are always UTF-8.
 - Warnings (printed values that disagree with vibrapol's own numbers, imaginary modes, coarse
   grids) go to standard error as `vibrapol: warning: ...`.
 

@@ -25,7 +25,7 @@ from vibrapol.engine.compute import (
 )
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD
 from vibrapol.errors import InputFormatError, VibrapolError
-from vibrapol.fileio import check_writable
+from vibrapol.fileio import check_outputs
 from vibrapol.sources.modes_json import write_modes_json
 from vibrapol.structure import read_structure
 
@@ -120,8 +120,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "-o",
         "--output",
         metavar="NAME.modes.json",
-        help="file to write, for a single structure (default: STRUCTURE's name with "
-        ".modes.json, beside it or in --output-dir)",
+        help="file to write, for a single structure and not with --output-dir (default: "
+        "STRUCTURE's name with .modes.json, beside it or in --output-dir)",
     )
     parser.add_argument(
         "--output-dir", metavar="DIR", help="write every NAME.modes.json into this directory"
@@ -148,6 +148,10 @@ def structure_files(paths: list[str]) -> list[Path]:
 
 def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
     """Where each structure's modes file goes, checked writable before any work."""
+    if args.output and args.output_dir:
+        raise VibrapolError(
+            "give either -o/--output (one file) or --output-dir (a directory), not both"
+        )
     if args.output and len(files) > 1:
         raise VibrapolError(
             f"-o/--output names one file but {len(files)} structures were given; "
@@ -162,10 +166,10 @@ def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
         else:
             stem = f.name[: -len(f.suffix)] if f.suffix else f.name
             out = (Path(args.output_dir) if args.output_dir else f.parent) / f"{stem}.modes.json"
-        outputs.append(check_writable(out, args.force))
+        outputs.append(out)
     if len(set(outputs)) < len(outputs):
         raise VibrapolError("two structures would write the same modes file; rename one")
-    return outputs
+    return check_outputs(outputs, args.force, inputs=files)
 
 
 def run(args: argparse.Namespace) -> int:

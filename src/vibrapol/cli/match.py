@@ -16,11 +16,13 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
-import sys
 
+import numpy as np
+
+from vibrapol import fileio
+from vibrapol.cli._common import input_paths, print_stdout, write_outputs
 from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.sources import read_modes, readers
 
 HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
@@ -123,12 +125,15 @@ def measure(args: argparse.Namespace):  # noqa: ANN201
     options: dict[str, object] = {"axis": args.axis}
     if args.laser_nm is not None:
         options["laser_nm"] = args.laser_nm
+    if args.vh is not None:
+        check_distinct_channels(args.vv, args.vh)
     pair = measured.read_pair(args.vv, args.vh, **options)
     if args.range_cm1:
         lo, hi = parse_range(args.range_cm1)
         pair = measured.PolarizedPair(
             pair.vv.crop(lo, hi), None if pair.vh is None else pair.vh.crop(lo, hi)
         )
+    check_stokes(pair.vv.shift_cm1, args.vv)
     pair, _, _ = measured.clean_pair(pair, **({"baseline": None} if args.no_baseline else {}))
     starts = measured.find_bands(pair.vv, min_snr=args.min_snr)
     if not starts:
@@ -136,6 +141,31 @@ def measure(args: argparse.Namespace):  # noqa: ANN201
             f"{args.vv}: no bands found above {args.min_snr:g} noise units; lower --min-snr"
         )
     return pair, measured.measure_bands(pair, starts)
+
+
+def check_distinct_channels(vv: str, vh: str) -> None:
+    """Refuse a --vh that is the --vv file itself or a copy of it (ρ would be 1 everywhere)."""
+    from vibrapol.textio import MAX_SPECTRUM_BYTES, check_input_file, read_bytes
+
+    a, b = check_input_file(vv, MAX_SPECTRUM_BYTES), check_input_file(vh, MAX_SPECTRUM_BYTES)
+    if (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino):
+        raise VibrapolError(f"--vh {vh} is the same file as --vv {vv}; give the crossed (VH) file")
+    if a.st_size == b.st_size and read_bytes(vv, MAX_SPECTRUM_BYTES) == read_bytes(
+        vh, MAX_SPECTRUM_BYTES
+    ):
+        raise VibrapolError(
+            f"--vh {vh} has the same content as --vv {vv}; give the crossed (VH) file"
+        )
+
+
+def check_stokes(shift_cm1: np.ndarray, where: str) -> None:
+    """Refuse a spectrum with no positive Raman shift: computed bands are on the Stokes side."""
+    shift = np.asarray(shift_cm1, dtype=float)
+    if shift.size and np.max(shift) <= 0:
+        raise VibrapolError(
+            f"{where}: every Raman shift is ≤ 0 ({np.min(shift):.0f} to {np.max(shift):.0f} "
+            "cm⁻¹, the anti-Stokes side); assignment needs the Stokes side (positive shifts)"
+        )
 
 
 def assign_options(args: argparse.Namespace) -> dict[str, object]:
@@ -166,9 +196,8 @@ def laser_nm(args: argparse.Namespace) -> float:
 
 
 def check_outputs(args: argparse.Namespace, paths: list[str]) -> None:
-    """Fail before any work when an output may not be written."""
-    for path in paths:
-        check_writable(path, args.force)
+    """Fail before any work when an output may not be written (or is an input, or twice)."""
+    fileio.check_outputs(paths, args.force, input_paths(args))
 
 
 def run(args: argparse.Namespace) -> int:
@@ -203,9 +232,7 @@ def run(args: argparse.Namespace) -> int:
 
         fig = match_figure(result, pair)
         files += [(p, figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)]
-    for path, data in files:
-        write_atomic(path, data, force=args.force)
-        print(f"wrote {path}", file=sys.stderr)
+    write_outputs(args, files)  # all or nothing
     text = assignment_summary(result)
     if level_note:
         text += f"note: {level_note}\n"
@@ -213,5 +240,5 @@ def run(args: argparse.Namespace) -> int:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
     if not args.output:
         text += "\n" + assignment_csv(result)
-    sys.stdout.write(text)
+    print_stdout(text)
     return 0

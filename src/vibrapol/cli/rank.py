@@ -13,9 +13,9 @@ from __future__ import annotations
 
 import argparse
 import math
-import sys
 from pathlib import Path
 
+from vibrapol.cli._common import print_stdout, write_outputs
 from vibrapol.cli.match import (
     add_measurement_arguments,
     assign_options,
@@ -24,7 +24,6 @@ from vibrapol.cli.match import (
     measure,
 )
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import write_atomic
 from vibrapol.sources import read_modes
 
 HELP = "rank candidate structures by how well they match a measured VV/VH spectrum"
@@ -108,8 +107,6 @@ def run(args: argparse.Namespace) -> int:
     pair, bands = measure(args)
     ranking = rank(candidates, bands, pair=pair, **opts)
     text = ranking_text(ranking)
-    if args.output:
-        write_atomic(args.output, text, force=args.force)
-        print(f"wrote {args.output}", file=sys.stderr)
-    sys.stdout.write(text)
+    write_outputs(args, [(args.output, text)])
+    print_stdout(text)
     return 0

@@ -13,12 +13,10 @@ from __future__ import annotations
 
 import argparse
 import math
-import sys
 
 from vibrapol.channels import GEOMETRIES
-from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.lineshapes import SHAPES, LineShape
 from vibrapol.quantities import QUANTITY_UNITS
@@ -248,10 +246,7 @@ def _width(text: str) -> str | float:
 
 def run(args: argparse.Namespace) -> int:
     """Compute the spectrum and write every requested output (all or nothing)."""
-    check_output(args)
-    for path in [args.sticks, *args.figure, *args.rho_figure]:
-        if path:
-            check_writable(path, args.force)
+    check_output(args, args.sticks, *args.figure, *args.rho_figure)
     for path in [*args.figure, *args.rho_figure]:
         _suffix(path)
     if args.labels < 0:
@@ -286,10 +281,9 @@ def run(args: argparse.Namespace) -> int:
             fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)
             outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.rho_figure]
     text = spectrum_io.grid_csv(grid) if args.format == "csv" else spectrum_io.grid_json(grid)
-    for path, data in outputs:
-        write_atomic(path, data, force=args.force)
-        print(f"wrote {path}", file=sys.stderr)
-    emit(args, text)
+    write_outputs(args, [*outputs, (args.output, text)])  # all or nothing
+    if not args.output:
+        print_stdout(text)
     return 0
 
 

@@ -13,16 +13,14 @@ from __future__ import annotations
 
 import argparse
 import math
-import sys
 
 import numpy as np
 
 from vibrapol import orientation as orient
 from vibrapol.channels import GEOMETRIES
-from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
 from vibrapol.cli.spectrum import add_physics_arguments, parse_floats, scale_from_args
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.sources import read_modes
 from vibrapol.sweep import polar_sweep
 
@@ -32,6 +30,11 @@ ORIENTATIONS = ("isotropic", "fixed", "aligned", "uniaxial")
 
 #: Most polarizer angles in one sweep (0.01° steps over a full turn).
 MAX_ANGLES = 36_001
+
+
+#: A band asked for with --bands must have a computed band this close (cm⁻¹): positions read off
+#: a measured spectrum differ from scaled computed ones by a few tens of cm⁻¹ at most.
+BAND_SEARCH_CM1 = 50.0
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -71,7 +74,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--angles-deg", default="0:360:5", help="polarizer angles START:STOP:STEP (default 0:360:5)"
     )
     parser.add_argument(
-        "--bands", help="Raman shifts of the bands to sweep, comma-separated (default: strongest)"
+        "--bands",
+        help="Raman shifts of the bands to sweep, comma-separated; each takes the nearest "
+        f"computed band, which must lie within {BAND_SEARCH_CM1:g} cm⁻¹ (default: strongest)",
     )
     parser.add_argument(
         "--top", type=int, default=4, help="number of strongest bands when --bands is not given"
@@ -131,11 +136,22 @@ def parse_angles(text: str) -> np.ndarray:
     return start + step * np.arange(count)
 
 
+def check_bands_found(wanted_cm1: list[float], found_cm1: np.ndarray) -> None:
+    """Refuse a ``--bands`` position with no computed band within :data:`BAND_SEARCH_CM1`."""
+    found = np.asarray(found_cm1, dtype=float)
+    for band in wanted_cm1:
+        nearest = float(found[np.argmin(np.abs(found - band))])
+        if abs(nearest - band) > BAND_SEARCH_CM1:
+            raise VibrapolError(
+                f"--bands {band:g}: no computed band within {BAND_SEARCH_CM1:g} cm⁻¹ "
+                f"(the nearest is at {nearest:.1f} cm⁻¹); give positions of computed bands"
+            )
+
+
 def run(args: argparse.Namespace) -> int:
     """Compute the sweep and write the table (and the figure)."""
-    check_output(args)
+    check_output(args, args.figure)
     if args.figure:
-        check_writable(args.figure, args.force)
         fmt = args.figure.rsplit(".", 1)[-1].lower()
         if fmt not in ("png", "svg", "pdf"):
             raise VibrapolError(f"{args.figure}: figure files must end in .png, .svg or .pdf")
@@ -155,15 +171,19 @@ def run(args: argparse.Namespace) -> int:
         scale=scale_from_args(args),
         degeneracy_tol_cm1=args.degeneracy_tol_cm1,
     )
+    if args.bands:
+        check_bands_found(parse_floats(args.bands, "--bands"), sweep.positions_cm1)
     from vibrapol import spectrum_io
 
+    figure = b""
     text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)
     if args.figure:
         from vibrapol import plotting
         from vibrapol.cli.spectrum import _width
 
         fig = plotting.polar_figure(sweep, width=_width(args.width))
-        write_atomic(args.figure, plotting.figure_bytes(fig, fmt), force=args.force)
-        print(f"wrote {args.figure}", file=sys.stderr)
-    emit(args, text)
+        figure = plotting.figure_bytes(fig, fmt)
+    write_outputs(args, [(args.figure, figure), (args.output, text)])  # all or nothing
+    if not args.output:
+        print_stdout(text)
     return 0

@@ -30,7 +30,7 @@ from vibrapol.measured.axis import (
 from vibrapol.measured.delimited import read_delimited
 from vibrapol.measured.jcamp import looks_like_jcamp, read_jcamp
 from vibrapol.measured.spectrum import MeasuredSpectrum, PolarizedPair, align_pair, check_axis
-from vibrapol.sources.registry import read_text
+from vibrapol.textio import MAX_SPECTRUM_BYTES, read_text
 
 Source = str | Path | TextIO
 
@@ -53,7 +53,7 @@ def _text(source: Source) -> tuple[str, str]:
         if not text.strip():
             raise InputFormatError(f"{where}: file is empty")
         return text, where
-    return read_text(source), str(source)
+    return read_text(source, MAX_SPECTRUM_BYTES, "measured spectrum"), str(source)
 
 
 def _axis_kind(axis: str, units: str, where: str) -> tuple[AxisKind, float, str]:

@@ -84,6 +84,13 @@ def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
     try:
         atoms = data["atoms"]
         prov = dict(data.get("provenance") or {})
+        known = [f.name for f in dataclasses.fields(Provenance)]
+        unknown = [k for k in prov if k not in known]
+        if unknown:
+            raise InputFormatError(
+                f"{where}: provenance has an unknown key {unknown[0]!r} "
+                f"(known: {', '.join(known)}); remove it or fix its spelling"
+            )
         prov["notes"] = tuple(prov.get("notes", ()))
         kwargs = {attr: data.get(key) for attr, key in _ARRAY_FIELDS.items()}
         return ModeSet(

@@ -207,7 +207,7 @@ def read_mode_table(lines: Sequence[str], where: str = "") -> ModeTable:
     block = "the normal coordinate analysis"
     rows: dict[str, list[float]] = {label: [] for label in _KNOWN_ROWS if label != "SYMMETRY"}
     rigid: tuple[int, ...] | None = None
-    headings: list[str] = []
+    headings: list[tuple[int, str]] = []
     group = 0
     raman_label = ""
     i = start
@@ -224,7 +224,7 @@ def read_mode_table(lines: Sequence[str], where: str = "") -> ModeTable:
             group = len(tokens)
             continue
         if " IN " in line and ("INTENSITIES" in line or "ACTIVITIES" in line):
-            headings.append(line)
+            headings.append((i, line))
             continue
         row = _ROW.match(line)
         if row is None or not row.group(2).strip():
@@ -275,26 +275,33 @@ def read_mode_table(lines: Sequence[str], where: str = "") -> ModeTable:
 
 
 def _raman_row(
-    rows: dict[str, list[float]], label: str, headings: list[str], where: str, start: int
+    rows: dict[str, list[float]],
+    label: str,
+    headings: list[tuple[int, str]],
+    where: str,
+    start: int,
 ) -> np.ndarray | None:
     """The Raman row in Å⁴/amu, after checking that a heading states that unit."""
     if not label:
         return None
-    if not any("RAMAN" in h and "ANGSTROM**4/AMU" in h for h in headings):
+    raman = [(i, h) for i, h in headings if "RAMAN" in h]
+    if not any("ANGSTROM**4/AMU" in h for _, h in raman):
         raise layout_error(
             where,
             "the normal coordinate analysis",
-            start,
+            raman[0][0] if raman else start,
             f"{label} rows without a heading giving their unit as ANGSTROM**4/AMU",
         )
     return np.array(rows[label])
 
 
-def _ir_row(values: list[float], headings: list[str], where: str, start: int) -> np.ndarray | None:
+def _ir_row(
+    values: list[float], headings: list[tuple[int, str]], where: str, start: int
+) -> np.ndarray | None:
     """The IR row in km/mol: converted from D² amu⁻¹ Å⁻², or kept when printed in km/mol."""
     if not values:
         return None
-    ir_headings = [h for h in headings if "IR INTENSITIES" in h]
+    ir_headings = [h for _, h in headings if "IR INTENSITIES" in h]
     if any("DEBYE**2/AMU-ANGSTROM**2" in h for h in ir_headings):
         return np.array(values) * DEBYE2_PER_AMU_ANG2_TO_KM_MOL
     if any("KM/MOL" in h.upper() for h in ir_headings):

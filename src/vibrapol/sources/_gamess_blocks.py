@@ -37,6 +37,7 @@ import numpy as np
 from vibrapol.errors import InputFormatError
 from vibrapol.sources._common import floats, last_line_with, truncated_error
 from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
+from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule
 from vibrapol.units import BOHR2_TO_ANG2
 
@@ -146,14 +147,6 @@ class ModeTable:
         keep = np.ones(len(self.freqs_cm1), dtype=bool)
         keep[list(self.rigid)] = False
         return np.flatnonzero(keep)
-
-
-def layout_error(where: str, block: str, line: int, what: str) -> InputFormatError:
-    """One-line error for a block that is present but printed in a layout not known here."""
-    return InputFormatError(
-        f"{where}: unrecognised layout of {block} at line {line + 1}: {what}; "
-        "please report this program version"
-    )
 
 
 def _row_values(text: str, where: str) -> list[float]:

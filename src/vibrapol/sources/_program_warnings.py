@@ -34,11 +34,19 @@ class Rule:
         decoration lines of ``*``, ``-`` or ``=`` skipped).
     source : str
         Where the text is known from (a real output, a cclib parser, or "from memory").
+    unless : str
+        Regular expression; a line with the marker that matches it is not a warning (Q-Chem
+        prints "This Molecule has  0 Imaginary Frequencies" for every minimum).
     """
 
     marker: str
     extra_lines: int = 0
     source: str = ""
+    unless: str = ""
+
+    def matches(self, line: str) -> bool:
+        """True when ``line`` starts this warning."""
+        return self.marker in line and not (self.unless and re.search(self.unless, line))
 
 
 @dataclass(frozen=True)
@@ -73,7 +81,7 @@ def find_program_warnings(
     stop = len(lines) if stop is None else stop
     found: dict[str, ProgramWarning] = {}
     for i in range(start, stop):
-        rule = next((r for r in rules if r.marker in lines[i]), None)
+        rule = next((r for r in rules if r.matches(lines[i])), None)
         if rule is None:
             continue
         parts = [_clean(lines[i])]

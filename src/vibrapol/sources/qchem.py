@@ -22,8 +22,11 @@ job, ``jobtype = freq`` with ``doraman = true``):
 * The method and basis from the ``$rem`` section of the echoed input; the energy is the first
   ``Total energy in the final basis set`` of the job (the reference geometry; the later ones
   belong to displaced geometries).
-* Not read into the ModeSet: ``IR Intens:`` (:func:`vibration_blocks` returns it), force
-  constants, reduced masses, transition dipoles.
+* ``IR Intens:`` in km/mol (the banner above the blocks says "INFRARED INTENSITIES (KM/MOL)")
+  → ``ModeSet.ir_intensity_km_mol``.
+* The program's remarks about its results (:data:`WARNING_RULES`: imaginary frequencies, SCF
+  failures) are passed on as :class:`~vibrapol.errors.AccuracyWarning` and provenance notes.
+* Not read into the ModeSet: force constants, reduced masses, transition dipoles.
 """
 
 from __future__ import annotations
@@ -42,9 +45,21 @@ from vibrapol.sources._common import (
     invariants_from_printed,
     truncated_error,
 )
+from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
+
+#: Q-Chem's remarks about its results: the imaginary-frequency count is from the real Q-Chem
+#: 5.4.1 output (printed for every job, so a count of 0 is skipped); the SCF failure texts are
+#: those cclib 1.8.1's Q-Chem parser stops on.  "Energy on first SCF cycle will be
+#: non-variational" (a routine note on the initial guess) and "Irrep of orbital ... could not
+#: be determined" (orbital labels) say nothing about the vibrations and are not passed on.
+WARNING_RULES = (
+    Rule("Imaginary Frequencies", 0, "Q-Chem 5.4.1 output", unless=r"has\s+0\s+Imaginary"),
+    Rule("SCF failed to converge", 0, "cclib Q-Chem parser"),
+    Rule("Convergence failure", 0, "cclib Q-Chem parser"),
+)
 
 _ORIENTATION = "Standard Nuclear Orientation (Angstroms)"
 _VIB_TITLE = "VIBRATIONAL ANALYSIS"
@@ -278,6 +293,10 @@ def parse_qchem(text: str, where: str = "Q-Chem output") -> ModeSet:
     z = atomic_numbers_from_symbols(symbols, where)
     vib = vibration_blocks(lines, vtitle, len(symbols), where)
     notes = [f"{len(vib.freqs_cm1)} vibrations printed by Q-Chem (rigid-body modes not printed)"]
+    notes += pass_on(find_program_warnings(lines, WARNING_RULES), where=where, program="Q-Chem")
+    ir, ir_note = _ir_intensities(lines, vtitle, vib)
+    if ir_note:
+        notes.append(ir_note)
     masses = masses_block(lines, vtitle, len(symbols))
     masses_note = "as printed by Q-Chem (thermochemistry, 5 decimals)" if masses is not None else ""
     modes = modes_from_displacements(
@@ -326,9 +345,28 @@ def parse_qchem(text: str, where: str = "Q-Chem output") -> ModeSet:
         a2=a2,
         gamma2=gamma2,
         polarizability_ang3=alpha,
+        ir_intensity_km_mol=ir,
         energy_hartree=energy,
         provenance=provenance,
     )
+
+
+def _ir_intensities(
+    lines: list[str], vtitle: int, vib: QChemVibrations
+) -> tuple[np.ndarray | None, str]:
+    """The ``IR Intens:`` row in km/mol, and a note on where the unit comes from.
+
+    The banner of the VIBRATIONAL ANALYSIS section names the unit ("INFRARED INTENSITIES
+    (KM/MOL)"); a banner naming another unit leaves the row unread.
+    """
+    if vib.ir_km_mol is None:
+        return None, ""
+    banner = [line for line in lines[vtitle : vtitle + 10] if "INFRARED INTENSITIES" in line]
+    if not banner:
+        return vib.ir_km_mol, "IR intensities in km/mol (Q-Chem's unit; no unit banner printed)"
+    if "KM/MOL" not in banner[0].upper():
+        return None, f"IR intensities not read: unit banner {banner[0].strip(' *')!r}"
+    return vib.ir_km_mol, "IR intensities in km/mol as printed ('IR Intens')"
 
 
 def read_qchem(path: str | Path) -> ModeSet:

@@ -156,3 +156,23 @@ def test_fixture_ir_intensities():
     printed = dalton.read_ir_intensities(lines)
     modes = read_quietly(dalton.read_dalton, FIXTURES / "dalton_water_raman.out")
     np.testing.assert_array_equal(modes.ir_intensity_km_mol, printed[::-1])
+
+
+def test_truncation_found_after_an_earlier_cclib_read(tmp_path, capfd):
+    # Regression: cclib gives the logger of a parser class a handler only once per process, so
+    # after any earlier read of the same kind (here through the generic reader) a file cut
+    # inside a block was no longer recognised as truncated, and cclib's log reached stderr.
+    import warnings
+
+    from _source_contract import cut_after
+    from vibrapol.sources import read_modes
+
+    fixture = FIXTURES / "dalton_water_raman.out"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        read_modes(fixture, kind="cclib")
+    cut = tmp_path / "cut.out"
+    cut.write_text(cut_after(fixture.read_text(), "Normal Coordinates", 9))
+    with pytest.raises(InputFormatError, match="ends in the middle of a block"):
+        dalton.read_dalton(cut)
+    assert capfd.readouterr().err == ""

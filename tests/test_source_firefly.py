@@ -261,3 +261,43 @@ def test_row_cut_at_the_end_of_the_file_is_truncated(tmp_path):
     path.write_text(text[: text.index("34.050") + 3])
     with pytest.raises(InputFormatError, match="truncated"):
         firefly.read_firefly(path)
+
+
+def _variant(tmp_path, old: str, new: str):
+    text = GAMESSUS.read_text()
+    assert old in text
+    path = tmp_path / "variant.out"
+    path.write_text(text.replace(old, new))
+    return path
+
+
+def test_activity_rows_without_a_unit_heading_are_read_and_noted(tmp_path):
+    # contract: a row labelled RAMAN ACTIVITY names its quantity; without any Raman heading it
+    # is read in the family's unit for activities, and the provenance says so
+    heading = "     RAMAN ACTIVITIES IN ANGSTROM**4/AMU, DEPOLARIZATIONS ARE DIMENSIONLESS\n"
+    modes, _ = _read_recorded(_variant(tmp_path, heading, ""))
+    assert raman_table(modes).activity == pytest.approx(FIXTURE_ACTIVITY, abs=5e-4)
+    assert any("no unit heading for the RAMAN ACTIVITY rows" in n for n in modes.provenance.notes)
+
+
+def test_ir_rows_without_a_unit_are_left_out_not_refused(tmp_path):
+    old = "IR INTENSITIES IN DEBYE**2/AMU-ANGSTROM**2,"
+    modes, _ = _read_recorded(_variant(tmp_path, old, "IR INTENSITIES,"))
+    assert modes.ir_intensity_km_mol is None
+    assert any("IR INTENSITY rows not read" in n for n in modes.provenance.notes)
+    assert raman_table(modes).rho_linear[1:] == pytest.approx(FIXTURE_RHO[1:], abs=5e-4)
+
+
+def test_any_warning_line_inside_the_analysis_is_passed_on(tmp_path):
+    # invented text for this test: a warning line the rules do not know, inside the analysis
+    line = " *** WARNING: INVENTED TEXT ABOUT THE HESSIAN FOR THIS TEST\n"
+    old = " MODES 2 TO 7 ARE TAKEN AS ROTATIONS AND TRANSLATIONS.\n"
+    _, caught = _read_recorded(_variant(tmp_path, old, line + old))
+    messages = [str(w.message) for w in caught]
+    assert any("INVENTED TEXT ABOUT THE HESSIAN" in m for m in messages)
+    # outside the result sections an unknown warning (e.g. about the CPU) is not repeated
+    text = GAMESSUS.read_text().replace(" ATOM      ATOMIC", line + " ATOM      ATOMIC", 1)
+    path = tmp_path / "outside.out"
+    path.write_text(text)
+    _, caught = _read_recorded(path)
+    assert not any("INVENTED TEXT" in str(w.message) for w in caught)

@@ -246,3 +246,15 @@ def test_real_ir_intensities_and_imaginary_remark():
         ms = read_qchem(qc_output(REAL))
     np.testing.assert_array_equal(ms.ir_intensity_km_mol[:4], [0.0, 0.0, 0.419, 0.313])
     assert any("Imaginary Frequencies" in n for n in ms.provenance.notes)
+
+
+def test_row_of_another_length_mid_file_is_an_unknown_layout(tmp_path):
+    # contract (error text): a complete file whose block differs is not called truncated
+    text = CO2.read_text()
+    old = "Depolar:           0.000                  0.000                  0.184"
+    assert old in text
+    path = tmp_path / "layout.out"
+    path.write_text(text.replace(old, "Depolar:           0.000                  0.000"))
+    with pytest.raises(InputFormatError, match="unrecognised layout of the vibrational anal") as e:
+        read_qchem(path)
+    assert "truncated" not in str(e.value) and "line 57" in str(e.value)

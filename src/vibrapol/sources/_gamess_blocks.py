@@ -39,10 +39,11 @@ from vibrapol.sources._common import floats, last_line_with, truncated_error
 from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule
-from vibrapol.units import BOHR2_TO_ANG2
 
 ANALYSIS = "NORMAL COORDINATE ANALYSIS IN THE HARMONIC APPROXIMATION"
 DERIVATIVE_BLOCK = "ALPHA POLARIZABILITY DERIVATIVE TENSOR"
+#: Firefly's heading of the finite-field computation of the derivatives (real 8.0.1 output).
+DERIVATIVE_RUN = "NUMERICAL COMPUTATION OF POLARIZABILITY DERIVATIVE"
 _ROTATION_LINE = re.compile(r"MODES\s+(\d+)\s+TO\s*(\d+)\s+ARE TAKEN AS ROTATIONS AND TRANSLATIONS")
 _MEMBER = re.compile(r"(Firefly|PC GAMESS) version\s+([\d.]+)(?:.*?build number\s+(\d+))?")
 _ROW = re.compile(r"^\s*([A-Z][A-Z .]*[A-Z]):\s*(.*)$")
@@ -66,6 +67,7 @@ WARNING_RULES = (
     Rule("* * * WARNING, MODE", 2, "cclib GAMESS parser"),
     Rule("SCF IS UNCONVERGED", 0, "from memory"),
     Rule("GEOMETRY SEARCH IS NOT CONVERGED", 0, "cclib GAMESS parser"),
+    Rule("IMAGINARY FREQUENCY VIBRATION", 1, "cclib GAMESS parser"),
 )
 
 
@@ -129,8 +131,10 @@ class ModeTable:
         0-based indices of the modes the program took as rotations and translations.
     raman_label : str
         The label of the Raman row as printed ("" without one).
-    line : int
-        0-based index of the analysis heading.
+    line, end : int
+        0-based indices of the analysis heading and of the line that ends its mode groups.
+    notes : tuple of str
+        What the reading assumed or left out (units taken from a row label, IR not read).
     """
 
     freqs_cm1: np.ndarray
@@ -140,6 +144,8 @@ class ModeTable:
     rigid: tuple[int, ...]
     raman_label: str = ""
     line: int = 0
+    end: int = 0
+    notes: tuple[str, ...] = ()
 
     @property
     def vibrations(self) -> np.ndarray:
@@ -252,7 +258,8 @@ def read_mode_table(lines: Sequence[str], where: str = "") -> ModeTable:
     for label, values in rows.items():
         if values and len(values) != n:
             raise layout_error(where, block, start, f"{len(values)} {label} values for {n} modes")
-    activities = _raman_row(rows, raman_label, headings, where, start)
+    activities, raman_note = _raman_row(rows, raman_label, headings, where, start)
+    ir, ir_note = _ir_row(rows["IR INTENSITY"], headings)
     rho = rows["DEPOLARIZATION"]
     if rho and activities is None:
         raise layout_error(where, block, start, "DEPOLARIZATION rows without Raman rows")
@@ -260,10 +267,12 @@ def read_mode_table(lines: Sequence[str], where: str = "") -> ModeTable:
         freqs_cm1=np.array(freqs),
         activities=activities,
         rho_linear=np.array(rho) if rho else None,
-        ir_km_mol=_ir_row(rows["IR INTENSITY"], headings, where, start),
+        ir_km_mol=ir,
         rigid=rigid,
         raman_label=raman_label,
         line=start,
+        end=i,
+        notes=tuple(note for note in (raman_note, ir_note) if note),
     )
 
 
@@ -273,171 +282,40 @@ def _raman_row(
     headings: list[tuple[int, str]],
     where: str,
     start: int,
-) -> np.ndarray | None:
-    """The Raman row in Å⁴/amu, after checking that a heading states that unit."""
+) -> tuple[np.ndarray | None, str]:
+    """The Raman row in Å⁴/amu, and a note when its unit comes from its label alone.
+
+    A heading that names the unit must say ANGSTROM**4/AMU.  Without any Raman heading, a row
+    labelled ``RAMAN ACTIVITY`` is read in the family's unit for activities (noted); a row
+    labelled ``RAMAN INTENSITY`` could be anything and is refused.
+    """
     if not label:
-        return None
+        return None, ""
     raman = [(i, h) for i, h in headings if "RAMAN" in h]
-    if not any("ANGSTROM**4/AMU" in h for _, h in raman):
-        raise layout_error(
-            where,
-            "the normal coordinate analysis",
-            raman[0][0] if raman else start,
-            f"{label} rows without a heading giving their unit as ANGSTROM**4/AMU",
-        )
-    return np.array(rows[label])
+    if any("ANGSTROM**4/AMU" in h for _, h in raman):
+        return np.array(rows[label]), ""
+    if not raman and label == "RAMAN ACTIVITY":
+        note = "no unit heading for the RAMAN ACTIVITY rows: read in angstrom^4/amu"
+        return np.array(rows[label]), note
+    raise layout_error(
+        where,
+        "the normal coordinate analysis",
+        raman[0][0] if raman else start,
+        f"{label} rows without a heading giving their unit as ANGSTROM**4/AMU",
+    )
 
 
-def _ir_row(
-    values: list[float], headings: list[tuple[int, str]], where: str, start: int
-) -> np.ndarray | None:
-    """The IR row in km/mol: converted from D² amu⁻¹ Å⁻², or kept when printed in km/mol."""
+def _ir_row(values: list[float], headings: list[tuple[int, str]]) -> tuple[np.ndarray | None, str]:
+    """The IR row in km/mol (converted from D² amu⁻¹ Å⁻², or as printed in km/mol), and a note.
+
+    A row whose unit no heading states is left out (IR intensities are optional), with a note.
+    """
     if not values:
-        return None
+        return None, ""
     ir_headings = [h for _, h in headings if "IR INTENSITIES" in h]
     if any("DEBYE**2/AMU-ANGSTROM**2" in h for h in ir_headings):
-        return np.array(values) * DEBYE2_PER_AMU_ANG2_TO_KM_MOL
+        note = "IR intensities printed in debye^2/(amu angstrom^2), converted to km/mol"
+        return np.array(values) * DEBYE2_PER_AMU_ANG2_TO_KM_MOL, note
     if any("KM/MOL" in h.upper() for h in ir_headings):
-        return np.array(values)
-    raise layout_error(
-        where, "the normal coordinate analysis", start, "IR INTENSITY rows without a unit heading"
-    )
-
-
-_DERIVATIVE_COLUMNS = ["ALP-XX", "ALP-XY", "ALP-YY", "ALP-XZ", "ALP-YZ", "ALP-ZZ"]
-
-
-def read_dalpha_dx(lines: Sequence[str], n_atoms: int, where: str = "") -> np.ndarray | None:
-    """Cartesian polarizability derivatives, converted from bohr² to Å², shape (3N, 3, 3).
-
-    Returns None when the block is absent (no Raman job, or a member that does not print
-    it).  Layout (Firefly 8.0.1; values invented)::
-
-                  ALPHA POLARIZABILITY DERIVATIVE TENSOR     BOHR**2
-                  --------------------------------------     -------
-
-           ATOM               ALP-XX     ALP-XY     ALP-YY     ALP-XZ     ALP-YZ     ALP-ZZ
-         O          D/DX      1.2345     0.0000     0.5000     0.0000     0.0000    -0.1234
-                    D/DY      0.0000     2.3456     0.0000     0.0000     0.0000     0.0000
-                    D/DZ      0.0000     0.0000     0.0000     0.9876     0.0000     0.0000
-         H          D/DX     ...
-
-    Raises
-    ------
-    InputFormatError
-        For a block cut short, and for one in another unit, column order or row layout.
-    """
-    start = last_line_with(list(lines), DERIVATIVE_BLOCK)
-    if start is None:
-        return None
-    block = "the polarizability derivative block"
-    if "BOHR**2" not in lines[start]:
-        raise layout_error(where, block, start, "its unit is not BOHR**2")
-    rows: list[list[float]] = []
-    columns_seen = False
-    i = start
-    for i in range(start + 1, len(lines)):
-        line = lines[i]
-        if len(rows) == 3 * n_atoms or ANALYSIS in line:
-            break
-        if "ALP-XX" in line:
-            if line.split()[-6:] != _DERIVATIVE_COLUMNS:
-                raise layout_error(where, block, i, f"columns {' '.join(line.split()[1:])}")
-            columns_seen = True
-            continue
-        match = re.search(r"D/D([XYZ])", line)
-        if match:
-            if not columns_seen or match.group(1) != "XYZ"[len(rows) % 3]:
-                raise layout_error(where, block, i, f"unexpected row {line.strip()!r}")
-            values = floats(line[match.end() :], f"{where}: line {i + 1}")
-            if len(values) != 6:
-                if i == len(lines) - 1:
-                    raise truncated_error(where, f"line {i + 1}: derivative row cut short")
-                raise layout_error(where, block, i, f"{len(values)} values in a row, expected 6")
-            rows.append(values)
-        elif rows and line.strip():
-            break
-    if len(rows) != 3 * n_atoms:
-        if i >= len(lines) - 1:
-            raise truncated_error(where, f"the derivative block ends after {len(rows)} rows")
-        raise layout_error(where, block, start, f"{len(rows)} rows for {n_atoms} atoms")
-    xx, xy, yy, xz, yz, zz = np.array(rows).T
-    tensors = np.stack(
-        [np.stack([xx, xy, xz], -1), np.stack([xy, yy, yz], -1), np.stack([xz, yz, zz], -1)], -2
-    )
-    return tensors * BOHR2_TO_ANG2
-
-
-def other_derivative_heading(lines: Sequence[str]) -> int | None:
-    """Index of a polarizability-derivative heading not in the layout read here, or None.
-
-    Firefly's own lines ("NUMERICAL COMPUTATION OF POLARIZABILITY DERIVATIVE MATRIX", the
-    block :func:`read_dalpha_dx` reads) do not count.
-    """
-    for i, line in enumerate(lines):
-        upper = line.upper()
-        if (
-            "POLARIZABILITY DERIVATIVE" in upper
-            and DERIVATIVE_BLOCK not in line
-            and "NUMERICAL COMPUTATION OF" not in upper
-        ):
-            return i
-    return None
-
-
-def read_polarizability(lines: Sequence[str], where: str = "") -> np.ndarray | None:
-    """Static polarizability in Å³ (lower triangle printed), or None when absent.
-
-    Layout (values invented)::
-
-                  ALPHA POLARIZABILITY TENSOR (ANGSTROMS**3)
-                  ------------------------------------------
-
-                               X              Y              Z
-                  X         1.23456
-                  Y         0.00000        2.34567
-                  Z         0.00000        0.00000        3.45678
-    """
-    start = last_line_with(list(lines), "ALPHA POLARIZABILITY TENSOR (ANGSTROMS**3)")
-    if start is None:
-        return None
-    alpha = np.zeros((3, 3))
-    row = 0
-    for line in lines[start + 1 : start + 12]:
-        parts = line.split()
-        if parts and parts[0] in ("X", "Y", "Z") and len(parts) == row + 2:
-            alpha[row, : row + 1] = floats(" ".join(parts[1:]), where)
-            row += 1
-            if row == 3:
-                return np.tril(alpha) + np.tril(alpha, -1).T
-    if start + 12 > len(lines):
-        raise truncated_error(where, "the polarizability tensor block ends early")
-    raise layout_error(where, "the polarizability tensor block", start, f"{row} of 3 rows found")
-
-
-def read_method(lines: Sequence[str]) -> str:
-    """Method from the program's echo of ``$CONTRL OPTIONS`` (DFT functional, MPn or SCF type).
-
-    Layout::
-
-             $CONTRL OPTIONS
-             ---------------
-             SCFTYP=RHF          RUNTYP=RAMAN        EXETYP=RUN
-             MPLEVL=       0     LOCAL =NONE         UNITS =ANGS
-             ...
-             DFTTYP=NONE
-    """
-    start = next((i for i, line in enumerate(lines) if "$CONTRL OPTIONS" in line), None)
-    if start is None:
-        return ""
-    block = " ".join(lines[start : start + 16])
-
-    def option(key: str) -> str:
-        match = re.search(rf"\b{key}\s*=\s*(\S+)", block)
-        return match.group(1) if match else ""
-
-    if option("DFTTYP") not in ("", "NONE"):
-        return option("DFTTYP")
-    if option("MPLEVL") not in ("", "0"):
-        return f"MP{option('MPLEVL')}"
-    return option("SCFTYP")
+        return np.array(values), "IR intensities printed in km/mol"
+    return None, "IR INTENSITY rows not read: no heading states their unit"

@@ -194,7 +194,8 @@ def read_normal_coordinates(
     out = np.full((n_modes, n_coords), np.nan)
     first_mode, row = 0, 0
     group: list[int] = []
-    for line in lines[start + 2 :]:
+    for i in range(start + 2, len(lines)):
+        line = lines[i]
         tokens = line.split()
         if not tokens or tokens[0].startswith("---"):
             continue
@@ -208,8 +209,12 @@ def read_normal_coordinates(
             break
         values = floats(" ".join(tokens[2:]), where)
         if len(values) != len(group) or group[-1] >= n_modes:
-            raise InputFormatError(
-                f"{where}: normal-coordinate row does not fit its group: {line.strip()!r}"
+            if i == len(lines) - 1:
+                raise InputFormatError(
+                    f"{where}: normal coordinates end in a partial row (truncated output?)"
+                )
+            raise layout_error(
+                where, "the normal coordinates", i, f"row {line.strip()!r} does not fit its group"
             )
         out[first_mode : first_mode + len(values), row] = values
         row += 1

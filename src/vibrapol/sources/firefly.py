@@ -43,15 +43,19 @@ from vibrapol.sources._common import (
     invariants_from_printed,
     parse_with_cclib,
 )
-from vibrapol.sources._gamess_blocks import (
-    ModeTable,
+from vibrapol.sources._gamess_blocks import ModeTable, read_mode_table, sniff
+from vibrapol.sources._gamess_tensors import (
+    other_derivative_heading,
     read_dalpha_dx,
     read_method,
-    read_mode_table,
     read_polarizability,
-    sniff,
 )
-from vibrapol.sources._program_warnings import find_program_warnings, pass_on
+from vibrapol.sources._program_warnings import (
+    ProgramWarning,
+    Rule,
+    find_program_warnings,
+    pass_on,
+)
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.vibrations import modes_from_displacements
 
@@ -121,11 +125,7 @@ def read_firefly(path: str | Path) -> ModeSet:
         f"{table.rigid[-1] + 1} (rotations and translations, as the program says) dropped",
         "displacements printed with sum(m d^2) = 1, converted to mass-weighted orthonormal modes",
     ]
-    notes += pass_on(
-        find_program_warnings(lines, blocks.WARNING_RULES),
-        where=where,
-        program=member.program,
-    )
+    notes += pass_on(_program_warnings(lines, table), where=where, program=member.program)
     dalpha_dx = read_dalpha_dx(lines, len(z), where)
     a2 = gamma2 = None
     if dalpha_dx is not None:
@@ -143,8 +143,7 @@ def read_firefly(path: str | Path) -> ModeSet:
             "read as activities"
         )
     ir = None if table.ir_km_mol is None else table.ir_km_mol[vib]
-    if ir is not None:
-        notes.append("IR intensities printed in debye^2/(amu angstrom^2), converted to km/mol")
+    notes += table.notes
     metadata = data.metadata
     result = ModeSet(
         atomic_numbers=z,
@@ -176,9 +175,32 @@ def read_firefly(path: str | Path) -> ModeSet:
     return result
 
 
+#: Any warning printed inside the normal coordinate analysis or the derivative computation
+#: concerns the results, whatever its text.
+_ANY_WARNING = (
+    Rule("WARNING", 0, "inside the analysis"),
+    Rule("Warning", 0, "inside the analysis"),
+)
+
+
+def _program_warnings(lines: list[str], table: ModeTable) -> list[ProgramWarning]:
+    """The family's known warnings anywhere, and any warning line in the result sections."""
+    found = {w.text: w for w in find_program_warnings(lines, blocks.WARNING_RULES)}
+    regions = [(table.line, table.end)]
+    start = next((i for i, s in enumerate(lines) if blocks.DERIVATIVE_RUN in s), None)
+    if start is not None:
+        stop = next((i for i in range(start, len(lines)) if "DONE COMPUTING" in lines[i]), start)
+        regions.append((start, stop))
+    for begin, end in regions:
+        rules = (*blocks.WARNING_RULES, *_ANY_WARNING)
+        for w in find_program_warnings(lines, rules, start=begin, stop=end):
+            found.setdefault(w.text, w)
+    return sorted(found.values(), key=lambda w: w.line)
+
+
 def _unread_derivatives(lines: list[str], where: str) -> list[str]:
     """Warn when the file has a derivative block in a layout not read here."""
-    other = blocks.other_derivative_heading(lines)
+    other = other_derivative_heading(lines)
     if other is None:
         return []
     note = (

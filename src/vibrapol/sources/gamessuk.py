@@ -204,9 +204,11 @@ def read_mode_vectors(
                 break
             rows.append(floats(" ".join(tokens[axis + 1 :]), where))
         if not group or len(group) != len(header) or len(rows) != n_coords:
-            raise InputFormatError(f"{where}: normal-mode block cut short (truncated output?)")
+            if i is None or i >= len(lines) - 1:
+                raise InputFormatError(f"{where}: normal-mode block cut short (truncated output?)")
+            raise layout_error(where, "the normal-mode block", i, "a group that does not fit")
         if any(len(row) != len(group) for row in rows):
-            raise InputFormatError(f"{where}: normal-mode block has rows of unequal length")
+            raise layout_error(where, "the normal-mode block", i or 0, "rows of unequal length")
         freqs.extend(group)
         columns.append(np.array(rows).T)
     if len(freqs) < n_coords - 6:
@@ -319,16 +321,19 @@ def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
     if start is None:
         return None
     rows = []
-    for line in lines[start + 3 :]:
+    for i in range(start + 3, len(lines)):
+        line = lines[i]
         if line.strip().startswith("*"):
             break
         tokens = line.split()
         if len(tokens) == 5:
             rows.append(floats(line, where))
         elif tokens and tokens[0] != "mode":
-            raise InputFormatError(
-                f"{where}: unexpected line in the raman data block: {line.strip()!r}"
-            )
+            if i == len(lines) - 1:
+                raise InputFormatError(
+                    f"{where}: the raman data block ends in a partial row (truncated output?)"
+                )
+            raise layout_error(where, "the raman data block", i, f"row {line.strip()!r}")
     if not rows:
         raise InputFormatError(f"{where}: the raman data block is empty (truncated output?)")
     return RamanRows(*np.array(rows).T)

@@ -45,6 +45,7 @@ from vibrapol.sources._common import (
     invariants_from_printed,
     truncated_error,
 )
+from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR3_TO_ANG3
@@ -63,6 +64,7 @@ WARNING_RULES = (
 
 _ORIENTATION = "Standard Nuclear Orientation (Angstroms)"
 _VIB_TITLE = "VIBRATIONAL ANALYSIS"
+_VIB_BLOCK = "the vibrational analysis"
 _VERSION = re.compile(r"^\s*Q-Chem\s+(\d[\w.]*)")
 _MASS = re.compile(r"^\s*Atom\s+(\d+)\s+Element\s+(\S+)\s+Has Mass\s+(\S+)")
 _ENERGY = re.compile(r"Total energy in the final basis set =\s*(-?\d+\.\d+)")
@@ -92,7 +94,16 @@ class QChemVibrations:
     rho_linear: np.ndarray | None
 
 
-def _error(where: str, line: int, what: str) -> InputFormatError:
+def _error(
+    where: str, line: int, what: str, lines: list[str] | None = None, block: str = ""
+) -> InputFormatError:
+    """One-line error for a problem at ``line`` (0-based).
+
+    At the file's last line (or without ``lines``) the file is truncated; before it, ``block``
+    is there but printed in a layout not known here.
+    """
+    if lines is not None and line < len(lines) - 1:
+        return layout_error(where, block, line, what)
     return truncated_error(where, f"line {line + 1}: {what}", subject="the Q-Chem output")
 
 
@@ -115,7 +126,13 @@ def orientation_block(lines: list[str], title: int, where: str) -> tuple[list[st
             break
         tokens = lines[i].split()
         if len(tokens) != 5:
-            raise _error(where, i, f"expected 'index symbol x y z', got {lines[i].strip()!r}")
+            raise _error(
+                where,
+                i,
+                f"expected 'index symbol x y z', got {lines[i].strip()!r}",
+                lines,
+                "the Standard Nuclear Orientation table",
+            )
         symbols.append(tokens[1])
         coords.append(floats(" ".join(tokens[2:]), f"{where}: line {i + 1}"))
     else:
@@ -171,17 +188,22 @@ def vibration_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> 
                         where,
                         i,
                         f"{label.strip()} row has {len(numbers)} values for {n_here} modes",
+                        lines,
+                        _VIB_BLOCK,
                     )
                 rows[label.strip()].extend(numbers)
             i += 1
         if i >= len(lines) or set(lines[i].split()) != {"X", "Y", "Z"}:
-            raise _error(where, i, "expected the 'X Y Z' header of the displacements")
+            raise _error(
+                where, i, "expected the 'X Y Z' header of the displacements", lines, _VIB_BLOCK
+            )
         block = np.zeros((n_here, 3 * n_atoms))
         for a in range(n_atoms):
             i += 1
             tokens = lines[i].split() if i < len(lines) else []
             if len(tokens) != 1 + 3 * n_here:
-                raise _error(where, i, f"expected {3 * n_here} displacements of atom {a + 1}")
+                what = f"expected {3 * n_here} displacements of atom {a + 1}"
+                raise _error(where, i, what, lines, _VIB_BLOCK)
             values = np.array(floats(" ".join(tokens[1:]), f"{where}: line {i + 1}")).reshape(
                 n_here, 3
             )
@@ -247,7 +269,13 @@ def polarizability_block(lines: list[str], title: int, where: str) -> np.ndarray
     for k in range(2, 5):
         match = _POL_ROW.match(lines[title + k]) if title + k < len(lines) else None
         if not match:
-            raise _error(where, title + k, "expected a row of the polarizability matrix")
+            raise _error(
+                where,
+                title + k,
+                "expected a row of the polarizability matrix",
+                lines,
+                "the polarizability matrix",
+            )
         rows.append([float(x) for x in match.groups()])
     return np.array(rows)
 

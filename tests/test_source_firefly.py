@@ -247,12 +247,30 @@ def test_unknown_layout_is_named_not_called_truncated(tmp_path, old, new, match)
     assert "truncated" not in str(info.value)
 
 
-def test_unknown_derivative_columns_are_named(tmp_path):
+def test_unknown_derivative_columns_are_named_and_skipped(tmp_path):
+    # contract: a derivative block in another column order is not read wrongly; the printed
+    # activities and ratios (the program's own numbers) stand in, with a warning
     text = (FIXTURES / "firefly_water_raman.out").read_text()
     path = tmp_path / "columns.out"
     path.write_text(text.replace("ALP-XY     ALP-YY", "ALP-YY     ALP-XY"))
-    with pytest.raises(InputFormatError, match="unrecognised layout of the polarizability deriv"):
-        firefly.read_firefly(path)
+    with pytest.warns(AccuracyWarning, match="unrecognised layout of the polarizability deriv"):
+        modes = firefly.read_firefly(path)
+    assert modes.dalpha_dx is None
+    table = raman_table(modes)
+    assert table.activity == pytest.approx(FIXTURE_ACTIVITY, abs=5e-4)
+    assert table.rho_linear[1:] == pytest.approx(FIXTURE_RHO[1:], abs=5e-4)
+    assert any("printed activities and ratios are used" in n for n in modes.provenance.notes)
+    # without printed Raman rows to stand in, the same block is refused
+    no_ratios = tmp_path / "no_ratios.out"
+    no_ratios.write_text(
+        "".join(
+            line
+            for line in path.read_text().splitlines(keepends=True)
+            if "DEPOLARIZATION:" not in line and "RAMAN ACTIVITY:" not in line
+        )
+    )
+    with pytest.raises(InputFormatError, match="unrecognised layout of the polarizability"):
+        firefly.read_firefly(no_ratios)
 
 
 def test_row_cut_at_the_end_of_the_file_is_truncated(tmp_path):

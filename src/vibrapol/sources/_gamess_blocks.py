@@ -1,4 +1,6 @@
-"""Printed blocks of the GAMESS family (GAMESS-US, PC GAMESS, Firefly), one function each.
+"""The GAMESS family (GAMESS-US, PC GAMESS, Firefly): who wrote a file, and its mode table.
+
+(The tensor blocks and the option echo are read in :mod:`._gamess_tensors`.)
 
 The family shares its origin and most of its printing; what differs between members and
 versions, and how each variant is read:
@@ -19,7 +21,10 @@ mode-table rows         ``RAMAN ACTIVITY:`` or ``RAMAN INTENSITY:`` (PC GAMESS 6
                         (absent in PC GAMESS without Raman) are optional; ``IR
                         INTENSITY:`` in D² amu⁻¹ Å⁻² is absent for numerical Hessians.
 mode numbers            26 spaces before the first (Firefly, older GAMESS-US), 28
-                        (GAMESS-US 2017 and later): any line of consecutive integers.
+                        (GAMESS-US 2017 and later): any line of integers only.
+unit headings           a Raman row under a heading with another unit is refused; a
+                        ``RAMAN ACTIVITY`` row with no Raman heading at all is read in
+                        Å⁴/amu (noted); an IR row without a unit heading is left out.
 ======================  ================================================================
 
 The GAMESS-US and PC GAMESS layouts are from cclib's GAMESS parser (its comments quote both)

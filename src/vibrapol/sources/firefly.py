@@ -29,6 +29,7 @@ not the input cards: a ``$DFT`` group without ``DFTTYP`` in ``$CONTRL`` leaves t
 from __future__ import annotations
 
 import warnings
+from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
@@ -50,6 +51,7 @@ from vibrapol.sources._gamess_tensors import (
     read_method,
     read_polarizability,
 )
+from vibrapol.sources._layout import UnknownLayout
 from vibrapol.sources._program_warnings import (
     ProgramWarning,
     Rule,
@@ -126,7 +128,7 @@ def read_firefly(path: str | Path) -> ModeSet:
         "displacements printed with sum(m d^2) = 1, converted to mass-weighted orthonormal modes",
     ]
     notes += pass_on(_program_warnings(lines, table), where=where, program=member.program)
-    dalpha_dx = read_dalpha_dx(lines, len(z), where)
+    dalpha_dx = _optional_block(read_dalpha_dx, lines, len(z), where, table, notes)
     a2 = gamma2 = None
     if dalpha_dx is not None:
         notes.append("derivatives read in bohr^2 and converted to angstrom^2")
@@ -154,7 +156,7 @@ def read_firefly(path: str | Path) -> ModeSet:
         dalpha_dx=dalpha_dx,
         a2=a2,
         gamma2=gamma2,
-        polarizability_ang3=read_polarizability(lines, where),
+        polarizability_ang3=_optional_block(read_polarizability, lines, None, where, None, notes),
         ir_intensity_km_mol=ir,
         provenance=Provenance(
             source_file=where,
@@ -196,6 +198,31 @@ def _program_warnings(lines: list[str], table: ModeTable) -> list[ProgramWarning
         for w in find_program_warnings(lines, rules, start=begin, stop=end):
             found.setdefault(w.text, w)
     return sorted(found.values(), key=lambda w: w.line)
+
+
+def _optional_block(
+    read: Callable[..., np.ndarray | None],
+    lines: list[str],
+    n_atoms: int | None,
+    where: str,
+    table: ModeTable | None,
+    notes: list[str],
+) -> np.ndarray | None:
+    """A tensor block, or None with a warning when it is printed in a layout not known here.
+
+    The derivatives are skipped only when the printed activities and ratios can stand in for
+    them; the static polarizability is optional.
+    """
+    try:
+        return read(lines, where=where) if n_atoms is None else read(lines, n_atoms, where)
+    except UnknownLayout as exc:
+        if table is not None and (table.activities is None or table.rho_linear is None):
+            raise
+        instead = "; the printed activities and ratios are used instead" if table else ""
+        note = f"{str(exc).removeprefix(where + ': ')}; the block is not read{instead}"
+    warnings.warn(f"{where}: {note}", AccuracyWarning, stacklevel=3)
+    notes.append(note)
+    return None
 
 
 def _unread_derivatives(lines: list[str], where: str) -> list[str]:

@@ -176,3 +176,16 @@ def test_truncation_found_after_an_earlier_cclib_read(tmp_path, capfd):
     with pytest.raises(InputFormatError, match="ends in the middle of a block"):
         dalton.read_dalton(cut)
     assert capfd.readouterr().err == ""
+
+
+@pytest.mark.parametrize(
+    ("banner", "version"),
+    [
+        ("    This is output from DALTON 2015.0", "2015.0"),  # DALTON2015_dvb_raman.out
+        # later banners, from memory
+        ("    This is output from DALTON release Dalton2016.2 (2016)", "2016.2"),
+        ("    This is output from DALTON release Dalton2020.0 (2020)", "2020.0"),
+    ],
+)
+def test_version_from_each_banner_form(banner, version):
+    assert dalton._version(["", banner]) == version

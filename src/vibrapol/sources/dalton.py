@@ -383,9 +383,13 @@ def read_dalton(path: str | Path) -> ModeSet:
 
 
 def _version(lines: list[str]) -> str:
-    """'2015.0' from the banner line 'This is output from DALTON 2015.0'."""
+    """The version from the banner line.
+
+    'This is output from DALTON 2015.0' (real 2015 output) gives '2015.0'; the later form
+    'This is output from DALTON release Dalton2016.2 (2016)' (from memory) gives '2016.2'.
+    """
     for line in lines[:50]:
-        match = re.search(r"This is output from DALTON\s+(\S+)", line)
+        match = re.search(r"This is output from DALTON\s+(?:release\s+)?(?:Dalton)?(\S+)", line)
         if match:
             return match.group(1)
     return ""

@@ -125,6 +125,8 @@ class SourceContract:
 
     kind: str  # registry name
     fixture: str  # file name in tests/fixtures
+    #: Fixtures of other programs this reader also reads (members of one program family).
+    family_fixtures: tuple[str, ...] = ()
     real_file: str  # file name in ../shared/qc-outputs
     sniff: Callable[[str, str], bool]
     read: Callable[[Path], ModeSet]
@@ -178,7 +180,7 @@ class SourceContract:
         for path in sorted(FIXTURES.glob("*.out")):
             text = path.read_text(encoding="utf-8")
             assert type(self).sniff(text[:200_000], text[-200_000:]) == (
-                path.name == self.fixture
+                path.name == self.fixture or path.name in self.family_fixtures
             ), path.name
 
     def test_sniff_real_outputs(self):

@@ -110,6 +110,8 @@ QC_TARGETS = [
     ("compare/chcl3_hf_321g.modes.json", "modes-json"),
     ("gaussian_hood_raman.log", None),
     ("firefly_water_raman.out", None),
+    ("pcgamess_water_raman.out", None),
+    ("gamessus_water_raman.out", "firefly"),
 ]
 _IDS = [f"{name}-{kind or 'sniffed'}" for name, kind in QC_TARGETS]
 #: Real outputs for the slow runs (cclib's regression files, ../shared/qc-outputs).
@@ -127,6 +129,7 @@ REAL_TARGETS = [
 _N_MODES = {"orca5_co2.out": 4, "orca6_nh3_planar.out": 6, "qchem54_co2.out": 4,
             "firefly_water_raman.out": 3, "gamessuk_water_raman.out": 3,
             "dalton_water_raman.out": 3, "gaussian_hood_raman.log": 6,
+            "pcgamess_water_raman.out": 3, "gamessus_water_raman.out": 3,
             "gaussian_hood_raman.fchk": 6, "compare/chcl3_hf_321g.modes.json": 9,
             "orca6_n2h2_usesym.out": 6, "turbomole_h2co_raman.out": 6}  # fmt: skip
 

@@ -38,6 +38,7 @@ QC_FIXTURES = [
     "turbomole_h2co_raman.out",
     "qchem54_co2.out",
     "firefly_water_raman.out",
+    "pcgamess_water_raman.out",
     "gamessuk_water_raman.out",
     "dalton_water_raman.out",
     "gaussian_hood_raman.log",

@@ -169,9 +169,12 @@ def test_real_gaussian_as_generic_fallback(name):
 
 def test_real_gaussian_cli_table(capsys):
     path = qc_output("Gaussian16-A.03_dvb_raman.out")
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")  # no stray warnings from cclib reach the user
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
         rows = table_rows(capsys, str(path), "--kind", "cclib")
+    # no stray warnings from cclib reach the user: only vibrapol's note of what it loses
+    assert [w.category for w in caught] == [AccuracyWarning]
+    assert "generic reader loses" in str(caught[0].message)
     assert len(rows) == 54
     # Raman Activ 1064.0059 printed for the strongest band; the CSV keeps 6 significant digits
     assert max(float(r["activity"]) for r in rows) == pytest.approx(1064.0059, rel=5e-6)
@@ -186,3 +189,73 @@ def test_utf16_copy_reads_like_the_original(tmp_path):
     ms, back = read_cclib(QCHEM_CO2), read_cclib(copy)
     np.testing.assert_array_equal(back.freqs_cm1, ms.freqs_cm1)
     np.testing.assert_array_equal(back.activity, ms.activity)
+
+
+# -- what the generic reader loses, and what it passes on -------------------------------------
+def _read_cclib_recorded(path):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        ms = read_modes(path, kind="cclib")
+    return ms, [str(w.message) for w in caught if issubclass(w.category, AccuracyWarning)]
+
+
+@pytest.mark.parametrize(
+    ("path", "line", "program", "own"),
+    [
+        # qchem54_co2.out: first 'Depolar:' row at line 57; orca5_co2.out: 'Mode  freq (cm**-1)
+        # Activity  Depolarization' heading at line 121
+        (QCHEM_CO2, 57, "QChem", "qchem"),
+        (ORCA_CO2, 121, "ORCA", "orca"),
+    ],
+)
+def test_lost_ratios_are_announced(path, line, program, own):
+    ms, messages = _read_cclib_recorded(path)
+    lost = [m for m in messages if "generic reader loses" in m]
+    assert len(lost) == 1 and "\n" not in lost[0]
+    assert f"depolarization ratios (line {line})" in lost[0]
+    assert f"this {program} output" in lost[0] and f"--kind {own}" in lost[0]
+    assert "polarizability derivatives" not in lost[0]  # none printed in these fixtures
+    assert any("generic reader loses" in n for n in ms.provenance.notes)
+
+
+def test_no_announcement_without_ratios(tmp_path):
+    # the Q-Chem fixture without its 'Depolar:' rows: nothing is lost, nothing announced
+    text = "".join(
+        line for line in QCHEM_CO2.read_text().splitlines(keepends=True) if "Depolar" not in line
+    )
+    path = tmp_path / "no_ratios.out"
+    path.write_text(text)
+    _, messages = _read_cclib_recorded(path)
+    assert not [m for m in messages if "loses" in m]
+
+
+def test_real_gaussian_fallback_names_both_losses():
+    # Gaussian16-A.03_dvb_raman.out: the frequency heading names the depolarization ratios at
+    # line 974 and the archive block starts 'PolarDeriv=' at line 1955
+    ms, messages = _read_cclib_recorded(qc_output("Gaussian16-A.03_dvb_raman.out"))
+    (lost,) = [m for m in messages if "loses" in m]
+    assert "depolarization ratios (line 974)" in lost
+    assert "polarizability derivatives (line 1955)" in lost
+    assert "this Gaussian output" in lost
+
+
+def test_real_ir_intensities_from_cclib():
+    # Gaussian16-A.03_dvb_raman.out prints 'IR Inten' in KM/Mole: 0.0340, 0.0000, 0.3732 for
+    # its first three modes (line 982); cclib's vibirs carries them unchanged
+    ms, _ = _read_cclib_recorded(qc_output("Gaussian16-A.03_dvb_raman.out"))
+    np.testing.assert_array_equal(ms.ir_intensity_km_mol[:3], [0.0340, 0.0, 0.3732])
+    assert ms.ir_intensity_km_mol.shape == (54,)
+
+
+def test_real_program_warnings_passed_on_by_the_generic_reader():
+    # DALTON2015_dvb_raman.out line 47761 (the program's own text)
+    _, messages = _read_cclib_recorded(qc_output("DALTON2015_dvb_raman.out"))
+    (warning,) = [m for m in messages if "printed a warning" in m]
+    assert "line 47761" in warning
+    assert "Vibrational analysis performed at a non-equilibrium geometry" in warning
+
+
+@pytest.mark.parametrize("name", ["NWChem7.0.0_Trp_polar.out", "Molpro2018.2_Trp_polar.out"])
+def test_real_polarizability_only_files_say_what_they_hold(name):
+    with pytest.raises(InputFormatError, match="static polarizability only"):
+        read_modes(qc_output(name))

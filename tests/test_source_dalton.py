@@ -104,3 +104,88 @@ def test_real_truncated_in_the_normal_coordinates(tmp_path):
     cut.write_text(text[: start + 5000])
     with pytest.raises(InputFormatError, match="truncated"):
         dalton.read_dalton(cut)
+
+
+# -- IR intensities and the program's own warnings ---------------------------------------------
+def test_real_ir_intensities_from_the_km_mol_column():
+    # DALTON2015_dvb_raman.out, 'Vibrational Frequencies and IR Intensities': mode 4 3471.43
+    # cm-1 prints 5.520 km/mol, mode 8 3432.91 cm-1 3.654 km/mol
+    modes = real_modes()
+    ir = modes.ir_intensity_km_mol
+    for freq, km_mol in ((3471.43, 5.520), (3432.91, 3.654)):
+        assert ir[int(np.argmin(np.abs(modes.freqs_cm1 - freq)))] == km_mol
+
+
+def test_real_two_ir_columns_give_the_conversion_factor():
+    # DALTON prints each IR intensity twice, in km/mol (3 decimals) and in (D/A)**2/amu (4
+    # decimals): the ratio is the factor 42.2561 vibrapol uses for the GAMESS family (derived
+    # in vibrapol.sources._ir from CODATA constants; Wilson, Decius & Cross 1955).
+    from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL as factor
+
+    lines = qc_output(REAL).read_text().splitlines()
+    start = max(i for i, s in enumerate(lines) if "Vibrational Frequencies and IR Int" in s)
+    rows = [s.split() for s in lines[start + 7 : start + 61]]
+    km_mol = np.array([float(r[4]) for r in rows])
+    debye2 = np.array([float(r[5]) for r in rows])
+    strong = debye2 >= 0.05
+    assert strong.sum() >= 10
+    # half a unit of each printed last digit (5e-4 km/mol, 5e-5 (D/A)^2/amu x factor), plus
+    # 2e-5 relative for DALTON's own constants: the rows' print intervals put its factor at
+    # 42.2540-42.2557 (measured), 1e-5 below the CODATA value
+    np.testing.assert_allclose(
+        km_mol[strong], factor * debye2[strong], atol=5e-4 + factor * 5e-5, rtol=2e-5
+    )
+    assert factor == pytest.approx(42.2561, abs=1e-4)
+
+
+def test_real_non_equilibrium_warning_passed_on():
+    # DALTON2015_dvb_raman.out line 47761, continued on the two lines after it
+    from vibrapol.errors import AccuracyWarning
+
+    with pytest.warns(AccuracyWarning) as record:
+        modes = dalton.read_dalton(qc_output(REAL))
+    (message,) = [str(w.message) for w in record if "printed a warning" in str(w.message)]
+    assert "line 47761" in message and "non-equilibrium geometry" in message
+    assert "better results may be obtained using .INTERN" in message and "\n" not in message
+    assert any("non-equilibrium" in n for n in modes.provenance.notes)
+
+
+def test_fixture_ir_intensities():
+    # dalton_water_raman.out prints its (invented) km/mol column highest mode first
+    lines = (FIXTURES / "dalton_water_raman.out").read_text().splitlines()
+    printed = dalton.read_ir_intensities(lines)
+    modes = read_quietly(dalton.read_dalton, FIXTURES / "dalton_water_raman.out")
+    np.testing.assert_array_equal(modes.ir_intensity_km_mol, printed[::-1])
+
+
+def test_truncation_found_after_an_earlier_cclib_read(tmp_path, capfd):
+    # Regression: cclib gives the logger of a parser class a handler only once per process, so
+    # after any earlier read of the same kind (here through the generic reader) a file cut
+    # inside a block was no longer recognised as truncated, and cclib's log reached stderr.
+    import warnings
+
+    from _source_contract import cut_after
+    from vibrapol.sources import read_modes
+
+    fixture = FIXTURES / "dalton_water_raman.out"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        read_modes(fixture, kind="cclib")
+    cut = tmp_path / "cut.out"
+    cut.write_text(cut_after(fixture.read_text(), "Normal Coordinates", 9))
+    with pytest.raises(InputFormatError, match="ends in the middle of a block"):
+        dalton.read_dalton(cut)
+    assert capfd.readouterr().err == ""
+
+
+@pytest.mark.parametrize(
+    ("banner", "version"),
+    [
+        ("    This is output from DALTON 2015.0", "2015.0"),  # DALTON2015_dvb_raman.out
+        # later banners, from memory
+        ("    This is output from DALTON release Dalton2016.2 (2016)", "2016.2"),
+        ("    This is output from DALTON release Dalton2020.0 (2020)", "2020.0"),
+    ],
+)
+def test_version_from_each_banner_form(banner, version):
+    assert dalton._version(["", banner]) == version

@@ -122,3 +122,36 @@ def test_real_truncated_in_the_raman_rows(tmp_path):
     cut.write_text(text[: text.index("1716.33", text.index("*     raman data     *"))])
     with pytest.raises(InputFormatError, match="do not match"):
         gamessuk.read_gamessuk(cut)
+
+
+# -- IR intensities and the program's own warnings ---------------------------------------------
+def test_real_ir_intensities_matched_by_frequency():
+    # GAMESS-UK8.0_dvb_raman.out infrared table (intensity in km/mole): 41.77 cm-1 0.00469,
+    # 1021.16 cm-1 18.37966, 3657.55 cm-1 135.60114; its first row (-0.06 cm-1, a rigid mode)
+    # is not a vibration and is skipped
+    modes = real_modes()
+    ir = modes.ir_intensity_km_mol
+    assert ir.shape == (54,)
+    for freq, km_mol in ((41.7748, 0.00469), (1021.1622, 18.37966), (3657.55, 135.60114)):
+        assert ir[int(np.argmin(np.abs(modes.freqs_cm1 - freq)))] == km_mol
+    assert ir.max() == 135.60114
+
+
+def test_real_warnings_about_other_things_are_not_passed_on():
+    # The output's two warnings concern orbital symmetry labels and the thermochemistry's
+    # partition functions ("10 modes are below the threshold 900.000"), not the vibrations.
+    import warnings
+
+    from vibrapol.errors import AccuracyWarning
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", AccuracyWarning)
+        gamessuk.read_gamessuk(qc_output(REAL))
+
+
+def test_ir_table_in_an_unknown_unit_is_named(tmp_path):
+    text = qc_output(REAL).read_text().replace("km/mole =", "  a.u.  =")
+    path = tmp_path / "ir_unit.out"
+    path.write_text(text)
+    with pytest.raises(InputFormatError, match="unrecognised layout of the infrared table"):
+        gamessuk.read_gamessuk(path)

@@ -214,3 +214,47 @@ def test_real_cli_table(real, capsys):
             assert float(row["rho_linear"]) == pytest.approx(blocks.rho_linear[k], abs=1e-6)
         else:
             assert row["rho_linear"] == "" and row["polarized"] == "false"
+
+
+# -- IR intensities and the program's own warnings ---------------------------------------------
+def test_fixture_ir_intensities_in_the_modeset():
+    # qchem54_co2.out prints 'IR Intens:' 12.341, 12.341, 0.000, 345.672 (km/mol, Q-Chem's
+    # unit; this fixture has no unit banner, which the provenance says)
+    ms = read_qchem(FIXTURES / "qchem54_co2.out")
+    np.testing.assert_array_equal(ms.ir_intensity_km_mol, [12.341, 12.341, 0.0, 345.672])
+    assert any("no unit banner" in n for n in ms.provenance.notes)
+
+
+def test_fixture_with_no_imaginary_mode_passes_on_nothing():
+    # the fixture prints 'This Molecule has  0 Imaginary Frequencies': not a warning
+    import warnings
+
+    from vibrapol.errors import AccuracyWarning
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", AccuracyWarning)
+        read_qchem(FIXTURES / "qchem54_co2.out")
+
+
+def test_real_ir_intensities_and_imaginary_remark():
+    # QChem5.4.1_dvb_raman.out: banner 'INFRARED INTENSITIES (KM/MOL)'; 'IR Intens:' of modes
+    # 1-3 is 0.000, 0.000, 0.419 and of mode 4 0.313; line 4661 'This Molecule has  2
+    # Imaginary Frequencies'
+    from vibrapol.errors import AccuracyWarning
+
+    with pytest.warns(AccuracyWarning, match="line 4661: This Molecule has 2 Imaginary Freq"):
+        ms = read_qchem(qc_output(REAL))
+    np.testing.assert_array_equal(ms.ir_intensity_km_mol[:4], [0.0, 0.0, 0.419, 0.313])
+    assert any("Imaginary Frequencies" in n for n in ms.provenance.notes)
+
+
+def test_row_of_another_length_mid_file_is_an_unknown_layout(tmp_path):
+    # contract (error text): a complete file whose block differs is not called truncated
+    text = CO2.read_text()
+    old = "Depolar:           0.000                  0.000                  0.184"
+    assert old in text
+    path = tmp_path / "layout.out"
+    path.write_text(text.replace(old, "Depolar:           0.000                  0.000"))
+    with pytest.raises(InputFormatError, match="unrecognised layout of the vibrational anal") as e:
+        read_qchem(path)
+    assert "truncated" not in str(e.value) and "line 57" in str(e.value)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import logging
 import re
 import warnings
 from collections.abc import Iterable, Iterator
@@ -212,7 +213,12 @@ def parse_with_cclib(
 
     log = io.StringIO()
     try:
-        data = getattr(cclib.parser, parser)(io.StringIO(text, newline=None), logstream=log).parse()
+        reader = getattr(cclib.parser, parser)(io.StringIO(text, newline=None), logstream=log)
+        # cclib keeps one logger per parser class and input name and only gives it a handler
+        # the first time; without this, a later parse logs to an earlier call's stream.
+        reader.logger.handlers = [logging.StreamHandler(log)]
+        reader.logger.propagate = False
+        data = reader.parse()
     except Exception as exc:  # cclib raises assorted errors on damaged files
         raise InputFormatError(
             f"{where}: cclib could not parse it ({type(exc).__name__}); is the output complete?"

@@ -12,12 +12,18 @@ cclib's parsed data
 * ``vibdisps`` (Cartesian displacements (n, N, 3), each program's own per-mode
   normalisation) → mass-weighted orthonormal modes with
   :func:`~vibrapol.vibrations.modes_from_displacements`;
-* ``vibramans`` (Raman activities, Å⁴/amu) → ``ModeSet.activity``.
+* ``vibramans`` (Raman activities, Å⁴/amu) → ``ModeSet.activity``;
+* ``vibirs`` (IR intensities, km/mol; cclib converts GAMESS's D² amu⁻¹ Å⁻² itself) →
+  ``ModeSet.ir_intensity_km_mol``.
 
 cclib gives no depolarization ratios and no polarizability derivatives, so a ModeSet from this
 reader knows each mode's activity but not a² and γ²: its Raman table has activities and an
 empty ρ.  The readers of our own for particular programs (registered before this one) add
-the ratios and derivatives where the program prints them.
+the ratios and derivatives where the program prints them.  When a file read here visibly
+holds ratios or derivative blocks (:func:`lost_raman_blocks`), the loss is announced with an
+:class:`~vibrapol.errors.AccuracyWarning` and a provenance note naming the program cclib saw.
+The warnings the program printed about its results are passed on as in its own reader
+(:data:`PROGRAM_WARNING_RULES`).
 
 Known cclib 1.8.1 problems handled here: for DALTON, ``vibramans`` holds the ``Pol.Int.``
 column (45a′² + 4γ′², the parallel intensity), not the activity; it is not used, with a
@@ -28,6 +34,7 @@ from __future__ import annotations
 
 import io
 import logging
+import re
 import warnings
 from pathlib import Path
 from typing import Any
@@ -36,6 +43,8 @@ import numpy as np
 
 from vibrapol.errors import AccuracyWarning, InputFormatError
 from vibrapol.modeset import ModeSet, Provenance, default_masses
+from vibrapol.sources import _gamess_blocks, dalton, qchem
+from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
 from vibrapol.sources.registry import SNIFF_CHARS, Reader, read_text, readers, register
 from vibrapol.vibrations import modes_from_displacements
 
@@ -43,6 +52,72 @@ from vibrapol.vibrations import modes_from_displacements
 UNRELIABLE_ACTIVITIES = {
     "DALTON": "cclib 1.8.1 reports DALTON's 'Pol.Int.' (45a'^2+4g'^2) as the activity",
 }
+
+
+#: vibrapol's own reader for a cclib parser class, where there is one.
+OWN_READERS = {
+    "ORCA": "orca",
+    "QChem": "qchem",
+    "GAMESS": "firefly",
+    "GAMESSUK": "gamess-uk",
+    "DALTON": "dalton",
+    "Gaussian": "gaussian-log",
+    "FChk": "gaussian-fchk",
+}
+
+#: The program warnings passed on, per cclib parser class (the rules of our own readers).
+PROGRAM_WARNING_RULES: dict[str, tuple[Rule, ...]] = {
+    "GAMESS": _gamess_blocks.WARNING_RULES,
+    "DALTON": dalton.WARNING_RULES,
+    "QChem": qchem.WARNING_RULES,
+}
+
+#: Lines that show depolarization ratios, and polarizability-derivative blocks, in any of the
+#: programs' spellings ("DEPOLARIZATION", "Depolar (P)", "Dep. Ratio", "depolarization ratio";
+#: "ALPHA POLARIZABILITY DERIVATIVE TENSOR", "Polarizability Derivatives", "Polarizability
+#: tensor (alpha) gradient", Gaussian's archive "PolarDeriv", "dalpha").
+_RATIO_LINE = re.compile(r"depol|dep\. ratio", re.IGNORECASE)
+_DERIVATIVE_LINE = re.compile(
+    r"dalpha|polarderiv|polari[sz]ability\s+(?:tensor\s+\(alpha\)\s+gradient|derivative)",
+    re.IGNORECASE,
+)
+
+
+def lost_raman_blocks(lines: list[str]) -> dict[str, int]:
+    """First line (0-based) of depolarization ratios and of derivative blocks, where present.
+
+    Keys are "depolarization ratios" and "polarizability derivatives"; absent ones are left
+    out.
+    """
+    found: dict[str, int] = {}
+    for i, line in enumerate(lines):
+        if "depolarization ratios" not in found and _RATIO_LINE.search(line):
+            found["depolarization ratios"] = i
+        if "polarizability derivatives" not in found and _DERIVATIVE_LINE.search(line):
+            found["polarizability derivatives"] = i
+        if len(found) == 2:
+            break
+    return found
+
+
+def _announce_losses(lines: list[str], program: str, where: str) -> list[str]:
+    """Warn (one line) when the file shows ratios or derivatives this reader cannot keep."""
+    found = lost_raman_blocks(lines)
+    if not found:
+        return []
+    what = " and ".join(f"{name} (line {i + 1})" for name, i in found.items())
+    own = OWN_READERS.get(program)
+    hint = (
+        f"read it with --kind {own}, vibrapol's reader for {program} outputs, to keep them"
+        if own in readers()
+        else "vibrapol has no reader of its own for this program"
+    )
+    note = (
+        f"the file shows {what}, which vibrapol's generic reader loses: it keeps only what "
+        f"cclib reads from this {program} output (frequencies, modes, activities); {hint}"
+    )
+    warnings.warn(f"{where}: {note}", AccuracyWarning, stacklevel=3)
+    return [note]
 
 
 def _cclib_program(head: str) -> str | None:
@@ -58,8 +133,11 @@ def sniff_cclib(head: str, tail: str) -> bool:
     return _cclib_program(head) is not None
 
 
-def _parse(path: Path) -> Any:
-    """Parse ``path`` with cclib, turning cclib's own failures into our error."""
+def _parse(path: Path) -> tuple[Any, str, str]:
+    """Parse ``path`` with cclib, turning cclib's own failures into our error.
+
+    Returns cclib's data, the decoded text and the name of cclib's parser class.
+    """
     import cclib
 
     where = str(path)
@@ -74,10 +152,10 @@ def _parse(path: Path) -> Any:
         try:
             data = cclib.io.ccread(io.StringIO(text, newline=None), loglevel=logging.CRITICAL)
         except Exception as exc:  # cclib raises anything from IndexError to StopIteration
-            own = program.lower()
+            own = OWN_READERS.get(program, "")
             hint = (
                 f"read it with --kind {own}"
-                if own in readers() and own != "cclib"
+                if own in readers()
                 else "check that the output is complete"
             )
             detail = (str(exc).splitlines() or [""])[0]
@@ -87,19 +165,22 @@ def _parse(path: Path) -> Any:
             ) from exc
     if data is None:
         raise InputFormatError(f"{where}: cclib could not read this {program} output")
-    return data
+    return data, text, program
 
 
 def read_cclib(path: str | Path) -> ModeSet:
     """Read any output cclib parses (see the module docstring for what is taken)."""
     where = str(path)
-    data = _parse(Path(path))
+    data, text, parser = _parse(Path(path))
     metadata = getattr(data, "metadata", {}) or {}
     program = str(metadata.get("package") or "")
     if not hasattr(data, "vibfreqs") or len(data.vibfreqs) == 0:
+        held = (
+            " (it holds a static polarizability only)" if hasattr(data, "polarizabilities") else ""
+        )
         raise InputFormatError(
-            f"{where}: {program or 'this'} output has no vibrational data (no frequencies); "
-            "use the output of a frequency job"
+            f"{where}: {program or 'this'} output has no vibrational data (no frequencies)"
+            f"{held}; use the output of a frequency job"
         )
     if not hasattr(data, "vibdisps"):
         raise InputFormatError(f"{where}: cclib found frequencies but no normal-mode displacements")
@@ -130,8 +211,19 @@ def read_cclib(path: str | Path) -> ModeSet:
             )
     else:
         notes.append("no Raman activities in this output")
+    ir = None
+    if hasattr(data, "vibirs") and np.shape(data.vibirs) == freqs.shape:
+        ir = np.asarray(data.vibirs, dtype=float)
+        notes.append("IR intensities (km/mol) as cclib converts them (vibirs)")
     if len(data.atomcoords) > 1:
         notes.append("coordinates: the last of the geometries cclib found")
+    lines = text.splitlines()
+    notes += _announce_losses(lines, parser, where)
+    notes += pass_on(
+        find_program_warnings(lines, PROGRAM_WARNING_RULES.get(parser, ())),
+        where=where,
+        program=program or parser,
+    )
     version = metadata.get("legacy_package_version") or metadata.get("package_version") or ""
     version = str(version).replace("revision", " rev. ")  # Gaussian: "16revisionA.03"
     methods = metadata.get("methods") or []
@@ -153,6 +245,7 @@ def read_cclib(path: str | Path) -> ModeSet:
         modes=modes,
         masses_da=masses,
         activity=activity,
+        ir_intensity_km_mol=ir,
         provenance=provenance,
     )
 

@@ -38,11 +38,21 @@ from vibrapol.sources._common import (
     last_line_with,
     parse_with_cclib,
 )
+from vibrapol.sources._layout import layout_error
+from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR2_TO_ANG2, BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
 
 PROGRAM = "DALTON"
+
+#: DALTON's warnings about its vibrational and response results.  The non-equilibrium text is
+#: from the real DALTON 2015 output; the convergence phrases are generic (no real example seen).
+WARNING_RULES = (
+    Rule("Vibrational analysis performed at a non-equilibrium geometry", 2, "DALTON 2015 output"),
+    Rule("not converged", 0, "generic phrase"),
+    Rule("NOT CONVERGED", 0, "generic phrase"),
+)
 
 #: Tolerances against the printed Raman table (6 decimals, half a unit 5e-7).  The normal
 #: coordinates carry 6 decimals too, which moves a′², γ′² and the activities by up to ≈ 6e-5 of
@@ -108,29 +118,53 @@ def read_frequencies(lines: list[str], where: str = "") -> np.ndarray:
         raise InputFormatError(
             f"{where}: no vibrational frequencies (truncated output, or no .VIBANA?)"
         )
-    freqs: list[float] = []
+    freqs = [floats(tokens[2], where)[0] for tokens in _frequency_rows(lines, start, where)]
+    if not freqs:
+        raise InputFormatError(
+            f"{where}: the vibrational frequency table is empty (truncated output?)"
+        )
+    return np.array(freqs)
+
+
+def _frequency_rows(lines: list[str], start: int, where: str) -> list[list[str]]:
+    """Tokens of the rows of the frequency table whose title is at ``start``."""
+    rows: list[list[str]] = []
     dashes = 0
-    for line in lines[start + 2 :]:
+    for i in range(start + 2, len(lines)):
+        line = lines[i]
         if line.strip().startswith("----"):
             dashes += 1
             continue
         if dashes < 1:
             continue
         if not line.strip():
-            if freqs:
+            if rows:
                 break
             continue
         tokens = line.split()
         if len(tokens) < 3 or not tokens[0].isdigit():
-            raise InputFormatError(
-                f"{where}: unexpected line in the frequency table: {line.strip()!r}"
-            )
-        freqs.append(floats(tokens[2], where)[0])
-    if not freqs:
-        raise InputFormatError(
-            f"{where}: the vibrational frequency table is empty (truncated output?)"
-        )
-    return np.array(freqs)
+            raise layout_error(where, "the frequency table", i, f"row {line.strip()!r}")
+        rows.append(tokens)
+    return rows
+
+
+def read_ir_intensities(lines: list[str], where: str = "") -> np.ndarray | None:
+    """The km/mol column of the frequency table, in printed order; None when not printed.
+
+    The column is found by the unit row (``cm-1  hartrees  km/mol  (D/A)**2/amu``, see
+    :func:`read_frequencies`); DALTON prints the same intensity in (D/Å)²/amu beside it.
+    """
+    start = last_line_with(lines, "Vibrational Frequencies and IR Intensities")
+    if start is None:
+        return None
+    units = next((line.split() for line in lines[start : start + 8] if "cm-1" in line.split()), [])
+    if "km/mol" not in units:
+        return None
+    column = 2 + units.index("km/mol") - units.index("cm-1")
+    rows = _frequency_rows(lines, start, where)
+    if any(len(tokens) <= column for tokens in rows):
+        return None
+    return np.array([floats(tokens[column], where)[0] for tokens in rows])
 
 
 def read_normal_coordinates(
@@ -160,7 +194,8 @@ def read_normal_coordinates(
     out = np.full((n_modes, n_coords), np.nan)
     first_mode, row = 0, 0
     group: list[int] = []
-    for line in lines[start + 2 :]:
+    for i in range(start + 2, len(lines)):
+        line = lines[i]
         tokens = line.split()
         if not tokens or tokens[0].startswith("---"):
             continue
@@ -174,8 +209,12 @@ def read_normal_coordinates(
             break
         values = floats(" ".join(tokens[2:]), where)
         if len(values) != len(group) or group[-1] >= n_modes:
-            raise InputFormatError(
-                f"{where}: normal-coordinate row does not fit its group: {line.strip()!r}"
+            if i == len(lines) - 1:
+                raise InputFormatError(
+                    f"{where}: normal coordinates end in a partial row (truncated output?)"
+                )
+            raise layout_error(
+                where, "the normal coordinates", i, f"row {line.strip()!r} does not fit its group"
             )
         out[first_mode : first_mode + len(values), row] = values
         row += 1
@@ -297,6 +336,10 @@ def read_dalton(path: str | Path) -> ModeSet:
         "modes printed highest first; stored in ascending order",
         "displacements printed with sum(m d^2) = 1, converted to mass-weighted orthonormal modes",
     ]
+    notes += pass_on(find_program_warnings(lines, WARNING_RULES), where=where, program=PROGRAM)
+    ir = read_ir_intensities(lines, where)
+    if ir is not None:
+        notes.append("IR intensities from the km/mol column of the frequency table")
     a2 = gamma2 = None
     if gradient is not None:
         label = gradient[1] or "frequency not printed"
@@ -320,6 +363,7 @@ def read_dalton(path: str | Path) -> ModeSet:
         a2=a2,
         gamma2=gamma2,
         polarizability_ang3=alpha,
+        ir_intensity_km_mol=None if ir is None else ir[order],
         provenance=Provenance(
             source_file=where,
             source_kind="dalton",
@@ -339,9 +383,13 @@ def read_dalton(path: str | Path) -> ModeSet:
 
 
 def _version(lines: list[str]) -> str:
-    """'2015.0' from the banner line 'This is output from DALTON 2015.0'."""
+    """The version from the banner line.
+
+    'This is output from DALTON 2015.0' (real 2015 output) gives '2015.0'; the later form
+    'This is output from DALTON release Dalton2016.2 (2016)' (from memory) gives '2016.2'.
+    """
     for line in lines[:50]:
-        match = re.search(r"This is output from DALTON\s+(\S+)", line)
+        match = re.search(r"This is output from DALTON\s+(?:release\s+)?(?:Dalton)?(\S+)", line)
         if match:
             return match.group(1)
     return ""

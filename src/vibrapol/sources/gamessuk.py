@@ -18,6 +18,16 @@ What the program prints after the Raman step, and what vibrapol does with it:
 - ``raman data``: per mode (all 3N, in the order of the mode block) the isotropic part a′
   (signed), the anisotropy γ′, the activity 45a′² + 7γ′² and ρ for linearly polarized light.
 
+- the infrared table (``normal mode / transition dipole / dipole strength / intensity``, the
+  intensity in km/mole): one row per printed frequency, matched to the vibrations by that
+  frequency → ``ModeSet.ir_intensity_km_mol``.
+
+The program's warnings are passed on where they concern the vibrations (:data:`WARNING_RULES`);
+the real 8.0 output prints two that do not, and they are left alone: "Symmetry assignment was
+only partially successfull" (orbital symmetry labels) and "warning-- 10 modes are below the
+threshold 900.000 ... vibrations may cause significant error" (the thermochemistry's treatment
+of low modes in its partition functions, which vibrapol does not use).
+
 cclib 1.8.1 reads this program's lower-precision first mode block (no rotations, so not in
 the order of the Raman rows) and no masses, so everything here is read by our own blocks.
 """
@@ -41,11 +51,22 @@ from vibrapol.sources._common import (
     floats,
     last_line_with,
 )
+from vibrapol.sources._layout import layout_error
+from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR2_TO_ANG2
 from vibrapol.vibrations import modes_from_displacements, rigid_body_vectors
 
 PROGRAM = "GAMESS-UK"
+
+#: GAMESS-UK warnings about its results: "not converging" is the geometry-optimisation failure
+#: cclib 1.8.1's GAMESS-UK parser reads; "not converged" is a generic phrase (the real output
+#: prints only "converged" lines).
+WARNING_RULES = (
+    Rule("not converging", 0, "cclib GAMESS-UK parser"),
+    Rule("not converged", 0, "generic phrase"),
+)
+IR_TITLE = "transition dipole"
 
 #: Tolerances against the printed ``raman data``.  Everything there has 8 decimals (half a unit
 #: 5e-9), so the rounding of the inputs dominates: the modes carry 6 decimals, which moves a′
@@ -183,9 +204,11 @@ def read_mode_vectors(
                 break
             rows.append(floats(" ".join(tokens[axis + 1 :]), where))
         if not group or len(group) != len(header) or len(rows) != n_coords:
-            raise InputFormatError(f"{where}: normal-mode block cut short (truncated output?)")
+            if i is None or i >= len(lines) - 1:
+                raise InputFormatError(f"{where}: normal-mode block cut short (truncated output?)")
+            raise layout_error(where, "the normal-mode block", i, "a group that does not fit")
         if any(len(row) != len(group) for row in rows):
-            raise InputFormatError(f"{where}: normal-mode block has rows of unequal length")
+            raise layout_error(where, "the normal-mode block", i or 0, "rows of unequal length")
         freqs.extend(group)
         columns.append(np.array(rows).T)
     if len(freqs) < n_coords - 6:
@@ -298,19 +321,76 @@ def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
     if start is None:
         return None
     rows = []
-    for line in lines[start + 3 :]:
+    for i in range(start + 3, len(lines)):
+        line = lines[i]
         if line.strip().startswith("*"):
             break
         tokens = line.split()
         if len(tokens) == 5:
             rows.append(floats(line, where))
         elif tokens and tokens[0] != "mode":
-            raise InputFormatError(
-                f"{where}: unexpected line in the raman data block: {line.strip()!r}"
-            )
+            if i == len(lines) - 1:
+                raise InputFormatError(
+                    f"{where}: the raman data block ends in a partial row (truncated output?)"
+                )
+            raise layout_error(where, "the raman data block", i, f"row {line.strip()!r}")
     if not rows:
         raise InputFormatError(f"{where}: the raman data block is empty (truncated output?)")
     return RamanRows(*np.array(rows).T)
+
+
+def read_ir_table(lines: list[str], where: str = "") -> tuple[np.ndarray, np.ndarray] | None:
+    """Frequencies and IR intensities (km/mol) of the infrared table, or None when absent.
+
+    Layout (values invented; the table lists the vibrations and some rigid modes)::
+
+     =========================================================================================
+     =      normal mode           transition dipole           dipole strength    intensity =
+     =                                 debyes                       debyes**2      km/mole =
+     =                      x            y            z                                    =
+     =========================================================================================
+     =         -0.06   -0.16403E-06  0.00000E+00  0.00000E+00  0.32069E-13        0.00000 =
+     =       1650.12    0.00000E+00  0.00000E+00  0.66955E-01  0.44830E-02        4.69000 =
+     =========================================================================================
+    """
+    start = last_line_with(lines, IR_TITLE)
+    if start is None or "normal mode" not in lines[start]:
+        return None
+    if "km/mole" not in lines[start + 1]:
+        raise layout_error(where, "the infrared table", start + 1, "no km/mole unit")
+    rows: list[list[float]] = []
+    for i in range(start + 4, len(lines)):
+        tokens = lines[i].replace("=", " ").split()
+        if lines[i].strip().startswith("====") and rows:
+            break
+        if not tokens:
+            continue
+        if len(tokens) != 6:
+            raise layout_error(where, "the infrared table", i, f"{len(tokens)} values in a row")
+        rows.append(floats(" ".join(tokens), where))
+    else:
+        raise InputFormatError(f"{where}: the infrared table ends early (truncated output?)")
+    table = np.array(rows)
+    return table[:, 0], table[:, 5]
+
+
+def match_ir(
+    ir_freqs: np.ndarray, ir_km_mol: np.ndarray, vib_freqs: np.ndarray
+) -> np.ndarray | None:
+    """IR intensities of the vibrations, matched in order by printed frequency (2 decimals).
+
+    Returns None when some vibration has no row of its frequency.
+    """
+    out = np.empty(len(vib_freqs))
+    j = 0
+    for k, freq in enumerate(vib_freqs):
+        while j < len(ir_freqs) and abs(ir_freqs[j] - freq) > 0.0051:
+            j += 1
+        if j == len(ir_freqs):
+            return None
+        out[k] = ir_km_mol[j]
+        j += 1
+    return out
 
 
 def rigid_modes(displacements: np.ndarray, geometry: Geometry) -> np.ndarray:
@@ -382,6 +462,16 @@ def read_gamessuk(path: str | Path) -> ModeSet:
         f"{RIGID_OVERLAP} dropped",
         "displacements printed with sum(m d^2) = 1, converted to mass-weighted orthonormal modes",
     ]
+    notes += pass_on(find_program_warnings(lines, WARNING_RULES), where=where, program=PROGRAM)
+    ir = None
+    ir_table = read_ir_table(lines, where)
+    if ir_table is not None:
+        ir = match_ir(*ir_table, freqs)
+        notes.append(
+            "IR intensities (km/mole) from the infrared table, matched by frequency"
+            if ir is not None
+            else "IR intensities not read: the infrared table's frequencies do not match"
+        )
     precise = read_precise_frequencies(lines, where)
     if (
         precise is not None
@@ -427,6 +517,7 @@ def read_gamessuk(path: str | Path) -> ModeSet:
         dalpha_dx=dalpha_dx,
         a2=a2,
         gamma2=gamma2,
+        ir_intensity_km_mol=ir,
         provenance=Provenance(
             source_file=where,
             source_kind="gamess-uk",

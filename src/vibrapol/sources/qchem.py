@@ -22,8 +22,11 @@ job, ``jobtype = freq`` with ``doraman = true``):
 * The method and basis from the ``$rem`` section of the echoed input; the energy is the first
   ``Total energy in the final basis set`` of the job (the reference geometry; the later ones
   belong to displaced geometries).
-* Not read into the ModeSet: ``IR Intens:`` (:func:`vibration_blocks` returns it), force
-  constants, reduced masses, transition dipoles.
+* ``IR Intens:`` in km/mol (the banner above the blocks says "INFRARED INTENSITIES (KM/MOL)")
+  → ``ModeSet.ir_intensity_km_mol``.
+* The program's remarks about its results (:data:`WARNING_RULES`: imaginary frequencies, SCF
+  failures) are passed on as :class:`~vibrapol.errors.AccuracyWarning` and provenance notes.
+* Not read into the ModeSet: force constants, reduced masses, transition dipoles.
 """
 
 from __future__ import annotations
@@ -42,12 +45,26 @@ from vibrapol.sources._common import (
     invariants_from_printed,
     truncated_error,
 )
+from vibrapol.sources._layout import layout_error
+from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
 from vibrapol.sources.registry import Reader, read_text, register
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
 
+#: Q-Chem's remarks about its results: the imaginary-frequency count is from the real Q-Chem
+#: 5.4.1 output (printed for every job, so a count of 0 is skipped); the SCF failure texts are
+#: those cclib 1.8.1's Q-Chem parser stops on.  "Energy on first SCF cycle will be
+#: non-variational" (a routine note on the initial guess) and "Irrep of orbital ... could not
+#: be determined" (orbital labels) say nothing about the vibrations and are not passed on.
+WARNING_RULES = (
+    Rule("Imaginary Frequencies", 0, "Q-Chem 5.4.1 output", unless=r"has\s+0\s+Imaginary"),
+    Rule("SCF failed to converge", 0, "cclib Q-Chem parser"),
+    Rule("Convergence failure", 0, "cclib Q-Chem parser"),
+)
+
 _ORIENTATION = "Standard Nuclear Orientation (Angstroms)"
 _VIB_TITLE = "VIBRATIONAL ANALYSIS"
+_VIB_BLOCK = "the vibrational analysis"
 _VERSION = re.compile(r"^\s*Q-Chem\s+(\d[\w.]*)")
 _MASS = re.compile(r"^\s*Atom\s+(\d+)\s+Element\s+(\S+)\s+Has Mass\s+(\S+)")
 _ENERGY = re.compile(r"Total energy in the final basis set =\s*(-?\d+\.\d+)")
@@ -77,7 +94,16 @@ class QChemVibrations:
     rho_linear: np.ndarray | None
 
 
-def _error(where: str, line: int, what: str) -> InputFormatError:
+def _error(
+    where: str, line: int, what: str, lines: list[str] | None = None, block: str = ""
+) -> InputFormatError:
+    """One-line error for a problem at ``line`` (0-based).
+
+    At the file's last line (or without ``lines``) the file is truncated; before it, ``block``
+    is there but printed in a layout not known here.
+    """
+    if lines is not None and line < len(lines) - 1:
+        return layout_error(where, block, line, what)
     return truncated_error(where, f"line {line + 1}: {what}", subject="the Q-Chem output")
 
 
@@ -100,7 +126,13 @@ def orientation_block(lines: list[str], title: int, where: str) -> tuple[list[st
             break
         tokens = lines[i].split()
         if len(tokens) != 5:
-            raise _error(where, i, f"expected 'index symbol x y z', got {lines[i].strip()!r}")
+            raise _error(
+                where,
+                i,
+                f"expected 'index symbol x y z', got {lines[i].strip()!r}",
+                lines,
+                "the Standard Nuclear Orientation table",
+            )
         symbols.append(tokens[1])
         coords.append(floats(" ".join(tokens[2:]), f"{where}: line {i + 1}"))
     else:
@@ -156,17 +188,22 @@ def vibration_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> 
                         where,
                         i,
                         f"{label.strip()} row has {len(numbers)} values for {n_here} modes",
+                        lines,
+                        _VIB_BLOCK,
                     )
                 rows[label.strip()].extend(numbers)
             i += 1
         if i >= len(lines) or set(lines[i].split()) != {"X", "Y", "Z"}:
-            raise _error(where, i, "expected the 'X Y Z' header of the displacements")
+            raise _error(
+                where, i, "expected the 'X Y Z' header of the displacements", lines, _VIB_BLOCK
+            )
         block = np.zeros((n_here, 3 * n_atoms))
         for a in range(n_atoms):
             i += 1
             tokens = lines[i].split() if i < len(lines) else []
             if len(tokens) != 1 + 3 * n_here:
-                raise _error(where, i, f"expected {3 * n_here} displacements of atom {a + 1}")
+                what = f"expected {3 * n_here} displacements of atom {a + 1}"
+                raise _error(where, i, what, lines, _VIB_BLOCK)
             values = np.array(floats(" ".join(tokens[1:]), f"{where}: line {i + 1}")).reshape(
                 n_here, 3
             )
@@ -232,7 +269,13 @@ def polarizability_block(lines: list[str], title: int, where: str) -> np.ndarray
     for k in range(2, 5):
         match = _POL_ROW.match(lines[title + k]) if title + k < len(lines) else None
         if not match:
-            raise _error(where, title + k, "expected a row of the polarizability matrix")
+            raise _error(
+                where,
+                title + k,
+                "expected a row of the polarizability matrix",
+                lines,
+                "the polarizability matrix",
+            )
         rows.append([float(x) for x in match.groups()])
     return np.array(rows)
 
@@ -278,6 +321,10 @@ def parse_qchem(text: str, where: str = "Q-Chem output") -> ModeSet:
     z = atomic_numbers_from_symbols(symbols, where)
     vib = vibration_blocks(lines, vtitle, len(symbols), where)
     notes = [f"{len(vib.freqs_cm1)} vibrations printed by Q-Chem (rigid-body modes not printed)"]
+    notes += pass_on(find_program_warnings(lines, WARNING_RULES), where=where, program="Q-Chem")
+    ir, ir_note = _ir_intensities(lines, vtitle, vib)
+    if ir_note:
+        notes.append(ir_note)
     masses = masses_block(lines, vtitle, len(symbols))
     masses_note = "as printed by Q-Chem (thermochemistry, 5 decimals)" if masses is not None else ""
     modes = modes_from_displacements(
@@ -326,9 +373,28 @@ def parse_qchem(text: str, where: str = "Q-Chem output") -> ModeSet:
         a2=a2,
         gamma2=gamma2,
         polarizability_ang3=alpha,
+        ir_intensity_km_mol=ir,
         energy_hartree=energy,
         provenance=provenance,
     )
+
+
+def _ir_intensities(
+    lines: list[str], vtitle: int, vib: QChemVibrations
+) -> tuple[np.ndarray | None, str]:
+    """The ``IR Intens:`` row in km/mol, and a note on where the unit comes from.
+
+    The banner of the VIBRATIONAL ANALYSIS section names the unit ("INFRARED INTENSITIES
+    (KM/MOL)"); a banner naming another unit leaves the row unread.
+    """
+    if vib.ir_km_mol is None:
+        return None, ""
+    banner = [line for line in lines[vtitle : vtitle + 10] if "INFRARED INTENSITIES" in line]
+    if not banner:
+        return vib.ir_km_mol, "IR intensities in km/mol (Q-Chem's unit; no unit banner printed)"
+    if "KM/MOL" not in banner[0].upper():
+        return None, f"IR intensities not read: unit banner {banner[0].strip(' *')!r}"
+    return vib.ir_km_mol, "IR intensities in km/mol as printed ('IR Intens')"
 
 
 def read_qchem(path: str | Path) -> ModeSet:

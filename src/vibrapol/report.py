@@ -42,6 +42,11 @@ TABLE_COLUMNS = (
 )
 
 
+#: Significant digits of a², γ² and activities in CSV: enough for every digit a program prints
+#: (ORCA: 1036.771663, ten digits), so that no printed number is rounded away.
+CSV_DIGITS = ".10g"
+
+
 def _fmt_g(value: float | None) -> str:
     return "" if value is None or not math.isfinite(value) else f"{value:.4g}"
 
@@ -158,9 +163,9 @@ def table_csv(table: RamanTable) -> str:
                 row["mode"],
                 f"{row['frequency_cm1']:.4f}",
                 row["irrep"],
-                _num(row["a2"], ".6g"),
-                _num(row["gamma2"], ".6g"),
-                _num(row["activity"], ".6g"),
+                _num(row["a2"], CSV_DIGITS),
+                _num(row["gamma2"], CSV_DIGITS),
+                _num(row["activity"], CSV_DIGITS),
                 _num(row["rho_linear"], ".6f"),
                 _num(row["rho_natural"], ".6f"),
                 "" if row["polarized"] is None else str(row["polarized"]).lower(),

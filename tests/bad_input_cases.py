@@ -160,7 +160,6 @@ TABLE_FILES = [
      "atomic numbers must be between 1 and 118"),
     ("json-wrong-shape", "wrong_shape.modes.json", None,
      "coordinates_ang should be an array of shape (2, 3)"),
-    ("json-no-raman", "no_raman.modes.json", None, "has no Raman data"),
 ]  # fmt: skip
 
 # --- measured files through `vibrapol match --vv FILE` (name, content, options, expected) ----
@@ -250,6 +249,17 @@ OPTIONS = [
      "no VIBRATIONAL FREQUENCIES block", QCHEM),
     ("table-degeneracy-tol", lambda t: _table(t, "--degeneracy-tol-cm1", "-1"),
      "degeneracy tolerance must be ≥ 0", "degeneracy tolerance"),
+    # a table of a file without Raman data is its species table; a spectrum is refused
+    ("spectrum-no-raman", lambda t: ["spectrum", str(BAD / "no_raman.modes.json"), "-o", out(t)],
+     "has no Raman data", "no_raman.modes.json"),
+    ("table-symmetrize-invariants",
+     lambda t: ["table", str(FIXTURES / ORCA), "--symmetrize", "-o", out(t)],
+     "cannot be un-mixed", "orca5_co2.out"),
+    ("table-symmetrize-no-symmetry", lambda t: _table(t, "--no-symmetry", "--symmetrize"),
+     "cannot go with --no-symmetry", "--symmetrize"),
+    ("symmetry-symmetrize-structure",
+     lambda t: ["symmetry", put(t, "w.xyz", WATER_XYZ), "--symmetrize", "-o", out(t, "r.txt")],
+     "--symmetrize needs normal modes", "w.xyz"),
     ("spectrum-fwhm-negative", lambda t: _spectrum(t, "--fwhm-cm1", "-1"),
      "fwhm_cm1 must be a positive number", "fwhm_cm1"),
     ("spectrum-fwhm-nan", lambda t: _spectrum(t, "--fwhm-cm1", "nan"),

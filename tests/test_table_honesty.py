@@ -326,3 +326,16 @@ def test_warnings_reach_stderr_of_the_command():
     err = [line for line in done.stderr.splitlines() if line]
     assert len(err) == 1 and err[0].startswith("vibrapol: warning: ") and "look mixed" in err[0]
     assert f"# warning: {err[0].removeprefix('vibrapol: warning: ')}" in done.stdout
+
+
+def test_symmetry_report_carries_the_mixed_modes_warning(capsys):
+    # `vibrapol symmetry` on the same ORCA 6 file: the JSON names the mixed modes and gives
+    # each mode's purity, the modes are not averaged (contract of the default).
+    out, shown = run_cli(capsys, "symmetry", str(qc_output(ORCA6)), "--format", "json")
+    doc = json.loads(out)
+    assert doc["symmetrized"] is False
+    assert len(doc["warnings"]) == 1 and "53 (0.56), 54 (0.56)" in doc["warnings"][0]
+    assert "look mixed" in shown
+    assert doc["modes"][52]["purity"] == pytest.approx(0.556, abs=1e-3)
+    out, _ = run_cli(capsys, "symmetry", str(qc_output(ORCA6)))
+    assert f"warning: {doc['warnings'][0]}" in out

@@ -341,7 +341,10 @@ def _band_warnings(table: RamanTable) -> list[str]:
     """Warnings, and the note on missing Raman data, for the lines around a band table."""
     out = list(table.warnings)
     if not table.has_raman_data:
-        out.append("no Raman data in the source: activities and ratios are empty")
+        out.append(
+            "no Raman data in the source: activities and ratios are empty; p(sym), dp(sym): "
+            "polarized, depolarized as expected from the species"
+        )
     return out
 
 

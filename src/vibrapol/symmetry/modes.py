@@ -191,11 +191,16 @@ def classify_modes(group: PointGroup, modes_mw: np.ndarray, freqs_cm1: np.ndarra
 
 
 def mixed_modes_warning(
-    sets: tuple[tuple[int, ...], ...], quality: np.ndarray, group: PointGroup, where: str
+    sets: tuple[tuple[int, ...], ...],
+    quality: np.ndarray,
+    group: PointGroup,
+    where: str,
+    has_tensors: bool = True,
 ) -> str:
     """The warning for sets whose purity is below :data:`PURITY_MIN` ('' when none is).
 
-    Names every such mode with its purity, so a user can tell which labels to doubt.
+    Names every such mode with its purity, so a user can tell which labels to doubt, and says
+    whether averaging over the group could be asked for (only with derivative tensors).
     """
     bad = [(k, float(q)) for s, q in zip(sets, quality, strict=True) if q < PURITY_MIN for k in s]
     if not bad:
@@ -205,8 +210,12 @@ def mixed_modes_warning(
     return (
         f"{where}: {n} mode{'s' if n > 1 else ''} look mixed, not pure species of "
         f"{group.symbol} (purity below {PURITY_MIN}): mode{'s' if n > 1 else ''} {listed}; "
-        "their labels are uncertain and their numbers are the source's (averaging over the "
-        "group is opt-in: --symmetrize)"
+        "their labels are uncertain and their numbers are the source's "
+        + (
+            "(averaging over the group is opt-in: --symmetrize)"
+            if has_tensors
+            else "(without derivative tensors they cannot be averaged over the group)"
+        )
     )
 
 
@@ -252,7 +261,8 @@ def analyse_modes(
         warnings.warn(found[-1], ChangedValuesWarning, stacklevel=2)
     sets, set_irreps, purity, invariance = classify_modes(group, modes.modes, modes.freqs_cm1)
     quality = np.minimum(purity, invariance)
-    mixed = mixed_modes_warning(sets, quality, group, where)
+    has_tensors = modes.dalpha_dq is not None or not modes.has_activity
+    mixed = mixed_modes_warning(sets, quality, group, where, has_tensors)
     if mixed:
         found.append(mixed)
         warnings.warn(mixed, AccuracyWarning, stacklevel=2)

@@ -166,9 +166,17 @@ def intensity_z2(model: CostModel, bands: BandData, modes: ModeData, offset: flo
     return np.minimum(z * z, model.cap)
 
 
+#: A computed ρ within this of 3/4 is taken as the exact 3/4 of a non-totally-symmetric mode
+#: (programs print 3–4 decimals) and gets ``sigma_rho_depolarized``; any lower computed ρ is a
+#: model prediction and gets ``sigma_rho_polarized``.  This chooses an uncertainty, not the
+#: polarized/depolarized class, which follows :mod:`vibrapol.polarization`.
+EXACT_THREE_QUARTERS_TOL = 0.01
+
+
 def polarization_z2(model: CostModel, bands: BandData, modes: ModeData) -> np.ndarray:
     """min(z_ρ², cap) for every pair; 0 where either ratio is unknown."""
-    sigma_mode = np.where(modes.polarized, model.sigma_rho_polarized, model.sigma_rho_depolarized)
+    predicted = np.nan_to_num(modes.rho, nan=1.0) < 0.75 - EXACT_THREE_QUARTERS_TOL
+    sigma_mode = np.where(predicted, model.sigma_rho_polarized, model.sigma_rho_depolarized)
     var = bands.rho_err[:, None] ** 2 + sigma_mode[None, :] ** 2
     d = bands.rho[:, None] - modes.rho[None, :]
     z2 = np.where(np.isfinite(d), d * d / var, 0.0)

@@ -208,7 +208,7 @@ def mixed_modes_warning(
     listed = ", ".join(f"{k + 1} ({q:.2f})" for k, q in sorted(bad))
     n = len(bad)
     return (
-        f"{where}: {n} mode{'s' if n > 1 else ''} look mixed, not pure species of "
+        f"{where}: {n} mode{'s look' if n > 1 else ' looks'} mixed, not pure species of "
         f"{group.symbol} (purity below {PURITY_MIN}): mode{'s' if n > 1 else ''} {listed}; "
         "their labels are uncertain and their numbers are the source's "
         + (

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import warnings
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -65,6 +66,8 @@ class RamanTable:
     warnings, notes : tuple of str
         Everything an output of this table must repeat in its header: warnings (also sent to
         stderr) and notes.
+    symmetrized : bool
+        Whether the modes were averaged over the point group (only on request).
     """
 
     freqs_cm1: np.ndarray
@@ -88,6 +91,7 @@ class RamanTable:
     shown_zero: np.ndarray | None = None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
+    symmetrized: bool = False
 
     @property
     def n_modes(self) -> int:
@@ -170,6 +174,7 @@ def raman_table(
             "totally_symmetric": symmetry.totally_symmetric.copy(),
             "purity": symmetry.purity,
             "symmetry_convention": symmetry.group.convention,
+            "symmetrized": bool(symmetry.symmetrized),
         }
         found += symmetry.warnings
     nan = np.full(modes.n_modes, np.nan)
@@ -237,8 +242,6 @@ def raman_table(
 
 def with_warnings(table: RamanTable, texts: list[str] | tuple[str, ...]) -> RamanTable:
     """The same table with more warnings for its header (duplicates dropped, order kept)."""
-    import dataclasses
-
     merged = tuple(dict.fromkeys((*table.warnings, *texts)))
     return dataclasses.replace(table, warnings=merged)
 

@@ -184,7 +184,7 @@ def table_json(table: RamanTable) -> str:
     """JSON document: header (with ``notes`` and ``warnings``), units, one record per mode."""
     header: dict[str, object] = dict(header_fields(table))
     header.update(
-        symmetrized=any(n.startswith("symmetrized over") for n in table.provenance.notes),
+        symmetrized=table.symmetrized,
         notes=table_notes(table),
         warnings=list(table.warnings),
         polarization_rule=RULE_TEXT,

@@ -339,3 +339,20 @@ def test_symmetry_report_carries_the_mixed_modes_warning(capsys):
     assert doc["modes"][52]["purity"] == pytest.approx(0.556, abs=1e-3)
     out, _ = run_cli(capsys, "symmetry", str(qc_output(ORCA6)))
     assert f"warning: {doc['warnings'][0]}" in out
+
+
+def test_a_readers_warning_reaches_the_file_header(capsys, tmp_path):
+    # Our DALTON water fixture with one printed intensity changed (the tamper of
+    # test_source_dalton): the reader warns that its numbers from the derivatives disagree with
+    # the printed ones.  That warning must be in the CSV and JSON headers too, not only stderr.
+    text = (FIXTURES / "dalton_water_raman.out").read_text()
+    assert text.count("32.850000") == 1
+    path = tmp_path / "tampered.out"
+    path.write_text(text.replace("32.850000", "33.850000"))
+    _, comments, shown = run_csv(capsys, str(path))
+    assert "disagrees" in shown
+    assert any(c.startswith("warning:") and "disagrees" in c for c in comments)
+    out, _ = run_cli(capsys, "table", str(path), "--format", "json")
+    assert any("disagrees" in w for w in json.loads(out)["header"]["warnings"])
+    out, _ = run_cli(capsys, "table", str(path), "--format", "latex")
+    assert any(line.startswith("% warning:") and "disagrees" in line for line in out.splitlines())

@@ -83,12 +83,10 @@ def from_modes(modes, scale_for: str | None = None) -> str:  # noqa: ANN001
     sets.sort(key=lambda s: (not table.polarized[s[0]], table.freqs_cm1[s[0]]))
     for s in sets:
         k = s[0]
-        if table.polarized[k]:
-            kind = "polarized"
-        elif table.irreps[k] == sym.group.totally_symmetric:
-            kind = "totally symmetric, yet rho close to 3/4: looks depolarized"
-        else:
-            kind = "depolarized"
+        kind = {  # the rule of vibrapol.polarization
+            "polarized": "polarized",
+            "unresolved": "totally symmetric, but rho too close to 3/4 to tell",
+        }.get(table.polarization[k], "depolarized")
         deg = f" ({len(s)}-fold)" if len(s) > 1 else ""
         freq = scale.apply(np.array([table.freqs_cm1[k]]))[0]
         lines.append(f"{freq:>7.0f} {table.irreps[k]:<8} {table.rho_linear[k]:>6.3f}  {kind}{deg}")

@@ -76,10 +76,22 @@ def cclib_data(name: str) -> Any:
     return cclib.io.ccread(str(qc_output(name)), loglevel=logging.CRITICAL)
 
 
+def csv_records(text: str) -> list[dict[str, str]]:
+    """Records of a vibrapol CSV, skipping its ``#`` header lines as
+    ``pandas.read_csv(comment="#")`` does."""
+    body = "\n".join(line for line in text.splitlines() if not line.startswith("#"))
+    return list(csv.DictReader(io.StringIO(body)))
+
+
+def csv_comments(text: str) -> list[str]:
+    """The ``#`` header lines of a vibrapol CSV, without the leading ``# ``."""
+    return [line[2:] for line in text.splitlines() if line.startswith("#")]
+
+
 def table_rows(capsys: pytest.CaptureFixture[str], *args: str) -> list[dict[str, str]]:
     """Rows of ``vibrapol table ARGS --format csv``, which must exit with status 0."""
     assert main(["table", *args, "--format", "csv"]) == 0
-    return list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    return csv_records(capsys.readouterr().out)
 
 
 def rigid_overlap(modes: ModeSet) -> float:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import csv
-import io
 import json
 from pathlib import Path
 
@@ -15,14 +14,20 @@ from vibrapol.report import TABLE_COLUMNS
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "water.modes.json"
 
 
+def _body(text):
+    """The CSV without its ``#`` header lines (what pandas.read_csv(comment="#") reads)."""
+    return [line for line in text.splitlines() if not line.startswith("#")]
+
+
 def test_csv_has_exactly_the_documented_columns(capsys):
     assert main(["table", str(EXAMPLE), "--format", "csv"]) == 0
-    rows = list(csv.reader(io.StringIO(capsys.readouterr().out)))
-    assert tuple(rows[0][: len(TABLE_COLUMNS)]) == TABLE_COLUMNS
+    rows = list(csv.reader(_body(capsys.readouterr().out)))
+    assert tuple(rows[0]) == TABLE_COLUMNS
     assert len(rows) == 4
     # water's asymmetric stretch (B2, highest mode) is depolarized: ρ_l = 3/4 (common practice)
     assert float(rows[3][6]) == pytest.approx(0.75, abs=1e-6)
     assert rows[3][8] == "false" and rows[2][8] == "true"
+    assert [r[-1] for r in rows[1:]] == ["polarized", "polarized", "depolarized"]
 
 
 def test_text_and_json_outputs(capsys, tmp_path):
@@ -42,7 +47,7 @@ def test_existing_output_needs_force(tmp_path, capsys):
     assert "--force" in capsys.readouterr().err
     assert out.read_text() == "keep me"
     assert main(["table", str(EXAMPLE), "--format", "csv", "-o", str(out), "--force"]) == 0
-    assert out.read_text().startswith("mode,")
+    assert _body(out.read_text())[0].startswith("mode,")
 
 
 BAD_INPUTS = {
@@ -106,7 +111,8 @@ def test_python_dash_m_runs_the_command_line():
         text=True,
         check=False,
     )
-    assert done.returncode == 0 and done.stdout.startswith("mode,frequency_cm1,")
+    assert done.returncode == 0 and done.stdout.startswith("# source: ")
+    assert _body(done.stdout)[0].startswith("mode,frequency_cm1,")
 
 
 def test_closed_stdout_pipe_ends_quietly():
@@ -195,7 +201,7 @@ def test_band_table_with_a_published_scale_factor(capsys):
     # The HF/6-31G(d) factor 0.8953 (Scott & Radom 1996, from memory) times the harmonic
     # wavenumbers of the CSV table; the caption names the factor.
     assert main(["table", str(EXAMPLE), "--format", "csv"]) == 0
-    harmonic = [float(r[1]) for r in list(csv.reader(io.StringIO(capsys.readouterr().out)))[1:]]
+    harmonic = [float(r[1]) for r in list(csv.reader(_body(capsys.readouterr().out)))[1:]]
     assert main(["table", str(EXAMPLE), "--format", "markdown", "--scale-for", "HF/6-31G*"]) == 0
     text = capsys.readouterr().out
     scaled = [float(r[0]) for r in _pipe_rows(text)]

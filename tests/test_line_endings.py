@@ -48,8 +48,9 @@ MEASURED_FIXTURES = ["decimal_comma.csv", "wavelength_nm.txt", "link_vv_vh.jdx",
 
 
 def _table_csv(path, capsys) -> str:
+    # the header lines name the file read: compare everything else
     assert main(["table", str(path), "--format", "csv"]) == 0
-    return capsys.readouterr().out
+    return capsys.readouterr().out.replace(str(path), "SOURCE")
 
 
 @pytest.mark.parametrize("variant", sorted(VARIANTS))
@@ -77,7 +78,8 @@ def test_real_outputs_with_windows_line_endings(name, tmp_path, capsys):
     changed = tmp_path / name
     changed.write_bytes(VARIANTS["crlf"](original.read_bytes()))
     expected = _table_csv(original, capsys)
-    assert expected.count("\n") == 55  # header and the 54 modes of divinylbenzene (README)
+    rows = [line for line in expected.splitlines() if not line.startswith("#")]
+    assert len(rows) == 55  # column names and the 54 modes of divinylbenzene (README)
     assert _table_csv(changed, capsys) == expected
 
 

@@ -8,9 +8,7 @@ without vibrations (NWChem, Molpro) or that cclib cannot parse (ORCA 6.0.1).
 
 from __future__ import annotations
 
-import csv
 import dataclasses
-import io
 import json
 import warnings
 
@@ -18,7 +16,7 @@ import numpy as np
 import pytest
 
 from _paths import FIXTURES, qc_output
-from _source_contract import cclib_data, table_rows
+from _source_contract import cclib_data, csv_records, table_rows
 from vibrapol.cli import main
 from vibrapol.errors import AccuracyWarning, InputFormatError, ShapeError, VibrapolError
 from vibrapol.ramantable import raman_table
@@ -69,7 +67,7 @@ def test_table_has_activities_and_empty_rho():
     np.testing.assert_allclose(table.activity, [0.0, 0.0, 21.3054, 0.0], atol=1e-12)
     assert np.isnan(table.rho_linear).all() and np.isnan(table.a2).all()
     assert not table.polarized.any()
-    rows = list(csv.DictReader(io.StringIO(table_csv(table))))
+    rows = csv_records(table_csv(table))
     assert rows[2]["activity"] == "21.3054"
     assert all(rows[2][c] == "" for c in ("a2", "gamma2", "rho_linear", "rho_natural", "polarized"))
     doc = json.loads(table_json(table))

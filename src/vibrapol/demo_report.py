@@ -92,6 +92,7 @@ def check_bands(assignment: Assignment) -> tuple[object | None, object | None]:
     Effect*, 2002, ch. 5) and a measured ρ within 2σ + 0.05 of 3/4.  None when there is none.
     """
     from vibrapol.compare import measured_polarized
+    from vibrapol.polarization import POLARIZED_MARGIN, RHO_DEPOLARIZED
 
     pol, dep = None, None
     for b in assignment.bands:
@@ -100,7 +101,7 @@ def check_bands(assignment: Assignment) -> tuple[object | None, object | None]:
         is_pol = bool(measured_polarized(np.array([b.band_rho]), np.array([b.band_rho_err]))[0])
         if b.mode_polarized and is_pol and (pol is None or b.band_area > pol.band_area):
             pol = b
-        near = abs(b.band_rho - 0.75) <= 2 * b.band_rho_err + 0.05
+        near = abs(b.band_rho - RHO_DEPOLARIZED) <= 2 * b.band_rho_err + POLARIZED_MARGIN
         depolarized = math.isfinite(b.mode_rho) and abs(b.mode_rho - 0.75) < 1e-3
         if depolarized and near and (dep is None or b.band_area > dep.band_area):
             dep = b

@@ -38,3 +38,10 @@ class PrintedValueMismatch(VibrapolWarning):
 
 class AccuracyWarning(VibrapolWarning):
     """A result is less reliable than usual (imaginary modes, poor symmetry, noisy input)."""
+
+
+class ChangedValuesWarning(VibrapolWarning):
+    """vibrapol uses numbers other than the source's because an option asked for it.
+
+    The message says which numbers changed and how (e.g. ``--symmetrize``).
+    """

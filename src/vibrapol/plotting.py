@@ -19,9 +19,11 @@ import numpy as np
 from matplotlib import rc_context
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
+from matplotlib.patches import Patch
 from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
+from vibrapol.invariants import rho_natural_from_linear
 from vibrapol.plotting_labels import (
     CURVE_HEADROOM,
     box_of,
@@ -45,6 +47,7 @@ from vibrapol.plotting_style import (
     new_figure,
     save_figure,
 )
+from vibrapol.polarization import POLARIZED_BELOW
 from vibrapol.spectrum import GridSpectrum, StickSpectrum
 from vibrapol.sweep import PolarSweep
 
@@ -246,8 +249,11 @@ def depolarization_figure(
     ``kind="linear"``: ρ for linearly polarized excitation, limit 3/4; ``"natural"``: ρ for
     natural light, limit 6/7 (D. A. Long, *The Raman Effect*, 2002, ch. 5).  Bands weaker than
     ``min_relative_activity`` of the strongest (VV + VH) are left out.  Filled markers are
-    polarized bands (labelled with wavenumber and irrep), open markers depolarized ones; the
-    marker area grows with the band's VV + VH strength.
+    measurably polarized bands (labelled with wavenumber and irrep), open markers the others;
+    the shaded zone below the limit is where no measurement tells a ratio from the limit (the
+    rule of :mod:`vibrapol.polarization`: an open marker inside it that is not on the limit is
+    a totally symmetric band too close to 3/4 to tell).  The marker area grows with the band's
+    VV + VH strength.
     """
     if kind not in ("linear", "natural"):
         raise VibrapolError(f"kind must be linear or natural, got {kind!r}")
@@ -271,6 +277,8 @@ def depolarization_figure(
         fig = new_figure(figure_width(width), height_in)
         ax = fig.add_subplot()
         ax.axhline(limit, color="#555555", lw=0.7, ls=(0, (3, 2)), zorder=1)
+        zone_low = POLARIZED_BELOW if kind == "linear" else rho_natural_from_linear(POLARIZED_BELOW)
+        ax.axhspan(float(zone_low), limit, color="#dddddd", lw=0, zorder=0)
         limit_label = ax.annotate(
             f"ρ = {limit_text}",
             (1.0, limit),
@@ -304,6 +312,10 @@ def depolarization_figure(
                 mec=PALETTE["vh"],
                 mew=0.9,
                 label="depolarized",
+            ),
+            Patch(
+                color="#dddddd",
+                label=f"too close to {limit_text} to tell (ρ_linear ≥ {POLARIZED_BELOW:.2f})",
             ),
         ]
         ax.set_xlim(lo - pad, hi + pad)

@@ -2,22 +2,27 @@
 
 from __future__ import annotations
 
+import dataclasses
+import warnings
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from vibrapol import invariants as inv
+from vibrapol import tablechecks
+from vibrapol.errors import AccuracyWarning
 from vibrapol.modeset import ModeSet, Provenance
+from vibrapol.polarization import POLARIZED, polarization_class, symmetry_prediction
 
 if TYPE_CHECKING:
     from vibrapol.symmetry import ModeSymmetry
 
-#: A band is called polarized when ρ_linear < 3/4 − POLARIZED_MARGIN (and it has activity).
-#: Non-totally-symmetric modes have ρ_linear = 3/4 exactly (D. A. Long, The Raman Effect, 2002,
-#: ch. 5); printed ratios carry 3–4 decimals, so 0.01 separates "3/4 within print precision"
-#: from a genuinely polarized band.
-POLARIZED_MARGIN = 0.01
+#: Text of the note carried by tables of sources without any Raman data.
+NO_RAMAN_NOTE = (
+    "no Raman data in the source (a frequency job without Raman intensities): activities and "
+    "ratios are empty; species, IR/Raman activity and polarization come from symmetry alone"
+)
 
 
 @dataclass(frozen=True, eq=False)
@@ -28,14 +33,14 @@ class RamanTable:
     ----------
     freqs_cm1 : ndarray (n,)
     a2, gamma2 : ndarray (n,)
-        Invariants of ∂α/∂Q, Å⁴ Da⁻¹ (NaN when the source gives only activities).
+        Invariants of ∂α/∂Q, Å⁴ Da⁻¹ (NaN when the source gives only activities, or nothing).
     activity : ndarray (n,)
-        S = 45a² + 7γ², Å⁴ Da⁻¹.
+        S = 45a² + 7γ², Å⁴ Da⁻¹ (NaN when the source has no Raman data).
     rho_linear, rho_natural : ndarray (n,)
         Depolarization ratios of the mode's degenerate set (NaN for inactive modes, and for
         all modes when the source gives only activities).
     polarized : ndarray of bool (n,)
-        ρ_linear < 3/4 − :data:`POLARIZED_MARGIN` and the mode is Raman-active.
+        Measurably polarized by the rule of :mod:`vibrapol.polarization`.
     degenerate_set : ndarray of int (n,)
         Index (1-based, ascending frequency) of the degenerate set the mode belongs to.
     irreps : tuple of str
@@ -47,6 +52,22 @@ class RamanTable:
         Selection rules of each mode's species (None when symmetry is not known).
     symmetry_convention : str
         Axis convention behind the species names ('' when not known).
+    ir_intensity_km_mol : ndarray (n,) or None
+        IR intensities as the source gave them (None when unknown).
+    purity : ndarray (n,) or None
+        Quality of the species label of each mode's set, 1 = pure (None without symmetry).
+    totally_symmetric : ndarray of bool (n,) or None
+    polarization : tuple of str
+        Outcome of :func:`vibrapol.polarization.polarization_class` per mode (or the
+        prediction from symmetry when ρ is unknown; '' for inactive or unknown).
+    shown_zero : ndarray of bool (n,) or None
+        Raman-forbidden modes whose activity is numerical noise: shown as 0 (presentation only,
+        the arrays above keep the values read).
+    warnings, notes : tuple of str
+        Everything an output of this table must repeat in its header: warnings (also sent to
+        stderr) and notes.
+    symmetrized : bool
+        Whether the modes were averaged over the point group (only on request).
     """
 
     freqs_cm1: np.ndarray
@@ -63,11 +84,24 @@ class RamanTable:
     ir_active: np.ndarray | None = None
     raman_active: np.ndarray | None = None
     symmetry_convention: str = ""
+    ir_intensity_km_mol: np.ndarray | None = None
+    purity: np.ndarray | None = None
+    totally_symmetric: np.ndarray | None = None
+    polarization: tuple[str, ...] = ()
+    shown_zero: np.ndarray | None = None
+    warnings: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
+    symmetrized: bool = False
 
     @property
     def n_modes(self) -> int:
         """Number of modes in the table."""
         return int(self.freqs_cm1.shape[0])
+
+    @property
+    def has_raman_data(self) -> bool:
+        """Whether the source gave any Raman numbers (activities at least)."""
+        return bool(np.isfinite(self.activity).any())
 
     def sets(self) -> list[tuple[int, ...]]:
         """Mode indices of each degenerate set."""
@@ -90,8 +124,9 @@ def raman_table(
     Parameters
     ----------
     modes : ModeSet
-        Must carry ∂α (tensors), (a², γ²), or at least the activities (then a², γ² and ρ are
-        NaN and no band is called polarized).
+        Any source: with ∂α (tensors), (a², γ²), only activities (then a², γ² and ρ are NaN),
+        or no Raman data at all (then the activities are NaN too and, with ``symmetry``, the
+        polarization column holds the species' prediction).
     sets : list of tuple of int, optional
         Degenerate sets (from symmetry).  Default: grouping by frequency within
         ``degeneracy_tol_cm1`` (:func:`vibrapol.invariants.degenerate_sets`).
@@ -100,17 +135,29 @@ def raman_table(
     symmetry : ModeSymmetry, optional
         Result of :func:`vibrapol.symmetry.analyse_modes` for these modes (pass
         ``symmetry.modes`` as ``modes`` when it was symmetrized).  Its degenerate sets, species,
-        point group and selection rules are used and ``sets``, ``irreps`` and ``point_group``
-        must not be given.
+        point group, purity, selection rules and warnings are used and ``sets``, ``irreps`` and
+        ``point_group`` must not be given.
+
+    Warns
+    -----
+    AccuracyWarning
+        When vibrations are missing (fewer than 3N − 6, 3N − 5 linear), several modes are
+        imaginary, or every activity is zero.  The texts are also kept in
+        :attr:`RamanTable.warnings`.
 
     Notes
     -----
     a², γ² and the activity are per mode; ρ is computed from the invariants summed over each
     degenerate set and given to every member, since only the sum is independent of the basis
     chosen inside the set (D. A. Long, The Raman Effect, 2002, ch. 5).  Modes whose set activity
-    is below :data:`vibrapol.invariants.INACTIVE_FRACTION` of the largest get ρ = NaN.
+    is below :data:`vibrapol.invariants.INACTIVE_FRACTION` of the largest get ρ = NaN.  No
+    number of the source is changed; Raman-forbidden modes whose activity is numerical noise
+    are only marked (:attr:`RamanTable.shown_zero`) for the formatters.
     """
-    rules: dict = {}
+    extra: dict = {}
+    found: list[str] = []
+    notes: list[str] = []
+    linear = None
     if symmetry is not None:
         if sets is not None or irreps is not None or point_group:
             raise ValueError("give either symmetry or sets/irreps/point_group, not both")
@@ -120,34 +167,58 @@ def raman_table(
             )
         sets = [tuple(s) for s in symmetry.sets]
         irreps, point_group = symmetry.irreps, symmetry.group.symbol
-        rules = {
+        linear = symmetry.group.linear
+        extra = {
             "ir_active": symmetry.ir_active.copy(),
             "raman_active": symmetry.raman_active.copy(),
+            "totally_symmetric": symmetry.totally_symmetric.copy(),
+            "purity": symmetry.purity,
             "symmetry_convention": symmetry.group.convention,
+            "symmetrized": bool(symmetry.symmetrized),
         }
-    if modes.activity is not None and not modes.has_raman:
-        s = modes.activity.copy()
-        a2 = np.full(modes.n_modes, np.nan)
-        gamma2 = np.full(modes.n_modes, np.nan)
-    else:
+        found += symmetry.warnings
+    nan = np.full(modes.n_modes, np.nan)
+    if modes.has_raman:
         a2, gamma2 = modes.raman_invariants()
         s = inv.activity(a2, gamma2)
+    else:
+        a2, gamma2 = nan.copy(), nan.copy()
+        s = nan.copy() if modes.activity is None else modes.activity.copy()
+        if modes.activity is None:
+            notes.append(NO_RAMAN_NOTE if symmetry is not None else NO_RAMAN_NOTE.split(";")[0])
     if sets is None:
         sets = inv.degenerate_sets(modes.freqs_cm1, degeneracy_tol_cm1)
     set_index = np.zeros(modes.n_modes, dtype=int)
-    rho_l = np.full(modes.n_modes, np.nan)
-    rho_n = np.full(modes.n_modes, np.nan)
+    rho_l = nan.copy()
+    rho_n = nan.copy()
     set_a2 = inv.sum_over_sets(a2, sets)
     set_g2 = inv.sum_over_sets(gamma2, sets)
-    set_s = inv.sum_over_sets(s, sets)
-    inactive = inv.inactive_mask(set_s)
+    inactive = inv.inactive_mask(inv.sum_over_sets(np.nan_to_num(s), sets))
     for k, members in enumerate(sets):
         idx = list(members)
         set_index[idx] = k + 1
         if not inactive[k]:
             rho_l[idx] = inv.rho_linear(set_a2[k], set_g2[k])
             rho_n[idx] = inv.rho_natural(set_a2[k], set_g2[k])
-    polarized = np.nan_to_num(rho_l, nan=1.0) < 0.75 - POLARIZED_MARGIN
+    ts = extra.get("totally_symmetric")
+    if np.isfinite(a2).any() or symmetry is None:
+        polarization = polarization_class(rho_l, ts)
+    else:
+        polarization = symmetry_prediction(ts, extra["raman_active"])
+    irreps = tuple(irreps) if irreps is not None else ("",) * modes.n_modes
+    shown_zero, zero_notes = tablechecks.forbidden_noise(
+        s, extra.get("raman_active"), irreps, point_group
+    )
+    notes += zero_notes
+    own = [tablechecks.missing_modes_warning(modes, linear), tablechecks.all_zero_warning(modes, s)]
+    imaginary, loud = tablechecks.imaginary_modes_text(modes)
+    own.append(imaginary if loud else "")
+    if imaginary and not loud:
+        notes.append(imaginary)
+    for text in filter(None, own):
+        warnings.warn(text, AccuracyWarning, stacklevel=2)
+        found.append(text)
+    ir = modes.ir_intensity_km_mol
     return RamanTable(
         freqs_cm1=modes.freqs_cm1.copy(),
         a2=a2,
@@ -155,28 +226,41 @@ def raman_table(
         activity=s,
         rho_linear=rho_l,
         rho_natural=rho_n,
-        polarized=polarized,
+        polarized=np.array([p == POLARIZED for p in polarization], dtype=bool),
         degenerate_set=set_index,
-        irreps=tuple(irreps) if irreps is not None else ("",) * modes.n_modes,
+        irreps=irreps,
         point_group=point_group,
         provenance=modes.provenance,
-        **rules,
+        ir_intensity_km_mol=None if ir is None else ir.copy(),
+        polarization=tuple(str(p) for p in polarization),
+        shown_zero=shown_zero,
+        warnings=tuple(found),
+        notes=tuple(notes),
+        **extra,
     )
+
+
+def with_warnings(table: RamanTable, texts: list[str] | tuple[str, ...]) -> RamanTable:
+    """The same table with more warnings for its header (duplicates dropped, order kept)."""
+    merged = tuple(dict.fromkeys((*table.warnings, *texts)))
+    return dataclasses.replace(table, warnings=merged)
 
 
 def symmetry_table(
     modes: ModeSet,
     *,
     tolerance_ang: float | None = None,
-    symmetrize: str = "auto",
+    symmetrize: bool = False,
     degeneracy_tol_cm1: float = inv.DEGENERACY_TOL_CM1,
 ) -> tuple[ModeSet, RamanTable]:
     """Raman table with species and degenerate sets from the point group of the structure.
 
-    The point group is found from the coordinates (:func:`vibrapol.symmetry.mode_symmetry`);
-    with ``symmetrize="auto"`` impure modes are first averaged over the group, so the modes
-    returned may differ slightly from those given (the table's provenance says so).  A single
-    atom gets the table without symmetry, sets from ``degeneracy_tol_cm1``.
+    The point group is found from the coordinates (:func:`vibrapol.symmetry.mode_symmetry`).
+    The numbers are the source's; only with ``symmetrize=True`` are the Hessian and tensors
+    averaged over the group first (refused for sources with only a², γ² or activities), so
+    that the modes returned differ slightly from those given (announced on stderr and in the
+    table's provenance and warnings).  A single atom gets the table without symmetry, sets from
+    ``degeneracy_tol_cm1``.
 
     Returns
     -------

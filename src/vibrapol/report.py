@@ -1,30 +1,28 @@
-"""Tables as text, CSV, JSON, Markdown and LaTeX: the Raman table and the symmetry report."""
+"""Tables as text, CSV, JSON, Markdown and LaTeX: the per-mode Raman table and band tables.
+
+Every format carries the same header: source, program, method, point group, the notes and the
+warnings of the table (CSV: ``#`` lines before the column names, which
+``pandas.read_csv(comment="#")`` skips; JSON: fields of ``"header"``).
+"""
 
 from __future__ import annotations
 
 import csv
-import dataclasses
 import io
 import json
 import math
 
 import numpy as np
 
+from vibrapol.polarization import MARKS, RULE_TEXT
 from vibrapol.ramantable import RamanTable
 from vibrapol.scaling import FrequencyScale
-from vibrapol.symmetry import (
-    ModeSymmetry,
-    PointGroup,
-    band_counts,
-    format_representation,
-    gamma_vib,
-    species_rules,
-)
 from vibrapol.units import CODATA_VERSION
 
-#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –).
-#: ``ir_active`` and ``raman_active`` are the selection rules of the mode's species (empty when
-#: the symmetry is not known).
+#: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –,
+#: km/mol, –, –).  ``ir_active`` and ``raman_active`` are the selection rules of the mode's
+#: species and ``purity`` the quality of its label (empty when the symmetry is not known);
+#: ``polarization`` is the outcome of the rule of :mod:`vibrapol.polarization`.
 TABLE_COLUMNS = (
     "mode",
     "frequency_cm1",
@@ -38,14 +36,22 @@ TABLE_COLUMNS = (
     "degenerate_set",
     "ir_active",
     "raman_active",
+    "ir_intensity_km_mol",
+    "purity",
+    "polarization",
 )
+
+
+#: Significant digits of a², γ² and activities in CSV: enough for every digit a program prints
+#: (ORCA: 1036.771663, ten digits), so that no printed number is rounded away.
+CSV_DIGITS = ".10g"
 
 
 def _fmt_g(value: float | None) -> str:
     return "" if value is None or not math.isfinite(value) else f"{value:.4g}"
 
 
-def _fmt(value: float, digits: int) -> str:
+def _fmt(value: float | None, digits: int) -> str:
     return "" if value is None or not math.isfinite(value) else f"{value:.{digits}f}"
 
 
@@ -61,63 +67,54 @@ def _csv_flag(value: bool | None) -> str:
     return "" if value is None else ("true" if value else "false")
 
 
-def table_rows(table: RamanTable) -> list[dict[str, object]]:
+def _at(values: np.ndarray | None, i: int) -> float | None:
+    return None if values is None else _finite_or_none(float(values[i]))
+
+
+def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[dict[str, object]]:
     """One dictionary per mode with the keys of :data:`TABLE_COLUMNS`.
 
-    NaN ρ → None.  When the source gives only activities, a², γ², ρ and ``polarized`` are
-    None (unknown).  ``ir_active`` and ``raman_active`` are None when the table carries no
-    symmetry.
+    NaN → None.  When the source gives only activities, a², γ², ρ and ``polarized`` are None
+    (unknown); without Raman data the activity is None too.  ``ir_active``, ``raman_active``
+    and ``purity`` are None when the table carries no symmetry.  With ``show_zero`` (the text
+    table), Raman-forbidden modes whose activity is numerical noise
+    (:attr:`RamanTable.shown_zero`) show 0 and no ratio; the machine formats (CSV, JSON) keep
+    the numbers as read and the header note names the modes.
     """
     rows = []
     for i in range(table.n_modes):
-        rho_l = float(table.rho_linear[i])
-        rho_n = float(table.rho_natural[i])
         known = math.isfinite(float(table.a2[i]))
-        rows.append(
-            {
-                "mode": i + 1,
-                "frequency_cm1": float(table.freqs_cm1[i]),
-                "irrep": table.irreps[i],
-                "a2": _finite_or_none(float(table.a2[i])),
-                "gamma2": _finite_or_none(float(table.gamma2[i])),
-                "activity": float(table.activity[i]),
-                "rho_linear": rho_l if math.isfinite(rho_l) else None,
-                "rho_natural": rho_n if math.isfinite(rho_n) else None,
-                "polarized": bool(table.polarized[i]) if known else None,
-                "degenerate_set": int(table.degenerate_set[i]),
-                "ir_active": _flag(table.ir_active, i),
-                "raman_active": _flag(table.raman_active, i),
-            }
-        )
+        zero = show_zero and table.shown_zero is not None and bool(table.shown_zero[i])
+        row = {
+            "mode": i + 1,
+            "frequency_cm1": float(table.freqs_cm1[i]),
+            "irrep": table.irreps[i],
+            "a2": _at(table.a2, i),
+            "gamma2": _at(table.gamma2, i),
+            "activity": _at(table.activity, i),
+            "rho_linear": _at(table.rho_linear, i),
+            "rho_natural": _at(table.rho_natural, i),
+            "polarized": bool(table.polarized[i]) if known else None,
+            "degenerate_set": int(table.degenerate_set[i]),
+            "ir_active": _flag(table.ir_active, i),
+            "raman_active": _flag(table.raman_active, i),
+            "ir_intensity_km_mol": _at(table.ir_intensity_km_mol, i),
+            "purity": _at(table.purity, i),
+            "polarization": table.polarization[i] if table.polarization else "",
+        }
+        if zero:
+            row.update(rho_linear=None, rho_natural=None, polarization="", activity=0.0)
+            row.update(a2=0.0 if known else None, gamma2=0.0 if known else None)
+        rows.append(row)
     return rows
 
 
-def table_csv(table: RamanTable) -> str:
-    """CSV with exactly :data:`TABLE_COLUMNS`; empty ρ for Raman-inactive modes."""
-    buf = io.StringIO()
-    writer = csv.writer(buf, lineterminator="\n")
-    writer.writerow(TABLE_COLUMNS)
-    for row in table_rows(table):
-        writer.writerow(
-            [
-                row["mode"],
-                f"{row['frequency_cm1']:.4f}",
-                row["irrep"],
-                "" if row["a2"] is None else f"{row['a2']:.6g}",
-                "" if row["gamma2"] is None else f"{row['gamma2']:.6g}",
-                f"{row['activity']:.6g}",
-                "" if row["rho_linear"] is None else f"{row['rho_linear']:.6f}",
-                "" if row["rho_natural"] is None else f"{row['rho_natural']:.6f}",
-                "" if row["polarized"] is None else str(row["polarized"]).lower(),
-                row["degenerate_set"],
-                _csv_flag(row["ir_active"]),
-                _csv_flag(row["raman_active"]),
-            ]
-        )
-    return buf.getvalue()
+def _num(value: object, fmt: str) -> str:
+    return "" if value is None else format(value, fmt)
 
 
-def _header(table: RamanTable) -> dict[str, str]:
+def header_fields(table: RamanTable) -> dict[str, str]:
+    """Source, program, method, point group and species convention of the table."""
     p = table.provenance
     program = " ".join(x for x in (p.program, p.program_version) if x)
     method = "/".join(x for x in (p.method, p.basis) if x)
@@ -135,12 +132,84 @@ def _relative(table: RamanTable) -> bool:
     return table.provenance.raman_scale == "relative"
 
 
+def table_notes(table: RamanTable) -> list[str]:
+    """The provenance notes and the table's own notes, in that order."""
+    return [*table.provenance.notes, *table.notes]
+
+
+def header_lines(table: RamanTable) -> list[str]:
+    """The header every per-mode format repeats: what, from where, notes, warnings."""
+    h = header_fields(table)
+    lines = [
+        f"source: {h['source']}",
+        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}"
+        f"   point group: {h['point_group'] or '-'}",
+    ]
+    if h["symmetry_convention"]:
+        lines.append(f"species names: {h['symmetry_convention']}")
+    lines += [f"note: {n}" for n in table_notes(table)]
+    lines += [f"warning: {w}" for w in table.warnings]
+    lines.append(
+        (
+            "a2, gamma2, activity RELATIVE (largest activity 100, not Å⁴/amu)"
+            if _relative(table)
+            else "a2, gamma2, activity in Å⁴/amu"
+        )
+        + "; IR intensity in km/mol; rho for 90° scattering (linear / natural incident light)"
+    )
+    lines.append(f"polarization: {RULE_TEXT}")
+    return lines
+
+
+def table_csv(table: RamanTable) -> str:
+    """CSV with exactly :data:`TABLE_COLUMNS`, after ``#`` lines with the header."""
+    buf = io.StringIO()
+    for line in header_lines(table):
+        buf.write(f"# {line}\n")
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(TABLE_COLUMNS)
+    for row in table_rows(table):
+        writer.writerow(
+            [
+                row["mode"],
+                f"{row['frequency_cm1']:.4f}",
+                row["irrep"],
+                _num(row["a2"], CSV_DIGITS),
+                _num(row["gamma2"], CSV_DIGITS),
+                _num(row["activity"], CSV_DIGITS),
+                _num(row["rho_linear"], ".6f"),
+                _num(row["rho_natural"], ".6f"),
+                "" if row["polarized"] is None else str(row["polarized"]).lower(),
+                row["degenerate_set"],
+                _csv_flag(row["ir_active"]),
+                _csv_flag(row["raman_active"]),
+                _num(row["ir_intensity_km_mol"], ".6g"),
+                _num(row["purity"], ".4f"),
+                row["polarization"],
+            ]
+        )
+    return buf.getvalue()
+
+
 def table_json(table: RamanTable) -> str:
-    """JSON document: header fields, units, and one record per mode."""
+    """JSON document: header (with ``notes`` and ``warnings``), units, one record per mode."""
+    header: dict[str, object] = dict(header_fields(table))
     unit = "relative (largest activity 100)" if _relative(table) else "angstrom^4/amu"
+    header.update(
+        symmetrized=table.symmetrized,
+        notes=table_notes(table),
+        warnings=list(table.warnings),
+        polarization_rule=RULE_TEXT,
+    )
     doc = {
-        "header": _header(table),
-        "units": {"frequency_cm1": "cm-1", "a2": unit, "gamma2": unit, "activity": unit},
+        "header": header,
+        "units": {
+            "frequency_cm1": "cm-1",
+            "a2": unit,
+            "gamma2": unit,
+            "activity": unit,
+            "ir_intensity_km_mol": "km/mol",
+        },
         "constants": CODATA_VERSION,
         "modes": table_rows(table),
     }
@@ -149,44 +218,40 @@ def table_json(table: RamanTable) -> str:
 
 def table_text(table: RamanTable) -> str:
     """A readable fixed-width table with a header naming source, method and point group."""
-    h = _header(table)
     lines = [
-        f"source: {h['source']}",
-        f"program: {h['program'] or '-'}   method: {h['method'] or '-'}"
-        f"   point group: {h['point_group'] or '-'}",
-    ]
-    if h["symmetry_convention"]:
-        lines.append(f"species names: {h['symmetry_convention']}")
-    lines += [f"note: {n}" for n in table.provenance.notes]
-    lines += [
-        (
-            "a2, gamma2, activity RELATIVE (largest activity 100, not Å⁴/amu)"
-            if _relative(table)
-            else "a2, gamma2, activity in Å⁴/amu"
-        )
-        + "; rho for 90° scattering (linear / natural incident light)",
+        *header_lines(table),
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
-        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>3} {'set':>4} {'IR':>3} {'Ra':>3}",
+        f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>7} {'set':>4} {'IR':>3} {'Ra':>3}"
+        f" {'purity':>6} {'IR/km/mol':>10}",
     ]
-    for row in table_rows(table):
+    for row in table_rows(table, show_zero=True):
         lines.append(
             f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6}"
-            f" {_fmt_g(row['a2']):>11} {_fmt_g(row['gamma2']):>11} {row['activity']:>11.4g}"
+            f" {_fmt_g(row['a2']):>11} {_fmt_g(row['gamma2']):>11} {_fmt_g(row['activity']):>11}"
             f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
-            f" {'P' if row['polarized'] else '':>3} {row['degenerate_set']:>4}"
+            f" {MARKS[str(row['polarization'])]:>7} {row['degenerate_set']:>4}"
             f" {_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}"
+            f" {_fmt(row['purity'], 3):>6} {_fmt_g(row['ir_intensity_km_mol']):>10}".rstrip()
         )
-    n_pol = int(table.polarized.sum())
     lines.append("")
-    if table.n_modes and not np.isfinite(table.a2).any():
+    counts = {k: table.polarization.count(k) for k in set(table.polarization)}
+    if not table.has_raman_data:
+        lines.append(
+            f"{table.n_modes} modes; no Raman data: pol from the species alone "
+            "(p(sym) polarized, dp(sym) depolarized by symmetry)"
+        )
+    elif table.n_modes and not np.isfinite(table.a2).any():
         lines.append(
             f"{table.n_modes} modes; a2, gamma2 and rho unknown: the source gives Raman "
             "activities only"
+            + ("; pol from the species alone" if table.raman_active is not None else "")
         )
     else:
         lines.append(
-            f"{table.n_modes} modes, {n_pol} polarized (P: rho_linear < 0.74 and Raman-active)"
+            f"{table.n_modes} modes: {counts.get('polarized', 0)} polarized, "
+            f"{counts.get('unresolved', 0)} totally symmetric but too close to 3/4 to tell (p?), "
+            f"{counts.get('depolarized', 0)} depolarized"
         )
     if table.ir_active is not None:
         lines.append("IR, Ra: fundamental allowed (y) or forbidden (-) by its species")
@@ -226,10 +291,11 @@ def band_rows(
     """One dictionary per band, the rows of the paper tables.
 
     A band is a degenerate set counted once: wavenumber (scaled when ``scale`` is given),
-    species, number of degenerate modes, activity summed over them, ρ (linear; None when
-    Raman-inactive or unknown) and ``polarized``.  Raman-inactive bands (by their species, or
-    with zero polarizability derivative) are left out unless ``include_inactive``; imaginary
-    modes (negative wavenumbers: not a minimum) always are.
+    species, number of degenerate modes, activity summed over them (None without Raman data),
+    ρ (linear; None when Raman-inactive or unknown), ``polarized`` and ``polarization`` (the
+    outcome of the rule of :mod:`vibrapol.polarization`).  Raman-inactive bands (by their
+    species, or with zero polarizability derivative) are left out unless
+    ``include_inactive``; imaginary modes (negative wavenumbers: not a minimum) always are.
     """
     rows = []
     for members in table.sets():
@@ -246,14 +312,16 @@ def band_rows(
         )
         if inactive and not include_inactive:
             continue
+        activity = float(np.sum(table.activity[list(members)]))
         rows.append(
             {
                 "wavenumber_cm1": freq,
                 "species": table.irreps[k],
                 "degeneracy": len(members),
-                "activity": float(np.sum(table.activity[list(members)])),
+                "activity": activity if math.isfinite(activity) else None,
                 "rho_linear": rho if math.isfinite(rho) else None,
                 "polarized": bool(table.polarized[k]) if known and math.isfinite(rho) else None,
+                "polarization": table.polarization[k] if table.polarization else "",
             }
         )
     return rows
@@ -261,7 +329,7 @@ def band_rows(
 
 def _caption_parts(table: RamanTable, scale: FrequencyScale | None) -> tuple[str, str, str]:
     """(what was computed, how the wavenumbers were scaled, point group) for a caption."""
-    h = _header(table)
+    h = header_fields(table)
     what = " ".join(x for x in (h["program"], h["method"]) if x) or h["source"]
     how = "unscaled" if scale is None else scale.describe()
     n_imag = int(np.sum(table.freqs_cm1 < 0.0))
@@ -270,16 +338,26 @@ def _caption_parts(table: RamanTable, scale: FrequencyScale | None) -> tuple[str
     return what, how, h["point_group"]
 
 
-_CAPTION_TAIL = (
-    "ρ for linearly polarized light at 90°; p: polarized, dp: depolarized; "
-    "Raman-inactive bands omitted."
-)
+_CAPTION_TAIL = f"ρ for linearly polarized light at 90°; {RULE_TEXT}; Raman-inactive bands omitted."
 
 
 def _pol_mark(row: dict[str, object]) -> str:
-    if row["polarized"] is None:
-        return ""
-    return "p" if row["polarized"] else "dp"
+    return MARKS[str(row["polarization"])]
+
+
+def _activity(row: dict[str, object], dash: str) -> str:
+    return dash if row["activity"] is None else f"{row['activity']:.2f}"
+
+
+def _band_warnings(table: RamanTable) -> list[str]:
+    """Warnings, and the note on missing Raman data, for the lines around a band table."""
+    out = list(table.warnings)
+    if not table.has_raman_data:
+        out.append(
+            "no Raman data in the source: activities and ratios are empty; p(sym), dp(sym): "
+            "polarized, depolarized as expected from the species"
+        )
+    return out
 
 
 def table_markdown(table: RamanTable, scale: FrequencyScale | None = None) -> str:
@@ -296,9 +374,12 @@ def table_markdown(table: RamanTable, scale: FrequencyScale | None = None) -> st
     for row in band_rows(table, scale):
         rho = "–" if row["rho_linear"] is None else f"{row['rho_linear']:.3f}"
         lines.append(
-            f"| {row['wavenumber_cm1']:.0f} | {row['species'] or '–'} | {row['activity']:.2f}"
+            f"| {row['wavenumber_cm1']:.0f} | {row['species'] or '–'} | {_activity(row, '–')}"
             f" | {rho} | {_pol_mark(row)} |"
         )
+    extra = _band_warnings(table)
+    if extra:
+        lines += ["", *(f"> warning: {w}" for w in extra)]
     return "\n".join(lines) + "\n"
 
 
@@ -342,10 +423,11 @@ def table_latex(table: RamanTable, scale: FrequencyScale | None = None) -> str:
         rho = "--" if row["rho_linear"] is None else f"{row['rho_linear']:.3f}"
         rows.append(
             f"  {row['wavenumber_cm1']:.0f} & {latex_species(str(row['species'])) or '--'} & "
-            f"{row['activity']:.2f} & {rho} & {_pol_mark(row)} \\\\"
+            f"{_activity(row, '--')} & {rho} & {_pol_mark(row)} \\\\"
         )
     return "\n".join(
         [
+            *(f"% warning: {w}" for w in _band_warnings(table)),
             "\\begin{table}",
             f"\\caption{{{caption}}}",
             "\\begin{tabular}{rlrrl}",
@@ -368,146 +450,3 @@ FORMATTERS = {
     "markdown": table_markdown,
     "latex": table_latex,
 }
-
-
-# -- symmetry report (``vibrapol symmetry``) ----------------------------------------------------
-
-
-def _character(value: float) -> str:
-    return str(int(round(value))) if abs(value - round(value)) < 1e-6 else f"{value:.3f}"
-
-
-def character_table_text(group: PointGroup) -> str:
-    """The character table of ``group`` as fixed-width text (classes across, species down)."""
-    width = max(6, *(len(c) + 1 for c in group.class_labels))
-    lines = [f"{group.symbol:<8}" + "".join(f"{c:>{width}}" for c in group.class_labels)]
-    for name, row in zip(group.irreps, group.characters, strict=True):
-        lines.append(f"{name:<8}" + "".join(f"{_character(v):>{width}}" for v in row))
-    if group.linear:
-        lines.append("(operations of the finite subgroup used for the linear molecule)")
-    return "\n".join(lines) + "\n"
-
-
-def symmetry_rows(group: PointGroup) -> list[dict[str, object]]:
-    """One dictionary per species: name, dimension, count in Γ_vib and selection rules."""
-    counts = gamma_vib(group)
-    return [
-        {
-            "irrep": r.irrep,
-            "dim": r.dim,
-            "count_vib": counts.get(r.irrep, 0),
-            "ir_active": r.ir_active,
-            "ir_components": r.ir_components,
-            "raman_active": r.raman_active,
-            "polarization": r.polarization,
-        }
-        for r in species_rules(group)
-    ]
-
-
-def mode_rows(symmetry: ModeSymmetry) -> list[dict[str, object]]:
-    """One dictionary per mode: frequency, species, set, purity, activities, expected band."""
-    rules = {r.irrep: r for r in species_rules(symmetry.group)}
-    set_of = {k: i for i, s in enumerate(symmetry.sets) for k in s}
-    purity = symmetry.purity
-    freqs = symmetry.modes.freqs_cm1
-    return [
-        {
-            "mode": k + 1,
-            "frequency_cm1": float(freqs[k]),
-            "irrep": name,
-            "degenerate_set": set_of[k] + 1,
-            "purity": float(purity[k]),
-            "ir_active": rules[name].ir_active,
-            "raman_active": rules[name].raman_active,
-            "polarization": rules[name].polarization,
-        }
-        for k, name in enumerate(symmetry.irreps)
-    ]
-
-
-def symmetry_text(
-    group: PointGroup,
-    *,
-    symmetry: ModeSymmetry | None = None,
-    source: str = "",
-    characters: bool = False,
-) -> str:
-    """What ``vibrapol symmetry`` prints: point group, Γ_vib, selection rules, mode species."""
-    counts = band_counts(group)
-    n_modes = sum(r["dim"] * r["count_vib"] for r in symmetry_rows(group))
-    lines = [
-        f"source: {source or '(in memory)'} ({group.n_atoms} atoms)",
-        f"point group: {group.symbol}   (tolerance {group.tolerance_ang:g} Å; largest atom "
-        f"mismatch {group.max_deviation_ang:.2g} Å)",
-        f"species names: {group.convention}",
-    ]
-    lines += [f"note: {n}" for n in group.notes]
-    lines += [
-        f"Γ_vib = {format_representation(gamma_vib(group))}   ({n_modes} modes, "
-        f"{counts.fundamentals} fundamentals)",
-        "",
-        f"{'species':<8} {'dim':>3} {'in Γ_vib':>8}  {'IR':<9} {'Raman':<6} expected Raman band",
-    ]
-    for row in symmetry_rows(group):
-        ir = row["ir_components"] if row["ir_active"] else "-"
-        band = {
-            "polarized": "polarized (rho_linear < 3/4)",
-            "depolarized": "depolarized (rho_linear = 3/4)",
-            "inactive": "-",
-        }[row["polarization"]]
-        lines.append(
-            f"{row['irrep']:<8} {row['dim']:>3} {row['count_vib']:>8}  {ir:<9} "
-            f"{'active' if row['raman_active'] else '-':<6} {band}"
-        )
-    lines += [
-        "",
-        f"fundamentals: {counts.fundamentals}; Raman-active {counts.raman_active} "
-        f"({counts.polarized} polarized); IR-active {counts.ir_active}; "
-        f"in both {counts.coincident}; in neither {counts.silent}",
-    ]
-    if characters:
-        lines += ["", character_table_text(group).rstrip("\n")]
-    if symmetry is not None:
-        lines += ["", "modes (species of each degenerate set; purity 1 = pure species):"]
-        lines += [f"note: {n}" for n in symmetry.notes]
-        lines.append(
-            f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'set':>4} {'purity':>7} "
-            f"{'IR':>3} {'Ra':>3}  Raman band"
-        )
-        for row in mode_rows(symmetry):
-            lines.append(
-                f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6} "
-                f"{row['degenerate_set']:>4} {row['purity']:>7.4f} "
-                f"{_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}  "
-                f"{row['polarization']}"
-            )
-    return "\n".join(lines) + "\n"
-
-
-def symmetry_json(
-    group: PointGroup, *, symmetry: ModeSymmetry | None = None, source: str = ""
-) -> str:
-    """JSON document with the same content as :func:`symmetry_text`."""
-    doc: dict[str, object] = {
-        "source": source,
-        "point_group": group.symbol,
-        "tolerance_ang": group.tolerance_ang,
-        "max_deviation_ang": group.max_deviation_ang,
-        "convention": group.convention,
-        "notes": list(group.notes),
-        "gamma_vib": gamma_vib(group),
-        "band_counts": dataclasses.asdict(band_counts(group)),
-        "species": symmetry_rows(group),
-        "character_table": {
-            "classes": list(group.class_labels),
-            "class_sizes": group.class_sizes.tolist(),
-            "irreps": list(group.irreps),
-            "characters": group.characters.round(12).tolist(),
-        },
-    }
-    if symmetry is not None:
-        doc["modes"] = mode_rows(symmetry)
-        doc["symmetrized"] = symmetry.symmetrized
-        doc["mode_notes"] = list(symmetry.notes)
-    return json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False) + "\n"

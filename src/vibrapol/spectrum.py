@@ -233,7 +233,7 @@ def stick_spectrum(
     table : RamanTable, optional
         Supplies the degenerate sets, ρ and irreps.  Default: with ``symmetry`` the table of
         :func:`vibrapol.ramantable.symmetry_table` (species and sets from the point group; the
-        modes may be averaged over the group when their labels are impure), else
+        numbers stay the source's), else
         ``raman_table(modes)`` with sets from ``degeneracy_tol_cm1``.
     symmetry : bool
         Label the bands by symmetry species when no ``table`` is given (default True).

@@ -9,17 +9,21 @@ quantum-chemistry output or *.modes.json) it also gives the species of every mod
 from __future__ import annotations
 
 import argparse
+import contextlib
+import warnings
+from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.errors import OptionError, VibrapolWarning
 from vibrapol.modeset import ModeSet
-from vibrapol.report import symmetry_json, symmetry_text
 from vibrapol.sources import read_modes, readers
 from vibrapol.sources.registry import read_text, sniff_text
 from vibrapol.structure import read_structure
 from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, analyse_modes, find_point_group
+from vibrapol.symmetry_report import symmetry_json, symmetry_text
 
 HELP = "point group, Γ_vib and selection rules of a structure or of computed modes"
 
@@ -36,11 +40,36 @@ def add_symmetry_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--symmetrize",
-        choices=("auto", "always", "never"),
-        default="auto",
-        help="average the Hessian and Raman tensors over the point group before labelling the "
-        "modes: when labels are impure (auto, the default), always, or never",
+        action="store_true",
+        help="average the Hessian and the polarizability derivative tensors over the point group "
+        "before labelling, which changes frequencies and activities slightly (announced in the "
+        "output); refused for sources with only activities and ratios. Default: off, the "
+        "numbers are the source's and mixed modes are named in a warning",
     )
+
+
+def recorded_warnings() -> contextlib.AbstractContextManager[list[str]]:
+    """Collect the texts of vibrapol warnings raised inside the block, and still show them.
+
+    The texts go into the header of the file written, so that CSV and JSON users see every
+    warning stderr showed.
+    """
+    return _recorder()
+
+
+@contextlib.contextmanager
+def _recorder() -> Iterator[list[str]]:
+    texts: list[str] = []
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", VibrapolWarning)
+            yield texts
+    finally:
+        for w in caught:
+            if issubclass(w.category, VibrapolWarning):
+                texts.append(str(w.message))
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
+        texts[:] = list(dict.fromkeys(texts))
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -81,28 +110,40 @@ def read_structure_or_modes(
 def run(args: argparse.Namespace) -> int:
     """Find the point group, reduce Γ_vib, label the modes if there are any, print."""
     check_output(args)
-    data = read_structure_or_modes(args.source, args.kind)
-    symmetry = None
-    if isinstance(data, ModeSet):
-        group = find_point_group(
-            data.atomic_numbers,
-            data.coordinates_ang,
-            data.masses_da,
-            tolerance_ang=args.symmetry_tolerance_ang,
-            where=args.source,
-        )
-        if data.n_modes:
-            symmetry = analyse_modes(data, group, symmetrize=args.symmetrize)
-    else:
-        z, xyz = data
-        group = find_point_group(
-            z, xyz, tolerance_ang=args.symmetry_tolerance_ang, where=args.source
-        )
+    with recorded_warnings() as texts:
+        data = read_structure_or_modes(args.source, args.kind)
+        symmetry = None
+        if isinstance(data, ModeSet):
+            group = find_point_group(
+                data.atomic_numbers,
+                data.coordinates_ang,
+                data.masses_da,
+                tolerance_ang=args.symmetry_tolerance_ang,
+                where=args.source,
+            )
+            if data.n_modes:
+                symmetry = analyse_modes(data, group, symmetrize=args.symmetrize)
+        else:
+            if args.symmetrize:
+                raise OptionError(
+                    f"{args.source}: --symmetrize needs normal modes; a structure has none"
+                )
+            z, xyz = data
+            group = find_point_group(
+                z, xyz, tolerance_ang=args.symmetry_tolerance_ang, where=args.source
+            )
     source = str(Path(args.source))
     if args.format == "json":
-        emit(args, symmetry_json(group, symmetry=symmetry, source=source))
+        emit(args, symmetry_json(group, symmetry=symmetry, source=source, warnings=texts))
     else:
         emit(
-            args, symmetry_text(group, symmetry=symmetry, source=source, characters=args.characters)
+            args,
+            symmetry_text(
+                group,
+                symmetry=symmetry,
+                source=source,
+                characters=args.characters,
+                warnings=texts,
+            ),
         )
     return 0

@@ -6,10 +6,10 @@ import argparse
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
 from vibrapol.cli.spectrum import add_scale_arguments, scale_from_args
-from vibrapol.cli.symmetry import add_symmetry_arguments
-from vibrapol.errors import VibrapolError
+from vibrapol.cli.symmetry import add_symmetry_arguments, recorded_warnings
+from vibrapol.errors import OptionError, VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1
-from vibrapol.ramantable import raman_table, symmetry_table
+from vibrapol.ramantable import raman_table, symmetry_table, with_warnings
 from vibrapol.report import FORMATTERS
 from vibrapol.sources import read_modes, readers
 
@@ -58,16 +58,20 @@ def run(args: argparse.Namespace) -> int:
             "(--format markdown or latex); the per-mode formats list harmonic wavenumbers"
         )
     scale = scale_from_args(args) if scaled else None
-    modes = read_modes(args.source, kind=args.kind)
-    if args.no_symmetry:
-        table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
-    else:
-        _, table = symmetry_table(
-            modes,
-            tolerance_ang=args.symmetry_tolerance_ang,
-            symmetrize=args.symmetrize,
-            degeneracy_tol_cm1=args.degeneracy_tol_cm1,
-        )
+    if args.no_symmetry and args.symmetrize:
+        raise OptionError("--symmetrize needs the point group; it cannot go with --no-symmetry")
+    with recorded_warnings() as texts:
+        modes = read_modes(args.source, kind=args.kind)
+        if args.no_symmetry:
+            table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
+        else:
+            _, table = symmetry_table(
+                modes,
+                tolerance_ang=args.symmetry_tolerance_ang,
+                symmetrize=args.symmetrize,
+                degeneracy_tol_cm1=args.degeneracy_tol_cm1,
+            )
+    table = with_warnings(table, texts)
     if args.format in BAND_FORMATS:
         emit(args, FORMATTERS[args.format](table, scale))
     else:

@@ -52,11 +52,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from vibrapol.errors import VibrapolError
+from vibrapol.polarization import POLARIZED_MARGIN, measurably_polarized
 
-#: A measured band counts as polarized when ρ + 2σ_ρ lies below 3/4 − this margin.  Imperfect
-#: polarizers and the finite collection angle raise measured ratios of polarized bands a
-#: little, never lower those of depolarized ones below 3/4 by much (common practice).
-MEASURED_POLARIZED_MARGIN = 0.05
+#: A measured band counts as polarized when ρ + 2σ_ρ lies below 3/4 − this margin: the one
+#: rule of :mod:`vibrapol.polarization`, which tables and figures use too.
+MEASURED_POLARIZED_MARGIN = POLARIZED_MARGIN
 
 
 @dataclass(frozen=True)
@@ -166,9 +166,17 @@ def intensity_z2(model: CostModel, bands: BandData, modes: ModeData, offset: flo
     return np.minimum(z * z, model.cap)
 
 
+#: A computed ρ within this of 3/4 is taken as the exact 3/4 of a non-totally-symmetric mode
+#: (programs print 3–4 decimals) and gets ``sigma_rho_depolarized``; any lower computed ρ is a
+#: model prediction and gets ``sigma_rho_polarized``.  This chooses an uncertainty, not the
+#: polarized/depolarized class, which follows :mod:`vibrapol.polarization`.
+EXACT_THREE_QUARTERS_TOL = 0.01
+
+
 def polarization_z2(model: CostModel, bands: BandData, modes: ModeData) -> np.ndarray:
     """min(z_ρ², cap) for every pair; 0 where either ratio is unknown."""
-    sigma_mode = np.where(modes.polarized, model.sigma_rho_polarized, model.sigma_rho_depolarized)
+    predicted = np.nan_to_num(modes.rho, nan=1.0) < 0.75 - EXACT_THREE_QUARTERS_TOL
+    sigma_mode = np.where(predicted, model.sigma_rho_polarized, model.sigma_rho_depolarized)
     var = bands.rho_err[:, None] ** 2 + sigma_mode[None, :] ** 2
     d = bands.rho[:, None] - modes.rho[None, :]
     z2 = np.where(np.isfinite(d), d * d / var, 0.0)
@@ -209,11 +217,11 @@ def unassigned_mode_costs(
 
 
 def measured_polarized(rho: np.ndarray, rho_err: np.ndarray) -> np.ndarray:
-    """Measured bands significantly below 3/4 (NaN ρ gives False)."""
-    r = np.asarray(rho, dtype=float)
-    e = np.nan_to_num(np.asarray(rho_err, dtype=float), nan=0.0)
-    with np.errstate(invalid="ignore"):
-        return np.nan_to_num(r + 2.0 * e, nan=np.inf) < 0.75 - MEASURED_POLARIZED_MARGIN
+    """Measured bands measurably polarized: ρ + 2σ < 3/4 − 0.05 (NaN ρ gives False).
+
+    :func:`vibrapol.polarization.measurably_polarized`, the rule every output uses.
+    """
+    return measurably_polarized(rho, rho_err)
 
 
 #: Basis sets whose scaled wavenumbers stray further than the default tolerance allows:

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
+from vibrapol.errors import AccuracyWarning, ChangedValuesWarning, ShapeError, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.symmetry.characters import species_rules
 from vibrapol.symmetry.pointgroup import (
@@ -33,9 +33,9 @@ from vibrapol.symmetry.pointgroup import (
 from vibrapol.symmetry.printed import compare_program_species
 from vibrapol.units import cm1_to_hessian_eigenvalue
 
-#: A set whose species weight or invariance is below this is called impure; with
-#: ``symmetrize="auto"`` the mode set is then symmetrized over the group first.  Modes of an
-#: exactly symmetric Hessian reach 1 − 1e-12; modes printed to 2–3 decimals about 0.98–0.999.
+#: A set whose species weight or invariance is below this is called impure (mixed): its modes
+#: are named in a warning.  Modes of an exactly symmetric Hessian reach 1 − 1e-12; modes printed
+#: to 2–3 decimals about 0.98–0.999.
 PURITY_MIN = 0.95
 
 
@@ -81,8 +81,10 @@ class ModeSymmetry:
         (1/(d g)) Σ_R ‖V_Sᵀ D(R) V_S‖², 1 when the operations map the set onto itself.
     ir_active, raman_active, totally_symmetric : ndarray of bool (n_modes,)
     symmetrized : bool
-        Whether the Hessian and tensors were averaged over the group first.
+        Whether the Hessian and tensors were averaged over the group first (only on request).
     notes : tuple of str
+    warnings : tuple of str
+        Warnings raised while labelling (mixed modes, averaging done), for output headers.
     """
 
     group: PointGroup
@@ -97,6 +99,7 @@ class ModeSymmetry:
     totally_symmetric: np.ndarray
     symmetrized: bool
     notes: tuple[str, ...] = ()
+    warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         n = self.modes.n_modes
@@ -188,11 +191,40 @@ def classify_modes(group: PointGroup, modes_mw: np.ndarray, freqs_cm1: np.ndarra
     return tuple(sets), tuple(set_irreps), np.array(purity), np.array(invariance)
 
 
+def mixed_modes_warning(
+    sets: tuple[tuple[int, ...], ...],
+    quality: np.ndarray,
+    group: PointGroup,
+    where: str,
+    has_tensors: bool = True,
+) -> str:
+    """The warning for sets whose purity is below :data:`PURITY_MIN` ('' when none is).
+
+    Names every such mode with its purity, so a user can tell which labels to doubt, and says
+    whether averaging over the group could be asked for (only with derivative tensors).
+    """
+    bad = [(k, float(q)) for s, q in zip(sets, quality, strict=True) if q < PURITY_MIN for k in s]
+    if not bad:
+        return ""
+    listed = ", ".join(f"{k + 1} ({q:.2f})" for k, q in sorted(bad))
+    n = len(bad)
+    return (
+        f"{where}: {n} mode{'s look' if n > 1 else ' looks'} mixed, not pure species of "
+        f"{group.symbol} (purity below {PURITY_MIN}): mode{'s' if n > 1 else ''} {listed}; "
+        "their labels are uncertain and their numbers are the source's "
+        + (
+            "(averaging over the group is opt-in: --symmetrize)"
+            if has_tensors
+            else "(without derivative tensors they cannot be averaged over the group)"
+        )
+    )
+
+
 def analyse_modes(
     modes: ModeSet,
     group: PointGroup,
     *,
-    symmetrize: str = "auto",
+    symmetrize: bool = False,
 ) -> ModeSymmetry:
     """Assign every mode and every degenerate set of ``modes`` to a species of ``group``.
 
@@ -201,48 +233,40 @@ def analyse_modes(
     modes : ModeSet
     group : PointGroup
         From :func:`~vibrapol.symmetry.find_point_group` on ``modes``' own coordinates.
-    symmetrize : {'auto', 'always', 'never'}
+    symmetrize : bool
         Average the Hessian (rebuilt from frequencies and modes) and the Raman tensors over the
-        group before the analysis: always, never, or when some set is impure
-        (:data:`PURITY_MIN`).
+        group before the analysis (:func:`symmetrize_modeset`; refused for sources that give
+        only a², γ² or activities).  Default False: the labels describe the modes as given.
 
     Returns
     -------
     ModeSymmetry
+
+    Warns
+    -----
+    AccuracyWarning
+        When some set is not a pure species (:data:`PURITY_MIN`), naming the modes; the same
+        text is kept in :attr:`ModeSymmetry.warnings`.
     """
-    if symmetrize not in ("auto", "always", "never"):
-        raise ValueError(f"symmetrize must be 'auto', 'always' or 'never', got {symmetrize!r}")
+    if not isinstance(symmetrize, bool | np.bool_):
+        raise TypeError(f"symmetrize must be True or False, got {symmetrize!r}")
     if group.n_atoms != modes.n_atoms:
         raise ShapeError(f"point group is for {group.n_atoms} atoms, the modes for {modes.n_atoms}")
     notes: list[str] = []
+    found: list[str] = []
     where = modes.provenance.source_file or "mode set"
-    result = classify_modes(group, modes.modes, modes.freqs_cm1)
-    done = False
-    poor = np.minimum(result[2], result[3]) < PURITY_MIN
-    if symmetrize == "always" or (symmetrize == "auto" and poor.any() and group.order > 1):
-        if symmetrize == "auto":
-            notes.append(f"{int(poor.sum())} set(s) had purity below {PURITY_MIN}")
-        try:
-            modes = symmetrize_modeset(modes, group)
-        except VibrapolError as exc:
-            if symmetrize == "always":
-                raise
-            notes.append(f"could not symmetrize: {exc}")
-        else:
-            result = classify_modes(group, modes.modes, modes.freqs_cm1)
-            notes.append(modes.provenance.notes[-1])
-            done = True
-    sets, set_irreps, purity, invariance = result
+    if symmetrize:
+        modes = symmetrize_modeset(modes, group)
+        notes.append(modes.provenance.notes[-1])
+        found.append(f"{where}: {modes.provenance.notes[-1]} (asked for with --symmetrize)")
+        warnings.warn(found[-1], ChangedValuesWarning, stacklevel=2)
+    sets, set_irreps, purity, invariance = classify_modes(group, modes.modes, modes.freqs_cm1)
     quality = np.minimum(purity, invariance)
-    if np.any(quality < PURITY_MIN):
-        bad = int(np.argmin(quality))
-        warnings.warn(
-            f"{where}: {int(np.sum(quality < PURITY_MIN))} set(s) of modes are not pure species of "
-            f"{group.symbol} (worst: modes {', '.join(str(k + 1) for k in sets[bad])}, purity "
-            f"{quality[bad]:.2f}); their labels are uncertain",
-            AccuracyWarning,
-            stacklevel=2,
-        )
+    has_tensors = modes.dalpha_dq is not None or not modes.has_activity
+    mixed = mixed_modes_warning(sets, quality, group, where, has_tensors)
+    if mixed:
+        found.append(mixed)
+        warnings.warn(mixed, AccuracyWarning, stacklevel=2)
     rules = {r.irrep: r for r in species_rules(group)}
     irreps = [""] * modes.n_modes
     for s, name in zip(sets, set_irreps, strict=True):
@@ -261,8 +285,9 @@ def analyse_modes(
         ir_active=np.array([rules[n].ir_active for n in irreps], dtype=bool),
         raman_active=np.array([rules[n].raman_active for n in irreps], dtype=bool),
         totally_symmetric=np.array([rules[n].totally_symmetric for n in irreps], dtype=bool),
-        symmetrized=done,
+        symmetrized=symmetrize,
         notes=tuple(notes),
+        warnings=tuple(found),
     )
 
 
@@ -270,7 +295,7 @@ def mode_symmetry(
     modes: ModeSet,
     *,
     tolerance_ang: float = DEFAULT_TOLERANCE_ANG,
-    symmetrize: str = "auto",
+    symmetrize: bool = False,
 ) -> ModeSymmetry:
     """Point group of ``modes``' structure and the species of every mode, in one call.
 
@@ -322,26 +347,31 @@ def symmetrize_modeset(modes: ModeSet, group: PointGroup) -> ModeSet:
     The mass-weighted Hessian is rebuilt from the frequencies and modes (Σ λ_k L_k L_kᵀ),
     averaged over the group and diagonalised again at the symmetrized geometry with
     :func:`vibrapol.vibrations.harmonic_analysis`.  ∂α/∂x (or ∂α/∂Q re-expanded on the
-    Cartesians) is averaged the same way.  Sources with only a² and γ² per mode pass them on
-    weighted by |⟨new|old⟩|²: invariants cannot be averaged over the group, but their sums
-    over each degenerate set are kept up to the (small) mixing between sets.  New modes keep
-    the order of the old ones (best overlap).
+    Cartesians) is averaged the same way.  New modes keep the order of the old ones (best
+    overlap).
 
     Raises
     ------
     VibrapolError
-        If the mode set is not complete (3N − 6 or 3N − 5 modes).
+        If the mode set is not complete (3N − 6 or 3N − 5 modes), or if the source gives only
+        the scalar invariants a², γ² or activities: those of mixed modes cannot be un-mixed (the
+        signs and cross terms of the tensors are lost), so averaging would invent numbers.
     """
     from vibrapol.vibrations import harmonic_analysis
 
     n = modes.n_atoms
     masses = modes.masses_da
+    where = modes.provenance.source_file or "mode set"
+    if modes.dalpha_dq is None and (modes.a2 is not None or modes.activity is not None):
+        raise VibrapolError(
+            f"{where}: --symmetrize refused: the source gives only activities and ratios (scalar "
+            "invariants), and those of mixed modes cannot be un-mixed by averaging over the group; "
+            "symmetrizing needs polarizability derivative tensors"
+        )
     expected = 3 * n - (5 if group.linear else 6)
     if modes.n_modes != expected:
-        where = modes.provenance.source_file or "mode set"
         raise VibrapolError(
-            f"{where}: symmetrizing needs all {expected} modes, got {modes.n_modes}; "
-            "use --symmetrize never"
+            f"{where}: --symmetrize needs all {expected} vibrations, the source has {modes.n_modes}"
         )
     coords = symmetrize_coordinates(modes.coordinates_ang, group)
     lam = cm1_to_hessian_eigenvalue(modes.freqs_cm1)  # hartree bohr⁻² Da⁻¹, as harmonic_analysis
@@ -355,22 +385,20 @@ def symmetrize_modeset(modes: ModeSet, group: PointGroup) -> ModeSet:
     order = rows[np.argsort(cols)]
     new_modes = harmonic.modes[order]
     new_freqs = harmonic.freqs_cm1[order]
-    extra: dict = {"dalpha_dx": None, "dalpha_dq": None, "a2": None, "gamma2": None}
+    extra: dict = {"dalpha_dx": None, "dalpha_dq": None, "ir_intensity_km_mol": None}
     if modes.dalpha_dx is not None:
         extra["dalpha_dx"] = symmetrize_dalpha_dx(modes.dalpha_dx, group)
     elif modes.dalpha_dq is not None:
         dadx = np.einsum("ki,kab->iab", modes.modes, modes.dalpha_dq) * sqrt_m[:, None, None]
         dadx = symmetrize_dalpha_dx(dadx, group)
         extra["dalpha_dq"] = np.einsum("ki,iab->kab", new_modes, dadx / sqrt_m[:, None, None])
-    elif modes.a2 is not None:
-        w = (new_modes @ modes.modes.T) ** 2
-        extra["a2"], extra["gamma2"] = w @ modes.a2, w @ modes.gamma2
     shift = float(np.max(np.linalg.norm(coords - modes.coordinates_ang, axis=1)))
+    dropped = "; IR intensities dropped" if modes.ir_intensity_km_mol is not None else ""
     note = (
         f"symmetrized over {group.symbol}: atoms moved by ≤ {shift:.2g} Å, Hessian"
         + (" and Raman tensors" if modes.has_raman else "")
         + f" averaged over the group; largest frequency change "
-        f"{np.max(np.abs(new_freqs - modes.freqs_cm1)):.2g} cm⁻¹"
+        f"{np.max(np.abs(new_freqs - modes.freqs_cm1)):.2g} cm⁻¹{dropped}"
     )
     return dataclasses.replace(
         modes,

@@ -248,7 +248,7 @@ def test_species_compared_with_ours(capsys):
     ms = _read(text.replace(row, swapped))
     from vibrapol.symmetry import mode_symmetry
 
-    sym = mode_symmetry(ms, symmetrize="never")
+    sym = mode_symmetry(ms, symmetrize=False)
     assert any("up to the choice of axes (printed B2 = B1, B1 = B2)" in n for n in sym.notes)
 
 

@@ -56,8 +56,9 @@ def run_csv(capsys, *args):
 def test_orca6_default_table_has_the_printed_numbers(capsys):
     # ORCA 6.0.1 dvb (numerical Hessian, run without symmetry): the RAMAN SPECTRUM block prints
     # wavenumbers (2 decimals), activities and ratios (6 decimals).  The default table must give
-    # them back to print precision and in the printed (ascending) order; only Raman-forbidden
-    # modes below the numerical noise (1e-5 of the strongest) are shown as 0, with a note.
+    # them back to print precision and in the printed (ascending) order, Raman-forbidden modes
+    # at numerical noise included (CSV keeps what was read; only the text table shows them as
+    # 0, and the note says so).
     path = qc_output(ORCA6)
     printed = printed_orca_raman(path)
     assert printed.shape == (54, 3)
@@ -66,14 +67,13 @@ def test_orca6_default_table_has_the_printed_numbers(capsys):
     np.testing.assert_array_equal(freqs, printed[:, 0])
     assert freqs == sorted(freqs)
     top = printed[:, 1].max()
+    noise = 0
     for row, (_, activity, rho) in zip(rows, printed, strict=True):
-        if row["raman_active"] == "false" and activity <= 1e-5 * top:
-            assert float(row["activity"]) == 0.0
-            continue
+        noise += row["raman_active"] == "false" and activity <= 1e-5 * top
         assert float(row["activity"]) == pytest.approx(activity, abs=5e-7)
         if activity > 1e-3:
             assert float(row["rho_linear"]) == pytest.approx(rho, abs=5e-7)
-    assert any("shown with activity 0" in c for c in comments)
+    assert noise and any("with activity 0" in c and "keep the numbers" in c for c in comments)
     # the mixed modes are named, on stderr and in the file (purity from the modes as printed)
     mixed = [c for c in comments if c.startswith("warning:") and "look mixed" in c]
     assert len(mixed) == 1 and "53 (0.56), 54 (0.56)" in mixed[0] and "look mixed" in err
@@ -257,20 +257,25 @@ def test_ir_intensity_column_in_every_format():
 def test_forbidden_noise_is_shown_as_zero(name):
     # dvb is C2h: Au and Bu fundamentals are Raman-forbidden (mutual exclusion, fact of the
     # trade).  Their activities from the derivatives are ~1e-22 (Gaussian) and ~1e-10 (DALTON)
-    # of the strongest: shown as 0 with a note; the mode set keeps what was read.
+    # of the strongest: the text table shows 0 with a note; the mode set, CSV and JSON keep
+    # what was read.
     modes = read_modes(qc_output(name))
     _, table = symmetry_table(modes)
     forbidden = ~table.raman_active
     assert forbidden.sum() == 27  # 27 Ag+Bg Raman-active of 54 (Γ_vib = 10Ag+4Au+...; README)
     assert np.all(table.activity[forbidden] > 0)  # the numbers read, unchanged
+    from vibrapol.report import table_rows
+
+    shown = table_rows(table, show_zero=True)
     rows = csv_records(table_csv(table))
-    for row, bad in zip(rows, forbidden, strict=True):
+    for row, show, bad, s in zip(rows, shown, forbidden, table.activity, strict=True):
         if bad:
-            assert (row["activity"], row["a2"], row["rho_linear"]) == ("0", "0", "")
+            assert (show["activity"], show["a2"], show["rho_linear"]) == (0.0, 0.0, None)
+            assert float(row["activity"]) == pytest.approx(s, rel=1e-9)  # CSV: as read
         else:
             assert float(row["activity"]) > 1e-3 * table.activity.max()
-    assert any("shown with activity 0" in n for n in table.notes)
-    assert "shown with activity 0" in table_text(table)
+    assert any("with activity 0" in n for n in table.notes)
+    assert "with activity 0" in table_text(table)
 
 
 # -- issue 13 point 7: one polarization rule --------------------------------------------------

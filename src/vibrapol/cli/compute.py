@@ -208,11 +208,11 @@ def run(args: argparse.Namespace) -> int:
     outputs = output_paths(files, args)
     say = lambda text: print(f"vibrapol compute: {text}", file=sys.stderr)  # noqa: E731
     single = len(files) == 1
-    items, failures = [], []
+    items, failures, estimates = [], [], []
     for f, out in zip(files, outputs, strict=True):
         try:
             atoms = read_structure(str(f))
-            _check_cost(atoms, settings, str(f), args.yes, say)
+            estimates.append(_check_cost(atoms, settings, str(f), args.yes))
         except VibrapolError as exc:
             if single:
                 raise
@@ -224,6 +224,8 @@ def run(args: argparse.Namespace) -> int:
             for item, out in items:
                 locks.enter_context(run_lock(item.checkpoint, str(out)))
                 check_writable(out, args.force)  # again: another run may have written it
+            for line in estimates:
+                say(line)
             outcomes = run_batch(
                 [item for item, _ in items],
                 settings,
@@ -251,8 +253,8 @@ def run(args: argparse.Namespace) -> int:
     return 2 if failures else 0
 
 
-def _check_cost(atoms, settings, name: str, yes: bool, say) -> None:  # noqa: ANN001
-    """Print the estimated cost; refuse one above :data:`CONFIRM_ABOVE_S` without ``--yes``."""
+def _check_cost(atoms, settings, name: str, yes: bool) -> str:  # noqa: ANN001
+    """The line announcing the estimated cost (refused above the threshold without ``--yes``)."""
     structure = as_structure(atoms)
     mol = build_molecule(structure.atomic_numbers, structure.coordinates_ang, settings.spec)
     cost = estimate_cost(len(structure.atomic_numbers), mol.nao, settings.spec)
@@ -261,7 +263,7 @@ def _check_cost(atoms, settings, name: str, yes: bool, say) -> None:  # noqa: AN
             f"{name}: estimated cost {cost.describe()} of serial time exceeds "
             f"{format_duration(CONFIRM_ABOVE_S)}; pass --yes to run it anyway"
         )
-    say(f"{name}: estimated cost {cost.describe()} of serial time (order of magnitude)")
+    return f"{name}: estimated cost {cost.describe()} of serial time (order of magnitude)"
 
 
 def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  # noqa: ANN001

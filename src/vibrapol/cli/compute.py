@@ -27,7 +27,12 @@ from vibrapol.engine.compute import (
     engine_settings,
     run_batch,
 )
-from vibrapol.engine.estimate import CONFIRM_ABOVE_S, estimate_cost, format_duration
+from vibrapol.engine.estimate import (
+    ANNOUNCE_ABOVE_S,
+    CONFIRM_ABOVE_S,
+    estimate_cost,
+    format_duration,
+)
 from vibrapol.engine.executors import check_scheduler_address
 from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, build_molecule
@@ -212,13 +217,15 @@ def run(args: argparse.Namespace) -> int:
     for f, out in zip(files, outputs, strict=True):
         try:
             atoms = read_structure(str(f))
-            estimates.append(_check_cost(atoms, settings, str(f), args.yes))
+            estimate = _check_cost(atoms, settings, str(f), args.yes)
         except VibrapolError as exc:
             if single:
                 raise
             failures.append(str(exc))
             continue
         items.append((BatchItem(atoms, str(f), checkpoint_path_for(out)), out))
+        if estimate is not None:
+            estimates.append(estimate)
     with ExitStack() as locks, sigterm_as_interrupt():
         try:
             for item, out in items:
@@ -253,8 +260,8 @@ def run(args: argparse.Namespace) -> int:
     return 2 if failures else 0
 
 
-def _check_cost(atoms, settings, name: str, yes: bool) -> str:  # noqa: ANN001
-    """The line announcing the estimated cost (refused above the threshold without ``--yes``)."""
+def _check_cost(atoms, settings, name: str, yes: bool) -> str | None:  # noqa: ANN001
+    """The line announcing a long estimated cost (refused above the threshold without --yes)."""
     structure = as_structure(atoms)
     mol = build_molecule(structure.atomic_numbers, structure.coordinates_ang, settings.spec)
     cost = estimate_cost(len(structure.atomic_numbers), mol.nao, settings.spec)
@@ -263,6 +270,8 @@ def _check_cost(atoms, settings, name: str, yes: bool) -> str:  # noqa: ANN001
             f"{name}: estimated cost {cost.describe()} of serial time exceeds "
             f"{format_duration(CONFIRM_ABOVE_S)}; pass --yes to run it anyway"
         )
+    if cost.seconds < ANNOUNCE_ABOVE_S:
+        return None
     return f"{name}: estimated cost {cost.describe()} of serial time (order of magnitude)"
 
 

@@ -182,8 +182,10 @@ class CheckpointStore:
             raise self._unusable(exc) from exc
 
     def _unusable(self, exc: BaseException) -> VibrapolError:
+        said = " ".join(str(exc).split())  # SQLite's report may span lines
+        said = said if len(said) <= 120 else said[:117] + "..."
         return VibrapolError(
-            f"{self.path}: damaged or not a vibrapol checkpoint (SQLite: {exc}); it was left "
+            f"{self.path}: damaged or not a vibrapol checkpoint (SQLite: {said}); it was left "
             "as it is: move it away (or pass --fresh, which deletes it) to start afresh"
         )
 

@@ -34,6 +34,9 @@ DFT_HESSIAN_FACTOR = 3.4
 #: Field-route tasks without symmetry (12 field gradients, :mod:`vibrapol.engine.fieldplan`).
 FIELD_TASKS = 12
 
+#: ``vibrapol compute`` prints the estimate of a structure above this (seconds: ten minutes).
+ANNOUNCE_ABOVE_S = 600.0
+
 #: ``vibrapol compute`` asks for ``--yes`` when the estimate of one structure exceeds this
 #: (seconds of serial time: one day).
 CONFIRM_ABOVE_S = 24 * 3600.0

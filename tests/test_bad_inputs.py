@@ -44,6 +44,7 @@ SUBPROCESS_IDS = (
     "output-parent-is-a-file",
     "measured-duplicate-x",
     "compute-one-atom",
+    "compute-scheduler-malformed",
 )
 
 

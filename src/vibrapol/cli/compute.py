@@ -267,12 +267,12 @@ def _check_cost(atoms, settings, name: str, yes: bool) -> str | None:  # noqa: A
     cost = estimate_cost(len(structure.atomic_numbers), mol.nao, settings.spec)
     if cost.seconds > CONFIRM_ABOVE_S and not yes:
         raise VibrapolError(
-            f"{name}: estimated cost {cost.describe()} of serial time exceeds "
-            f"{format_duration(CONFIRM_ABOVE_S)}; pass --yes to run it anyway"
+            f"{name}: estimated cost {cost.describe()}, more than "
+            f"{format_duration(CONFIRM_ABOVE_S)}: pass --yes to run it anyway"
         )
     if cost.seconds < ANNOUNCE_ABOVE_S:
         return None
-    return f"{name}: estimated cost {cost.describe()} of serial time (order of magnitude)"
+    return f"{name}: estimated cost {cost.describe()}, an order of magnitude"
 
 
 def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  # noqa: ANN001

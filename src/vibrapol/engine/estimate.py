@@ -66,9 +66,9 @@ class CostEstimate:
         return self.seconds_reference + self.seconds_tasks
 
     def describe(self) -> str:
-        """Short text such as ``≈ 3 h (501 atoms, 1169 basis functions)``."""
+        """Short text such as ``≈ 3.5 h of serial time (12 atoms, 230 basis functions)``."""
         size = f"{self.n_atoms} atoms, {self.n_basis} basis functions"
-        return f"≈ {format_duration(self.seconds)} ({size})"
+        return f"≈ {format_duration(self.seconds)} of serial time ({size})"
 
 
 def estimate_cost(n_atoms: int, n_basis: int, spec: MethodSpec) -> CostEstimate:
@@ -85,11 +85,13 @@ def estimate_cost(n_atoms: int, n_basis: int, spec: MethodSpec) -> CostEstimate:
 
 
 def format_duration(seconds: float) -> str:
-    """``40 s``, ``12 min``, ``3.5 h``, ``12 days``: one significant unit."""
+    """``40 s``, ``12 min``, ``3.5 h``, ``30 h``, ``12 days``: one significant unit."""
     if seconds < 90:
         return f"{seconds:.0f} s"
     if seconds < 90 * 60:
         return f"{seconds / 60:.0f} min"
-    if seconds < 48 * 3600:
+    if seconds < 10 * 3600:
         return f"{seconds / 3600:.1f} h"
+    if seconds < 48 * 3600:
+        return f"{seconds / 3600:.0f} h"
     return f"{seconds / 86400:.0f} days"

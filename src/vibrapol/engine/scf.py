@@ -150,9 +150,9 @@ def check_basis(basis: str, atomic_numbers: np.ndarray) -> None:
         )
 
 
-#: Transition metals (d block and f block): a closed-shell singlet is often not their ground
-#: state.
-TRANSITION_METALS = frozenset([*range(21, 31), *range(39, 49), *range(57, 81), *range(89, 113)])
+#: Transition metals (groups 3-11 and the f block; group 12 keeps a full d shell): a
+#: closed-shell singlet is often not their ground state.
+TRANSITION_METALS = frozenset([*range(21, 30), *range(39, 48), *range(57, 80), *range(89, 112)])
 
 
 def transition_metal_note(atomic_numbers: np.ndarray, spec: MethodSpec) -> str | None:

@@ -189,13 +189,22 @@ def open_backend(workers: int | None = None, scheduler: str | None = None) -> It
     pool.shutdown(wait=True, cancel_futures=True)
 
 
-#: Address forms Dask's client connects to: ``scheme://host:port``.
+#: Address forms Dask's client connects to: ``scheme://host:port``, or an in-process
+#: cluster's ``inproc://host/pid/n``.
 _SCHEDULER_ADDRESS = re.compile(r"^(tcp|tls|ws|wss|ucx)://(\[[0-9a-fA-F:.]+\]|[^\s:/\[\]]+):(\d+)$")
+_INPROC_ADDRESS = re.compile(r"^inproc://[^\s/]+/\d+/\d+$")
 
 
 def check_scheduler_address(scheduler: str) -> tuple[str, str, int]:
-    """Scheme, host and port of a scheduler address; raises :class:`VibrapolError` if malformed."""
-    match = _SCHEDULER_ADDRESS.match(scheduler.strip())
+    """Scheme, host and port of a scheduler address; raises :class:`VibrapolError` if malformed.
+
+    An in-process address (``inproc://…``, a cluster started in this Python process) gives
+    ``("inproc", "", 0)``.
+    """
+    text = scheduler.strip()
+    if _INPROC_ADDRESS.match(text):
+        return "inproc", "", 0
+    match = _SCHEDULER_ADDRESS.match(text)
     if match is None or not 0 < int(match.group(3)) < 65536:
         raise VibrapolError(
             f"--scheduler {scheduler!r} is not a scheduler address; give it as "

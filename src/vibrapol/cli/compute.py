@@ -221,7 +221,7 @@ def run(args: argparse.Namespace) -> int:
         except VibrapolError as exc:
             if single:
                 raise
-            failures.append(str(exc))
+            failures.append(str(exc) if str(f) in str(exc) else f"{f}: {exc}")
             continue
         items.append((BatchItem(atoms, str(f), checkpoint_path_for(out)), out))
         if estimate is not None:

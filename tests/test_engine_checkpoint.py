@@ -20,6 +20,7 @@ import pytest
 
 from vibrapol.cli import main
 from vibrapol.engine.checkpoint import CheckpointStore, CheckpointWarning
+from vibrapol.engine.runlock import RunLockedError
 
 WATER_XYZ = "3\nwater (own test input)\nO 0 0 0.1173\nH 0 0.7572 -0.4692\nH 0 -0.7572 -0.4692\n"
 ARGS = ["--basis", "sto-3g", "--no-optimize", "--route", "cartesian", "--no-symmetry"]
@@ -171,3 +172,20 @@ def test_a_checkpoint_of_an_earlier_version_without_checksums_is_still_read(tmp_
         assert np.array_equal(store.get("k")["alpha_ang3"], np.eye(3))
         store.put("k2", "alpha", "y+", {"alpha_ang3": np.ones((3, 3))}, 1.0)
         assert np.array_equal(store.get("k2")["alpha_ang3"], np.ones((3, 3)))
+
+
+def test_a_stale_lock_file_does_not_block_and_a_held_lock_does(tmp_path):
+    """The lock is the flock, not the file: a file left by ``kill -9`` is no obstacle."""
+    fcntl = pytest.importorskip("fcntl")
+    db = tmp_path / "w.modes.checkpoint.sqlite"
+    lock = tmp_path / "w.modes.checkpoint.sqlite.lock"
+    lock.write_text("")  # left behind by a killed run
+    with CheckpointStore(db) as store:
+        store.put("k", "alpha", "x+", {"alpha_ang3": np.eye(3)}, 1.0)
+    assert not lock.exists()
+    with open(lock, "w") as held:  # another open file holding the lock, as another run would
+        fcntl.flock(held, fcntl.LOCK_EX)
+        with pytest.raises(RunLockedError, match="another run is writing"):
+            CheckpointStore(db)
+    with CheckpointStore(db) as store:
+        assert np.array_equal(store.get("k")["alpha_ang3"], np.eye(3))

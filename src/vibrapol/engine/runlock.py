@@ -44,7 +44,13 @@ def lock_path_for(checkpoint: str | Path) -> Path:
 
 def _acquire(path: Path, what: str) -> int:
     while True:
-        fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o644)
+        try:
+            fd = os.open(path, os.O_RDWR | os.O_CREAT, 0o644)
+        except OSError as exc:
+            raise VibrapolError(
+                f"cannot create the lock file {path} ({exc.strerror or exc}); the directory of "
+                f"{what} must be writable"
+            ) from exc
         try:
             fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
         except BlockingIOError:
@@ -53,9 +59,12 @@ def _acquire(path: Path, what: str) -> int:
                 f"another run is writing {what} (its lock {path} is held); wait for it to "
                 "finish, or write elsewhere with -o / --output-dir"
             ) from None
-        except OSError:
+        except OSError as exc:
             os.close(fd)
-            raise
+            raise VibrapolError(
+                f"cannot lock {path} ({exc.strerror or exc}); this file system may not support "
+                "file locks: write the output to a local disk"
+            ) from exc
         # The previous holder removes the file when it finishes; if it did so between our
         # open and our lock, we hold a lock on a removed file: open the new one instead.
         try:
@@ -117,6 +126,8 @@ def sigterm_as_interrupt() -> Iterator[None]:
         return
 
     def interrupt(signum: int, frame: object) -> None:
+        # A second SIGTERM while the run stops its workers would break off that clean-up.
+        signal.signal(signal.SIGTERM, signal.SIG_IGN)
         raise KeyboardInterrupt
 
     previous = signal.signal(signal.SIGTERM, interrupt)

@@ -134,4 +134,5 @@ def sigterm_as_interrupt() -> Iterator[None]:
     try:
         yield
     finally:
-        signal.signal(signal.SIGTERM, previous)
+        # None: a handler not set from Python, which cannot be put back; use the default.
+        signal.signal(signal.SIGTERM, signal.SIG_DFL if previous is None else previous)

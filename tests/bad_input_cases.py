@@ -373,6 +373,8 @@ OPTIONS = [
      "workers must be 1 or more", "workers"),
     ("compute-charge-beyond-basis", lambda t: _compute(t, "--charge=-1000"),
      "charge -1000 gives 1010 electrons, more than the 7 orbitals", "--charge"),
+    ("compute-charge-no-electrons", lambda t: _compute(t, "--charge", "1000"),
+     "charge 1000 leaves -990 electrons", "--charge"),
     ("compute-method-empty", lambda t: _compute(t, "--method", ""), "--method is empty",
      "--method"),
     ("compute-method-blank", lambda t: _compute(t, "--method", "  "), "--method is empty",

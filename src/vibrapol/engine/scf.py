@@ -200,7 +200,9 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         )
     n_electrons = int(z.sum()) - spec.charge
     if n_electrons <= 0:
-        raise EngineInputError(f"charge {spec.charge} leaves {n_electrons} electrons")
+        raise EngineInputError(
+            f"charge {spec.charge} leaves {n_electrons} electrons on this structure; check --charge"
+        )
     if spec.multiplicity < 1:
         raise EngineInputError(f"multiplicity must be 1 or more, got {spec.multiplicity}")
     if spec.multiplicity != 1:

@@ -15,6 +15,8 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
+
 from _paths import FIXTURES, PROJECT_ROOT
 from compare_helpers import CHCL3_MODES, chcl3_pair
 
@@ -526,7 +528,37 @@ OPTIONS = [
      "every Raman shift is ≤ 0", "as.csv"),
     ("table-xyz-structure", lambda t: ["table", put(t, "w.xyz", WATER_XYZ)],
      "is a structure (XYZ) without normal modes", "w.xyz"),
+    ("compute-charge-beyond-basis", lambda t: _compute(t, "--charge=-1000"),
+     "charge -1000 gives 1010 electrons, more than the 7 orbitals", "--charge"),
+    ("compute-charge-no-electrons", lambda t: _compute(t, "--charge", "1000"),
+     "charge 1000 leaves -990 electrons", "--charge"),
+    ("compute-method-empty", lambda t: _compute(t, "--method", ""), "--method is empty",
+     "--method"),
+    ("compute-method-blank", lambda t: _compute(t, "--method", "  "), "--method is empty",
+     "--method"),
+    ("compute-basis-empty", lambda t: _compute(t, "--basis", ""), "--basis is empty", "--basis"),
+    ("compute-scheduler-malformed", lambda t: _compute(t, "--scheduler", "bogus"),
+     "is not a scheduler address", "--scheduler"),
+    ("compute-scheduler-not-listening", lambda t: _compute(t, "--scheduler", "tcp://127.0.0.1:1"),
+     "cannot connect to the Dask scheduler", "tcp://127.0.0.1:1"),
+    ("compute-too-large-without-yes",
+     lambda t: ["compute", put(t, "cluster.xyz", water_cluster(167)), "--basis", "sto-3g",
+                "-o", out(t, "c.modes.json")],
+     "estimated cost", "--yes"),
 ]  # fmt: skip
+
+
+def water_cluster(n: int) -> str:
+    """``n`` water molecules 3.1 Å apart on a cubic grid (3n atoms; an invented structure)."""
+    side = int(np.ceil(n ** (1 / 3)))
+    lines = [str(3 * n), f"{n} water molecules on a grid (invented test structure)"]
+    for k in range(n):
+        origin = 3.1 * np.array([k % side, (k // side) % side, k // side**2])
+        for symbol, xyz in (("O", (0, 0, 0.1173)), ("H", (0, 0.7572, -0.4692)),
+                            ("H", (0, -0.7572, -0.4692))):  # fmt: skip
+            x, y, z = origin + xyz
+            lines.append(f"{symbol} {x:.4f} {y:.4f} {z:.4f}")
+    return "\n".join(lines) + "\n"
 
 
 def _file_case(case_id: str, name: str, content: Content, expect: str,

@@ -46,6 +46,7 @@ SUBPROCESS_IDS = (
     "output-parent-is-a-file",
     "measured-duplicate-x",
     "compute-one-atom",
+    "compute-scheduler-malformed",
 )
 
 #: Cases that would hang (a pipe with no writer) or fill memory (a device) should the check

@@ -111,7 +111,7 @@ def test_store_round_trip_and_corrupt_file(tmp_path):
         assert store.get("missing") is None
     bad = tmp_path / "bad.sqlite"
     bad.write_text("this is not a database " * 100)
-    with pytest.raises(VibrapolError, match="not a usable vibrapol checkpoint"):
+    with pytest.raises(VibrapolError, match="damaged or not a vibrapol checkpoint"):
         CheckpointStore(bad)
     assert sqlite3.connect(path).execute("SELECT COUNT(*) FROM results").fetchone()[0] == 1
 

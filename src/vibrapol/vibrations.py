@@ -157,12 +157,37 @@ def force_constants_mdyn_ang(freqs_cm1: np.ndarray, reduced_masses_da: np.ndarra
     return np.sign(nu) * k_si / 100.0
 
 
+#: Components of a mode within this fraction of its largest magnitude count as equally large
+#: for :func:`canonical_signs` (symmetry-equivalent atoms have equal components up to rounding).
+SIGN_TIE_RTOL = 1e-6
+
+#: How vibrapol fixes the sign of the modes it computes; recorded in engine provenance.
+SIGN_CONVENTION_NOTE = (
+    "mode signs: the largest-magnitude component of each mass-weighted mode vector is positive "
+    "(of components equal within 1e-6 relative, the first in atom order, x y z); signs of "
+    "modes printed by a program are kept"
+)
+
+
 def canonical_signs(modes: np.ndarray) -> np.ndarray:
-    """Fix the arbitrary sign of each mode: its largest-magnitude component is positive."""
+    """Fix the arbitrary sign of each mode (row) so that identical runs give identical vectors.
+
+    Convention: the component of largest magnitude is positive.  Components equal to it within
+    :data:`SIGN_TIE_RTOL` (relative) are tied — symmetry-equivalent atoms move by the same
+    amount, and rounding alone would otherwise decide between them from run to run — and the
+    first of them in the order of the coordinates (atom 1 x, y, z, atom 2 x, …) decides.  A
+    mode's sign carries no physics: every Raman quantity is quadratic in it.
+
+    Within a set of degenerate modes the vectors themselves (not only their signs) are an
+    arbitrary orthonormal choice; only their sum of squares is reproducible.
+    """
     modes = np.array(modes, dtype=float)
     if modes.size == 0:
         return modes
-    idx = np.argmax(np.abs(modes), axis=1)
+    magnitude = np.abs(modes)
+    largest = magnitude.max(axis=1, keepdims=True)
+    tied = magnitude >= largest * (1.0 - SIGN_TIE_RTOL)
+    idx = np.argmax(tied, axis=1)  # the first tied component of each row
     signs = np.sign(modes[np.arange(len(modes)), idx])
     signs[signs == 0] = 1.0
     return modes * signs[:, None]

@@ -6,13 +6,16 @@ one go: their tasks share one pool of workers or Dask cluster, each gets its own
 structure that fails is reported without stopping the others.
 
 Finished tasks go to a checkpoint file beside each output (NAME.modes.checkpoint.sqlite);
-rerun the same command after an interruption to resume, or pass --fresh to start over.
+rerun the same command after an interruption (Ctrl-C, SIGTERM, a full disk) to resume, or pass
+--fresh to start over.  One run at a time per output: a second run on the same output is
+refused while the first holds its lock (NAME.modes.checkpoint.sqlite.lock).
 """
 
 from __future__ import annotations
 
 import argparse
 import sys
+from contextlib import ExitStack
 from pathlib import Path
 
 from vibrapol.engine.checkpoint import checkpoint_path_for
@@ -20,10 +23,19 @@ from vibrapol.engine.compute import (
     DEFAULT_FIELD_AU,
     DEFAULT_STEP_ANG,
     BatchItem,
+    as_structure,
     engine_settings,
     run_batch,
 )
-from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD
+from vibrapol.engine.estimate import (
+    ANNOUNCE_ABOVE_S,
+    CONFIRM_ABOVE_S,
+    estimate_cost,
+    format_duration,
+)
+from vibrapol.engine.executors import check_scheduler_address
+from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
+from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, build_molecule
 from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import check_outputs
 from vibrapol.sources.modes_json import write_modes_json
@@ -31,6 +43,9 @@ from vibrapol.structure import read_structure
 
 #: File endings taken from a directory given as a structure.
 STRUCTURE_SUFFIXES = (".xyz", ".extxyz", ".pdb", ".cif", ".sdf", ".mol", ".traj")
+
+#: Exit status after Ctrl-C or SIGTERM (as for any interrupted vibrapol command).
+INTERRUPTED = 130
 
 HELP = "compute modes and Raman tensors of a structure with the embedded PySCF engine"
 
@@ -127,6 +142,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--output-dir", metavar="DIR", help="write every NAME.modes.json into this directory"
     )
     parser.add_argument("--force", action="store_true", help="overwrite an existing output file")
+    parser.add_argument(
+        "--yes",
+        action="store_true",
+        help="run even when the estimated cost of a structure exceeds "
+        f"{format_duration(CONFIRM_ABOVE_S)} of serial time (the estimate is printed first)",
+    )
 
 
 def structure_files(paths: list[str]) -> list[Path]:
@@ -175,7 +196,8 @@ def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
 def run(args: argparse.Namespace) -> int:
     """Read the structures, run the engine on them together, write each modes file atomically.
 
-    Returns 0 when every structure succeeded, 2 when any failed (each failure one line).
+    Returns 0 when every structure succeeded, 2 when any failed (each failure one line), 130
+    when interrupted (Ctrl-C or SIGTERM; finished tasks stay in the checkpoints).
     """
     settings = engine_settings(
         args.method,
@@ -189,34 +211,52 @@ def run(args: argparse.Namespace) -> int:
         symmetry=args.symmetry,
         cartesian_d=args.cartesian_d,
     )
+    if args.scheduler:
+        check_scheduler_address(args.scheduler)
     files = structure_files(args.structures)
     outputs = output_paths(files, args)
     say = lambda text: print(f"vibrapol compute: {text}", file=sys.stderr)  # noqa: E731
     single = len(files) == 1
-    items, failures = [], []
+    items, failures, estimates = [], [], []
     for f, out in zip(files, outputs, strict=True):
         try:
             atoms = read_structure(str(f))
+            estimate = _check_cost(atoms, settings, str(f), args.yes)
         except VibrapolError as exc:
             if single:
                 raise
-            failures.append(str(exc))
+            failures.append(str(exc) if str(f) in str(exc) else f"{f}: {exc}")
             continue
         items.append((BatchItem(atoms, str(f), checkpoint_path_for(out)), out))
-    outcomes = run_batch(
-        [item for item, _ in items],
-        settings,
-        workers=args.workers,
-        scheduler=args.scheduler,
-        fresh=args.fresh,
-        progress=args.progress,
-        raise_errors=single,
-    )
-    for (item, out), outcome in zip(items, outcomes, strict=True):
-        if outcome.run is None:
-            failures.append(f"{item.name}: {outcome.error}")
-            continue
-        _report(outcome.run, item, out, say, args.force)
+        if estimate is not None:
+            estimates.append(estimate)
+    with ExitStack() as locks, sigterm_as_interrupt():
+        try:
+            for item, out in items:
+                locks.enter_context(run_lock(item.checkpoint, str(out)))
+                check_writable(out, args.force)  # again: another run may have written it
+            for line in estimates:
+                say(line)
+            outcomes = run_batch(
+                [item for item, _ in items],
+                settings,
+                workers=args.workers,
+                scheduler=args.scheduler,
+                fresh=args.fresh,
+                progress=args.progress,
+                raise_errors=single,
+            )
+            for (item, out), outcome in zip(items, outcomes, strict=True):
+                if outcome.run is None:
+                    failures.append(f"{item.name}: {outcome.error}")
+                    continue
+                _report(outcome.run, item, out, say, args.force)
+        except KeyboardInterrupt:
+            where = ", ".join(str(item.checkpoint) for item, _ in items) or "the checkpoint"
+            say(
+                f"interrupted; finished tasks are kept in {where}: rerun the same command to resume"
+            )
+            return INTERRUPTED
     for message in failures:
         print(f"vibrapol compute: error: {message}", file=sys.stderr)
     if failures and not single:
@@ -224,8 +264,30 @@ def run(args: argparse.Namespace) -> int:
     return 2 if failures else 0
 
 
+def _check_cost(atoms, settings, name: str, yes: bool) -> str | None:  # noqa: ANN001
+    """The line announcing a long estimated cost (refused above the threshold without --yes)."""
+    structure = as_structure(atoms)
+    mol = build_molecule(structure.atomic_numbers, structure.coordinates_ang, settings.spec)
+    cost = estimate_cost(len(structure.atomic_numbers), mol.nao, settings.spec)
+    if cost.seconds > CONFIRM_ABOVE_S and not yes:
+        raise VibrapolError(
+            f"{name}: estimated cost {cost.describe()}, more than "
+            f"{format_duration(CONFIRM_ABOVE_S)}: pass --yes to run it anyway"
+        )
+    if cost.seconds < ANNOUNCE_ABOVE_S:
+        return None
+    return f"{name}: estimated cost {cost.describe()}, an order of magnitude"
+
+
 def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  # noqa: ANN001
-    write_modes_json(result.modes, output, force=force)
+    try:
+        write_modes_json(result.modes, output, force=force)
+    except OSError as exc:
+        raise VibrapolError(
+            f"cannot write {output} ({exc.strerror or exc}); every task is kept in "
+            f"{item.checkpoint}: fix that and rerun the same command to write it without "
+            "computing again"
+        ) from exc
     prefix = f"{item.name}: " if item.name else ""
     if result.optimization is not None:
         say(

@@ -9,6 +9,7 @@ does not converge, a checkpoint that cannot be used) is reported and the others 
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Sequence
 from contextlib import ExitStack
 from dataclasses import dataclass
@@ -25,8 +26,8 @@ from vibrapol.engine.prepare import EngineSettings, Prepared, assemble, prepare
 from vibrapol.engine.progress import Progress, want_progress
 from vibrapol.engine.routes import task_seconds
 from vibrapol.engine.runner import TaskStats, run_tasks
-from vibrapol.engine.scf import EngineInputError, build_molecule
-from vibrapol.errors import VibrapolError
+from vibrapol.engine.scf import EngineInputError, build_molecule, transition_metal_note
+from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet, default_masses
 from vibrapol.structure import check_structure
 
@@ -143,6 +144,9 @@ def _check_item(item: BatchItem, settings: EngineSettings) -> tuple[Structure, n
     structure = as_structure(item.atoms)
     z = structure.atomic_numbers
     build_molecule(z, structure.coordinates_ang, settings.spec)  # input errors before any work
+    note = transition_metal_note(z, settings.spec)
+    if note is not None:
+        warnings.warn(f"{item.name}: {note}", AccuracyWarning, stacklevel=3)
     masses = default_masses(z) if item.masses_da is None else np.asarray(item.masses_da, float)
     if masses.shape != z.shape or np.any(masses <= 0):
         raise EngineInputError(f"masses_da must be {z.shape[0]} positive numbers")

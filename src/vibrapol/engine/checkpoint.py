@@ -4,16 +4,21 @@ Each result is stored under a key that hashes everything that determines it (kin
 atomic numbers, exact coordinates, method, basis, charge, multiplicity, basis-function type,
 convergence settings and :data:`ENGINE_VERSION`).  A rerun of the same calculation finds its
 finished tasks by key and computes only the missing ones; a run killed at any moment loses at
-most the tasks in flight, because each result is committed on its own.
+most the tasks in flight, because each result is committed on its own.  Every row carries the
+SHA-256 of its content, checked when it is read: a damaged row is named in a warning and computed
+again; a file that fails SQLite's own integrity check is refused with one line and left alone.
 """
 
 from __future__ import annotations
 
+import contextlib
+import errno
 import hashlib
 import io
 import json
 import sqlite3
 import time
+import warnings
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 
@@ -21,8 +26,9 @@ import numpy as np
 
 from vibrapol.engine.optimize import FMAX_HARTREE_BOHR
 from vibrapol.engine.polarizability import CPHF_TOL
+from vibrapol.engine.runlock import run_lock
 from vibrapol.engine.scf import SCF_CONV_TOL, SCF_CONV_TOL_GRAD, MethodSpec
-from vibrapol.errors import VibrapolError
+from vibrapol.errors import VibrapolError, VibrapolWarning
 
 #: Bump when a change of the engine changes the numbers a task produces; old entries are then
 #: simply not found again.
@@ -35,9 +41,14 @@ CREATE TABLE IF NOT EXISTS results (
     label TEXT NOT NULL,
     payload BLOB NOT NULL,
     seconds REAL NOT NULL,
-    created REAL NOT NULL
+    created REAL NOT NULL,
+    sha256 TEXT
 );
 """
+
+
+class CheckpointWarning(VibrapolWarning):
+    """Stored results were found damaged and are computed again."""
 
 
 def task_key(
@@ -84,42 +95,107 @@ def _unpack(blob: bytes) -> dict[str, np.ndarray]:
         return {k: data[k] for k in data.files}
 
 
+def _digest(key: str, kind: str, payload: bytes) -> str:
+    """SHA-256 of a row's key, kind and payload: a changed byte in any of them shows."""
+    h = hashlib.sha256()
+    for part in (key.encode(), b"\0", kind.encode(), b"\0", payload):
+        h.update(part)
+    return h.hexdigest()
+
+
+def _is_disk_full(exc: BaseException) -> bool:
+    if isinstance(exc, OSError):
+        return exc.errno in (errno.ENOSPC, errno.EDQUOT)
+    return isinstance(exc, sqlite3.DatabaseError) and "disk is full" in str(exc).lower()
+
+
 class CheckpointStore:
-    """A SQLite file of finished tasks (arrays by key).
+    """A SQLite file of finished tasks (arrays by key), each row with its own checksum.
 
     Parameters
     ----------
     path : str or Path
         The file; created on first use.  Only the process that runs the calculation writes to
-        it (workers send their results back), so there is a single writer.
+        it (workers send their results back), so there is a single writer; while the store is
+        open it holds the run lock of the file (:mod:`vibrapol.engine.runlock`), so a second
+        process on the same file is refused.
     fresh : bool
-        Delete the file first and start over.
+        Delete the file (and its SQLite journal files) first and start over.
 
     Raises
     ------
     VibrapolError
-        When the file exists but is not a vibrapol checkpoint (or is corrupt).
+        When the file exists but is not a vibrapol checkpoint or fails SQLite's integrity
+        check (the file is left as it is; the message says how to start afresh), or another
+        run holds its lock.
+
+    Notes
+    -----
+    Each row stores the SHA-256 of its key, kind and payload.  A row whose checksum does not
+    match (or whose payload cannot be read) is reported once, with its label, by a
+    :class:`CheckpointWarning`, treated as missing and so computed again; the new result
+    replaces it.
     """
 
     def __init__(self, path: str | Path, fresh: bool = False) -> None:
         self.path = Path(path)
-        if fresh and self.path.exists():
-            self.path.unlink()
+        self.damaged: list[str] = []  # labels of rows found damaged (and recomputed)
+        self._lock = run_lock(self.path)
+        self._lock.__enter__()
+        try:
+            self._open(fresh)
+        except BaseException:
+            self._lock.__exit__(None, None, None)
+            raise
+
+    def _open(self, fresh: bool) -> None:
+        if fresh:
+            for suffix in ("", "-wal", "-shm", "-journal"):
+                extra = self.path.with_name(self.path.name + suffix)
+                if extra.exists():
+                    extra.unlink()
         try:
             self._db = sqlite3.connect(self.path)
+        except sqlite3.DatabaseError as exc:
+            raise self._unusable(exc) from exc
+        try:
             # Write-ahead log with NORMAL sync: a commit survives the process being killed at
             # once (the data is in the operating system's hands) without an fsync per task;
             # only a power cut can lose the last few results, never corrupt the file.
             self._db.execute("PRAGMA journal_mode=WAL")
             self._db.execute("PRAGMA synchronous=NORMAL")
+            check = [r[0] for r in self._db.execute("PRAGMA quick_check(5)").fetchall()]
+            if check != ["ok"]:
+                raise sqlite3.DatabaseError("; ".join(map(str, check)))
             self._db.executescript(_SCHEMA)
+            columns = {r[1] for r in self._db.execute("PRAGMA table_info(results)")}
+            if "sha256" not in columns:  # written by an earlier vibrapol: rows unsummed
+                self._db.execute("ALTER TABLE results ADD COLUMN sha256 TEXT")
+                self._db.commit()
             self._db.execute(
-                "SELECT key, kind, label, payload, seconds FROM results LIMIT 1"
+                "SELECT key, kind, label, payload, seconds, sha256 FROM results LIMIT 1"
             ).fetchall()
         except sqlite3.DatabaseError as exc:
-            raise VibrapolError(
-                f"{self.path}: not a usable vibrapol checkpoint ({exc}); delete it or pass --fresh"
-            ) from exc
+            self._db.close()
+            if _is_disk_full(exc):
+                raise self.disk_full("opening it") from exc
+            raise self._unusable(exc) from exc
+
+    def _unusable(self, exc: BaseException) -> VibrapolError:
+        said = " ".join(str(exc).split())  # SQLite's report may span lines
+        said = said if len(said) <= 120 else said[:117] + "..."
+        return VibrapolError(
+            f"{self.path}: damaged or not a vibrapol checkpoint (SQLite: {said}); it was left "
+            "as it is: move it away (or pass --fresh, which deletes it) to start afresh"
+        )
+
+    def disk_full(self, doing: str) -> VibrapolError:
+        """The one-line error of a full disk while ``doing`` something with this store."""
+        return VibrapolError(
+            f"{self.path}: no space left on the device while {doing}; every task finished "
+            "before is kept in this checkpoint: free some space and rerun the same command "
+            "to resume"
+        )
 
     def __enter__(self) -> CheckpointStore:
         return self
@@ -128,23 +204,71 @@ class CheckpointStore:
         self.close()
 
     def close(self) -> None:
-        """Close the database (finished results are already committed)."""
-        self._db.close()
+        """Close the database (finished results are already committed) and release the lock."""
+        try:
+            self._db.close()
+        finally:
+            if self._lock is not None:
+                self._lock.__exit__(None, None, None)
+                self._lock = None
+
+    def _write(self, row: tuple) -> None:
+        self._db.execute("INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?, ?, ?, ?)", row)
+        self._db.commit()
 
     def put(
         self, key: str, kind: str, label: str, arrays: Mapping[str, np.ndarray], seconds: float
     ) -> None:
-        """Store one finished task and commit at once."""
-        self._db.execute(
-            "INSERT OR REPLACE INTO results VALUES (?, ?, ?, ?, ?, ?)",
-            (key, kind, label, _pack(arrays), float(seconds), time.time()),
-        )
-        self._db.commit()
+        """Store one finished task and commit at once.
+
+        Raises
+        ------
+        VibrapolError
+            When the disk is full (the rows committed before are kept).
+        """
+        payload = _pack(arrays)
+        row = (key, kind, label, payload, float(seconds), time.time(), _digest(key, kind, payload))
+        try:
+            self._write(row)
+        except (OSError, sqlite3.DatabaseError) as exc:
+            if not _is_disk_full(exc):
+                raise
+            with contextlib.suppress(sqlite3.Error):
+                self._db.rollback()
+            raise self.disk_full(f"saving the result of {label}") from exc
 
     def get(self, key: str) -> dict[str, np.ndarray] | None:
-        """The arrays stored under ``key``, or None when the task has not finished."""
-        row = self._db.execute("SELECT payload FROM results WHERE key = ?", (key,)).fetchone()
-        return None if row is None else _unpack(row[0])
+        """The arrays stored under ``key``, or None.
+
+        None when the task has not finished or its row is damaged (a
+        :class:`CheckpointWarning` then names it).
+        """
+        try:
+            row = self._db.execute(
+                "SELECT kind, label, payload, sha256 FROM results WHERE key = ?", (key,)
+            ).fetchone()
+        except sqlite3.DatabaseError as exc:
+            self._report_damaged(f"row {key[:12]}", exc)
+            return None
+        if row is None:
+            return None
+        kind, label, payload, digest = row
+        if digest is not None and digest != _digest(key, kind, bytes(payload)):
+            self._report_damaged(label, "checksum mismatch")
+            return None
+        try:
+            return _unpack(payload)
+        except Exception as exc:  # noqa: BLE001 - any unreadable payload is a damaged row
+            self._report_damaged(label, exc)
+            return None
+
+    def _report_damaged(self, label: str, reason: object) -> None:
+        self.damaged.append(label)
+        warnings.warn(
+            f"{self.path}: stored result of {label} is damaged ({reason}); computing it again",
+            CheckpointWarning,
+            stacklevel=3,
+        )
 
     def get_many(self, keys: Iterable[str]) -> dict[str, dict[str, np.ndarray]]:
         """Every stored result among ``keys``."""

@@ -11,8 +11,16 @@ than 1 process × 2 threads; 2 × 2, oversubscribed, slower than serial).
 
 from __future__ import annotations
 
+import contextlib
+import logging
 import multiprocessing
 import os
+import re
+import signal
+import socket
+import sys
+import threading
+import time
 from collections.abc import Iterator
 from concurrent.futures import Executor, ProcessPoolExecutor
 from contextlib import contextmanager
@@ -72,8 +80,68 @@ class Backend:
     task_threads: int | None
 
 
-def _init_worker(threads: int) -> None:
+#: Seconds between two looks of a worker's watchdog at its parent (where the operating system
+#: cannot kill the worker with its parent by itself).
+PARENT_POLL_S = 0.5
+
+#: Seconds the interrupted parent waits for its terminated workers before killing them.
+WORKER_STOP_S = 5.0
+
+_PR_SET_PDEATHSIG = 1
+
+
+def _die_with_parent(parent_pid: int) -> None:
+    """Make this worker process end when ``parent_pid`` ends, however the parent ends.
+
+    On Linux the kernel sends SIGKILL to the worker when its parent dies (``prctl``
+    ``PR_SET_PDEATHSIG``); elsewhere a daemon thread polls the parent id.  A parent that died
+    before this ran is caught by the check of ``os.getppid()`` that follows.
+    """
+    armed = False
+    if sys.platform.startswith("linux"):
+        import ctypes
+
+        with contextlib.suppress(OSError, AttributeError):
+            libc = ctypes.CDLL(None, use_errno=True)
+            armed = libc.prctl(_PR_SET_PDEATHSIG, signal.SIGKILL, 0, 0, 0) == 0
+    if os.getppid() != parent_pid:
+        os._exit(1)
+    if not armed:
+
+        def watch() -> None:
+            while os.getppid() == parent_pid:
+                time.sleep(PARENT_POLL_S)
+            os._exit(1)
+
+        threading.Thread(target=watch, name="vibrapol-parent-watch", daemon=True).start()
+
+
+def _init_worker(threads: int, parent_pid: int) -> None:
+    _die_with_parent(parent_pid)
+    # Ctrl-C at a terminal reaches the whole process group: the parent stops the workers
+    # itself, so they need not print their own KeyboardInterrupt tracebacks.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
     limit_threads(threads)
+
+
+def stop_pool(pool: ProcessPoolExecutor) -> None:
+    """Stop a pool at once: cancel the queued tasks and terminate the running workers.
+
+    Used when the run is interrupted (Ctrl-C, SIGTERM, an error): waiting for the running
+    tasks to finish could take minutes, and their results could not be stored anyway.
+    """
+    processes = list(getattr(pool, "_processes", {}).values())  # standard library internals
+    pool.shutdown(wait=False, cancel_futures=True)
+    for proc in processes:
+        with contextlib.suppress(Exception):
+            proc.terminate()
+    deadline = time.monotonic() + WORKER_STOP_S
+    for proc in processes:
+        with contextlib.suppress(Exception):
+            proc.join(max(0.0, deadline - time.monotonic()))
+            if proc.is_alive():
+                proc.kill()
+                proc.join(1.0)
 
 
 @contextmanager
@@ -111,30 +179,86 @@ def open_backend(workers: int | None = None, scheduler: str | None = None) -> It
         max_workers=n,
         mp_context=multiprocessing.get_context("spawn"),
         initializer=_init_worker,
-        initargs=(threads,),
+        initargs=(threads, os.getpid()),
     )
     try:
         yield Backend(pool, "process pool", n, threads)
+    except BaseException:
+        stop_pool(pool)
+        raise
+    pool.shutdown(wait=True, cancel_futures=True)
+
+
+#: Address forms Dask's client connects to: ``scheme://host:port``, or an in-process
+#: cluster's ``inproc://host/pid/n``.
+_SCHEDULER_ADDRESS = re.compile(r"^(tcp|tls|ws|wss|ucx)://(\[[0-9a-fA-F:.]+\]|[^\s:/\[\]]+):(\d+)$")
+_INPROC_ADDRESS = re.compile(r"^inproc://[^\s/]+/\d+/\d+$")
+
+
+def check_scheduler_address(scheduler: str) -> tuple[str, str, int]:
+    """Scheme, host and port of a scheduler address; raises :class:`VibrapolError` if malformed.
+
+    An in-process address (``inproc://…``, a cluster started in this Python process) gives
+    ``("inproc", "", 0)``.
+    """
+    text = scheduler.strip()
+    if _INPROC_ADDRESS.match(text):
+        return "inproc", "", 0
+    match = _SCHEDULER_ADDRESS.match(text)
+    if match is None or not 0 < int(match.group(3)) < 65536:
+        raise VibrapolError(
+            f"--scheduler {scheduler!r} is not a scheduler address; give it as "
+            "tcp://HOST:PORT (the address `dask scheduler` prints)"
+        )
+    return match.group(1), match.group(2).strip("[]"), int(match.group(3))
+
+
+@contextmanager
+def _quiet_dask() -> Iterator[None]:
+    """Silence Dask's loggers (connection retries, shutdown noise) for the enclosed block."""
+    loggers = [logging.getLogger(name) for name in ("distributed", "tornado", "asyncio")]
+    saved = [(lg, lg.level, lg.disabled) for lg in loggers]
+    for lg in loggers:
+        lg.disabled = True
+    try:
+        yield
     finally:
-        pool.shutdown(wait=True, cancel_futures=True)
+        for lg, level, disabled in saved:
+            lg.setLevel(level)
+            lg.disabled = disabled
+
+
+def _unreachable(scheduler: str, reason: object) -> VibrapolError:
+    return VibrapolError(
+        f"cannot connect to the Dask scheduler at {scheduler!r} ({reason}); start it first "
+        "(e.g. `dask scheduler` and `dask worker ADDRESS --nthreads 1`) or drop --scheduler"
+    )
 
 
 def _dask_backend(scheduler: str) -> Iterator[Backend]:
+    scheme, host, port = check_scheduler_address(scheduler)
     try:
         from distributed import Client
     except ImportError as exc:  # pragma: no cover - a declared dependency
         raise VibrapolError(
             "--scheduler needs the 'distributed' package: pip install 'dask[distributed]'"
         ) from exc
-    try:
-        client = Client(scheduler, timeout=DASK_CONNECT_TIMEOUT_S, set_as_default=False)
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise VibrapolError(
-            f"cannot connect to the Dask scheduler at {scheduler!r} ({exc}); start it first "
-            "(e.g. `dask scheduler` and `dask worker ADDRESS --nthreads 1`) or drop --scheduler"
-        ) from exc
+    if scheme in ("tcp", "tls", "ws", "wss"):
+        # A plain socket first: an address where nothing listens fails at once and quietly,
+        # without a half-built Dask client whose clean-up prints a traceback at exit.
+        try:
+            with socket.create_connection((host, port), timeout=DASK_CONNECT_TIMEOUT_S):
+                pass
+        except OSError as exc:
+            raise _unreachable(scheduler, exc.strerror or exc) from exc
+    with _quiet_dask():
+        try:
+            client = Client(scheduler, timeout=DASK_CONNECT_TIMEOUT_S, set_as_default=False)
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise _unreachable(scheduler, exc) from exc
     try:
         threads = sum(w.get("nthreads", 1) for w in client.scheduler_info()["workers"].values())
         yield Backend(client.get_executor(), "dask", max(1, threads), 1)
     finally:
-        client.close()
+        with _quiet_dask():
+            client.close()

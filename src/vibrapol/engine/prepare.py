@@ -27,9 +27,14 @@ from vibrapol.engine.routes import (
     make_jobs,
     route_name,
 )
-from vibrapol.engine.scf import SCF_CONV_TOL, SCF_CONV_TOL_GRAD, MethodSpec
+from vibrapol.engine.scf import (
+    SCF_CONV_TOL,
+    SCF_CONV_TOL_GRAD,
+    MethodSpec,
+    transition_metal_note,
+)
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
-from vibrapol.vibrations import HarmonicModes, harmonic_analysis
+from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
 
 #: A symmetrized geometry closer than this to the given one is taken as the given one, so that
 #: a rerun on an already symmetric geometry finds its checkpointed stages.
@@ -218,6 +223,10 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")
+    metal = transition_metal_note(prep.atomic_numbers, spec)
+    if metal is not None:
+        notes.append(f"warning: {metal}")
+    notes.append(SIGN_CONVENTION_NOTE)
     return Provenance(
         source_kind="engine",
         program="PySCF",

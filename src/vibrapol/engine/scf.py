@@ -8,7 +8,10 @@ that cannot be closed-shell) raises :class:`EngineInputError` with one line sayi
 
 from __future__ import annotations
 
+import contextlib
+import io
 import warnings
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
@@ -82,6 +85,10 @@ class MethodSpec:
 
 def check_functional(method: str) -> None:
     """Raise :class:`EngineInputError` unless ``method`` is HF or a functional libxc knows."""
+    if not method.strip():
+        raise EngineInputError(
+            "--method is empty: use 'hf' or a DFT functional name such as 'b3lyp', 'pbe0'"
+        )
     if method.lower() in _HF_NAMES:
         return
     from pyscf.dft import libxc
@@ -93,6 +100,74 @@ def check_functional(method: str) -> None:
             f"unknown method {method!r}: use 'hf' or a DFT functional name "
             "such as 'b3lyp', 'pbe0', 'pbe'"
         ) from exc
+
+
+@contextlib.contextmanager
+def _quiet() -> Iterator[None]:
+    """Swallow what PySCF prints or warns while it looks up a basis (it is reported by us)."""
+    sink = io.StringIO()
+    with (
+        warnings.catch_warnings(),
+        contextlib.redirect_stdout(sink),
+        contextlib.redirect_stderr(sink),
+    ):
+        warnings.simplefilter("ignore")
+        yield
+
+
+def check_basis(basis: str, atomic_numbers: np.ndarray) -> None:
+    """Raise :class:`EngineInputError` unless PySCF's library has ``basis`` for every element.
+
+    Looked up element by element before any molecule is built, with PySCF's own messages
+    silenced, so that the user sees one line naming the basis and the elements it lacks.
+    """
+    from pyscf.data.elements import ELEMENTS
+    from pyscf.gto import basis as basis_library
+
+    if not basis.strip():
+        raise EngineInputError(
+            "--basis is empty: give a basis set name PySCF knows, e.g. 'sto-3g', '6-31g*'"
+        )
+    lacking = []
+    for z in sorted({int(v) for v in np.asarray(atomic_numbers).ravel()}):
+        symbol = ELEMENTS[z]
+        try:
+            with _quiet():
+                shells = basis_library.load(basis, symbol)
+        except KeyError as exc:  # PySCF: KeyError for a name it does not know at all
+            raise EngineInputError(
+                f"unknown basis {basis!r}: use a name PySCF knows, e.g. 'sto-3g', '6-31g*', "
+                "'cc-pvdz'"
+            ) from exc
+        except Exception:  # noqa: BLE001 - BasisNotFoundError, or a malformed basis file
+            shells = []
+        if not shells:
+            lacking.append(symbol)
+    if lacking:
+        raise EngineInputError(
+            f"unknown basis {basis!r} (or not defined for these elements): none for "
+            f"{', '.join(lacking)}; use a name PySCF knows, e.g. 'sto-3g', '6-31g*', 'cc-pvdz'"
+        )
+
+
+#: Transition metals (groups 3-11 and the f block; group 12 keeps a full d shell): a
+#: closed-shell singlet is often not their ground state.
+TRANSITION_METALS = frozenset([*range(21, 30), *range(39, 48), *range(57, 80), *range(89, 112)])
+
+
+def transition_metal_note(atomic_numbers: np.ndarray, spec: MethodSpec) -> str | None:
+    """One sentence when a molecule with transition metals is run as a closed-shell singlet."""
+    from pyscf.data.elements import ELEMENTS
+
+    metals = sorted({int(z) for z in atomic_numbers if int(z) in TRANSITION_METALS})
+    if not metals or spec.multiplicity != 1:
+        return None
+    names = ", ".join(ELEMENTS[z] for z in metals)
+    return (
+        f"transition metal ({names}) computed as a closed-shell singlet, the only state the "
+        "engine runs; many such molecules have an open-shell ground state: check it with "
+        "another program before trusting these modes"
+    )
 
 
 def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec):
@@ -125,7 +200,9 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         )
     n_electrons = int(z.sum()) - spec.charge
     if n_electrons <= 0:
-        raise EngineInputError(f"charge {spec.charge} leaves {n_electrons} electrons")
+        raise EngineInputError(
+            f"charge {spec.charge} leaves {n_electrons} electrons on this structure; check --charge"
+        )
     if spec.multiplicity < 1:
         raise EngineInputError(f"multiplicity must be 1 or more, got {spec.multiplicity}")
     if spec.multiplicity != 1:
@@ -140,6 +217,7 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
             "check --charge"
         )
     check_functional(spec.method)
+    check_basis(spec.basis, z)
     mol = gto.Mole()
     mol.atom = [(int(zi), tuple(r)) for zi, r in zip(z, xyz, strict=True)]
     mol.unit = "Angstrom"
@@ -150,8 +228,7 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
     mol.verbose = 0
     mol.output = None
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+        with _quiet():
             mol.build(dump_input=False, parse_arg=False)
     except (BasisNotFoundError, KeyError) as exc:  # PySCF: KeyError for an unknown basis name
         raise EngineInputError(
@@ -165,6 +242,11 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         ) from exc
     if mol.nao == 0:
         raise EngineInputError(f"basis {spec.basis!r} has no functions for these elements")
+    if n_electrons > 2 * mol.nao:
+        raise EngineInputError(
+            f"charge {spec.charge} gives {n_electrons} electrons, more than the {mol.nao} "
+            f"orbitals of basis {spec.basis!r} can hold ({2 * mol.nao}); check --charge"
+        )
     return mol
 
 

@@ -37,7 +37,7 @@ from vibrapol.engine.executors import check_scheduler_address
 from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, build_molecule
 from vibrapol.errors import InputFormatError, VibrapolError
-from vibrapol.fileio import check_outputs
+from vibrapol.fileio import check_outputs, check_writable
 from vibrapol.sources.modes_json import write_modes_json
 from vibrapol.structure import read_structure
 

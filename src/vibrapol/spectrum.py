@@ -20,13 +20,26 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.channels import check_geometry, isotropic_channel_activity, with_base_channels
+from vibrapol.channels import (
+    RATIO_CHANNELS,
+    check_geometry,
+    depolarization_ratios,
+    isotropic_channel_activity,
+    with_base_channels,
+)
 from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1, check_degeneracy_tol, sum_over_sets
 from vibrapol.lineshapes import LineShape
 from vibrapol.modeset import ModeSet
 from vibrapol.orientation import Orientation, oriented_channel_activity
-from vibrapol.quantities import QUANTITY_UNITS, SIDES, quantity_factor, thermal_factor
+from vibrapol.quantities import (
+    DETECTOR_NOTES,
+    QUANTITY_UNITS,
+    SIDES,
+    check_detector,
+    quantity_factor,
+    thermal_factor,
+)
 from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 
@@ -48,8 +61,11 @@ class Conditions:
     side: str = "stokes"
     scale: FrequencyScale = NO_SCALE
     orientation: str = "isotropic"
+    detector: str = "photon"
+    method: str = ""
 
     def __post_init__(self) -> None:
+        check_detector(self.detector)
         if self.quantity not in QUANTITY_UNITS:
             raise VibrapolError(
                 f"unknown quantity {self.quantity!r}; choose one of {', '.join(QUANTITY_UNITS)}"
@@ -68,17 +84,44 @@ class Conditions:
         """Unit of a stick height."""
         return QUANTITY_UNITS[self.quantity]
 
+    @property
+    def detector_note(self) -> str:
+        """The detector convention of the heights, in words."""
+        if self.quantity == "intensity":
+            return DETECTOR_NOTES[self.detector]
+        if self.quantity == "cross-section":
+            return "none (cross sections are energy based by definition)"
+        return "none (activities)"
+
+    def items(self) -> list[tuple[str, str]]:
+        """(name, value) pairs of every condition, for file headers and captions."""
+        return [
+            ("quantity", f"{self.quantity} ({self.unit})"),
+            ("laser", f"{self.laser_nm:g} nm"),
+            ("temperature", f"{self.temperature_k:g} K"),
+            ("geometry", f"{self.geometry_deg} deg scattering"),
+            ("sample", self.orientation),
+            ("side", self.side),
+            ("detector", self.detector_note),
+            ("scale", self.scale.describe()),
+            ("method", self.method or "not recorded by the source"),
+        ]
+
     def describe(self) -> str:
         """One line for headers and captions."""
         parts = [self.quantity]
         if self.quantity != "activity":
             parts += [f"laser {self.laser_nm:g} nm", f"{self.temperature_k:g} K"]
+        if self.quantity == "intensity":
+            parts.append(f"{self.detector} detector")
         parts += [
             f"{self.geometry_deg} deg scattering",
             self.side,
             self.scale.describe(),
             self.orientation,
         ]
+        if self.method:
+            parts.append(self.method)
         return "; ".join(parts)
 
 
@@ -113,7 +156,11 @@ class StickSpectrum:
     irreps : tuple of str
         Irreducible representation of each band ('' when symmetry is not known).
     rho_linear, rho_natural : ndarray (n,)
-        Depolarization ratios of the band for an isotropic sample at 90° (NaN when inactive).
+        Depolarization ratios of the band for the spectrum's geometry and sample: VH/VV
+        (linearly polarized incident light) and NH/NV (natural light), from the channels
+        computed (:func:`vibrapol.channels.depolarization_ratios`); NaN when inactive.  At 90°
+        for an isotropic sample these are the usual ρ_linear and ρ_natural; at 180° the
+        natural-light ratio of an isotropic sample is 1.
     polarized : ndarray of bool (n,)
     component : ndarray of int (n,)
         Index into ``components`` (the conformer a band belongs to; 0 for a single molecule).
@@ -215,6 +262,7 @@ def stick_spectrum(
     degeneracy_tol_cm1: float = DEGENERACY_TOL_CM1,
     label: str = "",
     symmetry: bool = True,
+    detector: str = "photon",
 ) -> StickSpectrum:
     """Sticks of one molecule: one band per degenerate set, heights per channel.
 
@@ -237,28 +285,42 @@ def stick_spectrum(
         ``raman_table(modes)`` with sets from ``degeneracy_tol_cm1``.
     symmetry : bool
         Label the bands by symmetry species when no ``table`` is given (default True).
+    detector : str
+        ``"photon"`` (counting detectors, default) or ``"energy"``: the convention of the
+        relative intensity (:func:`vibrapol.quantities.frequency_factor`).
+
+    Raises
+    ------
+    VibrapolError
+        When ``scale`` is a published factor for another method or basis than the source's.
 
     Warns
     -----
     AccuracyWarning
-        When imaginary modes are dropped, or (for intensities and cross sections) a band lies
-        below :data:`LOW_BAND_CM1`.
+        When imaginary modes are dropped, when (for intensities and cross sections) a band lies
+        below :data:`LOW_BAND_CM1`, or when a published factor cannot be checked because the
+        source records no method or basis.
     """
     chans = with_base_channels(channels)
+    where = modes.provenance.source_file or "this mode set"
+    scale.check_belongs(modes.provenance.method, modes.provenance.basis, where)
     desc = "isotropic" if orientation is None else orientation.description
-    cond = Conditions(quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc)
+    method = "/".join(x for x in (modes.provenance.method, modes.provenance.basis) if x)
+    cond = Conditions(
+        quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc, detector, method
+    )
     if table is None:
         modes, table = _default_table(modes, symmetry, degeneracy_tol_cm1)
+    every = (*chans, *(c for c in RATIO_CHANNELS if c not in chans))
     if orientation is None:
         a2, gamma2 = modes.raman_invariants()
-        per_mode = isotropic_channel_activity(a2, gamma2, chans, geometry_deg)
+        per_mode = isotropic_channel_activity(a2, gamma2, every, geometry_deg)
     else:
         if modes.dalpha_dq is None:
-            where = modes.provenance.source_file or "this mode set"
             raise VibrapolError(
                 f"{where}: oriented samples need polarizability derivatives, not only activities"
             )
-        per_mode = oriented_channel_activity(modes.dalpha_dq, chans, orientation, geometry_deg)
+        per_mode = oriented_channel_activity(modes.dalpha_dq, every, orientation, geometry_deg)
     sets = sorted(table.sets(), key=lambda s: float(np.mean(modes.freqs_cm1[list(s)])))
     scaled = scale.apply(modes.freqs_cm1)
     pos = np.array([np.mean(scaled[list(s)]) for s in sets])
@@ -280,12 +342,17 @@ def stick_spectrum(
             AccuracyWarning,
             stacklevel=2,
         )
-    heights = sum_over_sets(per_mode, sets).reshape(len(sets), len(chans))
+    summed = sum_over_sets(per_mode, sets).reshape(len(sets), len(every))
+    heights = summed[:, : len(chans)]
+    rho_lin, rho_nat = depolarization_ratios(summed, every)
     first = [s[0] for s in sets]
+    inactive = ~np.isfinite(table.rho_linear[first]) if sets else np.zeros(0, bool)
+    rho_lin[inactive] = np.nan
+    rho_nat[inactive] = np.nan
     sides = ["stokes", "anti-stokes"] if side == "both" else [side]
     parts = []
     for sd in sides:
-        factor = quantity_factor(quantity, pos, laser_nm, temperature_k, sd)
+        factor = quantity_factor(quantity, pos, laser_nm, temperature_k, sd, detector)
         parts.append((pos if sd == "stokes" else -pos, heights * factor[:, None]))
     rep = len(sides)
     return StickSpectrum(
@@ -295,8 +362,8 @@ def stick_spectrum(
         harmonic_cm1=np.tile([np.mean(modes.freqs_cm1[list(s)]) for s in sets], rep),
         mode_sets=tuple(tuple(int(i) for i in s) for s in sets) * rep,
         irreps=tuple(_band_irrep(table.irreps, s) for s in sets) * rep,
-        rho_linear=np.tile(table.rho_linear[first], rep) if sets else np.zeros(0),
-        rho_natural=np.tile(table.rho_natural[first], rep) if sets else np.zeros(0),
+        rho_linear=np.tile(rho_lin, rep),
+        rho_natural=np.tile(rho_nat, rep),
         polarized=np.tile(table.polarized[first], rep) if sets else np.zeros(0, bool),
         component=np.zeros(len(sets) * rep, dtype=int),
         components=(label or modes.provenance.source_file,),

@@ -68,8 +68,9 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
         "published factor of the method when known) or fixed at F",
     )  # fmt: skip
     parser.add_argument(
-        "--scale-for", metavar="METHOD/BASIS",
-        help="start the fit from the published factor of this method, e.g. B3LYP/6-31G*",
+        "--scale-for", metavar="METHOD/BASIS[@SOURCE]",
+        help="start the fit from the published factor of this method, e.g. B3LYP/6-31G* "
+        "(refused when the source was computed with another method or basis)",
     )  # fmt: skip
     parser.add_argument(
         "--position-tolerance", type=float, metavar="REL",
@@ -160,6 +161,15 @@ def assign_options(args: argparse.Namespace) -> dict[str, object]:
     return out
 
 
+def check_scale_for(args: argparse.Namespace, modes: object, where: str) -> None:
+    """Refuse a ``--scale-for`` factor computed for another method or basis than ``modes``."""
+    if args.scale == "auto" and args.scale_for:
+        from vibrapol.scaling import FrequencyScale
+
+        p = modes.provenance  # type: ignore[attr-defined]
+        FrequencyScale.published(args.scale_for).check_belongs(p.method, p.basis, where)
+
+
 def laser_nm(args: argparse.Namespace) -> float:
     """Laser line for the computed intensities."""
     return DEFAULT_LASER_NM if args.laser_nm is None else float(args.laser_nm)
@@ -182,6 +192,7 @@ def run(args: argparse.Namespace) -> int:
     writers = [table_writer(p) for p in args.table]
     opts = assign_options(args)
     modes = read_modes(args.source, kind=args.kind)
+    check_scale_for(args, modes, args.source)
     pair, bands = measure(args)
     cand = candidate_from_modes(
         modes, laser_nm=laser_nm(args), temperature_k=args.temperature_k,

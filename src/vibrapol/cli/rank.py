@@ -20,6 +20,7 @@ from vibrapol.cli.match import (
     add_measurement_arguments,
     assign_options,
     check_outputs,
+    check_scale_for,
     laser_nm,
     measure,
 )
@@ -80,10 +81,11 @@ def run(args: argparse.Namespace) -> int:
     common = dict(
         laser_nm=laser_nm(args), temperature_k=args.temperature_k, symmetry=not args.no_symmetry
     )
-    candidates = [
-        candidate_from_modes(read_modes(s, kind=args.kind), label=Path(s).name, **common)  # type: ignore[arg-type]
-        for s in args.sources
-    ]
+    candidates = []
+    for s in args.sources:
+        modes = read_modes(s, kind=args.kind)
+        check_scale_for(args, modes, s)
+        candidates.append(candidate_from_modes(modes, label=Path(s).name, **common))  # type: ignore[arg-type]
     members = {f.strip() for group in args.mixture for f in group.split(",")}
     unused = sorted(set(degeneracy) - members)
     if unused:
@@ -96,6 +98,8 @@ def run(args: argparse.Namespace) -> int:
         if not files:
             raise VibrapolError("--mixture needs comma-separated source files")
         modesets = [read_modes(f, kind=args.kind) for f in files]
+        for f, modes in zip(files, modesets, strict=True):
+            check_scale_for(args, modes, f)
         candidates.append(
             mixture_candidate(
                 modesets,

@@ -21,7 +21,7 @@ from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_writable, write_atomic
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.lineshapes import SHAPES, LineShape
-from vibrapol.quantities import QUANTITY_UNITS
+from vibrapol.quantities import DETECTORS, QUANTITY_UNITS
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 from vibrapol.sources import read_modes, readers
 from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
@@ -63,11 +63,20 @@ def parse_floats(text: str, what: str) -> list[float]:
 def add_scale_arguments(parser: argparse.ArgumentParser) -> None:
     """``--scale``/``--scale-for`` and the two-region ``--scale-high``/``--split-cm1``."""
     scale = parser.add_mutually_exclusive_group()
-    scale.add_argument("--scale", type=float, metavar="F", help="multiply all wavenumbers by F")
+    scale.add_argument(
+        "--scale",
+        type=float,
+        metavar="F",
+        help="multiply all harmonic wavenumbers by F (a deliberate choice: not checked against "
+        "the source's method; default: no scaling)",
+    )
     scale.add_argument(
         "--scale-for",
-        metavar="METHOD/BASIS",
-        help="published factor for fundamentals, e.g. B3LYP/6-31G* (see vibrapol.scaling)",
+        metavar="METHOD/BASIS[@SOURCE]",
+        help="published factor for fundamentals, e.g. B3LYP/6-31G* or B3LYP/6-31G*@SR96 "
+        "(default source: MMR07, then SR96, CCCBDB, K17, IJK05, TDB; MP2 needs MP2(FC) or "
+        "MP2(AE)); refused when the source was computed with another method or basis "
+        "(docs/concepts.md#frequency-scale-factors)",
     )
     parser.add_argument(
         "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
@@ -96,7 +105,15 @@ def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
         choices=sorted(QUANTITY_UNITS),
         default="intensity",
         help="stick height: Raman activity, relative intensity at the laser and temperature "
-        "(default), or absolute differential cross section in cm^2/sr",
+        "(default), or absolute differential cross section in cm^2/sr (energy based by "
+        "definition, whatever --detector says)",
+    )
+    parser.add_argument(
+        "--detector",
+        choices=DETECTORS,
+        default="photon",
+        help="detector convention of relative intensities: photon (counting detectors such as "
+        "CCD and InGaAs arrays, I ∝ ν0(ν0-ν)^3; default) or energy (I ∝ (ν0-ν)^4)",
     )
     add_scale_arguments(parser)
     parser.add_argument(
@@ -112,11 +129,12 @@ def scale_from_args(args: argparse.Namespace) -> FrequencyScale:
     if args.scale_for:
         base = FrequencyScale.published(args.scale_for)
     elif args.scale is not None:
-        base = FrequencyScale(args.scale)
+        base = FrequencyScale(args.scale, note="given with --scale")
     else:
         base = NO_SCALE
     if args.scale_high is not None or args.split_cm1 is not None:
-        return FrequencyScale(base.factor, args.scale_high, args.split_cm1, base.note)
+        note = base.note or "given with --scale-high and --split-cm1"
+        return FrequencyScale(base.factor, args.scale_high, args.split_cm1, note, base.entry)
     return base
 
 
@@ -218,6 +236,7 @@ def build_sticks(
         laser_nm=args.laser_nm,
         geometry_deg=geometry,
         scale=scale_from_args(args),
+        detector=args.detector,
         degeneracy_tol_cm1=args.degeneracy_tol_cm1,
         **extra,
     )

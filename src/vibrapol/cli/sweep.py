@@ -153,6 +153,7 @@ def run(args: argparse.Namespace) -> int:
         laser_nm=args.laser_nm,
         temperature_k=args.temperature_k,
         scale=scale_from_args(args),
+        detector=args.detector,
         degeneracy_tol_cm1=args.degeneracy_tol_cm1,
     )
     from vibrapol import spectrum_io

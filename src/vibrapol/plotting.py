@@ -22,6 +22,7 @@ from matplotlib.lines import Line2D
 from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
+from vibrapol.plotting_conditions import add_caption, shift_label
 from vibrapol.plotting_labels import CURVE_HEADROOM, place_labels
 from vibrapol.plotting_style import (
     CHANNEL_NAMES,
@@ -29,7 +30,6 @@ from vibrapol.plotting_style import (
     LABEL_PT,
     OTHER_COLOURS,
     PALETTE,
-    SHIFT_LABEL,
     STYLE,
     WIDTHS_IN,
     figure_bytes,
@@ -105,6 +105,7 @@ def spectrum_figure(
     normalize: bool = True,
     xlim_cm1: tuple[float, float] | None = None,
     title: str | None = None,
+    caption: bool = True,
 ) -> Figure:
     """Polarized spectra (VV and VH by default) with sticks and labels of the strongest bands.
 
@@ -128,6 +129,9 @@ def spectrum_figure(
     xlim_cm1 : (float, float), optional
         Shown range (default: the grid range).
     title : str, optional
+    caption : bool
+        Write the conditions (laser, temperature, geometry, sample, detector, scale factor
+        and its source, line shape, method) under the axes (default True).
     """
     if layout not in ("shared", "stacked"):
         raise VibrapolError(f"layout must be shared or stacked, got {layout!r}")
@@ -184,7 +188,9 @@ def spectrum_figure(
             axes[0].set_ylabel(ylabel)
         else:
             fig.supylabel(ylabel, fontsize=8.0)
-        axes[-1].set_xlabel(SHIFT_LABEL)
+        axes[-1].set_xlabel(shift_label(grid.sticks.conditions))
+        if caption:
+            add_caption(fig, grid.sticks.conditions, grid.lineshape)
         if title:
             fig.suptitle(title, fontsize=8.0)
         if label_count and label_channel in chans:
@@ -319,8 +325,13 @@ def depolarization_figure(
         ax.spines["left"].set_bounds(0.0, 0.75 if kind == "linear" else 1.0)
         ax.set_yticks([0.0, 0.25, 0.5, 0.75] if kind == "linear" else [0.0, 0.25, 0.5, 0.75, 1.0])
         ax.xaxis.set_minor_locator(AutoMinorLocator())
-        ax.set_xlabel(SHIFT_LABEL)
-        ax.set_ylabel("Depolarization ratio ρ" + (" (natural light)" if kind == "natural" else ""))
+        ax.set_xlabel(shift_label(sticks.conditions))
+        ax.set_ylabel(
+            r"$\rho_\mathrm{linear}$ = VH/VV"
+            if kind == "linear"
+            else r"$\rho_\mathrm{natural}$ = NH/NV"
+        )
+        add_caption(fig, sticks.conditions)
         ax.legend(
             handles=handles,
             loc="upper left",
@@ -372,5 +383,6 @@ def polar_figure(
             if sweep.irreps[b]:
                 label += f"  {format_irrep(sweep.irreps[b])}"
             ax.set_title(label, fontsize=7.5, pad=4.0)
-        fig.legend(*fig.axes[0].get_legend_handles_labels(), loc="outside lower center", ncols=2)
+        fig.legend(*fig.axes[0].get_legend_handles_labels(), loc="outside upper center", ncols=2)
+        add_caption(fig, sweep.conditions)
     return fig

@@ -49,6 +49,22 @@ LOW_BAND_CM1 = 10.0
 #: Line shape used when none is given: Lorentzian, FWHM 8 cm⁻¹.
 DEFAULT_LINESHAPE = LineShape()
 
+#: A band counts as Raman-active for the default range when its height in some channel exceeds
+#: this fraction of the strongest height (forbidden bands print numerical noise far below it).
+ACTIVE_FRACTION = 1e-6
+
+#: An explicit range that leaves out a band stronger than this fraction of the strongest is
+#: warned.
+HIDDEN_BAND_FRACTION = 0.05
+
+#: Default range margin beyond the outermost active bands, in FWHM at that band (a Lorentzian
+#: holds 94 % of its area within ±5 FWHM), rounded outwards to :data:`RANGE_ROUNDING_CM1`.
+RANGE_MARGIN_FWHM = 5.0
+RANGE_ROUNDING_CM1 = 50.0
+
+#: Where a default Stokes range starts at the latest (cm⁻¹): usual for measured spectra.
+RANGE_START_CM1 = 100.0
+
 
 @dataclass(frozen=True)
 class Conditions:
@@ -427,23 +443,86 @@ def make_grid(start_cm1: float, stop_cm1: float, step_cm1: float) -> np.ndarray:
     return start_cm1 + step_cm1 * np.arange(n)
 
 
+def _strength(sticks: StickSpectrum) -> np.ndarray:
+    """Each band's largest height over the channels, relative to the strongest (0 when none)."""
+    h = np.nan_to_num(np.abs(sticks.heights), nan=0.0)
+    per_band = h.max(axis=1) if h.size else np.zeros(sticks.n_bands)
+    top = float(per_band.max()) if per_band.size else 0.0
+    return per_band / top if top > 0 else np.zeros_like(per_band)
+
+
+def default_range(
+    sticks: StickSpectrum, lineshape: LineShape = DEFAULT_LINESHAPE
+) -> tuple[float, float]:
+    """A range that holds every Raman-active band with room for its line width.
+
+    From the lowest to the highest band whose height exceeds :data:`ACTIVE_FRACTION` of the
+    strongest, widened by :data:`RANGE_MARGIN_FWHM` line widths and rounded outwards to
+    :data:`RANGE_ROUNDING_CM1`; a Stokes-only spectrum starts at :data:`RANGE_START_CM1` or
+    lower (never below 0).
+    """
+    active = _strength(sticks) > ACTIVE_FRACTION
+    if not np.any(active):
+        raise VibrapolError("the spectrum has no Raman-active band; give the range explicitly")
+    pos = sticks.positions_cm1[active]
+    margin = RANGE_MARGIN_FWHM * lineshape.widths_cm1(pos)
+    r = RANGE_ROUNDING_CM1
+    lo = math.floor(float(np.min(pos - margin)) / r) * r
+    hi = math.ceil(float(np.max(pos + margin)) / r) * r
+    if np.all(sticks.positions_cm1 >= 0):
+        lo = max(min(lo, RANGE_START_CM1), 0.0)
+    return lo, hi
+
+
+def hidden_bands(sticks: StickSpectrum, range_cm1: tuple[float, float]) -> list[int]:
+    """Bands outside ``range_cm1`` stronger than :data:`HIDDEN_BAND_FRACTION` of the strongest."""
+    pos = sticks.positions_cm1
+    outside = (pos < range_cm1[0]) | (pos > range_cm1[1])
+    return [int(i) for i in np.flatnonzero(outside & (_strength(sticks) > HIDDEN_BAND_FRACTION))]
+
+
 def broaden(
     sticks: StickSpectrum,
     lineshape: LineShape = DEFAULT_LINESHAPE,
     *,
-    range_cm1: tuple[float, float] = (100.0, 3600.0),
+    range_cm1: tuple[float, float] | None = None,
     step_cm1: float = 0.5,
     grid_cm1: np.ndarray | None = None,
 ) -> GridSpectrum:
     """Broaden every stick with ``lineshape`` and sum on a grid (``grid_cm1`` or range and step).
 
     Each line is a unit-area profile times its stick height, so its area over the whole axis
-    equals the stick; a grid step above half the FWHM undersamples the peaks (warned).
+    equals the stick; a grid step above half the FWHM undersamples the peaks (warned).  The
+    default range holds every Raman-active band (:func:`default_range`).
+
+    Warns
+    -----
+    AccuracyWarning
+        When the grid is coarse for the line width, or when the range (or grid) leaves out a
+        band stronger than :data:`HIDDEN_BAND_FRACTION` of the strongest (named in the message).
     """
-    x = make_grid(*range_cm1, step_cm1) if grid_cm1 is None else np.asarray(grid_cm1, dtype=float)
+    if grid_cm1 is None:
+        x = make_grid(*(range_cm1 or default_range(sticks, lineshape)), step_cm1)
+    else:
+        x = np.asarray(grid_cm1, dtype=float)
     if x.ndim != 1 or x.size < 2:
         raise VibrapolError("the grid needs at least two points")
     step = float(np.max(np.diff(x)))
+    hidden = hidden_bands(sticks, (float(x.min()), float(x.max())))
+    if hidden:
+        strength = _strength(sticks)
+        names = ", ".join(
+            f"{sticks.positions_cm1[i]:.0f} cm-1"
+            + (f" ({sticks.irreps[i]})" if sticks.irreps[i] else "")
+            + f" at {100 * strength[i]:.0f} % of the strongest"
+            for i in hidden
+        )
+        warnings.warn(
+            f"the range {x.min():g}:{x.max():g} cm-1 leaves out {names}; "
+            "widen the range (or leave it out: the default holds every band)",
+            AccuracyWarning,
+            stacklevel=2,
+        )
     widths = lineshape.widths_cm1(sticks.positions_cm1)
     if widths.size and step > 0.5 * widths.min():
         warnings.warn(

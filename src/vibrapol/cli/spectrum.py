@@ -171,7 +171,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--range-cm1",
         default=None,
-        help="LOW:HIGH (default 100:3600; -3600:3600 with --anti-stokes)",
+        metavar="LOW:HIGH",
+        help="Raman-shift range in cm-1 (default: every Raman-active band with 5 line widths "
+        "to spare, rounded to 50; a range that leaves out a band above 5 %% of the strongest "
+        "is warned)",
     )
     parser.add_argument("--step-cm1", type=float, default=0.5, help="grid step (default 0.5)")
     parser.add_argument(
@@ -276,12 +279,15 @@ def run(args: argparse.Namespace) -> int:
     if args.labels < 0:
         raise VibrapolError(f"--labels must be 0 or more, got {args.labels}")
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
-    default_range = "-3600:3600" if args.anti_stokes else "100:3600"
-    span = parse_range(args.range_cm1 or default_range)
+    span = parse_range(args.range_cm1) if args.range_cm1 else None
     channels = [c for c in args.channels.split(",") if c.strip()]
     sticks = build_sticks(
         args, channels, args.geometry, side="both" if args.anti_stokes else "stokes"
     )
+    if span is None:
+        from vibrapol.spectrum import default_range
+
+        span = default_range(sticks, lineshape)
     grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
 
     from vibrapol import spectrum_io

@@ -164,14 +164,19 @@ def spectrum_figure(
                 ax.vlines(
                     pos[ok], 0.0, hts[ok], colors=colour, linewidths=0.5, alpha=0.45, zorder=1
                 )
+            ch, _, source = c.partition(":")  # overlays name columns CHANNEL:SOURCE
+            if source:
+                colour = OTHER_COLOURS[(k // 2) % len(OTHER_COLOURS)]
             ax.plot(
                 x,
                 data[c] / norm,
                 color=colour,
-                linestyle=DASHES.get(c, "-"),
+                linestyle=DASHES.get(ch, "-"),
                 lw=0.9,
                 zorder=3,
-                label=CHANNEL_NAMES.get(c, c),
+                label=f"{source.replace(chr(92), '/').rsplit('/', 1)[-1]} {ch.upper()}"
+                if source
+                else CHANNEL_NAMES.get(c, c),
             )
         top = max(float(np.max(v[shown])) for v in data.values()) / norm
         for ax in axes:

@@ -1,8 +1,10 @@
 """Polarized Raman spectra (VV, VH and other channels) of one molecule or a conformer mixture.
 
-Writes the broadened spectrum as CSV (columns shift_cm1, vv, vh, then any other channels) or
-JSON, optionally a stick table and figures (SVG, PDF or 300 dpi PNG).  Several sources are
-combined as a Boltzmann-weighted mixture.
+Writes the broadened spectrum as CSV (``#`` lines with the conditions, then columns shift_cm1,
+vv, vh and any other channels) or JSON, optionally a stick table and figures (SVG, PDF or 300 dpi
+PNG).  Several sources are conformers combined as a Boltzmann-weighted mixture (same
+composition and level of theory, else refused), or, with --overlay, any molecules drawn side
+by side (one column per source and channel).
 
 Laser safety: the laser line chosen here is only a number in a calculation, but the real one
 can injure eyes and skin; follow your institution's laser safety rules and local regulations.
@@ -182,6 +184,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="relative energies of the sources (default: their electronic energies)",
     )
     parser.add_argument(
+        "--overlay",
+        action="store_true",
+        help="several SOURCEs side by side, each at weight 1 (one CSV column per source and "
+        "channel, named CHANNEL:SOURCE) instead of a Boltzmann mixture of conformers",
+    )
+    parser.add_argument(
         "--zero-point",
         action="store_true",
         help="add harmonic zero-point energies to source energies",
@@ -232,6 +240,11 @@ def build_sticks(
                 raise VibrapolError(
                     f"{option} needs two or more sources (a conformer mixture); got one"
                 )
+    overlaid = getattr(args, "overlay", False)
+    if overlaid and (getattr(args, "energies_kjmol", None) or getattr(args, "zero_point", False)):
+        raise VibrapolError(
+            "--overlay draws sources at weight 1: drop --energies-kjmol/--zero-point"
+        )
     modesets = [read_modes(s, kind=args.kind) for s in args.sources]
     options = dict(
         channels=channels,
@@ -245,7 +258,15 @@ def build_sticks(
     )
     if len(modesets) == 1:
         return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)  # type: ignore[arg-type]
-    from vibrapol.conformers import conformer_spectrum
+    from vibrapol.conformers import conformer_spectrum, overlay
+
+    if overlaid:
+        return overlay(
+            [
+                stick_spectrum(m, temperature_k=args.temperature_k, label=src, **options)  # type: ignore[arg-type]
+                for m, src in zip(modesets, args.sources, strict=True)
+            ]
+        )
 
     energies = getattr(args, "energies_kjmol", None)
     return conformer_spectrum(
@@ -288,7 +309,13 @@ def run(args: argparse.Namespace) -> int:
         from vibrapol.spectrum import default_range
 
         span = default_range(sticks, lineshape)
-    grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
+    overlaid = args.overlay and len(args.sources) > 1
+    if overlaid:
+        from vibrapol.conformers import overlay_grid
+
+        grid = overlay_grid(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
+    else:
+        grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
 
     from vibrapol import spectrum_io
 
@@ -304,7 +331,8 @@ def run(args: argparse.Namespace) -> int:
                 channels=grid.channels,
                 layout=args.layout,
                 width=_width(args.width),
-                label_count=args.labels,
+                label_count=0 if overlaid else args.labels,
+                sticks=not overlaid,
             )
             outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.figure]
         if args.rho_figure:

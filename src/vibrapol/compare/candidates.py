@@ -12,7 +12,12 @@ import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from vibrapol.conformers import boltzmann_weights, mixture, source_energies_kjmol
+from vibrapol.conformers import (
+    boltzmann_weights,
+    check_conformers,
+    mixture,
+    source_energies_kjmol,
+)
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable, raman_table
@@ -166,6 +171,7 @@ def mixture_candidate(
     """
     if not modesets:
         raise VibrapolError("a mixture candidate needs at least one conformer")
+    check_conformers(modesets, overlay_hint="separate SOURCE arguments (one candidate each)")
     if relative_energies_kjmol is None:
         relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
     elif len(relative_energies_kjmol) != len(modesets):

@@ -148,6 +148,28 @@ def test_summary_and_caution(small):
     assert dep.band_cm1 == pytest.approx(3756.0, abs=2.0)
 
 
+def test_summary_names_scaled_and_harmonic_wavenumbers_as_the_table_does(small):
+    # Contract: every band the summary quotes is "SCALED (SPECIES; mode N, harmonic H)", and
+    # mode N of the table file has harmonic wavenumber H and that species; SCALED is H times
+    # the factor the summary states.
+    import re
+
+    _, result, _ = small
+    text = " ".join(result.summary.split())
+    quoted = re.findall(r"(\d+) \((\w+); mode (\d+)(?:\+\d+)*, harmonic ([\d.]+)\)", text)
+    assert quoted, "the summary quotes no band with its mode and harmonic wavenumber"
+    factor = float(re.search(r"harmonic × ([\d.]+)", text).group(1))
+    rows = {}
+    for line in (result.output_dir / "water_table.txt").read_text().splitlines():
+        cells = line.split()
+        if len(cells) > 5 and cells[0].isdigit() and cells[1][0].isdigit():
+            rows[int(cells[0])] = (float(cells[1]), cells[2])
+    for scaled, irrep, mode, harmonic in quoted:
+        freq, species = rows[int(mode)]
+        assert (species, round(freq, 1)) == (irrep, float(harmonic))
+        assert int(scaled) == round(factor * freq)
+
+
 def test_rerun_refuses_then_reuses_the_checkpoints(small):
     scenario, result, _ = small
     out = result.output_dir

@@ -133,3 +133,14 @@ def test_unrecorded_method_is_warned_not_refused():
 def test_a_given_factor_is_a_deliberate_choice():
     s = stick_spectrum(_modes("B3LYP", "STO-3G"), scale=FrequencyScale(0.9613))
     assert s.positions_cm1[0] == pytest.approx(3000.0 * 0.9613)
+
+
+def test_table_command_refuses_a_factor_of_another_level(capsys):
+    # examples/water.modes.json is RHF/6-31G*; a B3LYP factor does not belong to it.
+    from _paths import PROJECT_ROOT
+    from vibrapol.cli import main
+
+    water = str(PROJECT_ROOT / "examples" / "water.modes.json")
+    args = ["table", water, "--format", "markdown", "--scale-for", "B3LYP/6-31G*"]
+    assert main(args) == 2
+    assert "does not belong to this output" in capsys.readouterr().err

@@ -21,6 +21,7 @@ import sys
 from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes, readers
 
 HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
@@ -52,6 +53,11 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
     )
+    parser.add_argument(
+        "--detector", choices=("photon", "energy"), default="photon",
+        help="detector of the measurement, for the computed relative intensities: photon "
+        "(counting: CCD, InGaAs array; I ∝ ν0(ν0-ν)^3; default) or energy (I ∝ (ν0-ν)^4)",
+    )  # fmt: skip
     parser.add_argument(
         "--range-cm1", metavar="LOW:HIGH", help="use only this part of the measured spectra"
     )
@@ -196,7 +202,7 @@ def run(args: argparse.Namespace) -> int:
     pair, bands = measure(args)
     cand = candidate_from_modes(
         modes, laser_nm=laser_nm(args), temperature_k=args.temperature_k,
-        symmetry=not args.no_symmetry,
+        symmetry=not args.no_symmetry, detector=args.detector,
     )  # fmt: skip
     level_note = ""
     if "model" not in opts:
@@ -222,6 +228,7 @@ def run(args: argparse.Namespace) -> int:
         text += f"note: {level_note}\n"
     if args.laser_nm is None:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
+    text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     if not args.output:
         text += "\n" + assignment_csv(result)
     sys.stdout.write(text)

@@ -26,6 +26,7 @@ from vibrapol.cli.match import (
 )
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import write_atomic
+from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes
 
 HELP = "rank candidate structures by how well they match a measured VV/VH spectrum"
@@ -79,7 +80,10 @@ def run(args: argparse.Namespace) -> int:
     opts = assign_options(args)
     degeneracy = _degeneracies(args.degeneracy)
     common = dict(
-        laser_nm=laser_nm(args), temperature_k=args.temperature_k, symmetry=not args.no_symmetry
+        laser_nm=laser_nm(args),
+        temperature_k=args.temperature_k,
+        symmetry=not args.no_symmetry,
+        detector=args.detector,
     )
     candidates = []
     for s in args.sources:
@@ -112,6 +116,7 @@ def run(args: argparse.Namespace) -> int:
     pair, bands = measure(args)
     ranking = rank(candidates, bands, pair=pair, **opts)
     text = ranking_text(ranking)
+    text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     if args.output:
         write_atomic(args.output, text, force=args.force)
         print(f"wrote {args.output}", file=sys.stderr)

@@ -257,6 +257,8 @@ def depolarization_figure(
         raise VibrapolError(f"kind must be linear or natural, got {kind!r}")
     rho = sticks.rho_linear if kind == "linear" else sticks.rho_natural
     limit, limit_text = (0.75, "3/4") if kind == "linear" else (6.0 / 7.0, "6/7")
+    if kind == "natural" and sticks.conditions.geometry_deg == 180:
+        limit, limit_text = 1.0, "1"  # back-scattering: NH = NV for an isotropic sample
     strength = sticks.channel("vv") + sticks.channel("vh")
     keep = np.isfinite(rho) & (
         strength >= min_relative_activity * (strength.max() if strength.size else 0)

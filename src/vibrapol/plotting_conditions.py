@@ -19,7 +19,7 @@ from vibrapol.spectrum import Conditions
 CAPTION_PT = 5.5
 
 #: Characters of caption per inch of figure width at :data:`CAPTION_PT`.
-_CHARS_PER_INCH = 26
+_CHARS_PER_INCH = 20
 
 _DETECTOR_MATH = {
     "photon": r"photon counting, $I_k \propto \tilde\nu_0(\tilde\nu_0 \mp \tilde\nu_k)^3$",
@@ -59,7 +59,7 @@ def caption_text(conditions: Conditions, lineshape: LineShape | None = None) -> 
     if c.scale.is_unscaled:
         parts.append("wavenumbers unscaled (harmonic)")
     else:
-        parts.append(_plain(c.scale.describe()))
+        parts.append(_plain(c.scale.describe(short=True)))
     if lineshape is not None:
         from vibrapol.spectrum_io import lineshape_text
 

@@ -117,6 +117,11 @@ class PublishedFactor:
         cite, doi = SOURCES[self.source]
         return f"{cite}, doi:{doi}" if doi else cite
 
+    def short(self) -> str:
+        """Compact form for figure captions: pair, source key, DOI and where seen."""
+        doi = f", doi:{self.doi}" if self.doi else ""
+        return f"{self.name}, {self.source}{doi}, as seen in {', '.join(self.where_seen)}"
+
     def describe(self) -> str:
         """One line: the factor, the pair, the source with DOI and where the value was seen."""
         core = f" ({CORE_NOTES[self.core]})" if self.core else ""
@@ -366,8 +371,8 @@ class FrequencyScale:
             return f * self.factor
         return np.where(np.abs(f) < self.split_cm1, f * self.factor, f * self.factor_high)
 
-    def describe(self) -> str:
-        """One line for headers and captions."""
+    def describe(self, short: bool = False) -> str:
+        """One line for headers and captions (``short``: the compact source of a figure)."""
         if self.is_unscaled:
             return "unscaled (harmonic wavenumbers)"
         if self.factor_high is None:
@@ -377,7 +382,8 @@ class FrequencyScale:
                 f"scaled by {self.factor:g} below {self.split_cm1:g} cm-1 "
                 f"and {self.factor_high:g} above"
             )
-        return f"{text} [{self.note}]" if self.note else text
+        note = self.entry.short() if short and self.entry is not None else self.note
+        return f"{text} [{note}]" if note else text
 
 
 NO_SCALE = FrequencyScale()

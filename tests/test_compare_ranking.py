@@ -4,8 +4,8 @@ Candidates are computed with vibrapol's engine (HF/3-21G, tests/fixtures/compare
 C3H4 isomers propyne (C3v), allene (D2d) and cyclopropene (C2v), and the trans and gauche
 conformers of ethanol.  The measured spectra are INVENTED DATA drawn from one candidate's own
 computed bands (scaled by the published HF/3-21G factor 0.9085, SR96 in
-../shared/reference/scale-factors.md, Table 1) with 1 % position scatter, intensities off by a log-normal factor (σ = 0.5) and noise:
-the candidate the spectrum was drawn from must rank first.
+../shared/reference/scale-factors.md, Table 1) with 1 % position scatter, intensities off by a
+log-normal factor (σ = 0.5) and noise: the candidate the spectrum was drawn from must rank first.
 """
 
 from __future__ import annotations

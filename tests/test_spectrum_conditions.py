@@ -105,6 +105,20 @@ def test_every_csv_states_its_conditions(water):
     assert _comments(sticks_csv(sticks))["line shape"] == "none (sticks)"
 
 
+def test_json_states_the_same_conditions(water):
+    import json
+
+    from vibrapol.spectrum_io import grid_json
+
+    scale = FrequencyScale.published("HF/6-31G*")
+    sticks = stick_spectrum(water, laser_nm=785.0, scale=scale, detector="energy")
+    doc = json.loads(grid_json(broaden(sticks)))
+    h = doc["header"]
+    assert (h["laser_nm"], h["detector"], h["method"]) == (785.0, "energy", "RHF/6-31g*")
+    assert h["scale_source"]["doi"] == "10.1021/jp073974n" and h["scale_factor"] == 0.8953
+    assert doc["lineshape"]["description"] == "lorentzian, FWHM 8 cm-1"
+
+
 def test_pandas_reads_the_csv_with_comment_lines(water):
     pd = pytest.importorskip("pandas", reason="pandas is not installed")
     grid = broaden(stick_spectrum(water), range_cm1=(1000.0, 4500.0))

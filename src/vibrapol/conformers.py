@@ -161,8 +161,13 @@ def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> Stick
         raise VibrapolError(f"give one non-negative weight per spectrum ({len(spectra)})")
     first = spectra[0]
     for s in spectra[1:]:
-        if s.channels != first.channels or s.conditions != first.conditions:
+        same = dataclasses.replace(s.conditions, method="") == dataclasses.replace(
+            first.conditions, method=""
+        )
+        if s.channels != first.channels or not same:
             raise VibrapolError("spectra in a mixture must share channels and conditions")
+    # the level of theory as each source spells it (conformers were checked to share it)
+    methods = "; ".join(dict.fromkeys(s.conditions.method or "not recorded" for s in spectra))
     return StickSpectrum(
         positions_cm1=np.concatenate([s.positions_cm1 for s in spectra]),
         heights=np.concatenate([s.heights * wi for s, wi in zip(spectra, w, strict=True)]),
@@ -178,7 +183,7 @@ def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> Stick
         ),
         components=tuple(s.components[0] for s in spectra),
         weights=tuple(float(x) for x in w),
-        conditions=first.conditions,
+        conditions=dataclasses.replace(first.conditions, method=methods),
     )
 
 
@@ -233,12 +238,7 @@ def overlay(spectra: Sequence[StickSpectrum]) -> StickSpectrum:
     """
     if not spectra:
         raise VibrapolError("an overlay needs at least one spectrum")
-    methods = "; ".join(dict.fromkeys(s.conditions.method or "not recorded" for s in spectra))
-    same = [
-        dataclasses.replace(s, conditions=dataclasses.replace(s.conditions, method=methods))
-        for s in spectra
-    ]
-    return mixture(same, np.ones(len(spectra)))
+    return mixture(spectra, np.ones(len(spectra)))
 
 
 def overlay_grid(
@@ -250,14 +250,13 @@ def overlay_grid(
 ) -> GridSpectrum:
     """Each component broadened on its own: channels named ``CHANNEL:COMPONENT`` (``vv:a.json``)."""
     span = range_cm1 or default_range(sticks, lineshape)
-    columns, names, grid = [], [], None
-    for k, label in enumerate(sticks.components):
-        part = _component(sticks, k)
-        grid = broaden(part, lineshape, range_cm1=span, step_cm1=step_cm1)
-        columns.append(grid.values)
-        names += [f"{ch}:{label}" for ch in sticks.channels]
-    assert grid is not None
-    return GridSpectrum(grid.shift_cm1, np.hstack(columns), tuple(names), lineshape, sticks)
+    grids = [
+        broaden(_component(sticks, k), lineshape, range_cm1=span, step_cm1=step_cm1)
+        for k in range(len(sticks.components))
+    ]
+    names = tuple(f"{ch}:{label}" for label in sticks.components for ch in sticks.channels)
+    values = np.hstack([g.values for g in grids])
+    return GridSpectrum(grids[0].shift_cm1, values, names, lineshape, sticks)
 
 
 def _component(sticks: StickSpectrum, k: int) -> StickSpectrum:

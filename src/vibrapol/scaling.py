@@ -306,7 +306,7 @@ def check_factor_belongs(entry: PublishedFactor, method: str, basis: str, where:
         return
     m, core = parse_method(method)
     same = m == _squash(entry.method) and normalize_basis(basis) == normalize_basis(entry.basis)
-    if core and entry.core in ("FC", "AE") and core != entry.core:
+    if core and entry.core in ("FC", "FC?", "AE") and core != entry.core.rstrip("?"):
         same = False
     if not same:
         raise VibrapolError(

@@ -233,7 +233,7 @@ def test_full_demo(tmp_path):
         assert band.irrep == irrep, position
     # the invented overtone near 2830 cm-1 has no fundamental
     assert not a.nearest(2830).assigned
-    # HF/6-31G* published factor 0.8953 (Scott & Radom 1996, from memory)
+    # HF/6-31G* published factor 0.8953 (MMR07, ../shared/reference/scale-factors.md)
     assert a.scale.factor == pytest.approx(0.8953, abs=0.02)
     pol, dep = check_bands(a)
     assert (round(pol.band_cm1), round(dep.band_cm1)) == (702, 737)

@@ -198,7 +198,8 @@ def test_band_tables_leave_out_imaginary_modes():
 
 
 def test_band_table_with_a_published_scale_factor(capsys):
-    # The HF/6-31G(d) factor 0.8953 (Scott & Radom 1996, from memory) times the harmonic
+    # The HF/6-31G(d) factor 0.8953 (MMR07 and SR96, ../shared/reference/scale-factors.md,
+    # Table 1) times the harmonic
     # wavenumbers of the CSV table; the caption names the factor.
     assert main(["table", str(EXAMPLE), "--format", "csv"]) == 0
     harmonic = [float(r[1]) for r in list(csv.reader(_body(capsys.readouterr().out)))[1:]]

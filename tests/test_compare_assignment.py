@@ -76,8 +76,8 @@ def test_overtone_stays_unassigned(result):
 
 
 def test_scale_factor_and_scores(result):
-    # Fitted factor near the published HF/6-31G(d) one (Scott & Radom 1996: 0.8953, from
-    # memory); the six pairs fix it to better than 1 %.
+    # Fitted factor near the published HF/6-31G(d) one (MMR07 and SR96: 0.8953,
+    # ../shared/reference/scale-factors.md, Table 1); the six pairs fix it to better than 1 %.
     published = lookup_factor("HF/6-31G*").factor
     assert result.scale.fitted
     assert result.scale.factor == pytest.approx(published, abs=0.01)

@@ -90,7 +90,8 @@ def test_every_planned_file_is_written(small):
     # file signatures (PNG: ISO/IEC 15948; SVG is XML)
     assert (result.output_dir / "water_vv_vh.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert b"<svg" in (result.output_dir / "match.svg").read_bytes()[:500]
-    head = (result.output_dir / "water_spectrum.csv").read_text().splitlines()
+    text = (result.output_dir / "water_spectrum.csv").read_text()
+    head = [x for x in text.splitlines() if not x.startswith("#")]
     assert head[0].split(",")[:3] == ["shift_cm1", "vv", "vh"]
     # grid over the scenario's range, 0.5 cm-1 steps (spectrum module default): 6001 points
     rows = [r for r in head[1:] if r and not r.startswith("#")]
@@ -145,6 +146,28 @@ def test_summary_and_caution(small):
     # strongest polarized band: ν1 at 3657 (invented area 100); depolarized: ν3 (B2) at 3756
     assert pol.band_cm1 == pytest.approx(3657.0, abs=2.0)
     assert dep.band_cm1 == pytest.approx(3756.0, abs=2.0)
+
+
+def test_summary_names_scaled_and_harmonic_wavenumbers_as_the_table_does(small):
+    # Contract: every band the summary quotes is "SCALED (SPECIES; mode N, harmonic H)", and
+    # mode N of the table file has harmonic wavenumber H and that species; SCALED is H times
+    # the factor the summary states.
+    import re
+
+    _, result, _ = small
+    text = " ".join(result.summary.split())
+    quoted = re.findall(r"(\d+) \((\w+); mode (\d+)(?:\+\d+)*, harmonic ([\d.]+)\)", text)
+    assert quoted, "the summary quotes no band with its mode and harmonic wavenumber"
+    factor = float(re.search(r"harmonic × ([\d.]+)", text).group(1))
+    rows = {}
+    for line in (result.output_dir / "water_table.txt").read_text().splitlines():
+        cells = line.split()
+        if len(cells) > 5 and cells[0].isdigit() and cells[1][0].isdigit():
+            rows[int(cells[0])] = (float(cells[1]), cells[2])
+    for scaled, irrep, mode, harmonic in quoted:
+        freq, species = rows[int(mode)]
+        assert (species, round(freq, 1)) == (irrep, float(harmonic))
+        assert int(scaled) == round(factor * freq)
 
 
 def test_rerun_refuses_then_reuses_the_checkpoints(small):
@@ -210,7 +233,7 @@ def test_full_demo(tmp_path):
         assert band.irrep == irrep, position
     # the invented overtone near 2830 cm-1 has no fundamental
     assert not a.nearest(2830).assigned
-    # HF/6-31G* published factor 0.8953 (Scott & Radom 1996, from memory)
+    # HF/6-31G* published factor 0.8953 (MMR07, ../shared/reference/scale-factors.md)
     assert a.scale.factor == pytest.approx(0.8953, abs=0.02)
     pol, dep = check_bands(a)
     assert (round(pol.band_cm1), round(dep.band_cm1)) == (702, 737)

@@ -73,11 +73,11 @@ def test_isolated_broadened_band_has_vh_over_vv_equal_to_rho():
 
 
 def test_laser_change_scales_each_band_by_the_fourth_power():
-    # Issue requirement (Long 2002, ν⁴ law): 532 → 785 nm multiplies each intensity by
+    # Long 2002, ν⁴ law for an energy detector: 532 → 785 nm multiplies each intensity by
     # ((ν₀′ − ν_k)/(ν₀ − ν_k))⁴ exactly.
     m = two_bands()
-    a = stick_spectrum(m, quantity="intensity", laser_nm=532.0)
-    b = stick_spectrum(m, quantity="intensity", laser_nm=785.0)
+    a = stick_spectrum(m, quantity="intensity", laser_nm=532.0, detector="energy")
+    b = stick_spectrum(m, quantity="intensity", laser_nm=785.0, detector="energy")
     nu0, nu1 = 1e7 / 532.0, 1e7 / 785.0
     want = ((nu1 - a.positions_cm1) / (nu0 - a.positions_cm1)) ** 4
     np.testing.assert_allclose(
@@ -86,8 +86,11 @@ def test_laser_change_scales_each_band_by_the_fourth_power():
 
 
 def test_anti_stokes_to_stokes_ratio():
-    # Long (2002): I_aS/I_S = ((ν₀ + ν_k)/(ν₀ − ν_k))⁴ exp(−hcν_k/kT); hc/k from scipy.constants.
-    s = stick_spectrum(two_bands(), quantity="intensity", side="both", temperature_k=350.0)
+    # Long (2002), energy detector: I_aS/I_S = ((ν₀ + ν_k)/(ν₀ − ν_k))⁴ exp(−hcν_k/kT); hc/k
+    # from scipy.constants.
+    s = stick_spectrum(
+        two_bands(), quantity="intensity", side="both", temperature_k=350.0, detector="energy"
+    )
     n = s.n_bands // 2
     nu0, nu = 1e7 / 532.0, s.positions_cm1[:n]
     hc_k = C.h * C.c * 100.0 / C.k
@@ -147,15 +150,16 @@ def test_degenerate_pair_is_one_band_independent_of_basis():
 
 
 def test_two_region_scaling_and_published_lookup():
-    # Definition of the two-region scale; published factor values are from memory
-    # (vibrapol.scaling): Scott & Radom 1996 B3LYP/6-31G(d) 0.9614, Merrick et al. 2007 0.960.
+    # Definition of the two-region scale; published factors as in
+    # ../shared/reference/scale-factors.md, Table 1: B3LYP/6-31G(d) MMR07 0.9613 (the default
+    # source), SR96 0.9614; B97-D/6-31G(d) is among its gaps.
     m = analytic_modeset([POLARIZED, TRACELESS], [1000.0, 3100.0])
     s = stick_spectrum(m, scale=FrequencyScale(0.98, 0.955, 2500.0))
     np.testing.assert_allclose(s.positions_cm1, [980.0, 3100.0 * 0.955], rtol=1e-12)
-    assert lookup_factor("B3LYP/6-31G*").factor == pytest.approx(0.960)
-    assert lookup_factor("b3-lyp/6-31G(d)", source="Scott").factor == pytest.approx(0.9614)
+    assert lookup_factor("B3LYP/6-31G*").factor == pytest.approx(0.9613)
+    assert lookup_factor("b3-lyp/6-31G(d)", source="SR96").factor == pytest.approx(0.9614)
     with pytest.raises(VibrapolError, match="no published scale factor"):
-        lookup_factor("PBE/STO-3G")
+        lookup_factor("B97-D/6-31G*")
 
 
 def test_imaginary_modes_are_left_out_with_a_warning():
@@ -191,10 +195,11 @@ def test_csv_starts_with_shift_vv_vh_and_json_is_strict():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         g = broaden(s, LineShape("lorentzian", 8.0), range_cm1=(500.0, 3000.0), step_cm1=1.0)
-    lines = grid_csv(g).splitlines()
+    lines = [x for x in grid_csv(g).splitlines() if not x.startswith("#")]
     assert lines[0] == "shift_cm1,vv,vh,nv"
     assert len(lines) == 1 + 2501  # 500..3000 inclusive, step 1
-    assert sticks_csv(s).splitlines()[0].startswith("shift_cm1,harmonic_cm1,modes,irrep,rho_linear")
+    stick_lines = [x for x in sticks_csv(s).splitlines() if not x.startswith("#")]
+    assert stick_lines[0].startswith("shift_cm1,harmonic_cm1,modes,irrep,rho_linear")
     assert '"fwhm_cm1": 8.0' in grid_json(g)
 
 

@@ -45,6 +45,13 @@ NAMED_CHANNELS = ("vv", "vh", "vu", "hv", "hh", "hu", "nv", "nh", "nu")
 #: Channels every spectrum carries first.
 BASE_CHANNELS = ("vv", "vh")
 
+#: Channels behind the two depolarization ratios: VH/VV (linear) and NH/NV (natural light).
+RATIO_CHANNELS = ("vv", "vh", "nv", "nh")
+
+#: A band whose parallel channel is below this fraction of the strongest band's total has no
+#: measurable ratio (NaN): forbidden bands print numerical noise of this order or smaller.
+RATIO_NOISE = 1e-10
+
 _V = np.array([0.0, 1.0, 0.0])
 _H_INCIDENT = np.array([1.0, 0.0, 0.0])
 _H_SCATTERED = {90: np.array([0.0, 0.0, 1.0]), 180: np.array([1.0, 0.0, 0.0])}
@@ -142,3 +149,33 @@ def isotropic_channel_activity(
         for ei, es, w in channel_terms(name, geometry_deg):
             out[:, j] += w * 45.0 * inv.polarized_intensity(a2, gamma2, ei, es)
     return out
+
+
+def depolarization_ratios(
+    heights: np.ndarray, channels: Sequence[str]
+) -> tuple[np.ndarray, np.ndarray]:
+    """(VH/VV, NH/NV) per band, from channel heights of the geometry and sample computed.
+
+    The ratios are those of the channels as computed, so they hold for the scattering
+    geometry and the orientation of the sample: at 90° for an isotropic sample they are
+    ρ_linear = 3γ²/(45a² + 4γ²) and ρ_natural = 6γ²/(45a² + 7γ²); at 180° the natural-light
+    ratio is 1 [Long]_.  NaN where the denominator is below :data:`RATIO_NOISE` of the largest
+    band height.
+
+    Parameters
+    ----------
+    heights : ndarray (n_bands, n_channels)
+    channels : sequence of str
+        Names of the columns; must include :data:`RATIO_CHANNELS`.
+    """
+    h = np.asarray(heights, dtype=float)
+    col = {name: j for j, name in enumerate(channels)}
+    floor = RATIO_NOISE * (np.nanmax(h) if h.size and np.isfinite(h).any() else 0.0)
+
+    def ratio(num: str, den: str) -> np.ndarray:
+        n, d = h[:, col[num]], h[:, col[den]]
+        out = np.full(n.shape, np.nan)
+        np.divide(n, d, out=out, where=np.isfinite(d) & (d > floor))
+        return out
+
+    return ratio("vh", "vv"), ratio("nh", "nv")

@@ -1,4 +1,9 @@
-"""Spectra of mixtures: Boltzmann-weighted sums over conformers (or any set of species).
+"""Spectra of several sources: Boltzmann mixtures of conformers, or overlays of anything.
+
+A Boltzmann mixture weights each source by g_i exp(−ΔE_i/RT); it is only meaningful for
+conformers of one molecule computed at one level of theory (the energies must be comparable),
+which :func:`check_conformers` enforces.  Different molecules are overlaid instead
+(:func:`overlay`, :func:`overlay_grid`): each keeps weight 1 and its own trace.
 
 References
 ----------
@@ -8,15 +13,87 @@ References
 
 from __future__ import annotations
 
+import dataclasses
+import warnings
+from collections import Counter
 from collections.abc import Sequence
 
 import numpy as np
 
 from vibrapol import units
-from vibrapol.errors import VibrapolError
+from vibrapol.errors import AccuracyWarning, VibrapolError
+from vibrapol.lineshapes import LineShape
 from vibrapol.modeset import ModeSet
 from vibrapol.quantities import check_temperature
-from vibrapol.spectrum import StickSpectrum, stick_spectrum
+from vibrapol.scaling import normalize_basis, parse_method
+from vibrapol.spectrum import (
+    DEFAULT_LINESHAPE,
+    GridSpectrum,
+    StickSpectrum,
+    broaden,
+    default_range,
+    stick_spectrum,
+)
+
+
+def formula(modes: ModeSet) -> str:
+    """Composition in Hill order (C, H, then alphabetical; alphabetical without carbon)."""
+    counts = Counter(modes.symbols)
+    order = ["C", "H"] if "C" in counts else []
+    order += sorted(k for k in counts if k not in order)
+    return "".join(f"{k}{counts[k] if counts[k] > 1 else ''}" for k in order)
+
+
+def check_conformers(modesets: Sequence[ModeSet], overlay_hint: str = "--overlay") -> None:
+    """Refuse a Boltzmann mixture of sources that are not conformers at one level of theory.
+
+    Parameters
+    ----------
+    modesets : sequence of ModeSet
+    overlay_hint : str
+        How the user overlays different molecules instead (named in the message).
+
+    Raises
+    ------
+    VibrapolError
+        When the compositions differ (different molecules) or the recorded methods or basis
+        sets differ (energies from different levels cannot be compared).
+
+    Warns
+    -----
+    AccuracyWarning
+        When a source records no method or basis, so the level could not be compared.
+    """
+    names = [m.provenance.source_file or f"source {i + 1}" for i, m in enumerate(modesets)]
+    formulas = [formula(m) for m in modesets]
+    for name, f in zip(names[1:], formulas[1:], strict=True):
+        if f != formulas[0]:
+            raise VibrapolError(
+                f"{names[0]} ({formulas[0]}) and {name} ({f}) are different molecules, not "
+                "conformers: a Boltzmann mixture needs one composition; overlay them with "
+                f"{overlay_hint} (one trace and one column per source)"
+            )
+    levels = []
+    for name, m in zip(names, modesets, strict=True):
+        p = m.provenance
+        if not p.method or not p.basis:
+            warnings.warn(
+                f"{name}: no method/basis recorded, so the conformers' level of theory could "
+                "not be compared",
+                AccuracyWarning,
+                stacklevel=3,
+            )
+            continue
+        levels.append(
+            (name, f"{p.method}/{p.basis}", parse_method(p.method), normalize_basis(p.basis))
+        )
+    for name, text, method, basis in levels[1:]:
+        if (method, basis) != levels[0][2:]:
+            raise VibrapolError(
+                f"{levels[0][0]} ({levels[0][1]}) and {name} ({text}) were computed at different "
+                "levels of theory: their energies cannot weight a Boltzmann mixture; overlay "
+                f"them with {overlay_hint}"
+            )
 
 
 def boltzmann_weights(
@@ -84,8 +161,13 @@ def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> Stick
         raise VibrapolError(f"give one non-negative weight per spectrum ({len(spectra)})")
     first = spectra[0]
     for s in spectra[1:]:
-        if s.channels != first.channels or s.conditions != first.conditions:
+        same = dataclasses.replace(s.conditions, method="") == dataclasses.replace(
+            first.conditions, method=""
+        )
+        if s.channels != first.channels or not same:
             raise VibrapolError("spectra in a mixture must share channels and conditions")
+    # the level of theory as each source spells it (conformers were checked to share it)
+    methods = "; ".join(dict.fromkeys(s.conditions.method or "not recorded" for s in spectra))
     return StickSpectrum(
         positions_cm1=np.concatenate([s.positions_cm1 for s in spectra]),
         heights=np.concatenate([s.heights * wi for s, wi in zip(spectra, w, strict=True)]),
@@ -101,7 +183,7 @@ def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> Stick
         ),
         components=tuple(s.components[0] for s in spectra),
         weights=tuple(float(x) for x in w),
-        conditions=first.conditions,
+        conditions=dataclasses.replace(first.conditions, method=methods),
     )
 
 
@@ -132,6 +214,7 @@ def conformer_spectrum(
     **stick_options
         Passed to :func:`vibrapol.spectrum.stick_spectrum` (the temperature is passed too).
     """
+    check_conformers(modesets)
     if relative_energies_kjmol is None:
         relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
     elif len(relative_energies_kjmol) != len(modesets):
@@ -145,3 +228,52 @@ def conformer_spectrum(
         for m, lab in zip(modesets, labels, strict=True)
     ]
     return mixture(spectra, weights)
+
+
+def overlay(spectra: Sequence[StickSpectrum]) -> StickSpectrum:
+    """Several spectra side by side, each with weight 1 (no Boltzmann weighting).
+
+    The conditions must agree except for the method, which becomes the list of the sources'
+    methods.
+    """
+    if not spectra:
+        raise VibrapolError("an overlay needs at least one spectrum")
+    return mixture(spectra, np.ones(len(spectra)))
+
+
+def overlay_grid(
+    sticks: StickSpectrum,
+    lineshape: LineShape = DEFAULT_LINESHAPE,
+    *,
+    range_cm1: tuple[float, float] | None = None,
+    step_cm1: float = 0.5,
+) -> GridSpectrum:
+    """Each component broadened on its own: channels named ``CHANNEL:COMPONENT`` (``vv:a.json``)."""
+    span = range_cm1 or default_range(sticks, lineshape)
+    grids = [
+        broaden(_component(sticks, k), lineshape, range_cm1=span, step_cm1=step_cm1)
+        for k in range(len(sticks.components))
+    ]
+    names = tuple(f"{ch}:{label}" for label in sticks.components for ch in sticks.channels)
+    values = np.hstack([g.values for g in grids])
+    return GridSpectrum(grids[0].shift_cm1, values, names, lineshape, sticks)
+
+
+def _component(sticks: StickSpectrum, k: int) -> StickSpectrum:
+    keep = sticks.component == k
+    idx = np.flatnonzero(keep)
+    return StickSpectrum(
+        positions_cm1=sticks.positions_cm1[keep],
+        heights=sticks.heights[keep],
+        channels=sticks.channels,
+        harmonic_cm1=sticks.harmonic_cm1[keep],
+        mode_sets=tuple(sticks.mode_sets[i] for i in idx),
+        irreps=tuple(sticks.irreps[i] for i in idx),
+        rho_linear=sticks.rho_linear[keep],
+        rho_natural=sticks.rho_natural[keep],
+        polarized=sticks.polarized[keep],
+        component=np.zeros(idx.size, dtype=int),
+        components=(sticks.components[k],),
+        weights=(sticks.weights[k],),
+        conditions=sticks.conditions,
+    )

@@ -109,17 +109,24 @@ def check_bands(assignment: Assignment) -> tuple[object | None, object | None]:
 
 
 def _polarized_line(sym: ModeSymmetry, table: RamanTable) -> str:
+    """Which bands are polarized, each as scaled wavenumber, species, table mode and harmonic."""
     scale = _scale(sym.modes)
 
     def where(sets: list[tuple[int, ...]]) -> str:
-        freqs = scale.apply(np.array([table.freqs_cm1[s[0]] for s in sets]))
+        harmonic = np.array([table.freqs_cm1[s[0]] for s in sets])
+        scaled = scale.apply(harmonic)
         return ", ".join(
-            f"{f:.0f} ({table.irreps[s[0]] or '?'})" for f, s in zip(freqs, sets, strict=True)
+            f"{f:.0f} ({table.irreps[s[0]] or '?'}; mode {'+'.join(str(i + 1) for i in s)}, "
+            f"harmonic {h:.1f})"
+            for f, h, s in zip(scaled, harmonic, sets, strict=True)
         )
 
     all_sets = table.sets()
     pol = [s for s in all_sets if table.polarized[s[0]]]
-    how = f"scaled by {scale.factor:.4f}" if scale.factor != 1.0 else "unscaled"
+    if scale.factor != 1.0:
+        how = f"scaled wavenumbers, harmonic × {scale.factor:.4f}; modes as in the table"
+    else:
+        how = "unscaled harmonic wavenumbers; modes as in the table"
     text = f"{len(pol)} of {len(all_sets)} bands polarized" + (
         f", at {where(pol)} cm-1 ({how})" if pol else ""
     )
@@ -168,7 +175,7 @@ def summary_text(
     ]
     if unassigned:
         paragraphs.append(
-            "left unassigned: "
+            "left unassigned: measured "
             + ", ".join(f"{b.band_cm1:.0f} cm-1 (rho {b.band_rho:.2f})" for b in unassigned)
             + " - no computed fundamental fits: an overtone, a combination band or an impurity"
         )
@@ -176,7 +183,7 @@ def summary_text(
     pol, dep = check_bands(a)
     if pol is not None and dep is not None:
         paragraphs.append(
-            f"polarization check: the {pol.band_cm1:.0f} cm-1 band ({pol.irrep}, rho "
+            f"polarization check: the measured {pol.band_cm1:.0f} cm-1 band ({pol.irrep}, rho "
             f"{pol.band_rho:.2f}) should nearly vanish in VH; the {dep.band_cm1:.0f} cm-1 band "
             f"({dep.irrep}, 3/4 by symmetry) should keep 3/4 of its VV area - a measured ratio "
             "other than 3/4 there gives the VH/VV throughput of the spectrometer "

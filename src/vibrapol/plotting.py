@@ -24,6 +24,7 @@ from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
 from vibrapol.invariants import rho_natural_from_linear
+from vibrapol.plotting_conditions import add_caption, shift_label
 from vibrapol.plotting_labels import (
     CURVE_HEADROOM,
     box_of,
@@ -38,7 +39,6 @@ from vibrapol.plotting_style import (
     LABEL_PT,
     OTHER_COLOURS,
     PALETTE,
-    SHIFT_LABEL,
     STYLE,
     WIDTHS_IN,
     figure_bytes,
@@ -115,6 +115,7 @@ def spectrum_figure(
     normalize: bool = True,
     xlim_cm1: tuple[float, float] | None = None,
     title: str | None = None,
+    caption: bool = True,
 ) -> Figure:
     """Polarized spectra (VV and VH by default) with sticks and labels of the strongest bands.
 
@@ -138,6 +139,9 @@ def spectrum_figure(
     xlim_cm1 : (float, float), optional
         Shown range (default: the grid range).
     title : str, optional
+    caption : bool
+        Write the conditions (laser, temperature, geometry, sample, detector, scale factor
+        and its source, line shape, method) under the axes (default True).
     """
     if layout not in ("shared", "stacked"):
         raise VibrapolError(f"layout must be shared or stacked, got {layout!r}")
@@ -170,14 +174,19 @@ def spectrum_figure(
                 ax.vlines(
                     pos[ok], 0.0, hts[ok], colors=colour, linewidths=0.5, alpha=0.45, zorder=1
                 )
+            ch, _, source = c.partition(":")  # overlays name columns CHANNEL:SOURCE
+            if source:
+                colour = OTHER_COLOURS[(k // 2) % len(OTHER_COLOURS)]
             ax.plot(
                 x,
                 data[c] / norm,
                 color=colour,
-                linestyle=DASHES.get(c, "-"),
+                linestyle=DASHES.get(ch, "-"),
                 lw=0.9,
                 zorder=3,
-                label=CHANNEL_NAMES.get(c, c),
+                label=f"{source.replace(chr(92), '/').rsplit('/', 1)[-1]} {ch.upper()}"
+                if source
+                else CHANNEL_NAMES.get(c, c),
             )
         top = max(float(np.max(v[shown])) for v in data.values()) / norm
         for ax in axes:
@@ -194,7 +203,9 @@ def spectrum_figure(
             axes[0].set_ylabel(ylabel)
         else:
             fig.supylabel(ylabel, fontsize=8.0)
-        axes[-1].set_xlabel(SHIFT_LABEL)
+        axes[-1].set_xlabel(shift_label(grid.sticks.conditions))
+        if caption:
+            add_caption(fig, grid.sticks.conditions, grid.lineshape)
         if title:
             fig.suptitle(title, fontsize=8.0)
         if label_count and label_channel in chans:
@@ -259,6 +270,8 @@ def depolarization_figure(
         raise VibrapolError(f"kind must be linear or natural, got {kind!r}")
     rho = sticks.rho_linear if kind == "linear" else sticks.rho_natural
     limit, limit_text = (0.75, "3/4") if kind == "linear" else (6.0 / 7.0, "6/7")
+    if kind == "natural" and sticks.conditions.geometry_deg == 180:
+        limit, limit_text = 1.0, "1"  # back-scattering: NH = NV for an isotropic sample
     strength = sticks.channel("vv") + sticks.channel("vh")
     keep = np.isfinite(rho) & (
         strength >= min_relative_activity * (strength.max() if strength.size else 0)
@@ -323,8 +336,13 @@ def depolarization_figure(
         ax.spines["left"].set_bounds(0.0, 0.75 if kind == "linear" else 1.0)
         ax.set_yticks([0.0, 0.25, 0.5, 0.75] if kind == "linear" else [0.0, 0.25, 0.5, 0.75, 1.0])
         ax.xaxis.set_minor_locator(AutoMinorLocator())
-        ax.set_xlabel(SHIFT_LABEL)
-        ax.set_ylabel("Depolarization ratio ρ" + (" (natural light)" if kind == "natural" else ""))
+        ax.set_xlabel(shift_label(sticks.conditions))
+        ax.set_ylabel(
+            r"$\rho_\mathrm{linear}$ = VH/VV"
+            if kind == "linear"
+            else r"$\rho_\mathrm{natural}$ = NH/NV"
+        )
+        add_caption(fig, sticks.conditions)
         ax.legend(
             handles=handles,
             loc="upper left",
@@ -405,5 +423,6 @@ def polar_figure(
             if sweep.irreps[b]:
                 label += f"  {format_irrep(sweep.irreps[b])}"
             ax.set_title(label, fontsize=7.5, pad=4.0)
-        fig.legend(*fig.axes[0].get_legend_handles_labels(), loc="outside lower center", ncols=2)
+        fig.legend(*fig.axes[0].get_legend_handles_labels(), loc="outside upper center", ncols=2)
+        add_caption(fig, sweep.conditions)
     return fig

@@ -5,6 +5,8 @@ stick per degenerate set, with a height in each polarization channel (:mod:`vibr
 for the chosen quantity, laser line, temperature and scattering geometry.  ``broaden`` samples it
 on a grid with a line shape (:mod:`vibrapol.lineshapes`) into a :class:`GridSpectrum`.
 
+Broadening lives in :mod:`vibrapol.broadening` and is re-exported here.
+
 Stick heights are one of the quantities of :mod:`vibrapol.quantities` (Raman activity, relative
 intensity at a laser line and temperature, absolute cross section), Stokes or anti-Stokes.
 
@@ -20,21 +22,41 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.channels import check_geometry, isotropic_channel_activity, with_base_channels
+from vibrapol.broadening import (  # noqa: F401  (re-exported: the public spectrum API)
+    ACTIVE_FRACTION,
+    DEFAULT_LINESHAPE,
+    HIDDEN_BAND_FRACTION,
+    GridSpectrum,
+    broaden,
+    default_range,
+    hidden_bands,
+    make_grid,
+    read_only,
+)
+from vibrapol.channels import (
+    RATIO_CHANNELS,
+    check_geometry,
+    depolarization_ratios,
+    isotropic_channel_activity,
+    with_base_channels,
+)
 from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1, check_degeneracy_tol, sum_over_sets
-from vibrapol.lineshapes import LineShape
 from vibrapol.modeset import ModeSet
 from vibrapol.orientation import Orientation, oriented_channel_activity
-from vibrapol.quantities import QUANTITY_UNITS, SIDES, quantity_factor, thermal_factor
+from vibrapol.quantities import (
+    DETECTOR_NOTES,
+    QUANTITY_UNITS,
+    SIDES,
+    check_detector,
+    quantity_factor,
+    thermal_factor,
+)
 from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 
 #: Bands below this wavenumber are suspicious (residual rotations/translations): warned.
 LOW_BAND_CM1 = 10.0
-
-#: Line shape used when none is given: Lorentzian, FWHM 8 cm⁻¹.
-DEFAULT_LINESHAPE = LineShape()
 
 
 @dataclass(frozen=True)
@@ -48,8 +70,11 @@ class Conditions:
     side: str = "stokes"
     scale: FrequencyScale = NO_SCALE
     orientation: str = "isotropic"
+    detector: str = "photon"
+    method: str = ""
 
     def __post_init__(self) -> None:
+        check_detector(self.detector)
         if self.quantity not in QUANTITY_UNITS:
             raise VibrapolError(
                 f"unknown quantity {self.quantity!r}; choose one of {', '.join(QUANTITY_UNITS)}"
@@ -68,30 +93,45 @@ class Conditions:
         """Unit of a stick height."""
         return QUANTITY_UNITS[self.quantity]
 
+    @property
+    def detector_note(self) -> str:
+        """The detector convention of the heights, in words."""
+        if self.quantity == "intensity":
+            return DETECTOR_NOTES[self.detector]
+        if self.quantity == "cross-section":
+            return "none (cross sections are energy based by definition)"
+        return "none (activities)"
+
+    def items(self) -> list[tuple[str, str]]:
+        """(name, value) pairs of every condition, for file headers and captions."""
+        return [
+            ("quantity", f"{self.quantity} ({self.unit})"),
+            ("laser", f"{self.laser_nm:g} nm"),
+            ("temperature", f"{self.temperature_k:g} K"),
+            ("geometry", f"{self.geometry_deg} deg scattering"),
+            ("sample", self.orientation),
+            ("side", self.side),
+            ("detector", self.detector_note),
+            ("scale", self.scale.describe()),
+            ("method", self.method or "not recorded by the source"),
+        ]
+
     def describe(self) -> str:
         """One line for headers and captions."""
         parts = [self.quantity]
         if self.quantity != "activity":
             parts += [f"laser {self.laser_nm:g} nm", f"{self.temperature_k:g} K"]
+        if self.quantity == "intensity":
+            parts.append(f"{self.detector} detector")
         parts += [
             f"{self.geometry_deg} deg scattering",
             self.side,
             self.scale.describe(),
             self.orientation,
         ]
+        if self.method:
+            parts.append(self.method)
         return "; ".join(parts)
-
-
-def _ro(
-    value: np.ndarray, name: str, shape: tuple[int | None, ...], dtype: type = float
-) -> np.ndarray:
-    arr = np.array(value, dtype=dtype, copy=True)
-    if arr.ndim != len(shape) or any(
-        s is not None and s != a for s, a in zip(shape, arr.shape, strict=False)
-    ):
-        raise ShapeError(f"{name} should have shape {shape}, got {arr.shape}")
-    arr.setflags(write=False)
-    return arr
 
 
 @dataclass(frozen=True, eq=False)
@@ -113,7 +153,11 @@ class StickSpectrum:
     irreps : tuple of str
         Irreducible representation of each band ('' when symmetry is not known).
     rho_linear, rho_natural : ndarray (n,)
-        Depolarization ratios of the band for an isotropic sample at 90° (NaN when inactive).
+        Depolarization ratios of the band for the spectrum's geometry and sample: VH/VV
+        (linearly polarized incident light) and NH/NV (natural light), from the channels
+        computed (:func:`vibrapol.channels.depolarization_ratios`); NaN when inactive.  At 90°
+        for an isotropic sample these are the usual ρ_linear and ρ_natural; at 180° the
+        natural-light ratio of an isotropic sample is 1.
     polarized : ndarray of bool (n,)
     component : ndarray of int (n,)
         Index into ``components`` (the conformer a band belongs to; 0 for a single molecule).
@@ -141,12 +185,12 @@ class StickSpectrum:
     def __post_init__(self) -> None:
         n = np.asarray(self.positions_cm1).shape[0]
         set_ = object.__setattr__
-        set_(self, "positions_cm1", _ro(self.positions_cm1, "positions_cm1", (n,)))
-        set_(self, "heights", _ro(self.heights, "heights", (n, len(self.channels))))
+        set_(self, "positions_cm1", read_only(self.positions_cm1, "positions_cm1", (n,)))
+        set_(self, "heights", read_only(self.heights, "heights", (n, len(self.channels))))
         for name in ("harmonic_cm1", "rho_linear", "rho_natural"):
-            set_(self, name, _ro(getattr(self, name), name, (n,)))
-        set_(self, "polarized", _ro(self.polarized, "polarized", (n,), bool))
-        set_(self, "component", _ro(self.component, "component", (n,), int))
+            set_(self, name, read_only(getattr(self, name), name, (n,)))
+        set_(self, "polarized", read_only(self.polarized, "polarized", (n,), bool))
+        set_(self, "component", read_only(self.component, "component", (n,), int))
         if len(self.mode_sets) != n or len(self.irreps) != n:
             raise ShapeError(f"mode_sets and irreps need one entry per band ({n})")
         if len(self.components) != len(self.weights):
@@ -215,6 +259,7 @@ def stick_spectrum(
     degeneracy_tol_cm1: float = DEGENERACY_TOL_CM1,
     label: str = "",
     symmetry: bool = True,
+    detector: str = "photon",
 ) -> StickSpectrum:
     """Sticks of one molecule: one band per degenerate set, heights per channel.
 
@@ -237,12 +282,21 @@ def stick_spectrum(
         ``raman_table(modes)`` with sets from ``degeneracy_tol_cm1``.
     symmetry : bool
         Label the bands by symmetry species when no ``table`` is given (default True).
+    detector : str
+        ``"photon"`` (counting detectors, default) or ``"energy"``: the convention of the
+        relative intensity (:func:`vibrapol.quantities.frequency_factor`).
+
+    Raises
+    ------
+    VibrapolError
+        When ``scale`` is a published factor for another method or basis than the source's.
 
     Warns
     -----
     AccuracyWarning
-        When imaginary modes are dropped, or (for intensities and cross sections) a band lies
-        below :data:`LOW_BAND_CM1`.
+        When imaginary modes are dropped, when (for intensities and cross sections) a band lies
+        below :data:`LOW_BAND_CM1`, or when a published factor cannot be checked because the
+        source records no method or basis.
     """
     if quantity == "cross-section" and modes.provenance.raman_scale == "relative":
         raise VibrapolError(
@@ -251,20 +305,25 @@ def stick_spectrum(
             "the intensity quantity"
         )
     chans = with_base_channels(channels)
+    where = modes.provenance.source_file or "this mode set"
+    scale.check_belongs(modes.provenance.method, modes.provenance.basis, where)
     desc = "isotropic" if orientation is None else orientation.description
-    cond = Conditions(quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc)
+    method = "/".join(x for x in (modes.provenance.method, modes.provenance.basis) if x)
+    cond = Conditions(
+        quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc, detector, method
+    )
     if table is None:
         modes, table = _default_table(modes, symmetry, degeneracy_tol_cm1)
+    every = (*chans, *(c for c in RATIO_CHANNELS if c not in chans))
     if orientation is None:
         a2, gamma2 = modes.raman_invariants()
-        per_mode = isotropic_channel_activity(a2, gamma2, chans, geometry_deg)
+        per_mode = isotropic_channel_activity(a2, gamma2, every, geometry_deg)
     else:
         if modes.dalpha_dq is None:
-            where = modes.provenance.source_file or "this mode set"
             raise VibrapolError(
                 f"{where}: oriented samples need polarizability derivatives, not only activities"
             )
-        per_mode = oriented_channel_activity(modes.dalpha_dq, chans, orientation, geometry_deg)
+        per_mode = oriented_channel_activity(modes.dalpha_dq, every, orientation, geometry_deg)
     sets = sorted(table.sets(), key=lambda s: float(np.mean(modes.freqs_cm1[list(s)])))
     scaled = scale.apply(modes.freqs_cm1)
     pos = np.array([np.mean(scaled[list(s)]) for s in sets])
@@ -286,12 +345,17 @@ def stick_spectrum(
             AccuracyWarning,
             stacklevel=2,
         )
-    heights = sum_over_sets(per_mode, sets).reshape(len(sets), len(chans))
+    summed = sum_over_sets(per_mode, sets).reshape(len(sets), len(every))
+    heights = summed[:, : len(chans)]
+    rho_lin, rho_nat = depolarization_ratios(summed, every)
     first = [s[0] for s in sets]
+    inactive = ~np.isfinite(table.rho_linear[first]) if sets else np.zeros(0, bool)
+    rho_lin[inactive] = np.nan
+    rho_nat[inactive] = np.nan
     sides = ["stokes", "anti-stokes"] if side == "both" else [side]
     parts = []
     for sd in sides:
-        factor = quantity_factor(quantity, pos, laser_nm, temperature_k, sd)
+        factor = quantity_factor(quantity, pos, laser_nm, temperature_k, sd, detector)
         parts.append((pos if sd == "stokes" else -pos, heights * factor[:, None]))
     rep = len(sides)
     return StickSpectrum(
@@ -301,98 +365,10 @@ def stick_spectrum(
         harmonic_cm1=np.tile([np.mean(modes.freqs_cm1[list(s)]) for s in sets], rep),
         mode_sets=tuple(tuple(int(i) for i in s) for s in sets) * rep,
         irreps=tuple(_band_irrep(table.irreps, s) for s in sets) * rep,
-        rho_linear=np.tile(table.rho_linear[first], rep) if sets else np.zeros(0),
-        rho_natural=np.tile(table.rho_natural[first], rep) if sets else np.zeros(0),
+        rho_linear=np.tile(rho_lin, rep),
+        rho_natural=np.tile(rho_nat, rep),
         polarized=np.tile(table.polarized[first], rep) if sets else np.zeros(0, bool),
         component=np.zeros(len(sets) * rep, dtype=int),
         components=(label or modes.provenance.source_file,),
         conditions=cond,
     )
-
-
-@dataclass(frozen=True, eq=False)
-class GridSpectrum:
-    """A spectrum sampled on a Raman-shift grid.
-
-    Attributes
-    ----------
-    shift_cm1 : ndarray (m,)
-        Raman shift of each point.
-    values : ndarray (m, n_channels)
-        Spectral density in each channel: stick unit per cm⁻¹ (each band's area equals its stick).
-    channels : tuple of str
-    lineshape : LineShape
-    sticks : StickSpectrum
-        The sticks that were broadened.
-    """
-
-    shift_cm1: np.ndarray
-    values: np.ndarray
-    channels: tuple[str, ...]
-    lineshape: LineShape
-    sticks: StickSpectrum
-
-    def __post_init__(self) -> None:
-        m = np.asarray(self.shift_cm1).shape[0]
-        object.__setattr__(self, "shift_cm1", _ro(self.shift_cm1, "shift_cm1", (m,)))
-        object.__setattr__(self, "values", _ro(self.values, "values", (m, len(self.channels))))
-
-    @property
-    def unit(self) -> str:
-        """Unit of the values."""
-        return f"{self.sticks.conditions.unit} per cm^-1"
-
-    def channel(self, name: str) -> np.ndarray:
-        """Values in one channel (a copy)."""
-        try:
-            return self.values[:, self.channels.index(name.lower())].copy()
-        except ValueError:
-            raise VibrapolError(
-                f"channel {name!r} not computed (have {', '.join(self.channels)})"
-            ) from None
-
-
-def make_grid(start_cm1: float, stop_cm1: float, step_cm1: float) -> np.ndarray:
-    """Evenly spaced shifts from ``start_cm1`` to ``stop_cm1`` inclusive."""
-    if not (step_cm1 > 0 and math.isfinite(step_cm1)):
-        raise VibrapolError(f"grid step must be a positive number of cm-1, got {step_cm1}")
-    if not stop_cm1 > start_cm1:
-        raise VibrapolError(f"grid range must run from low to high, got {start_cm1:g}:{stop_cm1:g}")
-    n = int(math.floor((stop_cm1 - start_cm1) / step_cm1 + 1e-9)) + 1
-    if n > 2_000_000:
-        raise VibrapolError(
-            f"grid of {n} points is too large; use a larger step or a smaller range"
-        )
-    return start_cm1 + step_cm1 * np.arange(n)
-
-
-def broaden(
-    sticks: StickSpectrum,
-    lineshape: LineShape = DEFAULT_LINESHAPE,
-    *,
-    range_cm1: tuple[float, float] = (100.0, 3600.0),
-    step_cm1: float = 0.5,
-    grid_cm1: np.ndarray | None = None,
-) -> GridSpectrum:
-    """Broaden every stick with ``lineshape`` and sum on a grid (``grid_cm1`` or range and step).
-
-    Each line is a unit-area profile times its stick height, so its area over the whole axis
-    equals the stick; a grid step above half the FWHM undersamples the peaks (warned).
-    """
-    x = make_grid(*range_cm1, step_cm1) if grid_cm1 is None else np.asarray(grid_cm1, dtype=float)
-    if x.ndim != 1 or x.size < 2:
-        raise VibrapolError("the grid needs at least two points")
-    step = float(np.max(np.diff(x)))
-    widths = lineshape.widths_cm1(sticks.positions_cm1)
-    if widths.size and step > 0.5 * widths.min():
-        warnings.warn(
-            f"grid step {step:g} cm-1 is coarse for FWHM {widths.min():g} cm-1: "
-            "peak heights are undersampled",
-            AccuracyWarning,
-            stacklevel=2,
-        )
-    values = np.zeros((x.size, len(sticks.channels)))
-    for start in range(0, sticks.n_bands, 256):  # bounded memory for large mixtures
-        chunk = slice(start, start + 256)
-        values += lineshape.profiles(x, sticks.positions_cm1[chunk]).T @ sticks.heights[chunk]
-    return GridSpectrum(x, values, sticks.channels, lineshape, sticks)

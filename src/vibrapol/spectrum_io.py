@@ -1,8 +1,9 @@
 """Spectra as CSV and JSON text (sticks, grids, polar sweeps).
 
-CSV files start with their header line, so any spreadsheet or ``pandas.read_csv`` reads them;
-everything that describes how they were made (conditions, line shape, scale, sources, units)
-goes into the JSON form.
+CSV files start with ``#`` comment lines that state their conditions (laser, temperature,
+geometry, sample, detector, scale factor and its source, line shape and width, method and basis,
+sources), then the column header: ``pandas.read_csv(path, comment="#")`` reads them as a table.
+The JSON form carries the same conditions as fields.
 """
 
 from __future__ import annotations
@@ -15,7 +16,8 @@ from typing import Any
 
 import numpy as np
 
-from vibrapol.spectrum import GridSpectrum, StickSpectrum
+from vibrapol.lineshapes import LineShape
+from vibrapol.spectrum import Conditions, GridSpectrum, StickSpectrum
 from vibrapol.sweep import PolarSweep
 from vibrapol.units import CODATA_VERSION
 
@@ -42,16 +44,78 @@ def _csv(rows: list[list[object]]) -> str:
     return buf.getvalue()
 
 
+def lineshape_text(lineshape: LineShape | None) -> str:
+    """The line shape and its width in words ('none (sticks)' for stick tables)."""
+    if lineshape is None:
+        return "none (sticks)"
+    text = f"{lineshape.shape}, FWHM {lineshape.fwhm_cm1:g} cm-1"
+    if lineshape.fwhm_slope:
+        text += f" + {lineshape.fwhm_slope:g} x shift"
+    if lineshape.shape == "voigt":
+        text += f", Lorentzian share {lineshape.lorentzian_share:g}"
+    return text
+
+
+def conditions_lines(
+    conditions: Conditions,
+    lineshape: LineShape | None = None,
+    components: tuple[str, ...] = (),
+    weights: tuple[float, ...] = (),
+    columns: str = "",
+) -> str:
+    """``# name: value`` lines stating how a spectrum was computed (for CSV files)."""
+    items = [("vibrapol", "computed Raman spectrum (a prediction, not a measurement)")]
+    items += conditions.items()
+    items.append(("line shape", lineshape_text(lineshape)))
+    if components:
+        items.append(
+            (
+                "sources",
+                "; ".join(
+                    f"{c or '(in memory)'} (weight {w:.6g})"
+                    for c, w in zip(components, weights, strict=True)
+                ),
+            )
+        )
+    if columns:
+        items.append(("columns", columns))
+    items.append(("constants", CODATA_VERSION))
+    return "".join(f"# {k}: {' '.join(str(v).split())}\n" for k, v in items)
+
+
+def _shift_note(conditions: Conditions) -> str:
+    if conditions.scale.is_unscaled:
+        return "shift_cm1 = unscaled harmonic wavenumber"
+    return "shift_cm1 = scaled wavenumber (see scale)"
+
+
 def grid_csv(grid: GridSpectrum) -> str:
-    """``shift_cm1,vv,vh,…``: one row per grid point."""
+    """Conditions as ``#`` lines, then ``shift_cm1,vv,vh,…``: one row per grid point."""
+    st = grid.sticks
+    head = conditions_lines(
+        st.conditions,
+        grid.lineshape,
+        st.components,
+        st.weights,
+        f"{_shift_note(st.conditions)}; channels in {grid.unit}",
+    )
     rows: list[list[object]] = [["shift_cm1", *grid.channels]]
     for x, vals in zip(grid.shift_cm1, grid.values, strict=True):
         rows.append([f"{x:.4f}", *(_num(v, ".8g") for v in vals)])
-    return _csv(rows)
+    return head + _csv(rows)
 
 
 def sticks_csv(sticks: StickSpectrum) -> str:
-    """One row per band: :data:`STICK_COLUMNS`, then one height per channel."""
+    """Conditions as ``#`` lines, then one row per band: :data:`STICK_COLUMNS`, then heights."""
+    c = sticks.conditions
+    head = conditions_lines(
+        c,
+        None,
+        sticks.components,
+        sticks.weights,
+        f"{_shift_note(c)}; harmonic_cm1 = unscaled; rho_linear = vh/vv and rho_natural = "
+        f"nh/nv at {c.geometry_deg} deg for this sample ({c.orientation}); channels in {c.unit}",
+    )
     rows: list[list[object]] = [[*STICK_COLUMNS, *sticks.channels]]
     for i in range(sticks.n_bands):
         rows.append(
@@ -67,11 +131,26 @@ def sticks_csv(sticks: StickSpectrum) -> str:
                 *(_num(v, ".8g") for v in sticks.heights[i]),
             ]
         )
-    return _csv(rows)
+    return head + _csv(rows)
 
 
 def _finite(values: np.ndarray) -> list[float | None]:
     return [float(v) if math.isfinite(v) else None for v in np.asarray(values, dtype=float)]
+
+
+def _scale_source(c: Conditions) -> dict[str, Any] | None:
+    entry = c.scale.entry
+    if entry is None:
+        return None
+    return {
+        "name": entry.name,
+        "factor": entry.factor,
+        "source": entry.source,
+        "citation": entry.citation,
+        "doi": entry.doi,
+        "where_seen": list(entry.where_seen),
+        "note": entry.note,
+    }
 
 
 def header(sticks: StickSpectrum) -> dict[str, Any]:
@@ -84,8 +163,14 @@ def header(sticks: StickSpectrum) -> dict[str, Any]:
         "temperature_k": c.temperature_k,
         "geometry_deg": c.geometry_deg,
         "side": c.side,
+        "detector": c.detector,
+        "detector_note": c.detector_note,
         "scale": c.scale.describe(),
+        "scale_factor": c.scale.factor,
+        "scale_source": _scale_source(c),
+        "method": c.method,
         "orientation": c.orientation,
+        "ratios": f"rho_linear = vh/vv, rho_natural = nh/nv at {c.geometry_deg} deg",
         "components": [
             {"source": s, "weight": w}
             for s, w in zip(sticks.components, sticks.weights, strict=True)
@@ -119,6 +204,7 @@ def grid_json(grid: GridSpectrum) -> str:
             "fwhm_cm1": grid.lineshape.fwhm_cm1,
             "fwhm_slope": grid.lineshape.fwhm_slope,
             "lorentzian_share": grid.lineshape.lorentzian_share,
+            "description": lineshape_text(grid.lineshape),
         },
         "grid_unit": grid.unit,
         "sticks": sticks_dict(grid.sticks),
@@ -131,7 +217,9 @@ def grid_json(grid: GridSpectrum) -> str:
 
 
 def sweep_csv(sweep: PolarSweep) -> str:
-    """Long format ``angle_deg,shift_cm1,irrep,parallel,crossed``: one row per angle and band."""
+    """Conditions as ``#`` lines, then ``angle_deg,shift_cm1,irrep,parallel,crossed``."""
+    c = sweep.conditions
+    head = conditions_lines(c, None, columns=f"{_shift_note(c)}; parallel and crossed in {c.unit}")
     rows: list[list[object]] = [["angle_deg", "shift_cm1", "irrep", "parallel", "crossed"]]
     for b in range(sweep.n_bands):
         for a, angle in enumerate(sweep.angles_deg):
@@ -144,7 +232,7 @@ def sweep_csv(sweep: PolarSweep) -> str:
                     _num(sweep.crossed[a, b], ".8g"),
                 ]
             )
-    return _csv(rows)
+    return head + _csv(rows)
 
 
 def sweep_json(sweep: PolarSweep) -> str:
@@ -156,7 +244,13 @@ def sweep_json(sweep: PolarSweep) -> str:
         "unit": c.unit,
         "geometry_deg": c.geometry_deg,
         "orientation": c.orientation,
+        "laser_nm": c.laser_nm,
+        "temperature_k": c.temperature_k,
+        "detector": c.detector,
+        "detector_note": c.detector_note,
         "scale": c.scale.describe(),
+        "scale_source": _scale_source(c),
+        "method": c.method,
         "constants": CODATA_VERSION,
         "angles_deg": _finite(sweep.angles_deg),
         "bands": [

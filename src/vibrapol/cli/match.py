@@ -23,6 +23,7 @@ from vibrapol import fileio
 from vibrapol.cli._common import input_paths, print_stdout, write_outputs
 from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
 from vibrapol.errors import VibrapolError
+from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes, readers
 
 HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
@@ -55,6 +56,11 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
         "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
     )
     parser.add_argument(
+        "--detector", choices=("photon", "energy"), default="photon",
+        help="detector of the measurement, for the computed relative intensities: photon "
+        "(counting: CCD, InGaAs array; I ∝ ν0(ν0-ν)^3; default) or energy (I ∝ (ν0-ν)^4)",
+    )  # fmt: skip
+    parser.add_argument(
         "--range-cm1", metavar="LOW:HIGH", help="use only this part of the measured spectra"
     )
     parser.add_argument(
@@ -70,8 +76,9 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
         "published factor of the method when known) or fixed at F",
     )  # fmt: skip
     parser.add_argument(
-        "--scale-for", metavar="METHOD/BASIS",
-        help="start the fit from the published factor of this method, e.g. B3LYP/6-31G*",
+        "--scale-for", metavar="METHOD/BASIS[@SOURCE]",
+        help="start the fit from the published factor of this method, e.g. B3LYP/6-31G* "
+        "(refused when the source was computed with another method or basis)",
     )  # fmt: skip
     parser.add_argument(
         "--position-tolerance", type=float, metavar="REL",
@@ -190,6 +197,15 @@ def assign_options(args: argparse.Namespace) -> dict[str, object]:
     return out
 
 
+def check_scale_for(args: argparse.Namespace, modes: object, where: str) -> None:
+    """Refuse a ``--scale-for`` factor computed for another method or basis than ``modes``."""
+    if args.scale == "auto" and args.scale_for:
+        from vibrapol.scaling import FrequencyScale
+
+        p = modes.provenance  # type: ignore[attr-defined]
+        FrequencyScale.published(args.scale_for).check_belongs(p.method, p.basis, where)
+
+
 def laser_nm(args: argparse.Namespace) -> float:
     """Laser line for the computed intensities."""
     return DEFAULT_LASER_NM if args.laser_nm is None else float(args.laser_nm)
@@ -211,10 +227,11 @@ def run(args: argparse.Namespace) -> int:
     writers = [table_writer(p) for p in args.table]
     opts = assign_options(args)
     modes = read_modes(args.source, kind=args.kind)
+    check_scale_for(args, modes, args.source)
     pair, bands = measure(args)
     cand = candidate_from_modes(
         modes, laser_nm=laser_nm(args), temperature_k=args.temperature_k,
-        symmetry=not args.no_symmetry,
+        symmetry=not args.no_symmetry, detector=args.detector,
     )  # fmt: skip
     level_note = ""
     if "model" not in opts:
@@ -238,6 +255,7 @@ def run(args: argparse.Namespace) -> int:
         text += f"note: {level_note}\n"
     if args.laser_nm is None:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
+    text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     if not args.output:
         text += "\n" + assignment_csv(result)
     print_stdout(text)

@@ -20,10 +20,12 @@ from vibrapol.cli.match import (
     add_measurement_arguments,
     assign_options,
     check_outputs,
+    check_scale_for,
     laser_nm,
     measure,
 )
 from vibrapol.errors import VibrapolError
+from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes
 
 HELP = "rank candidate structures by how well they match a measured VV/VH spectrum"
@@ -77,12 +79,16 @@ def run(args: argparse.Namespace) -> int:
     opts = assign_options(args)
     degeneracy = _degeneracies(args.degeneracy)
     common = dict(
-        laser_nm=laser_nm(args), temperature_k=args.temperature_k, symmetry=not args.no_symmetry
+        laser_nm=laser_nm(args),
+        temperature_k=args.temperature_k,
+        symmetry=not args.no_symmetry,
+        detector=args.detector,
     )
-    candidates = [
-        candidate_from_modes(read_modes(s, kind=args.kind), label=Path(s).name, **common)  # type: ignore[arg-type]
-        for s in args.sources
-    ]
+    candidates = []
+    for s in args.sources:
+        modes = read_modes(s, kind=args.kind)
+        check_scale_for(args, modes, s)
+        candidates.append(candidate_from_modes(modes, label=Path(s).name, **common))  # type: ignore[arg-type]
     members = {f.strip() for group in args.mixture for f in group.split(",")}
     unused = sorted(set(degeneracy) - members)
     if unused:
@@ -95,6 +101,8 @@ def run(args: argparse.Namespace) -> int:
         if not files:
             raise VibrapolError("--mixture needs comma-separated source files")
         modesets = [read_modes(f, kind=args.kind) for f in files]
+        for f, modes in zip(files, modesets, strict=True):
+            check_scale_for(args, modes, f)
         candidates.append(
             mixture_candidate(
                 modesets,
@@ -107,6 +115,7 @@ def run(args: argparse.Namespace) -> int:
     pair, bands = measure(args)
     ranking = rank(candidates, bands, pair=pair, **opts)
     text = ranking_text(ranking)
+    text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     write_outputs(args, [(args.output, text)])
     print_stdout(text)
     return 0

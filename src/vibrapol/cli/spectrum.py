@@ -1,8 +1,10 @@
 """Polarized Raman spectra (VV, VH and other channels) of one molecule or a conformer mixture.
 
-Writes the broadened spectrum as CSV (columns shift_cm1, vv, vh, then any other channels) or
-JSON, optionally a stick table and figures (SVG, PDF or 300 dpi PNG).  Several sources are
-combined as a Boltzmann-weighted mixture.
+Writes the broadened spectrum as CSV (``#`` lines with the conditions, then columns shift_cm1,
+vv, vh and any other channels) or JSON, optionally a stick table and figures (SVG, PDF or 300 dpi
+PNG).  Several sources are conformers combined as a Boltzmann-weighted mixture (same
+composition and level of theory, else refused), or, with --overlay, any molecules drawn side
+by side (one column per source and channel).
 
 Laser safety: the laser line chosen here is only a number in a calculation, but the real one
 can injure eyes and skin; follow your institution's laser safety rules and local regulations.
@@ -19,7 +21,7 @@ from vibrapol.cli._common import add_output_arguments, check_output, print_stdou
 from vibrapol.errors import VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.lineshapes import SHAPES, LineShape
-from vibrapol.quantities import QUANTITY_UNITS
+from vibrapol.quantities import DETECTORS, QUANTITY_UNITS
 from vibrapol.scaling import NO_SCALE, FrequencyScale
 from vibrapol.sources import read_modes, readers
 from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
@@ -61,11 +63,20 @@ def parse_floats(text: str, what: str) -> list[float]:
 def add_scale_arguments(parser: argparse.ArgumentParser) -> None:
     """``--scale``/``--scale-for`` and the two-region ``--scale-high``/``--split-cm1``."""
     scale = parser.add_mutually_exclusive_group()
-    scale.add_argument("--scale", type=float, metavar="F", help="multiply all wavenumbers by F")
+    scale.add_argument(
+        "--scale",
+        type=float,
+        metavar="F",
+        help="multiply all harmonic wavenumbers by F (a deliberate choice: not checked against "
+        "the source's method; default: no scaling)",
+    )
     scale.add_argument(
         "--scale-for",
-        metavar="METHOD/BASIS",
-        help="published factor for fundamentals, e.g. B3LYP/6-31G* (see vibrapol.scaling)",
+        metavar="METHOD/BASIS[@SOURCE]",
+        help="published factor for fundamentals, e.g. B3LYP/6-31G* or B3LYP/6-31G*@SR96 "
+        "(default source: MMR07, then SR96, CCCBDB, K17, IJK05, TDB; MP2 needs MP2(FC) or "
+        "MP2(AE)); refused when the source was computed with another method or basis "
+        "(docs/concepts.md#frequency-scale-factors)",
     )
     parser.add_argument(
         "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
@@ -94,7 +105,15 @@ def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
         choices=sorted(QUANTITY_UNITS),
         default="intensity",
         help="stick height: Raman activity, relative intensity at the laser and temperature "
-        "(default), or absolute differential cross section in cm^2/sr",
+        "(default), or absolute differential cross section in cm^2/sr (energy based by "
+        "definition, whatever --detector says)",
+    )
+    parser.add_argument(
+        "--detector",
+        choices=DETECTORS,
+        default="photon",
+        help="detector convention of relative intensities: photon (counting detectors such as "
+        "CCD and InGaAs arrays, I ∝ ν0(ν0-ν)^3; default) or energy (I ∝ (ν0-ν)^4)",
     )
     add_scale_arguments(parser)
     parser.add_argument(
@@ -110,11 +129,12 @@ def scale_from_args(args: argparse.Namespace) -> FrequencyScale:
     if args.scale_for:
         base = FrequencyScale.published(args.scale_for)
     elif args.scale is not None:
-        base = FrequencyScale(args.scale)
+        base = FrequencyScale(args.scale, note="given with --scale")
     else:
         base = NO_SCALE
     if args.scale_high is not None or args.split_cm1 is not None:
-        return FrequencyScale(base.factor, args.scale_high, args.split_cm1, base.note)
+        note = base.note or "given with --scale-high and --split-cm1"
+        return FrequencyScale(base.factor, args.scale_high, args.split_cm1, note, base.entry)
     return base
 
 
@@ -151,12 +171,21 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--range-cm1",
         default=None,
-        help="LOW:HIGH (default 100:3600; -3600:3600 with --anti-stokes)",
+        metavar="LOW:HIGH",
+        help="Raman-shift range in cm-1 (default: every Raman-active band with 5 line widths "
+        "to spare, rounded to 50; a range that leaves out a band above 5 %% of the strongest "
+        "is warned)",
     )
     parser.add_argument("--step-cm1", type=float, default=0.5, help="grid step (default 0.5)")
     parser.add_argument(
         "--energies-kjmol",
         help="relative energies of the sources (default: their electronic energies)",
+    )
+    parser.add_argument(
+        "--overlay",
+        action="store_true",
+        help="several SOURCEs side by side, each at weight 1 (one CSV column per source and "
+        "channel, named CHANNEL:SOURCE) instead of a Boltzmann mixture of conformers",
     )
     parser.add_argument(
         "--zero-point",
@@ -209,6 +238,11 @@ def build_sticks(
                 raise VibrapolError(
                     f"{option} needs two or more sources (a conformer mixture); got one"
                 )
+    overlaid = getattr(args, "overlay", False)
+    if overlaid and (getattr(args, "energies_kjmol", None) or getattr(args, "zero_point", False)):
+        raise VibrapolError(
+            "--overlay draws sources at weight 1: drop --energies-kjmol/--zero-point"
+        )
     modesets = [read_modes(s, kind=args.kind) for s in args.sources]
     options = dict(
         channels=channels,
@@ -216,12 +250,21 @@ def build_sticks(
         laser_nm=args.laser_nm,
         geometry_deg=geometry,
         scale=scale_from_args(args),
+        detector=args.detector,
         degeneracy_tol_cm1=args.degeneracy_tol_cm1,
         **extra,
     )
     if len(modesets) == 1:
         return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)  # type: ignore[arg-type]
-    from vibrapol.conformers import conformer_spectrum
+    from vibrapol.conformers import conformer_spectrum, overlay
+
+    if overlaid:
+        return overlay(
+            [
+                stick_spectrum(m, temperature_k=args.temperature_k, label=src, **options)  # type: ignore[arg-type]
+                for m, src in zip(modesets, args.sources, strict=True)
+            ]
+        )
 
     energies = getattr(args, "energies_kjmol", None)
     return conformer_spectrum(
@@ -252,13 +295,22 @@ def run(args: argparse.Namespace) -> int:
     if args.labels < 0:
         raise VibrapolError(f"--labels must be 0 or more, got {args.labels}")
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
-    default_range = "-3600:3600" if args.anti_stokes else "100:3600"
-    span = parse_range(args.range_cm1 or default_range)
+    span = parse_range(args.range_cm1) if args.range_cm1 else None
     channels = [c for c in args.channels.split(",") if c.strip()]
     sticks = build_sticks(
         args, channels, args.geometry, side="both" if args.anti_stokes else "stokes"
     )
-    grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
+    if span is None:
+        from vibrapol.spectrum import default_range
+
+        span = default_range(sticks, lineshape)
+    overlaid = args.overlay and len(args.sources) > 1
+    if overlaid:
+        from vibrapol.conformers import overlay_grid
+
+        grid = overlay_grid(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
+    else:
+        grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
 
     from vibrapol import spectrum_io
 
@@ -274,7 +326,8 @@ def run(args: argparse.Namespace) -> int:
                 channels=grid.channels,
                 layout=args.layout,
                 width=_width(args.width),
-                label_count=args.labels,
+                label_count=0 if overlaid else args.labels,
+                sticks=not overlaid,
             )
             outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.figure]
         if args.rho_figure:

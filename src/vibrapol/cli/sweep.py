@@ -169,6 +169,7 @@ def run(args: argparse.Namespace) -> int:
         laser_nm=args.laser_nm,
         temperature_k=args.temperature_k,
         scale=scale_from_args(args),
+        detector=args.detector,
         degeneracy_tol_cm1=args.degeneracy_tol_cm1,
     )
     if args.bands:

@@ -62,6 +62,8 @@ def run(args: argparse.Namespace) -> int:
         raise OptionError("--symmetrize needs the point group; it cannot go with --no-symmetry")
     with recorded_warnings() as texts:
         modes = read_modes(args.source, kind=args.kind)
+        if scale is not None:  # a published factor must belong to the source's method and basis
+            scale.check_belongs(modes.provenance.method, modes.provenance.basis, args.source)
         if args.no_symmetry:
             table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
         else:

@@ -12,7 +12,12 @@ import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from vibrapol.conformers import boltzmann_weights, mixture, source_energies_kjmol
+from vibrapol.conformers import (
+    boltzmann_weights,
+    check_conformers,
+    mixture,
+    source_energies_kjmol,
+)
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable, raman_table
@@ -81,7 +86,12 @@ def symmetry_table(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
 
 
 def _sticks(
-    modes: ModeSet, label: str, laser_nm: float, temperature_k: float, symmetry: bool
+    modes: ModeSet,
+    label: str,
+    laser_nm: float,
+    temperature_k: float,
+    symmetry: bool,
+    detector: str = "photon",
 ) -> tuple[StickSpectrum, str, str]:
     if symmetry:
         modes, table, note = symmetry_table(modes)
@@ -95,6 +105,7 @@ def _sticks(
         temperature_k=temperature_k,
         table=table,
         label=label,
+        detector=detector,
     )
     return sticks, table.point_group, note
 
@@ -107,6 +118,7 @@ def candidate_from_modes(
     temperature_k: float = 298.15,
     symmetry: bool = True,
     start_scale: FrequencyScale | None = None,
+    detector: str = "photon",
 ) -> Candidate:
     """A candidate from one :class:`ModeSet`.
 
@@ -118,15 +130,18 @@ def candidate_from_modes(
         Default: the source file name.
     laser_nm, temperature_k : float
         Conditions of the measurement: the computed intensities use them (the Stokes factor
-        (ν̃₀ − ν̃)⁴ / (ν̃ [1 − exp(−hcν̃/kT)]), :mod:`vibrapol.quantities`).
+        ν̃₀(ν̃₀ − ν̃)³ / (ν̃ [1 − exp(−hcν̃/kT)]) for a photon-counting detector,
+        :mod:`vibrapol.quantities`).
     symmetry : bool
         Find the point group and label each band with its species (degenerate sets then come
         from symmetry).
     start_scale : FrequencyScale, optional
         Where the scale search starts; default the published factor of the method, if any.
+    detector : str
+        ``"photon"`` (default) or ``"energy"``: the measurement's detector convention.
     """
     label = label or modes.provenance.source_file or "candidate"
-    sticks, group, note = _sticks(modes, label, laser_nm, temperature_k, symmetry)
+    sticks, group, note = _sticks(modes, label, laser_nm, temperature_k, symmetry, detector)
     start = start_scale if start_scale is not None else published_scale(modes)
     return Candidate(label, sticks, start, (group,), (note,))
 
@@ -143,6 +158,7 @@ def mixture_candidate(
     include_zero_point: bool = False,
     symmetry: bool = True,
     start_scale: FrequencyScale | None = None,
+    detector: str = "photon",
 ) -> Candidate:
     """A Boltzmann mixture of conformers as one candidate.
 
@@ -161,11 +177,12 @@ def mixture_candidate(
         Component names (default: the source file names).
     label : str
         Name of the mixture (default: the component names joined by "+").
-    laser_nm, temperature_k, include_zero_point, symmetry, start_scale
+    laser_nm, temperature_k, include_zero_point, symmetry, start_scale, detector
         As in :func:`candidate_from_modes` and :func:`vibrapol.conformers.conformer_spectrum`.
     """
     if not modesets:
         raise VibrapolError("a mixture candidate needs at least one conformer")
+    check_conformers(modesets, overlay_hint="separate SOURCE arguments (one candidate each)")
     if relative_energies_kjmol is None:
         relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
     elif len(relative_energies_kjmol) != len(modesets):
@@ -181,7 +198,7 @@ def mixture_candidate(
     if len(names) != len(modesets):
         raise VibrapolError(f"give one label per conformer ({len(modesets)})")
     parts = [
-        _sticks(m, n, laser_nm, temperature_k, symmetry)
+        _sticks(m, n, laser_nm, temperature_k, symmetry, detector)
         for m, n in zip(modesets, names, strict=True)
     ]
     sticks = mixture([p[0] for p in parts], weights)

@@ -23,7 +23,7 @@ from vibrapol.engine.checkpoint import CheckpointStore, CheckpointWarning
 from vibrapol.engine.runlock import RunLockedError
 
 WATER_XYZ = "3\nwater (own test input)\nO 0 0 0.1173\nH 0 0.7572 -0.4692\nH 0 -0.7572 -0.4692\n"
-ARGS = ["--basis", "sto-3g", "--no-optimize", "--route", "cartesian", "--no-symmetry"]
+ARGS = ["--basis", "sto-3g", "--no-optimize", "--route", "cartesian", "--no-use-symmetry"]
 ARGS += ["--workers", "1", "--no-progress"]
 
 

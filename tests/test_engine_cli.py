@@ -85,7 +85,7 @@ def test_compute_writes_a_modes_file_that_table_reads(water_file, tmp_path, caps
 
 def test_resume_after_sigkill_computes_only_the_missing_tasks(water_file, tmp_path):
     args = [str(water_file), "--basis", "6-31g*", "--workers", "1", "--no-progress"]
-    args += ["--route", "cartesian", "--no-symmetry"]  # all 18 tasks: time to kill the run
+    args += ["--route", "cartesian", "--no-use-symmetry"]  # all 18 tasks: time to kill the run
     out = tmp_path / "water.modes.json"
     db = tmp_path / "water.modes.checkpoint.sqlite"
     proc = _cli(["compute", *args, "-o", str(out)], tmp_path)

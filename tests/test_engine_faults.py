@@ -28,7 +28,7 @@ pytestmark = pytest.mark.skipif(
 )
 
 WATER_XYZ = "3\nwater (own test input)\nO 0 0 0.1173\nH 0 0.7572 -0.4692\nH 0 -0.7572 -0.4692\n"
-ARGS = ["--basis", "cc-pvdz", "--no-optimize", "--route", "cartesian", "--no-symmetry"]
+ARGS = ["--basis", "cc-pvdz", "--no-optimize", "--route", "cartesian", "--no-use-symmetry"]
 ARGS += ["--no-progress"]
 SUMMARY = re.compile(r"(\d+) tasks: (\d+) computed, (\d+) reused")
 SRC = Path(__file__).resolve().parents[1] / "src"

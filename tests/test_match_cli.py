@@ -148,7 +148,7 @@ def test_match_single_two_column_file_and_fixed_scale(chcl3_files, tmp_path, cap
     ("extra", "message"),
     [
         (["--vv", "missing.txt"], "missing.txt"),
-        (["--scale", "fast"], "--scale must be auto or a number"),
+        (["--scale", "fast"], "--scale: must be a number"),
         (["--figure", "match.gif"], "must end in .png, .svg or .pdf"),
         (["--position-tolerance", "2"], "--position-tolerance must be between 0 and 0.5"),
     ],

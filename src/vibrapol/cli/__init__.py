@@ -69,7 +69,12 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="SUBCOMMAND", required=True)
     for name, module_name in SUBCOMMANDS.items():
         module = importlib.import_module(module_name)
-        p = sub.add_parser(name, help=module.HELP, description=module.__doc__)
+        p = sub.add_parser(
+            name,
+            help=module.HELP,
+            description=module.__doc__,
+            epilog=getattr(module, "EPILOG", None),
+        )
         p.add_argument(
             "--traceback",
             action="store_true",

@@ -18,6 +18,7 @@ import sys
 from contextlib import ExitStack
 from pathlib import Path
 
+from vibrapol.cli._renamed import add_renamed
 from vibrapol.engine.checkpoint import checkpoint_path_for
 from vibrapol.engine.compute import (
     DEFAULT_FIELD_AU,
@@ -61,20 +62,25 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--method",
+        metavar="METHOD",
         default=DEFAULT_METHOD,
         help=f"'hf' or a DFT functional such as b3lyp, pbe0 (default: {DEFAULT_METHOD})",
     )
     parser.add_argument(
         "--basis",
+        metavar="BASIS",
         default=DEFAULT_BASIS,
         help=f"basis set name known to PySCF (default: {DEFAULT_BASIS})",
     )
-    parser.add_argument("--charge", type=int, default=0, help="total charge (default: 0)")
+    parser.add_argument(
+        "--charge", type=int, default=0, metavar="Q", help="total charge (default: 0)"
+    )
     parser.add_argument(
         "--multiplicity",
+        metavar="2S+1",
         type=int,
         default=1,
-        help="spin multiplicity; only 1 (closed shell) is supported",
+        help="spin multiplicity; only 1 (closed shell) is supported (default: 1)",
     )
     parser.add_argument(
         "--optimize",
@@ -84,6 +90,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--step-ang",
+        metavar="ANG",
         type=float,
         default=DEFAULT_STEP_ANG,
         help=f"finite-difference step in Å (default: {DEFAULT_STEP_ANG})",
@@ -98,29 +105,36 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--field-au",
+        metavar="AU",
         type=float,
         default=DEFAULT_FIELD_AU,
         help=f"field strength of the field route, atomic units (default: {DEFAULT_FIELD_AU})",
     )
     parser.add_argument(
-        "--symmetry",
+        "--use-symmetry",
         action=argparse.BooleanOptionalAction,
         default=True,
         help="impose the point group on the geometry and compute only symmetry-inequivalent "
         "tasks (default: yes)",
     )
+    add_renamed(parser, "--symmetry", "--use-symmetry", "use_symmetry", const=True)
+    add_renamed(parser, "--no-symmetry", "--no-use-symmetry", "use_symmetry", const=False)
     parser.add_argument(
         "--cartesian-d",
         action="store_true",
-        help="Cartesian (6d) instead of spherical basis functions",
+        help="Cartesian (6d) instead of spherical basis functions (default: spherical)",
     )
     parser.add_argument(
         "--workers",
+        metavar="N",
         type=int,
         help="local worker processes (default: one per core; 1 for jobs of a few seconds)",
     )
     parser.add_argument(
-        "--scheduler", metavar="ADDRESS", help="send the tasks to this running Dask scheduler"
+        "--scheduler",
+        metavar="ADDRESS",
+        help="send the tasks to this running Dask scheduler, tcp://HOST:PORT (default: a local "
+        "process pool)",
     )
     parser.add_argument(
         "--fresh", action="store_true", help="ignore and replace the checkpoint file"
@@ -134,12 +148,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "-o",
         "--output",
-        metavar="NAME.modes.json",
-        help="file to write, for a single structure and not with --output-dir (default: "
-        "STRUCTURE's name with .modes.json, beside it or in --output-dir)",
+        metavar="FILE",
+        help="the NAME.modes.json file to write, for a single structure and not with "
+        "--output-dir (default: STRUCTURE's name with .modes.json, beside it or in --output-dir)",
     )
     parser.add_argument(
-        "--output-dir", metavar="DIR", help="write every NAME.modes.json into this directory"
+        "--output-dir",
+        metavar="DIR",
+        help="write every NAME.modes.json into this directory (default: beside each structure)",
     )
     parser.add_argument("--force", action="store_true", help="overwrite an existing output file")
     parser.add_argument(
@@ -208,7 +224,7 @@ def run(args: argparse.Namespace) -> int:
         step_ang=args.step_ang,
         route=args.route,
         field_au=args.field_au,
-        symmetry=args.symmetry,
+        symmetry=args.use_symmetry,
         cartesian_d=args.cartesian_d,
     )
     if args.scheduler:

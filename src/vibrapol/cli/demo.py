@@ -16,6 +16,7 @@ from __future__ import annotations
 import argparse
 import sys
 
+from vibrapol.cli._options import LASER_CAUTION
 from vibrapol.demo import (
     CAUTION,
     DEFAULT_OUTPUT_DIR,
@@ -27,6 +28,7 @@ from vibrapol.demo import (
 from vibrapol.errors import VibrapolError
 
 HELP = "run the whole job on the embedded engine in a worked scenario (a few minutes)"
+EPILOG = LASER_CAUTION  # shown once, below the options
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -42,6 +44,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--workers",
+        metavar="N",
         type=int,
         help="engine worker processes (default: one per core)",
     )

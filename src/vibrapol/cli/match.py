@@ -16,15 +16,22 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import math
+import sys
 
 import numpy as np
 
 from vibrapol import fileio
 from vibrapol.cli._common import input_paths, print_stdout, write_outputs
-from vibrapol.cli.spectrum import LASER_CAUTION, parse_range
+from vibrapol.cli._options import (
+    add_kind_argument,
+    add_no_symmetry_argument,
+    add_temperature_argument,
+)
+from vibrapol.cli.spectrum import parse_range
 from vibrapol.errors import VibrapolError
 from vibrapol.quantities import DETECTOR_NOTES
-from vibrapol.sources import read_modes, readers
+from vibrapol.sources import read_modes
 
 HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
 
@@ -34,15 +41,18 @@ DEFAULT_LASER_NM = 532.0
 
 def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
     """Options shared by ``match`` and ``rank``: the measured pair and the matching."""
-    parser.add_argument(
-        "--kind", choices=sorted(readers()), help="input kind of the sources (default: sniffed)"
-    )
+    add_kind_argument(parser)
     parser.add_argument(
         "--vv", required=True, metavar="VV_FILE",
         help="parallel (VV) spectrum: delimited text or JCAMP-DX; a file with two intensity "
         "columns holds VV and VH",
     )  # fmt: skip
-    parser.add_argument("--vh", metavar="VH_FILE", help="crossed (VH) spectrum")
+    parser.add_argument(
+        "--vh",
+        metavar="VH_FILE",
+        help="crossed (VH) spectrum (default: none, or the second intensity column of --vv; "
+        "without it no ratio is measured)",
+    )
     parser.add_argument(
         "--axis", choices=("auto", "shift", "wavenumber", "wavelength"), default="auto",
         help="x axis of the measured files (default: from the file's units, else Raman shift)",
@@ -50,44 +60,44 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--laser-nm", type=float, metavar="NM",
         help="excitation wavelength in nm: needed for wavelength or absolute-wavenumber axes, "
-        f"and used for the computed intensities (default {DEFAULT_LASER_NM:g}). {LASER_CAUTION}",
+        f"and used for the computed intensities (default {DEFAULT_LASER_NM:g})",
     )  # fmt: skip
-    parser.add_argument(
-        "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
-    )
+    add_temperature_argument(parser)
     parser.add_argument(
         "--detector", choices=("photon", "energy"), default="photon",
         help="detector of the measurement, for the computed relative intensities: photon "
         "(counting: CCD, InGaAs array; I ∝ ν0(ν0-ν)^3; default) or energy (I ∝ (ν0-ν)^4)",
     )  # fmt: skip
     parser.add_argument(
-        "--range-cm1", metavar="LOW:HIGH", help="use only this part of the measured spectra"
+        "--range-cm1",
+        metavar="LOW:HIGH",
+        help="use only this part of the measured spectra, in cm-1 (default: all of it)",
     )
     parser.add_argument(
         "--no-baseline", action="store_true", help="keep the baseline (already subtracted)"
     )
     parser.add_argument(
-        "--min-snr", type=float, default=5.0,
+        "--min-snr", type=float, default=5.0, metavar="N",
         help="smallest band height and prominence in noise units (default 5)",
     )  # fmt: skip
-    parser.add_argument(
-        "--scale", default="auto", metavar="auto|F",
-        help="scale factor: fitted with the assignment (auto, the default; starts from the "
-        "published factor of the method when known) or fixed at F",
+    scale = parser.add_mutually_exclusive_group()
+    scale.add_argument(
+        "--scale", type=_factor, metavar="F",
+        help="multiply all harmonic wavenumbers by F and keep it fixed (default: the factor is "
+        "fitted with the assignment, starting from the published factor of the source's "
+        "method when known)",
     )  # fmt: skip
-    parser.add_argument(
+    scale.add_argument(
         "--scale-for", metavar="METHOD/BASIS[@SOURCE]",
-        help="start the fit from the published factor of this method, e.g. B3LYP/6-31G* "
-        "(refused when the source was computed with another method or basis)",
+        help="use the published factor of this method, e.g. B3LYP/6-31G*, and keep it fixed "
+        "(refused when the source was computed with another method or basis; default: fitted)",
     )  # fmt: skip
     parser.add_argument(
         "--position-tolerance", type=float, metavar="REL",
         help="relative position tolerance σ/ν̃ of the cost (default 0.02; match: 0.03 for "
         "STO-3G and 3-21G results)",
     )  # fmt: skip
-    parser.add_argument(
-        "--no-symmetry", action="store_true", help="do not look for the point group"
-    )
+    add_no_symmetry_argument(parser)
     parser.add_argument("--force", action="store_true", help="overwrite existing output files")
 
 
@@ -95,7 +105,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol match``."""
     parser.add_argument("source", help="*.modes.json or quantum-chemistry output")
     add_measurement_arguments(parser)
-    parser.add_argument("-o", "--output", metavar="ASSIGNMENT.csv", help="write the CSV here")
+    parser.add_argument(
+        "-o",
+        "--output",
+        metavar="FILE",
+        help="write the assignment CSV here (default: after the summary on standard output)",
+    )
     parser.add_argument(
         "--figure", metavar="FILE", action="append", default=[],
         help="match figure (.svg, .pdf or .png); repeat for several formats",
@@ -181,13 +196,10 @@ def assign_options(args: argparse.Namespace) -> dict[str, object]:
     from vibrapol.scaling import FrequencyScale
 
     out: dict[str, object] = {}
-    if args.scale != "auto":
-        try:
-            out["scale"] = float(args.scale)
-        except ValueError:
-            raise VibrapolError(f"--scale must be auto or a number, got {args.scale!r}") from None
+    if args.scale is not None:
+        out["scale"] = args.scale
     elif args.scale_for:
-        out["start"] = FrequencyScale.published(args.scale_for).factor
+        out["scale"] = FrequencyScale.published(args.scale_for).factor
     if args.position_tolerance is not None:
         if not 0 < args.position_tolerance < 0.5:
             raise VibrapolError(
@@ -199,11 +211,29 @@ def assign_options(args: argparse.Namespace) -> dict[str, object]:
 
 def check_scale_for(args: argparse.Namespace, modes: object, where: str) -> None:
     """Refuse a ``--scale-for`` factor computed for another method or basis than ``modes``."""
-    if args.scale == "auto" and args.scale_for:
+    if args.scale_for:
         from vibrapol.scaling import FrequencyScale
 
         p = modes.provenance  # type: ignore[attr-defined]
         FrequencyScale.published(args.scale_for).check_belongs(p.method, p.basis, where)
+
+
+def _factor(text: str) -> float | None:
+    """A scale factor; ``auto`` (the old spelling of the default, a fitted factor) gives None."""
+    if text == "auto":
+        print(
+            "vibrapol: note: --scale auto is the default (the factor is fitted); --scale now "
+            "takes only a fixed factor",
+            file=sys.stderr,
+        )
+        return None
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a number, got {text!r}") from None
+    if not math.isfinite(value) or value <= 0:
+        raise argparse.ArgumentTypeError(f"must be a positive number, got {text!r}")
+    return value
 
 
 def laser_nm(args: argparse.Namespace) -> float:

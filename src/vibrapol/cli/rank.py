@@ -50,7 +50,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="number of equivalent copies of a conformer in a mixture (e.g. gauche.json=2)",
     )  # fmt: skip
     parser.add_argument(
-        "-o", "--output", metavar="RANKING.txt", help="also write the ranking table here"
+        "-o",
+        "--output",
+        metavar="FILE",
+        help="also write the ranking table here (default: standard output only)",
     )
 
 

@@ -18,20 +18,21 @@ import math
 
 from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
+from vibrapol.cli._options import (
+    add_degeneracy_argument,
+    add_figure_width_argument,
+    add_kind_argument,
+    add_temperature_argument,
+)
+from vibrapol.cli._renamed import add_renamed
 from vibrapol.errors import VibrapolError
-from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.lineshapes import SHAPES, LineShape
 from vibrapol.quantities import DETECTORS, QUANTITY_UNITS
 from vibrapol.scaling import NO_SCALE, FrequencyScale
-from vibrapol.sources import read_modes, readers
+from vibrapol.sources import read_modes
 from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
 
 HELP = "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures"
-
-LASER_CAUTION = (
-    "Caution: laser radiation can injure eyes and skin; follow your institution's laser safety "
-    "rules and local regulations."
-)
 
 
 def parse_range(text: str) -> tuple[float, float]:
@@ -79,27 +80,31 @@ def add_scale_arguments(parser: argparse.ArgumentParser) -> None:
         "(docs/concepts.md#frequency-scale-factors)",
     )
     parser.add_argument(
-        "--scale-high", type=float, metavar="F", help="second factor at and above --split-cm1"
+        "--scale-high",
+        type=float,
+        metavar="F",
+        help="second factor for harmonic wavenumbers at and above --split-cm1 (default: the "
+        "same factor everywhere)",
     )
     parser.add_argument(
-        "--split-cm1", type=float, metavar="X", help="wavenumber where --scale-high starts"
+        "--split-cm1",
+        type=float,
+        metavar="CM1",
+        help="harmonic wavenumber in cm-1 where --scale-high starts (default: none)",
     )
 
 
 def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
     """Options shared by ``spectrum`` and ``sweep``: source kind, conditions, scaling."""
-    parser.add_argument(
-        "--kind", choices=sorted(readers()), help="input kind (default: from the content)"
-    )
+    add_kind_argument(parser)
     parser.add_argument(
         "--laser-nm",
         type=float,
         default=532.0,
-        help=f"excitation wavelength in nm (default 532). {LASER_CAUTION}",
+        metavar="NM",
+        help="excitation wavelength in nm (default 532)",
     )
-    parser.add_argument(
-        "--temperature-k", type=float, default=298.15, help="sample temperature (default 298.15 K)"
-    )
+    add_temperature_argument(parser)
     parser.add_argument(
         "--quantity",
         choices=sorted(QUANTITY_UNITS),
@@ -116,12 +121,7 @@ def add_physics_arguments(parser: argparse.ArgumentParser) -> None:
         "CCD and InGaAs arrays, I ∝ ν0(ν0-ν)^3; default) or energy (I ∝ (ν0-ν)^4)",
     )
     add_scale_arguments(parser)
-    parser.add_argument(
-        "--degeneracy-tol-cm1",
-        type=float,
-        default=DEGENERACY_TOL_CM1,
-        help=f"modes closer than this form one band (default {DEGENERACY_TOL_CM1})",
-    )
+    add_degeneracy_argument(parser)
 
 
 def scale_from_args(args: argparse.Namespace) -> FrequencyScale:
@@ -145,10 +145,21 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     add_physics_arguments(parser)
     parser.add_argument(
-        "--geometry", type=int, choices=GEOMETRIES, default=90, help="scattering angle (default 90)"
+        "--geometry",
+        type=int,
+        choices=GEOMETRIES,
+        default=90,
+        help="scattering angle in degrees (default 90, the usual geometry for liquids and "
+        "solutions)",
     )
     parser.add_argument(
-        "--channels", default="", help="extra channels, e.g. nv,nh,vu or p45a-45 (vv, vh always)"
+        "--channels",
+        default="",
+        metavar="CODE[,CODE...]",
+        help="extra channels besides vv and vh, comma-separated. A code is two letters, incident "
+        "then analyzer: v (vertical), h (horizontal), n (natural, unpolarized incident light), "
+        "u (no analyzer); e.g. nv, nh, vu. Any polarizer/analyzer pair is p<deg>a<deg>, angles "
+        "from vertical towards horizontal, e.g. p45a-45 (default: none)",
     )
     parser.add_argument(
         "--anti-stokes", action="store_true", help="add anti-Stokes bands at negative shifts"
@@ -157,16 +168,25 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--shape", choices=SHAPES, default="lorentzian", help="line shape (default lorentzian)"
     )
     parser.add_argument(
-        "--fwhm-cm1", type=float, default=8.0, help="full width at half maximum (default 8)"
+        "--fwhm-cm1",
+        type=float,
+        default=8.0,
+        metavar="CM1",
+        help="full width at half maximum in cm-1 (default 8)",
     )
     parser.add_argument(
         "--fwhm-slope",
         type=float,
+        metavar="F",
         default=0.0,
         help="FWHM grows by this times the shift (default 0)",
     )
     parser.add_argument(
-        "--lorentzian-share", type=float, default=0.5, help="Voigt: Lorentzian share (default 0.5)"
+        "--lorentzian-share",
+        type=float,
+        default=0.5,
+        metavar="F",
+        help="Voigt: Lorentzian share, 0 to 1 (default 0.5)",
     )
     parser.add_argument(
         "--range-cm1",
@@ -176,10 +196,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "to spare, rounded to 50; a range that leaves out a band above 5 %% of the strongest "
         "is warned)",
     )
-    parser.add_argument("--step-cm1", type=float, default=0.5, help="grid step (default 0.5)")
+    parser.add_argument(
+        "--step-cm1", type=float, default=0.5, metavar="CM1", help="grid step in cm-1 (default 0.5)"
+    )
     parser.add_argument(
         "--energies-kjmol",
-        help="relative energies of the sources (default: their electronic energies)",
+        metavar="E1,E2[,...]",
+        help="relative energies of the sources in kJ/mol, comma-separated, one per SOURCE "
+        "(default: their electronic energies)",
     )
     parser.add_argument(
         "--overlay",
@@ -193,7 +217,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="add harmonic zero-point energies to source energies",
     )
     parser.add_argument(
-        "--format", choices=("csv", "json"), default="csv", help="spectrum format (default csv)"
+        "--format", choices=("csv", "json"), default="csv", help="output format (default csv)"
     )
     add_output_arguments(parser, "spectrum")
     parser.add_argument("--sticks", metavar="FILE", help="also write the stick table (CSV) here")
@@ -215,14 +239,17 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--layout",
         choices=("shared", "stacked"),
         default="shared",
-        help="VV and VH on one axes or stacked",
+        help="VV and VH on one axes or stacked (default shared)",
     )
+    add_figure_width_argument(parser, "single")
     parser.add_argument(
-        "--width", default="single", help="figure width: single, double or inches (default single)"
+        "--top",
+        type=int,
+        default=6,
+        metavar="N",
+        help="the N strongest bands are labelled in the figure (default 6)",
     )
-    parser.add_argument(
-        "--labels", type=int, default=6, help="number of bands labelled in the figure (default 6)"
-    )
+    add_renamed(parser, "--labels", "--top", "top", type=int)
 
 
 def build_sticks(
@@ -292,8 +319,8 @@ def run(args: argparse.Namespace) -> int:
     check_output(args, args.sticks, *args.figure, *args.rho_figure)
     for path in [*args.figure, *args.rho_figure]:
         _suffix(path)
-    if args.labels < 0:
-        raise VibrapolError(f"--labels must be 0 or more, got {args.labels}")
+    if args.top < 0:
+        raise VibrapolError(f"--top must be 0 or more, got {args.top}")
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
     span = parse_range(args.range_cm1) if args.range_cm1 else None
     channels = [c for c in args.channels.split(",") if c.strip()]
@@ -326,7 +353,7 @@ def run(args: argparse.Namespace) -> int:
                 channels=grid.channels,
                 layout=args.layout,
                 width=_width(args.width),
-                label_count=0 if overlaid else args.labels,
+                label_count=0 if overlaid else args.top,
                 sticks=not overlaid,
             )
             outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.figure]

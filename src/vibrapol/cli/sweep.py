@@ -19,7 +19,12 @@ import numpy as np
 from vibrapol import orientation as orient
 from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
-from vibrapol.cli.spectrum import add_physics_arguments, parse_floats, scale_from_args
+from vibrapol.cli._options import add_figure_width_argument
+from vibrapol.cli.spectrum import (
+    add_physics_arguments,
+    parse_floats,
+    scale_from_args,
+)
 from vibrapol.errors import VibrapolError
 from vibrapol.sources import read_modes
 from vibrapol.sweep import polar_sweep
@@ -46,57 +51,84 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--orientation", choices=ORIENTATIONS, required=True, help="how the molecules are oriented"
     )
     parser.add_argument(
-        "--euler-deg", help="fixed: z-y-z Euler angles A,B,C of the rotation molecule -> laboratory"
+        "--euler-deg",
+        metavar="A,B,C",
+        help="fixed: z-y-z Euler angles in degrees of the rotation molecule -> laboratory "
+        "(needed with --orientation fixed; no default)",
     )
     parser.add_argument(
-        "--mol-axis", default="z", help="molecular axis: x, y, z or three numbers (default z)"
+        "--mol-axis",
+        default="z",
+        metavar="AXIS",
+        help="molecular axis: x, y, z or three numbers X,Y,Z (default z)",
     )
     parser.add_argument(
         "--director",
         default="y",
-        help="laboratory axis the molecular axis aligns to (default y = V)",
+        metavar="AXIS",
+        help="laboratory axis the molecular axis aligns to: x, y, z or X,Y,Z (default y = V)",
     )
     parser.add_argument(
-        "--tilt-deg", type=float, default=0.0, help="uniaxial: most probable tilt (default 0)"
+        "--tilt-deg",
+        type=float,
+        default=0.0,
+        metavar="DEG",
+        help="uniaxial: most probable tilt in degrees (default 0)",
     )
     parser.add_argument(
         "--tilt-spread-deg",
         type=float,
         default=0.0,
-        help="uniaxial: Gaussian spread of the tilt (default 0; inf = none)",
+        metavar="DEG",
+        help="uniaxial: Gaussian spread of the tilt in degrees (default 0; inf = none)",
     )
     parser.add_argument(
         "--twist-deg",
         type=float,
-        help="uniaxial: fixed twist about the molecular axis (default: uniform)",
+        metavar="DEG",
+        help="uniaxial: fixed twist about the molecular axis in degrees (default: uniform)",
     )
     parser.add_argument(
-        "--angles-deg", default="0:360:5", help="polarizer angles START:STOP:STEP (default 0:360:5)"
+        "--angles-deg",
+        default="0:360:5",
+        metavar="START:STOP:STEP",
+        help="polarizer angles in degrees (default 0:360:5)",
     )
     parser.add_argument(
         "--bands",
+        metavar="CM1[,CM1...]",
         help="Raman shifts of the bands to sweep, comma-separated; each takes the nearest "
         f"computed band, which must lie within {BAND_SEARCH_CM1:g} cm⁻¹ (default: strongest)",
     )
     parser.add_argument(
-        "--top", type=int, default=4, help="number of strongest bands when --bands is not given"
+        "--top",
+        type=int,
+        default=4,
+        metavar="N",
+        help="the N strongest bands are swept when --bands is not given (default 4)",
     )
     parser.add_argument(
         "--geometry",
         type=int,
         choices=GEOMETRIES,
         default=180,
-        help="scattering angle (default 180)",
+        help="scattering angle in degrees (default 180: oriented samples such as films, "
+        "surfaces and crystals are usually measured in back-scattering through a microscope; "
+        "spectrum's default is 90, the usual geometry for liquids)",
     )
     add_physics_arguments(parser)
     parser.add_argument(
         "--format", choices=("csv", "json"), default="csv", help="output format (default csv)"
     )
     add_output_arguments(parser, "sweep")
-    parser.add_argument("--figure", metavar="FILE", help="polar figure (.svg, .pdf or .png)")
     parser.add_argument(
-        "--width", default="double", help="figure width: single, double or inches (default double)"
+        "--figure",
+        metavar="FILE",
+        action="append",
+        default=[],
+        help="polar figure (.svg, .pdf or .png); repeat for several formats",
     )
+    add_figure_width_argument(parser, "double")
 
 
 def orientation_from_args(args: argparse.Namespace) -> orient.Orientation:
@@ -150,11 +182,13 @@ def check_bands_found(wanted_cm1: list[float], found_cm1: np.ndarray) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Compute the sweep and write the table (and the figure)."""
-    check_output(args, args.figure)
-    if args.figure:
-        fmt = args.figure.rsplit(".", 1)[-1].lower()
+    check_output(args, *args.figure)
+    formats = []
+    for path in args.figure:
+        fmt = path.rsplit(".", 1)[-1].lower()
         if fmt not in ("png", "svg", "pdf"):
-            raise VibrapolError(f"{args.figure}: figure files must end in .png, .svg or .pdf")
+            raise VibrapolError(f"{path}: figure files must end in .png, .svg or .pdf")
+        formats.append(fmt)
     orientation = orientation_from_args(args)
     angles = parse_angles(args.angles_deg)
     modes = read_modes(args.source, kind=args.kind)
@@ -176,15 +210,17 @@ def run(args: argparse.Namespace) -> int:
         check_bands_found(parse_floats(args.bands, "--bands"), sweep.positions_cm1)
     from vibrapol import spectrum_io
 
-    figure = b""
+    figures: list[tuple[str | None, str | bytes]] = []
     text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)
     if args.figure:
         from vibrapol import plotting
         from vibrapol.cli.spectrum import _width
 
         fig = plotting.polar_figure(sweep, width=_width(args.width))
-        figure = plotting.figure_bytes(fig, fmt)
-    write_outputs(args, [(args.figure, figure), (args.output, text)])  # all or nothing
+        figures = [
+            (p, plotting.figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)
+        ]
+    write_outputs(args, [*figures, (args.output, text)])  # all or nothing
     if not args.output:
         print_stdout(text)
     return 0

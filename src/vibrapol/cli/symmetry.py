@@ -17,9 +17,10 @@ from pathlib import Path
 import numpy as np
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli._options import add_kind_argument
 from vibrapol.errors import OptionError, VibrapolWarning
 from vibrapol.modeset import ModeSet
-from vibrapol.sources import read_modes, readers
+from vibrapol.sources import read_modes
 from vibrapol.sources.registry import read_text, sniff_text
 from vibrapol.structure import read_structure
 from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, analyse_modes, find_point_group
@@ -79,10 +80,10 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="structure file (any format ase reads, e.g. .xyz) or a quantum-chemistry output / "
         "*.modes.json with normal modes",
     )
+    add_kind_argument(parser)
     parser.add_argument(
-        "--kind", choices=sorted(readers()), help="mode source kind (default: from the content)"
+        "--format", choices=("text", "json"), default="text", help="output format (default text)"
     )
-    parser.add_argument("--format", choices=("text", "json"), default="text", help="output format")
     parser.add_argument("--characters", action="store_true", help="also print the character table")
     add_symmetry_arguments(parser)
     add_output_arguments(parser, "report")

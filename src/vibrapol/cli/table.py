@@ -5,13 +5,17 @@ from __future__ import annotations
 import argparse
 
 from vibrapol.cli._common import add_output_arguments, check_output, emit
+from vibrapol.cli._options import (
+    add_degeneracy_argument,
+    add_kind_argument,
+    add_no_symmetry_argument,
+)
 from vibrapol.cli.spectrum import add_scale_arguments, scale_from_args
 from vibrapol.cli.symmetry import add_symmetry_arguments, recorded_warnings
 from vibrapol.errors import OptionError, VibrapolError
-from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.ramantable import raman_table, symmetry_table, with_warnings
 from vibrapol.report import FORMATTERS
-from vibrapol.sources import read_modes, readers
+from vibrapol.sources import read_modes
 
 HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
 
@@ -19,24 +23,12 @@ HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol table``."""
     parser.add_argument("source", help="quantum-chemistry output file or vibrapol *.modes.json")
+    add_kind_argument(parser)
     parser.add_argument(
-        "--kind", choices=sorted(readers()), help="input kind (default: from the content)"
+        "--format", choices=sorted(FORMATTERS), default="text", help="output format (default text)"
     )
-    parser.add_argument(
-        "--format", choices=sorted(FORMATTERS), default="text", help="output format (default: text)"
-    )
-    parser.add_argument(
-        "--degeneracy-tol-cm1",
-        type=float,
-        default=DEGENERACY_TOL_CM1,
-        help="with --no-symmetry: modes closer than this are one degenerate set "
-        f"(default: {DEGENERACY_TOL_CM1})",
-    )
-    parser.add_argument(
-        "--no-symmetry",
-        action="store_true",
-        help="do not label the modes by symmetry; degenerate sets from frequencies alone",
-    )
+    add_degeneracy_argument(parser, " when the point group is not used (--no-symmetry)")
+    add_no_symmetry_argument(parser)
     add_symmetry_arguments(parser)
     add_scale_arguments(parser)
     add_output_arguments(parser, "table")

@@ -126,11 +126,24 @@ def harmonic_analysis(
     inv_sqrt_m = np.repeat(1.0 / np.sqrt(masses), 3)
     hmw = h * inv_sqrt_m[:, None] * inv_sqrt_m[None, :]
     linear = n > 1 and is_linear(coords, masses)
-    if project:
-        rigid = rigid_body_vectors(coords, masses)
-        # Orthonormal basis of the internal (vibrational) space: complement of the rigid space.
-        q, _ = np.linalg.qr(np.hstack([rigid.T, np.eye(3 * n)]))
-        internal = q[:, rigid.shape[0] : 3 * n]
+    fixed = rigid_body_vectors(coords, masses) if project else np.zeros((0, 3 * n))
+    return modes_in_complement(hmw, fixed, inv_sqrt_m, linear)
+
+
+def modes_in_complement(
+    hmw: np.ndarray, fixed: np.ndarray, inv_sqrt_m: np.ndarray, linear: bool
+) -> HarmonicModes:
+    """Harmonic modes of the mass-weighted Hessian ``hmw`` orthogonal to the rows of ``fixed``.
+
+    ``fixed`` holds orthonormal mass-weighted directions to project out exactly (rigid-body
+    motions, and a reaction-path direction); the Hessian is diagonalised in an orthonormal
+    basis of their complement (Miller, Handy and Adams, J. Chem. Phys. 72, 99 (1980)).  With
+    no rows, all eigenvectors are returned.  Signs follow :func:`canonical_signs`.
+    """
+    dim = hmw.shape[0]
+    if fixed.shape[0]:
+        q, _ = np.linalg.qr(np.hstack([fixed.T, np.eye(dim)]))
+        internal = q[:, fixed.shape[0] : dim]
         eigvals, eigvecs = np.linalg.eigh(internal.T @ hmw @ internal)
         modes = (internal @ eigvecs).T
     else:

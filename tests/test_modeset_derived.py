@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 from _paths import PROJECT_ROOT
-from vibrapol.errors import InputFormatError, ShapeError, VibrapolError
+from vibrapol.errors import ChangedValuesWarning, InputFormatError, ShapeError, VibrapolError
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance, default_masses
 from vibrapol.ramantable import raman_table
 from vibrapol.sources import read_modes
@@ -170,7 +170,8 @@ def test_with_masses_matches_ase_with_new_masses():
     atoms.set_masses(modes.masses_da)
     ase_vib = VibrationsData(atoms, hessian.reshape(3, 3, 3, 3) * Hartree / Bohr**2)
     ase_d2o = np.sort(ase_vib.with_new_masses(d2o).get_frequencies().real)[-3:]
-    heavy = modes.with_masses(d2o)
+    with pytest.warns(ChangedValuesWarning, match="frequencies and modes from the Hessian"):
+        heavy = modes.with_masses(d2o)
     np.testing.assert_allclose(heavy.freqs_cm1, ase_d2o, rtol=1e-6)
     np.testing.assert_allclose(
         heavy.dalpha_dq, project_dalpha(modes.dalpha_dx, heavy.modes, np.array(d2o)), rtol=1e-12
@@ -182,7 +183,8 @@ def test_with_masses_matches_ase_with_new_masses():
 
 def test_with_the_same_masses_gives_the_same_numbers_back():
     modes = read_modes(EXAMPLE)
-    again = modes.with_masses(modes.masses_da)
+    with pytest.warns(ChangedValuesWarning):
+        again = modes.with_masses(modes.masses_da)
     np.testing.assert_allclose(again.freqs_cm1, modes.freqs_cm1, rtol=1e-10)
     for a, b in zip(again.raman_invariants(), modes.raman_invariants(), strict=True):
         np.testing.assert_allclose(a, b, rtol=1e-8, atol=1e-12)
@@ -192,6 +194,19 @@ def test_with_the_same_masses_gives_the_same_numbers_back():
 def test_with_masses_refuses_numbers_of_the_old_modes_only(kind):
     with pytest.raises(VibrapolError, match="need the Cartesian derivatives"):
         ModeSet(**inputs(kind)).with_masses([16.0, 2.0, 2.0])
+
+
+def test_with_masses_drops_what_belongs_to_the_old_modes_and_says_so():
+    base = ModeSet(**inputs("dx"))
+    from vibrapol.vibrations import harmonic_analysis
+
+    # A complete set of real modes for this geometry: a made-up positive-definite Hessian.
+    h = RNG.normal(size=(9, 9))
+    harmonic = harmonic_analysis(h @ h.T * 0.1, base.masses_da, base.coordinates_ang)
+    full = dataclasses.replace(base, freqs_cm1=harmonic.freqs_cm1, modes=harmonic.modes)
+    with pytest.warns(ChangedValuesWarning, match="IR intensities and the program's species"):
+        heavy = full.with_masses([15.9949, 2.0141, 2.0141])
+    assert heavy.ir_intensity_km_mol is None and heavy.program_irreps is None
 
 
 def test_with_masses_needs_every_vibration():

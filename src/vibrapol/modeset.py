@@ -440,6 +440,12 @@ class ModeSet:
             intensities and the program's species labels are dropped (they belong to the old
             modes; the note says so).
 
+        Warns
+        -----
+        ChangedValuesWarning
+            Always: the frequencies and modes are no longer the source's (the text is also the
+            provenance note).
+
         Raises
         ------
         ShapeError
@@ -460,52 +466,6 @@ class ModeSet:
         --------
         D₂O from H₂O: ``modes.with_masses([15.99491462, 2.01410178, 2.01410178])``.
         """
-        from vibrapol.errors import VibrapolError
-        from vibrapol.vibrations import harmonic_analysis, hessian_from_modes
+        from vibrapol.isotopes import modes_with_masses
 
-        new = _array(masses_da, "masses_da", (self.n_atoms,))
-        if np.any(new <= 0):
-            raise ShapeError("masses_da must all be positive")
-        where = self.provenance.source_file or "this mode set"
-        if self.dalpha_dx is None and (self.has_activity or self.dalpha_dq is not None):
-            raise VibrapolError(
-                f"{where}: new masses need the Cartesian derivatives ∂α/∂x; the Raman numbers "
-                "of this source (∂α/∂Q, a², γ² or activities) belong to the old modes only"
-            )
-        hessian = hessian_from_modes(self.freqs_cm1, self.modes, self.masses_da)
-        harmonic = harmonic_analysis(hessian, new, self.coordinates_ang)
-        if harmonic.freqs_cm1.shape[0] != self.n_modes:
-            raise VibrapolError(
-                f"{where}: new masses need all {harmonic.freqs_cm1.shape[0]} vibrations to "
-                f"rebuild the Hessian, the source has {self.n_modes}"
-            )
-        changed = [
-            f"{self.symbols[i]}{i + 1} {self.masses_da[i]:.6g} → {new[i]:.6g}"
-            for i in np.flatnonzero(~np.isclose(new, self.masses_da, rtol=1e-9, atol=0.0))
-        ]
-        note = "masses changed (ModeSet.with_masses): frequencies and modes from the Hessian "
-        note += "rebuilt from the source's modes"
-        dropped = [
-            name
-            for name, value in (
-                ("IR intensities", self.ir_intensity_km_mol),
-                ("the program's species labels", self.program_irreps),
-            )
-            if value is not None
-        ]
-        if dropped:
-            note += f"; {' and '.join(dropped)} dropped (they belong to the old modes)"
-        provenance = dataclasses.replace(
-            self.provenance,
-            masses="given: " + ("; ".join(changed) or "unchanged"),
-            notes=(*self.provenance.notes, note),
-        )
-        return dataclasses.replace(
-            self,
-            freqs_cm1=harmonic.freqs_cm1,
-            modes=harmonic.modes,
-            masses_da=new,
-            provenance=provenance,
-            ir_intensity_km_mol=None,
-            program_irreps=None,
-        )
+        return modes_with_masses(self, masses_da)

@@ -121,6 +121,18 @@ def test_subset_of_a_dx_source_equals_building_it_from_scratch():
     assert_same_modeset(part, scratch)
 
 
+@pytest.mark.parametrize("how", ["pickle", "deepcopy"])
+def test_copies_derive_again_too(how):
+    # Contract: engine workers hand ModeSets back pickled; a copy behaves as the original.
+    import copy
+    import pickle
+
+    base = ModeSet(**inputs("dx"))
+    twin = pickle.loads(pickle.dumps(base)) if how == "pickle" else copy.deepcopy(base)
+    replaced = dataclasses.replace(twin, dalpha_dx=NEW_VALUES["dalpha_dx"])
+    assert_same_modeset(replaced, ModeSet(**{**inputs("dx"), "dalpha_dx": NEW_VALUES["dalpha_dx"]}))
+
+
 def test_dalpha_dq_disagreeing_with_dalpha_dx_is_refused():
     base = ModeSet(**inputs("dx"))
     with pytest.raises(ShapeError, match="does not follow from dalpha_dx.*dalpha_dq=None"):

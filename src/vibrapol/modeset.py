@@ -334,6 +334,13 @@ class ModeSet:
         _DERIVED_DQ[id(dq)] = record
         return dq
 
+    def __setstate__(self, state: dict[str, Any]) -> None:
+        # Copies and unpickled ModeSets (engine workers) know their derived ∂α/∂Q as well.
+        self.__dict__.update(state)
+        record = state.get("_derivation")
+        if record is not None:
+            _DERIVED_DQ[id(record.dalpha_dq)] = record
+
     # -- derived quantities -------------------------------------------------------------
     @property
     def n_atoms(self) -> int:

@@ -17,13 +17,14 @@ def modes_with_masses(modes: ModeSet, masses_da: np.ndarray | list[float]) -> Mo
     new = _array(masses_da, "masses_da", (modes.n_atoms,))
     if np.any(new <= 0):
         raise ShapeError("masses_da must all be positive")
+    old = np.asarray(modes.masses_da, dtype=float)
     where = modes.provenance.source_file or "this mode set"
     if modes.dalpha_dx is None and (modes.has_activity or modes.dalpha_dq is not None):
         raise VibrapolError(
             f"{where}: new masses need the Cartesian derivatives ∂α/∂x; the Raman numbers "
             "of this source (∂α/∂Q, a², γ² or activities) belong to the old modes only"
         )
-    hessian = hessian_from_modes(modes.freqs_cm1, modes.modes, modes.masses_da)
+    hessian = hessian_from_modes(modes.freqs_cm1, modes.modes, old)
     harmonic = harmonic_analysis(hessian, new, modes.coordinates_ang)
     if harmonic.freqs_cm1.shape[0] != modes.n_modes:
         raise VibrapolError(
@@ -31,8 +32,8 @@ def modes_with_masses(modes: ModeSet, masses_da: np.ndarray | list[float]) -> Mo
             f"rebuild the Hessian, the source has {modes.n_modes}"
         )
     changed = [
-        f"{modes.symbols[i]}{i + 1} {modes.masses_da[i]:.6g} → {new[i]:.6g}"
-        for i in np.flatnonzero(~np.isclose(new, modes.masses_da, rtol=1e-9, atol=0.0))
+        f"{modes.symbols[i]}{i + 1} {old[i]:.6g} → {new[i]:.6g}"
+        for i in np.flatnonzero(~np.isclose(new, old, rtol=1e-9, atol=0.0))
     ]
     note = "masses changed (ModeSet.with_masses): frequencies and modes from the Hessian "
     note += "rebuilt from the source's modes"

@@ -41,7 +41,7 @@ class _Derivation:
 
     __slots__ = ("dalpha_dq", "masses_da", "modes", "__weakref__")
 
-    def __init__(self, dalpha_dq: np.ndarray, modes: np.ndarray, masses_da: np.ndarray) -> None:
+    def __init__(self, dalpha_dq: np.ndarray, modes: np.ndarray, masses_da: Any) -> None:
         self.dalpha_dq, self.modes, self.masses_da = dalpha_dq, modes, masses_da
 
 

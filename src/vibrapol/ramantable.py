@@ -147,7 +147,7 @@ def _column(table: RamanTable, name: str, n: int | None, kind: str) -> np.ndarra
     allowed = {"f": "iuf", "b": "b", "i": "iu"}[kind]
     if raw.size and raw.dtype.kind not in allowed:
         raise ShapeError(f"RamanTable.{name} should hold {what}, got {raw.dtype}")
-    arr = np.array(raw, dtype=dtype, copy=True)
+    arr: np.ndarray = np.array(raw, dtype=dtype, copy=True)
     want = "(n_modes,)" if n is None else f"({n},), one value per mode"
     if arr.ndim != 1 or (n is not None and arr.shape[0] != n):
         raise ShapeError(f"RamanTable.{name} should have shape {want}, got {arr.shape}")

@@ -161,6 +161,42 @@ def modes_in_complement(
     )
 
 
+def hessian_from_modes(
+    freqs_cm1: np.ndarray, modes: np.ndarray, masses_da: np.ndarray
+) -> np.ndarray:
+    """Cartesian Hessian H = M¹ᐟ² Lᵀ λ L M¹ᐟ² of a complete set of normal modes.
+
+    The inverse of :func:`harmonic_analysis` with ``project=True``: at a stationary point the
+    Hessian is zero along overall translations and rotations, so the vibrations alone give it
+    in full [1]_.
+
+    Parameters
+    ----------
+    freqs_cm1 : ndarray, shape (n,)
+        Wavenumbers (imaginary ones negative).
+    modes : ndarray, shape (n, 3N)
+        Mass-weighted orthonormal eigenvectors L (rows), all 3N − 6 (3N − 5) vibrations.
+    masses_da : ndarray, shape (N,)
+        The masses the modes belong to.
+
+    Returns
+    -------
+    ndarray, shape (3N, 3N)
+        Cartesian Hessian in hartree bohr⁻², atom-major.
+
+    References
+    ----------
+    .. [1] Wilson, Decius and Cross, *Molecular Vibrations* (1955), ch. 2.
+    """
+    from vibrapol.units import cm1_to_hessian_eigenvalue
+
+    lam = cm1_to_hessian_eigenvalue(freqs_cm1)
+    modes = np.asarray(modes, dtype=float)
+    sqrt_m = np.repeat(np.sqrt(np.asarray(masses_da, dtype=float)), 3)
+    h_mw = modes.T @ (lam[:, None] * modes)
+    return sqrt_m[:, None] * h_mw * sqrt_m[None, :]
+
+
 def force_constants_mdyn_ang(freqs_cm1: np.ndarray, reduced_masses_da: np.ndarray) -> np.ndarray:
     """K = 4π²c²ν̃²μ in mdyn Å⁻¹ (sign of the frequency kept)."""
     from vibrapol.units import C_CM_S, DALTON_KG

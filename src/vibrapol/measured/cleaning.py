@@ -37,20 +37,34 @@ BASELINE_METHOD = "arpls"
 BASELINE_PERIOD_CM1 = 400.0
 
 
+#: Φ⁻¹(3/4): the median absolute deviation of a normal distribution in units of its σ
+#: (common practice for the modified z-score; from memory).
+MAD_PER_SIGMA = 0.6745
+#: √(2/π): the mean absolute deviation of a normal distribution in units of its σ.
+MEAN_AD_PER_SIGMA = float(np.sqrt(2.0 / np.pi))
+
+
 def modified_z_scores(values: np.ndarray) -> np.ndarray:
-    """Modified z-scores 0.6745 (v − median) / MAD.
+    """Modified z-scores (v − median) / σ̂, with σ̂ = MAD / 0.6745.
+
+    When more than half the values equal the median (MAD = 0), σ̂ is taken from the mean
+    absolute deviation instead, σ̂ = mean|v − median| / √(2/π); either way a score of z means
+    z standard deviations of a normal distribution.
 
     References
     ----------
-    B. Iglewicz and D. C. Hoaglin (1993), as used for spikes by D. A. Whitaker and K. Hayes,
-    Chemom. Intell. Lab. Syst. 179, 82 (2018).
+    B. Iglewicz and D. C. Hoaglin, *How to Detect and Handle Outliers*, ASQC (1993) (modified
+    z-score 0.6745 (v − median)/MAD; from memory), as used for spikes by D. A. Whitaker and
+    K. Hayes, Chemom. Intell. Lab. Syst. 179, 82 (2018).
     """
     v = np.asarray(values, dtype=float)
     med = np.median(v)
     mad = np.median(np.abs(v - med))
-    if mad == 0:
-        mad = np.mean(np.abs(v - med)) / 0.7979 or 1.0  # mean absolute deviation of a normal
-    return 0.6745 * (v - med) / mad
+    if mad > 0:
+        sigma = mad / MAD_PER_SIGMA
+    else:
+        sigma = np.mean(np.abs(v - med)) / MEAN_AD_PER_SIGMA or 1.0
+    return (v - med) / sigma
 
 
 def find_spikes(

@@ -13,7 +13,7 @@ import numpy as np
 from scipy.signal import find_peaks, savgol_filter
 
 from vibrapol.errors import VibrapolError
-from vibrapol.measured.cleaning import noise_sigma
+from vibrapol.measured.density import noise_sigma
 from vibrapol.measured.spectrum import MeasuredSpectrum, check_range
 
 #: Default prominence a band needs, in noise standard deviations.  Five keeps noise maxima out
@@ -134,7 +134,9 @@ def find_bands(
     range_cm1 : (low, high), optional
         Only bands inside this range.
     noise : float, optional
-        Noise standard deviation; default :func:`vibrapol.measured.cleaning.noise_sigma`.
+        Noise standard deviation of one point; default
+        :func:`vibrapol.measured.density.noise_sigma` (which allows for noise correlated
+        between neighbouring points, as in spectra interpolated onto a finer grid).
     shoulders : bool
         Also report shoulders (their ``prominence`` is NaN).
 
@@ -152,7 +154,7 @@ def find_bands(
         raise VibrapolError(f"min_snr (--min-snr) must be a positive number, got {min_snr}")
     x, y = spectrum.shift_cm1, spectrum.intensity
     lo, hi = check_range(*range_cm1, "band range") if range_cm1 else (-np.inf, np.inf)
-    sigma = noise_sigma(y) if noise is None else float(noise)
+    sigma = noise_sigma(y, spectrum.spacing_cm1) if noise is None else float(noise)
     if sigma <= 0:
         sigma = 1e-12 * max(float(np.max(np.abs(y))), 1e-300)
     idx, props = find_peaks(

@@ -43,6 +43,10 @@ __all__ = [
 #: Detect and Handle Outliers*, ASQC (1993); from memory); we use 5 so that shot noise on
 #: strong bands is not taken for spikes (tested on invented spectra, tests/test_measured_cleaning).
 SPIKE_THRESHOLD = 5.0
+#: Modified z-score of the weaker outer edges of a spike found with :data:`SPIKE_THRESHOLD`
+#: (a spike shared by two pixels): the usual outlier cut of 3.5 (Iglewicz and Hoaglin 1993,
+#: from memory).
+SPIKE_EDGE_THRESHOLD = 3.5
 #: Widest spike removed, in points: cosmic rays hit one to three detector pixels; anything
 #: wider is treated as a band.
 SPIKE_MAX_POINTS = 3
@@ -101,8 +105,9 @@ def find_spikes(
     Following Whitaker and Hayes (2018), the modified z-score of the first differences
     Δyᵢ = yᵢ₊₁ − yᵢ (in points, not cm⁻¹: spikes are detector-pixel events) marks steep edges.
     A spike is a run of rising edges followed, within ``max_points`` points, by a run of
-    falling edges; everything between is replaced.  A band, however strong, has edges spread
-    over more points than that and is left alone.
+    falling edges; everything between is replaced, and up to ``max_points // 3`` (at least
+    one) more points on either side whose edges score above :data:`SPIKE_EDGE_THRESHOLD`.
+    A band, however strong, has edges spread over more points than that and is left alone.
 
     Parameters
     ----------
@@ -128,11 +133,11 @@ def find_spikes(
     up, down = z > threshold, z < -threshold
     spikes: list[int] = []
     k, n = 0, z.size
-    while k < n:
-        if not up[k]:
-            k += 1
+    grow = max(1, max_points // 3)
+    for first in np.flatnonzero(up):
+        if first < k:
             continue
-        start = k
+        start = k = int(first)
         while k < n and up[k]:
             k += 1
         gap_end = min(n, k + max_points)
@@ -142,7 +147,14 @@ def find_spikes(
         while m + 1 < n and down[m + 1]:
             m += 1
         if m - start <= max_points:
-            spikes.extend(range(start + 1, m + 1))
+            # A spike shared unevenly by two pixels (or spread by interpolation) has weaker
+            # outer edges: take them in while their score exceeds SPIKE_EDGE_THRESHOLD.
+            lo, hi = start, m
+            while lo > 0 and start - lo < grow and z[lo - 1] > SPIKE_EDGE_THRESHOLD:
+                lo -= 1
+            while hi + 1 < n and hi - m < grow and z[hi + 1] < -SPIKE_EDGE_THRESHOLD:
+                hi += 1
+            spikes.extend(range(lo + 1, hi + 1))
         k = m + 1
     return np.array(sorted(set(spikes)), dtype=int)
 

@@ -23,6 +23,11 @@ MIN_SNR = 5.0
 #: Default narrowest band, in points of the local spacing: single-point maxima are noise or
 #: left-over spikes.
 MIN_FWHM_POINTS = 2.0
+#: Default narrowest band in cm⁻¹ whatever the point spacing: bands of liquids and solutions
+#: are several cm⁻¹ wide and dispersive Raman spectrometers resolve about 0.5–2 cm⁻¹ (common
+#: practice, from memory), so a narrower maximum on a densely sampled axis is a noise
+#: excursion.  Pass ``min_fwhm_cm1`` for gas-phase or other narrow lines.
+MIN_FWHM_CM1 = 0.5
 
 
 @dataclass(frozen=True)
@@ -126,7 +131,8 @@ def find_bands(
     min_snr : float
         Smallest height and prominence in noise standard deviations (:data:`MIN_SNR`).
     min_fwhm_cm1 : float, optional
-        Narrowest band; default :data:`MIN_FWHM_POINTS` × the local spacing.
+        Narrowest band; default :data:`MIN_FWHM_POINTS` × the local spacing, and at least
+        :data:`MIN_FWHM_CM1`.
     max_fwhm_cm1 : float, optional
         Widest band (e.g. to skip broad fluorescence humps); default none.
     min_separation_cm1 : float
@@ -167,7 +173,8 @@ def find_bands(
     for k, i in enumerate(idx):
         local = 0.5 * (x[min(i + 1, x.size - 1)] - x[max(i - 1, 0)])
         fwhm = float(right[k] - left[k])
-        if fwhm < (min_fwhm_cm1 if min_fwhm_cm1 is not None else MIN_FWHM_POINTS * local):
+        narrowest = max(MIN_FWHM_POINTS * local, MIN_FWHM_CM1)
+        if fwhm < (min_fwhm_cm1 if min_fwhm_cm1 is not None else narrowest):
             continue
         if max_fwhm_cm1 is not None and fwhm > max_fwhm_cm1:
             continue

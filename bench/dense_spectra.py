@@ -83,8 +83,12 @@ def run_match_rusage(path: Path, out: Path, timeout: float) -> dict:
                 break
             if time.perf_counter() > deadline:
                 proc.kill()
-                os.wait4(proc.pid, 0)
-                return {"seconds": None, "peak_mb": None, "status": f"stopped after {timeout:g} s"}
+                _, _, usage = os.wait4(proc.pid, 0)
+                return {
+                    "seconds": None,
+                    "peak_mb": usage.ru_maxrss / 1024.0,  # kB on Linux: peak until stopped
+                    "status": f"stopped after {timeout:g} s",
+                }
             time.sleep(0.05)
         seconds = time.perf_counter() - t0
         code = os.waitstatus_to_exitcode(status)
@@ -94,7 +98,7 @@ def run_match_rusage(path: Path, out: Path, timeout: float) -> dict:
         "seconds": seconds,
         "peak_mb": usage.ru_maxrss / 1024.0,  # kB on Linux
         "status": "ok" if code == 0 else f"exit {code}",
-        "stderr": [ln for ln in lines if "warning" in ln or "error" in ln][:3],
+        "stderr_last": lines[-1] if lines else "",
     }
 
 

@@ -363,6 +363,12 @@ def clean(
     cleaned : MeasuredSpectrum
         New spectrum (the input is unchanged), with one note per step.
     report : CleaningReport
+
+    Warns
+    -----
+    AccuracyWarning
+        When the spectrum has more than :data:`vibrapol.measured.density.MAX_POINTS` points
+        and is binned to fewer (the first step line and a note say how).
     """
     steps: list[str] = []
     dense = limit_points(spectrum)

@@ -101,3 +101,20 @@ def test_more_than_max_points_are_binned_with_a_warning():
     assert len(cleaned) <= MAX_POINTS
     assert report.steps[0].startswith(f"binned {n} points")
     assert any(note.startswith("binned") for note in cleaned.notes)
+
+
+def test_crowded_narrow_bands_are_not_taken_for_correlated_noise():
+    # 100 invented bands 5–10 cm⁻¹ wide, 30 cm⁻¹ apart, on 1 cm⁻¹ spacing with white noise:
+    # their curvature makes the estimate jump between lags of 2 and 4 cm⁻¹, which must not be
+    # read as interpolated noise (it once gave τ ≈ 90, and the fit then dropped 97 of the 100
+    # bands as insignificant).  The contract: white noise gives the neighbour estimate, τ = 1.
+    from vibrapol.measured.synthetic import TrueBand, synthetic_pair
+
+    rng = np.random.default_rng(0)
+    pos = np.linspace(200.0, 3200.0, 100) + rng.uniform(-3.0, 3.0, 100)
+    bands = [TrueBand(p, rng.uniform(5, 10), rng.uniform(5, 50), 0.75) for p in pos]
+    x = np.linspace(150.0, 3300.0, 3151)
+    vv = synthetic_pair(x, bands, noise_sigma=0.02, rng=rng).vv
+    est = noise_estimate(vv.intensity, vv.spacing_cm1)
+    assert (est.lag_points, est.variance_factor) == (1, 1.0)
+    assert est.sigma == measured.noise_sigma(vv.intensity)

@@ -29,12 +29,18 @@ MAX_NOISE_LAG_CM1 = 8.0
 #: Fewest second differences per lag for a usable estimate.
 MIN_POINTS_PER_LAG = 64
 #: The noise counts as white (uncorrelated between neighbours) unless doubling the lag raises
-#: the estimate by more than this factor at some step.  On white noise a doubling changes it
-#: by a few percent, and by 1.1–1.4 where bands cover much of a short spectrum (their
-#: curvature grows with the lag); on linearly interpolated copies of the bundled invented
-#: spectrum one step jumps by 1.8 (1.25 times as many points), 2.1 (1.5), 3.1 (2), 7.8 (3)
-#: and more (measured while writing this module).
+#: the estimate by more than this factor at some step up to :data:`MAX_JUMP_LAG_CM1`.  On
+#: white noise a doubling changes it by a few percent, and by 1.1–1.4 where bands cover much
+#: of a short spectrum (their curvature grows with the lag); on linearly interpolated copies
+#: of the bundled invented spectrum one step jumps by 1.8 (1.25 times as many points), 2.1
+#: (1.5), 3.1 (2), 7.8 (3) and more (measured while writing this module).
 CORRELATED_RATIO = 1.75
+#: Longest lag, in cm⁻¹, at which that jump counts.  Interpolation onto a finer grid makes it
+#: below the spacing of the original pixels (0.6–1 cm⁻¹ for copies of the bundled spectrum,
+#: pixels 1 cm⁻¹ apart); the curvature of crowded narrow bands makes it only at lags of
+#: several cm⁻¹ (4 cm⁻¹ for 100 invented bands 5–10 cm⁻¹ wide, 30 cm⁻¹ apart), and must not
+#: be taken for correlated noise.
+MAX_JUMP_LAG_CM1 = 1.5
 #: For correlated noise, the lag used is the shortest whose estimate lies within this factor
 #: of the largest (where the estimate stops growing with the lag).
 PLATEAU_RATIO = 1.1
@@ -84,8 +90,9 @@ def noise_estimate(intensity: np.ndarray, spacing_cm1: float | None = None) -> N
 
     σ_k is estimated from second differences at lags k = 1, 2, 4, … points, up to
     :data:`MAX_NOISE_LAG_CM1` (and :data:`MIN_POINTS_PER_LAG` differences per lag).  Unless
-    some σ_2k exceeds σ_k by :data:`CORRELATED_RATIO`, the noise is white and σ = σ₁ (the
-    estimate used before dense spectra were considered).
+    some σ_2k with 2k points within :data:`MAX_JUMP_LAG_CM1` exceeds σ_k by
+    :data:`CORRELATED_RATIO`, the noise is white and σ = σ₁ (the estimate used before dense
+    spectra were considered).
     Otherwise σ is σ_k at the shortest lag within :data:`PLATEAU_RATIO` of the largest σ_k,
     and τ is estimated from means of blocks of 2k points: τ = 2k σ²(mean) / σ².
 
@@ -112,7 +119,8 @@ def noise_estimate(intensity: np.ndarray, spacing_cm1: float | None = None) -> N
     if len(lags) == 1:
         return NoiseEstimate(s1, 1, 1.0)
     sig = np.array([s1, *(_sigma_d2(y, k) for k in lags[1:])])
-    if not np.any(sig[1:] > CORRELATED_RATIO * sig[:-1]):
+    short = np.array(lags[1:]) * spacing_cm1 <= MAX_JUMP_LAG_CM1
+    if not np.any((sig[1:] > CORRELATED_RATIO * sig[:-1]) & short):
         return NoiseEstimate(s1, 1, 1.0)
     top = float(sig.max())
     i = int(np.flatnonzero(sig * PLATEAU_RATIO >= top)[0])

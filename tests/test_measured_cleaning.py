@@ -12,7 +12,7 @@ from scipy.signal import savgol_coeffs
 
 from vibrapol.errors import VibrapolError
 from vibrapol.measured import clean, clean_pair, estimate_baseline, find_spikes, noise_sigma, smooth
-from vibrapol.measured.cleaning import whittaker_lam
+from vibrapol.measured.cleaning import modified_z_scores, whittaker_lam
 from vibrapol.measured.spectrum import MeasuredSpectrum
 from vibrapol.measured.synthetic import TrueBand, synthetic_pair
 
@@ -142,3 +142,31 @@ def test_clean_pair_cleans_both_channels():
     cleaned, vv_report, vh_report = clean_pair(pair)
     assert len(vv_report.spike_indices) == 4 and len(vh_report.spike_indices) == 0
     assert abs(np.median(cleaned.vh.intensity[:150])) < 5.0
+
+
+def _quantized_flat(spike_height: float) -> np.ndarray:
+    # A flat digitized spectrum: 70 single-count bumps, so 140 of the 299 first differences
+    # are ±1 and the other 159 (more than half) are 0 -- the median absolute deviation of the
+    # differences is 0 and the mean-absolute-deviation fallback decides.  One spike at 260.
+    y = np.full(300, 100.0)
+    y[5 + 3 * np.arange(70)] += 1.0
+    y[260] += spike_height
+    return y
+
+
+@pytest.mark.parametrize(("height", "found"), [(3.5, True), (2.8, False)])
+def test_spike_threshold_when_the_mad_is_zero_is_five_sigma(height, found):
+    # Issue 13 point 9.  With MAD = 0 the scale is σ̂ = mean|d − median| / √(2/π) (the mean
+    # absolute deviation of a normal distribution is √(2/π) σ), here
+    # σ̂ = (140 + 2h) / 299 / 0.7979, and an edge counts at (d − median)/σ̂ > 5.  A 3.5-count
+    # spike has edges of 3.5/σ̂ = 5.68 σ̂ (found); a 2.8-count one 4.65 σ̂ (left).  The old
+    # code multiplied by 0.6745 = Φ⁻¹(3/4) once more, i.e. it asked for 5/0.6745 = 7.41 σ̂
+    # and missed the 5.68 σ̂ spike.  (0.6745 belongs with the MAD only: modified z-score of
+    # Iglewicz and Hoaglin 1993, common practice, from memory.)
+    y = _quantized_flat(height)
+    d = np.diff(y)
+    assert np.median(np.abs(d - np.median(d))) == 0
+    sigma = (140 + 2 * height) / 299 / np.sqrt(2 / np.pi)
+    np.testing.assert_allclose(modified_z_scores(d), d / sigma, rtol=1e-12)
+    expected = [260] if found else []
+    np.testing.assert_array_equal(find_spikes(y), expected)

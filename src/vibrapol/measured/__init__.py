@@ -34,6 +34,7 @@ from vibrapol.measured.cleaning import (
     remove_spikes,
     smooth,
 )
+from vibrapol.measured.density import NoiseEstimate, noise_estimate
 from vibrapol.measured.depolarization import (
     MeasuredBand,
     MeasuredBands,
@@ -62,6 +63,7 @@ __all__ = [
     "MeasuredBand",
     "MeasuredBands",
     "MeasuredSpectrum",
+    "NoiseEstimate",
     "PolarizationCorrection",
     "PolarizedPair",
     "align_pair",
@@ -76,6 +78,7 @@ __all__ = [
     "fit_bands",
     "fit_joint",
     "measure_bands",
+    "noise_estimate",
     "noise_sigma",
     "ratio_with_error",
     "read_correction",

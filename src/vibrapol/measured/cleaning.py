@@ -18,16 +18,40 @@ from pybaselines import Baseline
 from scipy.signal import savgol_filter
 
 from vibrapol.errors import VibrapolError
+from vibrapol.measured.density import bin_means, limit_points, noise_estimate, noise_sigma
 from vibrapol.measured.spectrum import MeasuredSpectrum, PolarizedPair
+
+__all__ = [
+    "BASELINE_METHOD",
+    "BASELINE_PERIOD_CM1",
+    "SPIKE_MAX_POINTS",
+    "SPIKE_THRESHOLD",
+    "CleaningReport",
+    "clean",
+    "clean_pair",
+    "estimate_baseline",
+    "find_spikes",
+    "modified_z_scores",
+    "noise_sigma",
+    "remove_spikes",
+    "smooth",
+    "whittaker_lam",
+]
 
 #: Modified z-score above which a jump between neighbouring points counts as a spike edge.
 #: 3.5 is the usual outlier cut for modified z-scores (B. Iglewicz and D. C. Hoaglin, *How to
 #: Detect and Handle Outliers*, ASQC (1993); from memory); we use 5 so that shot noise on
 #: strong bands is not taken for spikes (tested on invented spectra, tests/test_measured_cleaning).
 SPIKE_THRESHOLD = 5.0
+#: Modified z-score of the weaker outer edges of a spike found with :data:`SPIKE_THRESHOLD`
+#: (a spike shared by two pixels): the usual outlier cut of 3.5 (Iglewicz and Hoaglin 1993,
+#: from memory).
+SPIKE_EDGE_THRESHOLD = 3.5
 #: Widest spike removed, in points: cosmic rays hit one to three detector pixels; anything
 #: wider is treated as a band.
 SPIKE_MAX_POINTS = 3
+#: Fewest bin means a default-lam baseline is estimated on (see :data:`MAX_DEFAULT_LAM`).
+MIN_BASELINE_POINTS = 500
 #: Default baseline algorithm of pybaselines: arPLS (Baek et al. 2015) needs no threshold and
 #: is robust to bands of very different heights.
 BASELINE_METHOD = "arpls"
@@ -35,22 +59,42 @@ BASELINE_METHOD = "arpls"
 #: smoother passes at half amplitude; turned into pybaselines' ``lam`` from the point spacing
 #: by :func:`whittaker_lam`.  Bands are far narrower (5–30 cm⁻¹) than this.
 BASELINE_PERIOD_CM1 = 400.0
+#: Largest default ``lam`` used as such.  The banded Cholesky solve of W + lam DᵀD loses all
+#: precision near lam ≈ 10¹⁶ (it fails outright on a million points 0.003 cm⁻¹ apart); with
+#: the default lam the baseline of a denser spectrum is estimated on means of neighbouring
+#: points, spaced so that lam stays at most this, and interpolated back (the baseline varies
+#: over hundreds of cm⁻¹, the bins are about 1 cm⁻¹ wide).
+MAX_DEFAULT_LAM = 1e8
+
+
+#: Φ⁻¹(3/4): the median absolute deviation of a normal distribution in units of its σ
+#: (common practice for the modified z-score; from memory).
+MAD_PER_SIGMA = 0.6745
+#: √(2/π): the mean absolute deviation of a normal distribution in units of its σ.
+MEAN_AD_PER_SIGMA = float(np.sqrt(2.0 / np.pi))
 
 
 def modified_z_scores(values: np.ndarray) -> np.ndarray:
-    """Modified z-scores 0.6745 (v − median) / MAD.
+    """Modified z-scores (v − median) / σ̂, with σ̂ = MAD / 0.6745.
+
+    When more than half the values equal the median (MAD = 0), σ̂ is taken from the mean
+    absolute deviation instead, σ̂ = mean|v − median| / √(2/π); either way a score of z means
+    z standard deviations of a normal distribution.
 
     References
     ----------
-    B. Iglewicz and D. C. Hoaglin (1993), as used for spikes by D. A. Whitaker and K. Hayes,
-    Chemom. Intell. Lab. Syst. 179, 82 (2018).
+    B. Iglewicz and D. C. Hoaglin, *How to Detect and Handle Outliers*, ASQC (1993) (modified
+    z-score 0.6745 (v − median)/MAD; from memory), as used for spikes by D. A. Whitaker and
+    K. Hayes, Chemom. Intell. Lab. Syst. 179, 82 (2018).
     """
     v = np.asarray(values, dtype=float)
     med = np.median(v)
     mad = np.median(np.abs(v - med))
-    if mad == 0:
-        mad = np.mean(np.abs(v - med)) / 0.7979 or 1.0  # mean absolute deviation of a normal
-    return 0.6745 * (v - med) / mad
+    if mad > 0:
+        sigma = mad / MAD_PER_SIGMA
+    else:
+        sigma = np.mean(np.abs(v - med)) / MEAN_AD_PER_SIGMA or 1.0
+    return (v - med) / sigma
 
 
 def find_spikes(
@@ -61,8 +105,9 @@ def find_spikes(
     Following Whitaker and Hayes (2018), the modified z-score of the first differences
     Δyᵢ = yᵢ₊₁ − yᵢ (in points, not cm⁻¹: spikes are detector-pixel events) marks steep edges.
     A spike is a run of rising edges followed, within ``max_points`` points, by a run of
-    falling edges; everything between is replaced.  A band, however strong, has edges spread
-    over more points than that and is left alone.
+    falling edges; everything between is replaced, and up to ``max_points // 3`` (at least
+    one) more points on either side whose edges score above :data:`SPIKE_EDGE_THRESHOLD`.
+    A band, however strong, has edges spread over more points than that and is left alone.
 
     Parameters
     ----------
@@ -88,11 +133,11 @@ def find_spikes(
     up, down = z > threshold, z < -threshold
     spikes: list[int] = []
     k, n = 0, z.size
-    while k < n:
-        if not up[k]:
-            k += 1
+    grow = max(1, max_points // 3)
+    for first in np.flatnonzero(up):
+        if first < k:
             continue
-        start = k
+        start = k = int(first)
         while k < n and up[k]:
             k += 1
         gap_end = min(n, k + max_points)
@@ -102,7 +147,14 @@ def find_spikes(
         while m + 1 < n and down[m + 1]:
             m += 1
         if m - start <= max_points:
-            spikes.extend(range(start + 1, m + 1))
+            # A spike shared unevenly by two pixels (or spread by interpolation) has weaker
+            # outer edges: take them in while their score exceeds SPIKE_EDGE_THRESHOLD.
+            lo, hi = start, m
+            while lo > 0 and start - lo < grow and z[lo - 1] > SPIKE_EDGE_THRESHOLD:
+                lo -= 1
+            while hi + 1 < n and hi - m < grow and z[hi + 1] < -SPIKE_EDGE_THRESHOLD:
+                hi += 1
+            spikes.extend(range(lo + 1, hi + 1))
         k = m + 1
     return np.array(sorted(set(spikes)), dtype=int)
 
@@ -154,7 +206,9 @@ def estimate_baseline(
     -------
     baseline : ndarray, shape (n,)
     used : dict
-        The options actually passed (including the default ``lam``).
+        The options actually passed (including the default ``lam``); when the default lam
+        would exceed :data:`MAX_DEFAULT_LAM`, also ``estimated_on_points``: the number of
+        bin means the baseline was estimated on before linear interpolation back.
 
     References
     ----------
@@ -172,12 +226,33 @@ def estimate_baseline(
         )
     func = getattr(fitter, name)
     used = dict(options or {})
+    y = np.asarray(intensity, dtype=float)
+    size = 1
     if "lam" in inspect.signature(func).parameters and "lam" not in used:
-        used["lam"] = whittaker_lam(float(np.median(np.diff(x))))
+        spacing = float(np.median(np.diff(x)))
+        lam = whittaker_lam(spacing)
+        if lam > MAX_DEFAULT_LAM and x.size > 2 * MIN_BASELINE_POINTS:
+            size = min(int(np.ceil((lam / MAX_DEFAULT_LAM) ** 0.25)), x.size // MIN_BASELINE_POINTS)
+            coarse = bin_means(x, size)
+            fitter = Baseline(x_data=coarse, assume_sorted=True)
+            func = getattr(fitter, name)
+            lam = whittaker_lam(float(np.median(np.diff(coarse))))
+        used["lam"] = lam
     try:
-        baseline, _ = func(np.asarray(intensity, dtype=float), **used)
+        if size > 1:
+            coarse_base, _ = func(bin_means(y, size), **used)
+            baseline = np.interp(x, bin_means(x, size), coarse_base)
+        else:
+            baseline, _ = func(y, **used)
     except TypeError as exc:
         raise VibrapolError(f"baseline method {method!r}: bad option ({exc})") from exc
+    except (np.linalg.LinAlgError, ValueError) as exc:
+        raise VibrapolError(
+            f"baseline method {method!r} failed on {x.size} points ({exc}); try another "
+            "method or a smaller lam"
+        ) from exc
+    if size > 1:
+        used["estimated_on_points"] = -(-x.size // size)
     return np.asarray(baseline, dtype=float), used
 
 
@@ -208,16 +283,6 @@ def smooth(
             f"polyorder {polyorder} and not exceed the {x.size} points of the spectrum"
         )
     return savgol_filter(np.asarray(intensity, dtype=float), points, polyorder), points
-
-
-def noise_sigma(intensity: np.ndarray) -> float:
-    """Standard deviation of white noise, estimated robustly from second differences.
-
-    For white noise of variance σ², Δ²y has variance 6σ²; the median absolute deviation
-    (× 1.4826 for a normal distribution) ignores the few points where bands curve.
-    """
-    d2 = np.diff(np.asarray(intensity, dtype=float), 2)
-    return float(1.4826 * np.median(np.abs(d2 - np.median(d2))) / np.sqrt(6.0))
 
 
 def _read_only(values: np.ndarray) -> np.ndarray:
@@ -298,16 +363,37 @@ def clean(
     cleaned : MeasuredSpectrum
         New spectrum (the input is unchanged), with one note per step.
     report : CleaningReport
+
+    Warns
+    -----
+    AccuracyWarning
+        When the spectrum has more than :data:`vibrapol.measured.density.MAX_POINTS` points
+        and is binned to fewer (the first step line and a note say how).
     """
-    x, y = spectrum.shift_cm1, spectrum.intensity.copy()
     steps: list[str] = []
+    dense = limit_points(spectrum)
+    if dense is not spectrum:
+        steps.append(dense.notes[-1])
+    x, y = dense.shift_cm1, dense.intensity.copy()
+    spacing = dense.spacing_cm1
     idx = np.array([], dtype=int)
     if spikes:
-        idx = find_spikes(y, spike_threshold, spike_max_points)
+        # On a grid finer than the detector pixels (interpolated exports) a spike spreads
+        # over as many points as the noise is correlated over: widen the limit by τ.
+        tau = noise_estimate(y, spacing).variance_factor
+        widest = max(spike_max_points, int(round(spike_max_points * tau)))
+        idx = find_spikes(y, spike_threshold, widest)
         y = remove_spikes(x, y, idx)
         where = ", ".join(f"{v:.1f}" for v in x[idx][:10]) + (" …" if idx.size > 10 else "")
         steps.append(
-            f"removed {idx.size} spike point(s)" + (f" at {where} cm-1" if idx.size else "")
+            f"removed {idx.size} spike point(s)"
+            + (f" at {where} cm-1" if idx.size else "")
+            + (
+                f" (spikes up to {widest} points wide: the noise is correlated over "
+                f"{tau:.1f} points)"
+                if widest != spike_max_points
+                else ""
+            )
         )
     base, used = None, {}
     if baseline is not None:
@@ -323,7 +409,7 @@ def clean(
     if smooth_window_cm1 is not None:
         y, window = smooth(x, y, smooth_window_cm1, smooth_polyorder)
         steps.append(f"Savitzky-Golay smoothing over {window} points (order {smooth_polyorder})")
-    cleaned = dataclasses.replace(spectrum, intensity=y, notes=(*spectrum.notes, *steps))
+    cleaned = dataclasses.replace(dense, intensity=y, notes=(*spectrum.notes, *steps))
     report = CleaningReport(
         spike_indices=tuple(int(i) for i in idx),
         spike_shifts_cm1=tuple(float(v) for v in x[idx]),
@@ -332,7 +418,7 @@ def clean(
         baseline_options=tuple(used.items()),
         baseline=None if base is None else _read_only(base),
         smoothing_window_points=window,
-        noise_sigma=noise_sigma(y),
+        noise_sigma=noise_sigma(y, spacing),
         steps=tuple(steps) or ("nothing changed (all steps off)",),
     )
     return cleaned, report

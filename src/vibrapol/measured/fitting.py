@@ -8,12 +8,17 @@ with unit-area profiles P (:mod:`vibrapol.measured.profiles`), so A is the band 
 positions x0_j (and by default the widths w_j and the Lorentzian fraction η_j) are shared by
 the channels; b, s are a local offset and slope per connected fit window k and channel, taking
 up what the baseline removal left.  Every band contributes at every point (tails of one band
-under its neighbour are modelled, not cut).
+under its neighbour are modelled, not cut): the bands of one window are fitted together, and
+the tails of bands of other windows are held at their values from a first pass of
+window-by-window fits (:mod:`vibrapol.measured.window_fit`), so the cost grows with the
+number of points and bands, not with their product.
 
 The residuals of each channel are divided by its noise standard deviation; the fit is
 :func:`scipy.optimize.least_squares` (trust-region reflective, analytic Jacobian); standard
 errors are the square roots of the diagonal of s²(JᵀJ)⁻¹ at the solution, with s² the
-reduced χ² (so they reflect the actual scatter about the model).
+reduced χ² of all windows together (so they reflect the actual scatter about the model),
+times the variance factor τ of noise correlated between neighbouring points
+(:func:`vibrapol.measured.density.noise_estimate`; τ = 1 for white noise).
 
 References
 ----------
@@ -28,13 +33,13 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import least_squares
 
 from vibrapol.errors import AccuracyWarning, VibrapolError
-from vibrapol.measured.cleaning import noise_sigma
+from vibrapol.measured.density import noise_estimate
 from vibrapol.measured.peaks import BandCandidate, find_bands
-from vibrapol.measured.profiles import SHAPES, height_factor, profile, profile_derivatives
+from vibrapol.measured.profiles import SHAPES, height_factor, profile
 from vibrapol.measured.spectrum import MeasuredSpectrum
+from vibrapol.measured.window_fit import WindowFit, fit_window
 
 #: Default half-width of the fit window around each band, in units of its starting FWHM.
 WINDOW_FWHM = 4.0
@@ -211,6 +216,11 @@ def fit_joint(
 ) -> JointResult:
     """Fit the same bands in one or more channels on a common axis.
 
+    Bands whose windows (``window_fwhm`` starting FWHMs on either side) overlap are fitted
+    together; separate windows are fitted one by one, each with the tails of the bands of
+    the other windows held at their values from a first pass.  Time and memory therefore
+    grow with the number of points and of bands, not with their product.
+
     Parameters
     ----------
     spectra : sequence of MeasuredSpectrum
@@ -236,9 +246,10 @@ def fit_joint(
         How far a centre may move from its start; default its starting FWHM (at least two
         points).
     min_area_snr : float or None
-        After a fit, the band of the first channel with the smallest area/standard error is
-        dropped when that ratio is below this, and the rest refitted, until all pass (spurious
-        starts, e.g. a noise "shoulder", vanish this way).  None keeps every start.
+        After a fit, the band of the first channel with the smallest area/standard error in
+        its window is dropped when that ratio is below this, and the window refitted, until
+        all pass (spurious starts, e.g. a noise "shoulder", vanish this way).  None keeps
+        every start.
 
     Returns
     -------
@@ -267,195 +278,177 @@ def fit_joint(
         if s.shift_cm1.shape != x.shape or not np.allclose(s.shift_cm1, x):
             raise VibrapolError(f"{s.where}: channels must share one axis (use align_pair)")
     pos0, w0 = _starts(spectra[0], starts, fwhm_cm1)
-    while True:
-        result, problems = _fit_once(
-            spectra, pos0, w0, shape, share_fwhm, window_fwhm, n_base, position_freedom_cm1
-        )
-        first = result.fits[0].bands
-        snr = np.array([b.area / b.area_err if b.area_err > 0 else np.inf for b in first])
-        if min_area_snr is None or pos0.size == 1 or snr.min() >= min_area_snr:
-            break
-        weakest = int(np.argmin(snr))
-        pos0, w0 = np.delete(pos0, weakest), np.delete(w0, weakest)
-    for message in problems:
+    spacing = spectra[0].spacing_cm1
+    estimates = [noise_estimate(s.intensity, spacing) for s in spectra]
+    noise = [
+        e.sigma if e.sigma > 0 else 1e-9 * max(float(np.max(np.abs(s.intensity))), 1e-300)
+        for e, s in zip(estimates, spectra, strict=True)
+    ]
+    fit = _Fitter(
+        x, [s.intensity for s in spectra], noise, max(e.variance_factor for e in estimates),
+        shape, share_fwhm, window_fwhm, n_base, position_freedom_cm1, spectra[0].where,
+    )  # fmt: skip
+    first: list[WindowFit] = []
+    dropped: list[WindowFit] = []
+    for sel in fit.groups(pos0, w0):
+        first += fit.with_dropping(pos0[sel], w0[sel], min_area_snr, dropped)
+    if not first:  # every band fell below min_area_snr: keep the best one, as a lone start
+        first = [max(dropped, key=lambda w: float(w.area_snr()[0]))]
+    final = first
+    if len(first) > 1:  # refit each window with the other windows' tails in place
+        final = [
+            fit.window(w.starts_cm1, w.start_fwhm_cm1, fit.tails(first, k), init=w)
+            for k, w in enumerate(first)
+        ]
+    for message in (msg for w in final for msg in w.problems):
         warnings.warn(message, AccuracyWarning, stacklevel=2)
-    return result
+    return _assemble(spectra, final, shape, noise)
 
 
-def _fit_once(
-    spectra: Sequence[MeasuredSpectrum],
-    pos0: np.ndarray,
-    w0: np.ndarray,
-    shape: str,
-    share_fwhm: bool,
-    window_fwhm: float,
-    n_base: int,
-    position_freedom_cm1: float | None,
-) -> tuple[JointResult, list[str]]:
-    x = spectra[0].shift_cm1
-    n_b, n_c = pos0.size, len(spectra)
-    windows = _windows(x, pos0, w0, window_fwhm)
-    cluster = np.full(x.size, -1)
-    for k, (lo, hi) in enumerate(windows):
-        cluster[(x >= lo) & (x <= hi)] = k
-    sel = cluster >= 0
-    xs, ks = x[sel], cluster[sel]
-    noise = []
-    for s in spectra:
-        sig = noise_sigma(s.intensity)
-        noise.append(sig if sig > 0 else 1e-9 * max(float(np.max(np.abs(s.intensity))), 1e-300))
-    # Fit in units of the largest intensity: the residuals do not change, but areas and
-    # baselines become numbers of order one beside positions in cm-1, which the optimizer's
-    # tolerances need (counts or cross sections of 1e-30 cm^2/sr fit alike).
-    unit = max(float(np.max(np.abs(spectra[0].intensity[sel]))), 1e-300)
-    ys = [s.intensity[sel] / unit for s in spectra]
-    sigmas = [sig / unit for sig in noise]
-    centres = np.array([0.5 * (lo + hi) for lo, hi in windows])
+class _Fitter:
+    """The fixed settings of one :func:`fit_joint` call, fitting window by window."""
 
-    # Parameter layout.
-    n_w = 1 if share_fwhm else n_c
-    per_band = 1 + n_w + (1 if shape == "pseudo_voigt" else 0) + n_c
-    i_pos = np.arange(n_b) * per_band
-    i_w = i_pos[:, None] + 1 + (np.zeros((1, n_c), int) if share_fwhm else np.arange(n_c)[None, :])
-    i_eta = i_pos + 1 + n_w
-    i_area = i_pos[:, None] + 1 + n_w + (shape == "pseudo_voigt") + np.arange(n_c)[None, :]
-    base0 = n_b * per_band
-    i_base = base0 + np.arange(len(windows) * n_c * n_base).reshape(len(windows), n_c, n_base)
-    n_p = base0 + i_base.size
-    m = xs.size * n_c
-    if m <= n_p:
-        raise VibrapolError(f"{spectra[0].where}: {m} points cannot fix {n_p} parameters")
+    def __init__(
+        self,
+        x: np.ndarray,
+        ys: list[np.ndarray],
+        noise: list[float],
+        tau: float,
+        shape: str,
+        share_fwhm: bool,
+        window_fwhm: float,
+        n_base: int,
+        freedom: float | None,
+        where: str,
+    ) -> None:
+        self.x, self.ys, self.noise, self.tau = x, ys, noise, tau
+        self.shape, self.share_fwhm, self.window_fwhm = shape, share_fwhm, window_fwhm
+        self.n_base, self.freedom, self.where = n_base, freedom, where
 
-    local = np.interp(pos0, x[1:], np.diff(x))
-    p0, lo_b, hi_b = np.zeros(n_p), np.full(n_p, -np.inf), np.full(n_p, np.inf)
-    for j in range(n_b):
-        d = position_freedom_cm1 or max(w0[j], 2 * local[j])
-        p0[i_pos[j]], lo_b[i_pos[j]], hi_b[i_pos[j]] = pos0[j], pos0[j] - d, pos0[j] + d
-        wlo, whi = 0.5 * local[j], max(10 * w0[j], 20 * local[j])
-        p0[i_w[j]], lo_b[i_w[j]], hi_b[i_w[j]] = np.clip(w0[j], wlo, whi), wlo, whi
-        if shape == "pseudo_voigt":
-            p0[i_eta[j]], lo_b[i_eta[j]], hi_b[i_eta[j]] = 0.5, 0.0, 1.0
-    for k in range(len(windows)):
-        for c in range(n_c):
-            inside = ys[c][ks == k]
-            if n_base:
-                p0[i_base[k, c, 0]] = np.percentile(inside, 10)
-    for j in range(n_b):
-        k = cluster[np.argmin(np.abs(x - pos0[j]))]
-        for c in range(n_c):
-            h = np.interp(pos0[j], xs, ys[c]) - (p0[i_base[k, c, 0]] if n_base else 0.0)
-            h = max(h, sigmas[c]) if c == 0 else h
-            p0[i_area[j, c]] = h * w0[j] / height_factor(shape)
-        lo_b[i_area[j, 0]] = 0.0
-    p0 = np.clip(p0, lo_b, hi_b)
+    def groups(self, pos0: np.ndarray, w0: np.ndarray) -> list[np.ndarray]:
+        """Indices of the bands of each connected window, in window order."""
+        windows = _windows(self.x, pos0, w0, self.window_fwhm)
+        out = []
+        for lo, hi in windows:
+            inside = np.flatnonzero(
+                (pos0 - self.window_fwhm * w0 <= hi) & (pos0 + self.window_fwhm * w0 >= lo)
+            )
+            if inside.size:
+                out.append(inside)
+        return out
 
-    def parts(p: np.ndarray, want_jac: bool) -> tuple[np.ndarray, np.ndarray | None]:
-        r = np.empty(m)
-        jac = np.zeros((m, n_p)) if want_jac else None
-        for c in range(n_c):
-            rows = slice(c * xs.size, (c + 1) * xs.size)
-            model = np.zeros(xs.size)
-            for j in range(n_b):
-                eta = p[i_eta[j]] if shape == "pseudo_voigt" else 0.5
-                area = p[i_area[j, c]]
-                prof, d_x0, d_w, d_eta = profile_derivatives(
-                    shape, xs, p[i_pos[j]], p[i_w[j, c]], eta
-                )
-                model += area * prof
-                if jac is not None:
-                    jac[rows, i_area[j, c]] = prof / sigmas[c]
-                    jac[rows, i_pos[j]] = area * d_x0 / sigmas[c]
-                    jac[rows, i_w[j, c]] = area * d_w / sigmas[c]
-                    if shape == "pseudo_voigt":
-                        jac[rows, i_eta[j]] = area * d_eta / sigmas[c]
-            for k in range(len(windows)):
-                on = ks == k
-                if n_base >= 1:
-                    model[on] += p[i_base[k, c, 0]]
-                    if jac is not None:
-                        jac[rows.start + np.flatnonzero(on), i_base[k, c, 0]] = 1 / sigmas[c]
-                if n_base == 2:
-                    dx = xs[on] - centres[k]
-                    model[on] += p[i_base[k, c, 1]] * dx
-                    if jac is not None:
-                        jac[rows.start + np.flatnonzero(on), i_base[k, c, 1]] = dx / sigmas[c]
-            r[rows] = (model - ys[c]) / sigmas[c]
-        return r, jac
+    def span(self, pos0: np.ndarray, w0: np.ndarray) -> slice:
+        """Points of the (single, connected) window of these bands."""
+        lo = max(float(np.min(pos0 - self.window_fwhm * w0)), float(self.x[0]))
+        hi = min(float(np.max(pos0 + self.window_fwhm * w0)), float(self.x[-1]))
+        return slice(
+            int(np.searchsorted(self.x, lo, "left")), int(np.searchsorted(self.x, hi, "right"))
+        )
 
-    res = least_squares(
-        lambda p: parts(p, False)[0],
-        p0,
-        jac=lambda p: parts(p, True)[1],
-        bounds=(lo_b, hi_b),
-        method="trf",
-        x_scale="jac",
-        max_nfev=100 * n_p,
+    def window(
+        self,
+        pos0: np.ndarray,
+        w0: np.ndarray,
+        tails: list[np.ndarray] | None = None,
+        init: WindowFit | None = None,
+    ) -> WindowFit:
+        """Fit one connected window of bands (minus fixed tails of other bands)."""
+        sel = self.span(pos0, w0)
+        ys = [y[sel] for y in self.ys]
+        if tails is not None:
+            ys = [y - t for y, t in zip(ys, tails, strict=True)]
+        return fit_window(
+            self.x[sel], ys, self.noise, pos0, w0, shape=self.shape, share_fwhm=self.share_fwhm,
+            n_base=self.n_base, position_freedom_cm1=self.freedom, tau=self.tau, where=self.where,
+            init=init,
+        )  # fmt: skip
+
+    def with_dropping(
+        self,
+        pos0: np.ndarray,
+        w0: np.ndarray,
+        min_snr: float | None,
+        dropped: list[WindowFit],
+    ) -> list[WindowFit]:
+        """Fit a window; drop its weakest band below ``min_snr`` and refit (it may split).
+
+        A window's last band is dropped too (its fit goes to ``dropped``).
+        """
+        fit = self.window(pos0, w0)
+        if min_snr is None:
+            return [fit]
+        snr = fit.area_snr()
+        if snr.min() >= min_snr:
+            return [fit]
+        if pos0.size == 1:
+            dropped.append(fit)
+            return []
+        keep = np.delete(np.arange(pos0.size), int(np.argmin(snr)))
+        pos0, w0 = pos0[keep], w0[keep]
+        out = []
+        for sel in self.groups(pos0, w0):
+            out += self.with_dropping(pos0[sel], w0[sel], min_snr, dropped)
+        return out
+
+    def tails(self, fits: list[WindowFit], k: int) -> list[np.ndarray]:
+        """Sum of the bands of every window but k on the points of window k, per channel."""
+        own = fits[k]
+        x = self.x[self.span(own.starts_cm1, own.start_fwhm_cm1)]
+        out = [np.zeros(x.size) for _ in self.ys]
+        for i, w in enumerate(fits):
+            if i == k:
+                continue
+            for j in range(w.starts_cm1.size):
+                eta = w.value("eta", j) if self.shape == "pseudo_voigt" else 0.5
+                for c in range(len(self.ys)):
+                    out[c] += w.value("area", j, c) * profile(
+                        self.shape, x, w.value("pos", j), w.value("w", j, c), eta
+                    )
+        return out
+
+
+def _assemble(
+    spectra: Sequence[MeasuredSpectrum], fits: list[WindowFit], shape: str, noise: list[float]
+) -> JointResult:
+    """One BandFit per channel from the window fits, with the s² of the whole fit."""
+    rows = sum(w.n_rows for w in fits)
+    n_p = sum(w.n_params for w in fits)
+    s2 = sum(w.chi2 for w in fits) / (rows - n_p)
+    success = all(w.success for w in fits)
+    message = next((w.message for w in fits if not w.success), fits[0].message)
+    n_points = sum(w.n_points for w in fits)
+    windows = tuple(w.window_cm1 for w in fits)
+    order = sorted(
+        ((w.value("pos", j), k, j) for k, w in enumerate(fits) for j in range(w.starts_cm1.size))
     )
-    p = res.x
-    r, jac = parts(p, True)
-    chi2 = float(r @ r) / (m - n_p)
-    _, sv, vt = np.linalg.svd(jac, full_matrices=False)
-    keep = sv > np.finfo(float).eps * max(jac.shape) * sv[0]
-    cov = (vt[keep].T / sv[keep] ** 2) @ vt[keep] * chi2
-    scale = np.ones(n_p)  # back to the spectra's intensity units
-    scale[i_area.ravel()] = unit
-    scale[i_base.ravel()] = unit
-    p, cov = p * scale, cov * np.outer(scale, scale)
-    err = np.sqrt(np.clip(np.diag(cov), 0.0, None))
-    where = spectra[0].where
-    problems = []
-    if not res.success:
-        problems.append(f"{where}: band fit did not converge ({res.message})")
-    for j in range(n_b):
-        for name, idx in (("position", i_pos[j]), ("width", i_w[j, 0])):
-            if res.active_mask[idx] != 0:
-                problems.append(
-                    f"{where}: band starting at {pos0[j]:.1f} cm-1 ended at a bound of its {name}; "
-                    "check the starting positions and widths"
-                )
-    fits = []
+    result = []
     for c, s in enumerate(spectra):
         bands = []
-        for j in range(n_b):
-            w = p[i_w[j, c]]
-            eta = p[i_eta[j]] if shape == "pseudo_voigt" else np.nan
-            eta_err = err[i_eta[j]] if shape == "pseudo_voigt" else np.nan
-            area = p[i_area[j, c]]
-            factor = height_factor(shape, 0.5 if np.isnan(eta) else eta)
+        for _, k, j in order:
+            w = fits[k]
+            width, area = w.value("w", j, c), w.value("area", j, c)
+            pv = shape == "pseudo_voigt"
+            eta = w.value("eta", j) if pv else np.nan
             bands.append(
                 Band(
-                    float(p[i_pos[j]]),
-                    float(err[i_pos[j]]),
-                    float(w),
-                    float(err[i_w[j, c]]),
-                    float(area),
-                    float(err[i_area[j, c]]),
-                    float(eta),
-                    float(eta_err),
-                    float(area * factor / w),
+                    w.value("pos", j), w.error("pos", j, 0, s2),
+                    width, w.error("w", j, c, s2),
+                    area, w.error("area", j, c, s2),
+                    eta, w.error("eta", j, 0, s2) if pv else np.nan,
+                    area * height_factor(shape, 0.5 if np.isnan(eta) else eta) / width,
                 )
-            )
-        fits.append(
-            BandFit(
-                s.label,
-                shape,
-                tuple(bands),
-                tuple(windows),
-                int(xs.size),
-                chi2,
-                noise[c],
-                bool(res.success),
-                str(res.message),
-            )
+            )  # fmt: skip
+        result.append(
+            BandFit(s.label, shape, tuple(bands), windows, n_points, s2, noise[c], success, message)
         )
-    area_cov = np.array(
-        [
-            [[cov[i_area[j, a], i_area[j, b]] for b in range(n_c)] for a in range(n_c)]
-            for j in range(n_b)
-        ]
-    )
+    n_c = len(spectra)
+    area_cov = np.empty((len(order), n_c, n_c))
+    for b, (_, k, j) in enumerate(order):
+        w = fits[k]
+        idx = [w._at("area", j, c) for c in range(n_c)]
+        area_cov[b] = w.covariance[np.ix_(idx, idx)] * s2
     area_cov.setflags(write=False)
-    return JointResult(tuple(fits), area_cov), problems
+    return JointResult(tuple(result), area_cov)
 
 
 def fit_bands(spectrum: MeasuredSpectrum, starts: Starts = None, **options: object) -> BandFit:

@@ -13,7 +13,7 @@ import numpy as np
 from scipy.signal import find_peaks, savgol_filter
 
 from vibrapol.errors import VibrapolError
-from vibrapol.measured.cleaning import noise_sigma
+from vibrapol.measured.density import noise_sigma
 from vibrapol.measured.spectrum import MeasuredSpectrum, check_range
 
 #: Default prominence a band needs, in noise standard deviations.  Five keeps noise maxima out
@@ -23,6 +23,11 @@ MIN_SNR = 5.0
 #: Default narrowest band, in points of the local spacing: single-point maxima are noise or
 #: left-over spikes.
 MIN_FWHM_POINTS = 2.0
+#: Default narrowest band in cm⁻¹ whatever the point spacing: bands of liquids and solutions
+#: are several cm⁻¹ wide and dispersive Raman spectrometers resolve about 0.5–2 cm⁻¹ (common
+#: practice, from memory), so a narrower maximum on a densely sampled axis is a noise
+#: excursion.  Pass ``min_fwhm_cm1`` for gas-phase or other narrow lines.
+MIN_FWHM_CM1 = 0.5
 
 
 @dataclass(frozen=True)
@@ -126,7 +131,8 @@ def find_bands(
     min_snr : float
         Smallest height and prominence in noise standard deviations (:data:`MIN_SNR`).
     min_fwhm_cm1 : float, optional
-        Narrowest band; default :data:`MIN_FWHM_POINTS` × the local spacing.
+        Narrowest band; default :data:`MIN_FWHM_POINTS` × the local spacing, and at least
+        :data:`MIN_FWHM_CM1`.
     max_fwhm_cm1 : float, optional
         Widest band (e.g. to skip broad fluorescence humps); default none.
     min_separation_cm1 : float
@@ -134,7 +140,9 @@ def find_bands(
     range_cm1 : (low, high), optional
         Only bands inside this range.
     noise : float, optional
-        Noise standard deviation; default :func:`vibrapol.measured.cleaning.noise_sigma`.
+        Noise standard deviation of one point; default
+        :func:`vibrapol.measured.density.noise_sigma` (which allows for noise correlated
+        between neighbouring points, as in spectra interpolated onto a finer grid).
     shoulders : bool
         Also report shoulders (their ``prominence`` is NaN).
 
@@ -152,7 +160,7 @@ def find_bands(
         raise VibrapolError(f"min_snr (--min-snr) must be a positive number, got {min_snr}")
     x, y = spectrum.shift_cm1, spectrum.intensity
     lo, hi = check_range(*range_cm1, "band range") if range_cm1 else (-np.inf, np.inf)
-    sigma = noise_sigma(y) if noise is None else float(noise)
+    sigma = noise_sigma(y, spectrum.spacing_cm1) if noise is None else float(noise)
     if sigma <= 0:
         sigma = 1e-12 * max(float(np.max(np.abs(y))), 1e-300)
     idx, props = find_peaks(
@@ -165,7 +173,8 @@ def find_bands(
     for k, i in enumerate(idx):
         local = 0.5 * (x[min(i + 1, x.size - 1)] - x[max(i - 1, 0)])
         fwhm = float(right[k] - left[k])
-        if fwhm < (min_fwhm_cm1 if min_fwhm_cm1 is not None else MIN_FWHM_POINTS * local):
+        narrowest = max(MIN_FWHM_POINTS * local, MIN_FWHM_CM1)
+        if fwhm < (min_fwhm_cm1 if min_fwhm_cm1 is not None else narrowest):
             continue
         if max_fwhm_cm1 is not None and fwhm > max_fwhm_cm1:
             continue

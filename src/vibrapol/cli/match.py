@@ -18,6 +18,7 @@ import argparse
 import dataclasses
 import math
 import sys
+from typing import Any
 
 import numpy as np
 
@@ -144,7 +145,7 @@ def measure(args: argparse.Namespace):  # noqa: ANN201
     """Read, crop, clean and fit the measured pair: (cleaned pair, MeasuredBands)."""
     from vibrapol import measured
 
-    options: dict[str, object] = {"axis": args.axis}
+    options: dict[str, Any] = {"axis": args.axis}
     if args.laser_nm is not None:
         options["laser_nm"] = args.laser_nm
     if args.vh is not None:

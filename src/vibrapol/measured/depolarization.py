@@ -137,7 +137,7 @@ class PolarizationCorrection:
                 f"version {CORRECTION_VERSION})"
             )
         try:
-            ref = tuple(tuple(float(v) for v in row) for row in data["reference"])  # type: ignore[union-attr]
+            ref = tuple(tuple(float(v) for v in row) for row in data["reference"])
             factor = float(data["factor"])  # type: ignore[arg-type]
             out = cls(
                 factor=factor,

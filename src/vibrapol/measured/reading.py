@@ -15,7 +15,7 @@ from __future__ import annotations
 import dataclasses
 import re
 from pathlib import Path
-from typing import TextIO
+from typing import Any, TextIO
 
 import numpy as np
 
@@ -48,7 +48,7 @@ _VH_NAMES = re.compile(r"\bvh\b|\bhv\b|perpendicular|crossed|\bperp\b|\bzx\b|⊥
 
 def _text(source: Source) -> tuple[str, str]:
     if hasattr(source, "read"):
-        text = source.read()  # type: ignore[union-attr]
+        text = source.read()
         where = str(getattr(source, "name", "<text stream>"))
         if not text.strip():
             raise InputFormatError(f"{where}: file is empty")
@@ -184,7 +184,7 @@ def _select(
 
 
 def read_spectrum(
-    source: Source, *, column: int | str | None = None, **options: object
+    source: Source, *, column: int | str | None = None, **options: Any
 ) -> MeasuredSpectrum:
     """Read one spectrum from a file.
 
@@ -202,7 +202,7 @@ def read_spectrum(
     VibrapolError
         When the file holds several spectra and ``column`` is not given, or names none.
     """
-    spectra = read_spectra(source, **options)  # type: ignore[arg-type]
+    spectra = read_spectra(source, **options)
     where = spectra[0].where
     if column is None:
         if len(spectra) > 1:
@@ -233,7 +233,7 @@ def read_pair(
     *,
     vv_column: int | str | None = None,
     vh_column: int | str | None = None,
-    **options: object,
+    **options: Any,
 ) -> PolarizedPair:
     """Read a parallel (VV) and crossed (VH) spectrum.
 
@@ -261,7 +261,7 @@ def read_pair(
     InputFormatError
         What :func:`read_spectra` raises, and a channel whose intensities are all the same.
     """
-    spectra = read_spectra(vv_source, **options)  # type: ignore[arg-type]
+    spectra = read_spectra(vv_source, **options)
     where = spectra[0].where
     if vh_source is not None:
         if vv_column is not None:

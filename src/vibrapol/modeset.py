@@ -96,7 +96,7 @@ class Provenance:
 
 def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:
     try:
-        arr = np.array(value, dtype=dtype, copy=True)
+        arr: np.ndarray = np.array(value, dtype=dtype, copy=True)
     except OverflowError:
         raise ShapeError(f"{name} holds a number too large for an array") from None
     if arr.ndim != len(shape) or any(
@@ -325,7 +325,7 @@ class ModeSet:
     def subset(self, indices: np.ndarray | list[int]) -> ModeSet:
         """A new ModeSet with only the given modes (in the given order)."""
         idx = np.asarray(indices, dtype=int)
-        pick = {}
+        pick: dict[str, Any] = {}
         for name in ("dalpha_dq", "a2", "gamma2", "activity", "ir_intensity_km_mol"):
             value = getattr(self, name)
             pick[name] = None if value is None else value[idx]

@@ -309,6 +309,8 @@ def clean(
         steps.append(
             f"removed {idx.size} spike point(s)" + (f" at {where} cm-1" if idx.size else "")
         )
+    base: np.ndarray | None
+    used: dict[str, object]
     base, used = None, {}
     if baseline is not None:
         base, used = estimate_baseline(x, y, baseline, baseline_options)

@@ -121,10 +121,11 @@ def _xyz_frames(text: str, first_only: bool = False) -> list[tuple[list[int], li
         count = lines[i].strip()
         if not count.isdigit() or int(count) == 0 or i + 1 + int(count) >= len(lines):
             return []
-        atoms = [_xyz_atom(line) for line in lines[i + 2 : i + 2 + int(count)]]
-        if any(a is None for a in atoms):
+        parsed = [_xyz_atom(line) for line in lines[i + 2 : i + 2 + int(count)]]
+        atoms = [a for a in parsed if a is not None]
+        if len(atoms) != len(parsed):
             return []
-        frames.append(([a[0] for a in atoms], [a[1] for a in atoms]))  # type: ignore[index]
+        frames.append(([a[0] for a in atoms], [a[1] for a in atoms]))
         if first_only:
             break
         i += 2 + int(count)

@@ -145,15 +145,16 @@ def read_spectra(
         A missing, wrong or implausible laser line for the axis; an unknown axis kind.
     """
     text, where = _text(source)
-    common = dict(where=where, axis=axis, laser_nm=laser_nm, max_shift_cm1=max_shift_cm1)
+    common: dict[str, Any] = dict(
+        where=where, axis=axis, laser_nm=laser_nm, max_shift_cm1=max_shift_cm1
+    )
     fmt = file_format
     if fmt == "auto":
         fmt = "jcamp" if looks_like_jcamp(text) else "delimited"
     if fmt == "jcamp":
         blocks = read_jcamp(text, where)
         return tuple(
-            _spectrum(b.x, b.y, b.lines, units=b.x_units, label=b.title, **common)  # type: ignore[arg-type]
-            for b in blocks
+            _spectrum(b.x, b.y, b.lines, units=b.x_units, label=b.title, **common) for b in blocks
         )
     if fmt != "delimited":
         raise VibrapolError(f"{where}: file_format {file_format!r} is not auto, jcamp or delimited")
@@ -161,7 +162,7 @@ def read_spectra(
     x = table.values[:, 0]
     x_units = table.names[0] if not table.names[0].startswith("column ") else ""
     return tuple(
-        _spectrum(x, table.values[:, c], table.lines, units=x_units, label=table.names[c], **common)  # type: ignore[arg-type]
+        _spectrum(x, table.values[:, c], table.lines, units=x_units, label=table.names[c], **common)
         for c in range(1, table.values.shape[1])
     )
 

@@ -115,6 +115,10 @@ def test_dvb_rho_figure_labels_clear_of_markers_and_each_other(dvb_sticks):
     assert_clean(fig, ax, labels, markers + fixed)
     # The figure says what ρ and the marker size are.
     assert "linearly polarized" in ax.get_title(loc="left")
+    assert fig.legends  # outside the axes, so the markers near 3/4 stay visible
+    page = box_of(fig.bbox)
+    for legend in fig.legends:
+        assert box_of(legend.get_window_extent(renderer)).inside(page, -SLACK)
     assert "marker area" in ax.get_title(loc="left")
 
 

@@ -278,6 +278,25 @@ def test_forbidden_noise_is_shown_as_zero(name):
     assert "with activity 0" in table_text(table)
 
 
+def test_symmetry_zero_a2_and_ir_noise_shown_as_zero_in_text_only():
+    # Gaussian 16 dvb (C2h): mode 2 is Bg, not totally symmetric (a = 0 by symmetry, fact of the
+    # trade) and IR-forbidden (g species, mutual exclusion).  The derivatives give a2 ~ 1e-29 and
+    # an IR intensity ~ 2e-28 km/mol: numerical noise, shown as 0 in the text table with a
+    # note; CSV keeps what was computed from the file.
+    from vibrapol.report import table_rows
+
+    _, table = symmetry_table(read_modes(qc_output(G16)))
+    assert table.irreps[1] == "Bg"
+    assert 0 < table.a2[1] < 1e-20 and 0 < table.ir_intensity_km_mol[1] < 1e-20
+    shown = table_rows(table, show_zero=True)[1]
+    assert shown["a2"] == 0.0 and shown["ir_intensity_km_mol"] == 0.0
+    row = csv_records(table_csv(table))[1]
+    assert float(row["a2"]) == pytest.approx(table.a2[1], rel=1e-9)
+    assert "are shown as 0 in this table" in table_text(table)
+    # a totally symmetric band keeps its a2 (mode 5, Ag)
+    assert table_rows(table, show_zero=True)[4]["a2"] == pytest.approx(table.a2[4])
+
+
 # -- issue 13 point 7: one polarization rule --------------------------------------------------
 def test_three_outcomes_at_rho_072():
     # ρ = 0.72 lies within the 0.05 margin of 3/4 (typical measurement uncertainty, common

@@ -8,6 +8,7 @@ Every source (quantum-chemistry output, the embedded engine, vibrapol's own JSON
 from __future__ import annotations
 
 import dataclasses
+import weakref
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -30,6 +31,25 @@ MAX_FREQUENCY_CM1 = 1.0e5
 #: it; larger numbers are a damaged file, and their squares overflow in later steps.
 MAX_ABS_VALUE = 1.0e30
 
+#: Largest difference between a ``dalpha_dq`` given together with ``dalpha_dx`` and the one
+#: derived from ``dalpha_dx``, relative to the largest |∂α/∂Q|: above it the two disagree.
+DERIVED_DQ_RTOL = 1e-6
+
+
+class _Derivation:
+    """A ∂α/∂Q a ModeSet derived, with the very arrays (modes, masses) it was derived from."""
+
+    __slots__ = ("dalpha_dq", "masses_da", "modes", "__weakref__")
+
+    def __init__(self, dalpha_dq: np.ndarray, modes: np.ndarray, masses_da: Any) -> None:
+        self.dalpha_dq, self.modes, self.masses_da = dalpha_dq, modes, masses_da
+
+
+# Derivations alive (each ModeSet holds its own), by id of the ∂α/∂Q array.
+# ``dataclasses.replace`` hands a derived ∂α/∂Q back to the constructor as if given; recognising
+# it lets the new ModeSet derive it again from its own inputs instead of keeping a stale copy.
+_DERIVED_DQ: weakref.WeakValueDictionary[int, _Derivation] = weakref.WeakValueDictionary()
+
 
 def default_masses(atomic_numbers: np.ndarray) -> np.ndarray:
     """Mass of the most abundant isotope of each element, in Da."""
@@ -46,6 +66,13 @@ def default_masses(atomic_numbers: np.ndarray) -> np.ndarray:
             f"no default isotope mass for {', '.join(bad)}; give the masses explicitly"
         )
     return np.array(masses, dtype=float)
+
+
+def _are_default_masses(atomic_numbers: np.ndarray, masses_da: np.ndarray) -> bool:
+    try:
+        return bool(np.array_equal(default_masses(atomic_numbers), masses_da))
+    except ShapeError:  # no default mass for some element
+        return False
 
 
 @dataclass(frozen=True)
@@ -138,8 +165,10 @@ class ModeSet:
     dalpha_dx : array, shape (3N, 3, 3), optional
         Cartesian polarizability derivatives ∂α/∂x in Å².
     dalpha_dq : array, shape (n_modes, 3, 3), optional
-        Normal-coordinate derivatives ∂α/∂Q in Å² Da⁻¹ᐟ².  Derived from ``dalpha_dx`` when
-        only that is given.
+        Normal-coordinate derivatives ∂α/∂Q in Å² Da⁻¹ᐟ², for sources that give no
+        ``dalpha_dx``.  With ``dalpha_dx`` it is always derived from ``dalpha_dx``, ``modes``
+        and ``masses_da`` (:func:`vibrapol.vibrations.project_dalpha`); one given as well must
+        agree with that to :data:`DERIVED_DQ_RTOL` (it is then replaced by the derived one).
     a2, gamma2 : array, shape (n_modes,), optional
         Invariants a² and γ² of ∂α/∂Q in Å⁴ Da⁻¹, for sources that print only the activity and
         the depolarization ratio (no tensors).
@@ -163,7 +192,12 @@ class ModeSet:
     Notes
     -----
     A ``ModeSet`` is never mutated: arrays are private read-only copies and every "change" is a
-    new object (``dataclasses.replace``).
+    new object.  ``dataclasses.replace`` derives again what follows from the fields replaced
+    (``dalpha_dq`` from ``dalpha_dx``, ``modes`` and ``masses_da``); it corrects an input.  To
+    put other isotopes on the same molecule (new frequencies and modes from the same force
+    field) use :meth:`with_masses`; to keep some modes, :meth:`subset`.  When the masses were
+    defaulted (``provenance.masses`` is :data:`DEFAULT_MASSES_NOTE`), replacing them by other
+    masses is refused: the note would no longer be true.
     """
 
     atomic_numbers: np.ndarray
@@ -184,6 +218,7 @@ class ModeSet:
 
     def __post_init__(self) -> None:
         set_ = object.__setattr__
+        given_modes, given_masses = self.modes, self.masses_da
         z = _array(self.atomic_numbers, "atomic_numbers", (None,), dtype=int)
         n_atoms = z.shape[0]
         if n_atoms == 0:
@@ -207,6 +242,12 @@ class ModeSet:
             masses = _array(self.masses_da, "masses_da", (n_atoms,))
             if np.any(masses <= 0):
                 raise ShapeError("masses_da must all be positive")
+            if provenance.masses == DEFAULT_MASSES_NOTE and not _are_default_masses(z, masses):
+                raise ShapeError(
+                    "masses_da differ from the default isotope masses that provenance.masses "
+                    "names; change masses with ModeSet.with_masses, or say where they come from "
+                    "in provenance.masses"
+                )
             set_(self, "masses_da", masses)
         set_(self, "provenance", provenance)
         if self.energy_hartree is not None:
@@ -220,13 +261,7 @@ class ModeSet:
                 raise ShapeError(f"energy_hartree must be a finite number, got {energy}")
             set_(self, "energy_hartree", energy)
         set_(self, "dalpha_dx", _optional(self.dalpha_dx, "dalpha_dx", (3 * n_atoms, 3, 3)))
-        dq = _optional(self.dalpha_dq, "dalpha_dq", (n_modes, 3, 3))
-        if dq is None and self.dalpha_dx is not None:
-            from vibrapol.vibrations import project_dalpha
-
-            dq = project_dalpha(self.dalpha_dx, self.modes, self.masses_da)
-            dq.setflags(write=False)
-        set_(self, "dalpha_dq", dq)
+        set_(self, "dalpha_dq", self._checked_dalpha_dq(n_modes, given_modes, given_masses))
         set_(self, "a2", _optional(self.a2, "a2", (n_modes,)))
         set_(self, "gamma2", _optional(self.gamma2, "gamma2", (n_modes,)))
         if (self.a2 is None) != (self.gamma2 is None):
@@ -263,6 +298,48 @@ class ModeSet:
                     "convert printed Cartesian displacements with "
                     "vibrations.modes_from_displacements"
                 )
+
+    def _checked_dalpha_dq(
+        self, n_modes: int, given_modes: Any, given_masses: Any
+    ) -> np.ndarray | None:
+        """∂α/∂Q: derived from ``dalpha_dx`` when that is given, else as given."""
+        given = self.dalpha_dq
+        earlier = None if given is None else _DERIVED_DQ.get(id(given))
+        if earlier is not None and earlier.dalpha_dq is not given:
+            earlier = None
+        if self.dalpha_dx is None:
+            if earlier is not None and not (
+                earlier.modes is given_modes and earlier.masses_da is given_masses
+            ):
+                raise ShapeError(
+                    "dalpha_dq was derived from a dalpha_dx, modes and masses_da that are no "
+                    "longer given: pass dalpha_dq=None to drop the tensors"
+                )
+            return _optional(given, "dalpha_dq", (n_modes, 3, 3))
+        from vibrapol.vibrations import project_dalpha
+
+        dq = project_dalpha(self.dalpha_dx, self.modes, self._masses())
+        if given is not None and earlier is None:
+            given = _array(given, "dalpha_dq", (n_modes, 3, 3))
+            diff = float(np.max(np.abs(given - dq), initial=0.0))
+            if diff > DERIVED_DQ_RTOL * max(float(np.max(np.abs(dq), initial=0.0)), 1e-12):
+                raise ShapeError(
+                    f"dalpha_dq does not follow from dalpha_dx, modes and masses_da (largest "
+                    f"difference {diff:.3g} Å² Da⁻¹ᐟ²): give only dalpha_dx "
+                    "(dalpha_dq=None derives it) or only dalpha_dq"
+                )
+        dq.setflags(write=False)
+        record = _Derivation(dq, self.modes, self.masses_da)
+        object.__setattr__(self, "_derivation", record)  # keeps the record alive with self
+        _DERIVED_DQ[id(dq)] = record
+        return dq
+
+    def __setstate__(self, state: dict[str, Any]) -> None:
+        # Copies and unpickled ModeSets (engine workers) know their derived ∂α/∂Q as well.
+        self.__dict__.update(state)
+        record = state.get("_derivation")
+        if record is not None:
+            _DERIVED_DQ[id(record.dalpha_dq)] = record
 
     # -- derived quantities -------------------------------------------------------------
     @property
@@ -316,17 +393,37 @@ class ModeSet:
             f"{where} has no Raman data (no polarizability derivatives or activities)"
         )
 
+    def _masses(self) -> np.ndarray:
+        """``masses_da``, which ``__post_init__`` always fills (the defaults when not given)."""
+        if self.masses_da is None:
+            raise RuntimeError("ModeSet.masses_da is filled when the ModeSet is built")
+        return self.masses_da
+
     def displacements(self) -> np.ndarray:
         """Cartesian displacement of each mode, L/√m, normalised to unit length, shape (n, N, 3)."""
-        d = self.modes / np.repeat(np.sqrt(self.masses_da), 3)[None, :]
+        d = self.modes / np.repeat(np.sqrt(self._masses()), 3)[None, :]
         d /= np.linalg.norm(d, axis=1, keepdims=True)
         return d.reshape(self.n_modes, self.n_atoms, 3)
 
     def subset(self, indices: np.ndarray | list[int]) -> ModeSet:
-        """A new ModeSet with only the given modes (in the given order)."""
+        """A new ModeSet with only the given modes (in the given order).
+
+        Parameters
+        ----------
+        indices : array of int
+            Indices of the modes to keep, in the order wanted.
+
+        Returns
+        -------
+        ModeSet
+            The same molecule with those modes only; ``dalpha_dq`` is derived again when
+            ``dalpha_dx`` is known.
+        """
         idx = np.asarray(indices, dtype=int)
         pick: dict[str, Any] = {}
-        for name in ("dalpha_dq", "a2", "gamma2", "activity", "ir_intensity_km_mol"):
+        if self.dalpha_dx is None and self.dalpha_dq is not None:
+            pick["dalpha_dq"] = self.dalpha_dq[idx]
+        for name in ("a2", "gamma2", "activity", "ir_intensity_km_mol"):
             value = getattr(self, name)
             pick[name] = None if value is None else value[idx]
         if self.program_irreps is not None:
@@ -334,3 +431,54 @@ class ModeSet:
         return dataclasses.replace(
             self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick
         )
+
+    def with_masses(self, masses_da: np.ndarray | list[float]) -> ModeSet:
+        """The same molecule with other atomic masses (isotopes): new frequencies and modes.
+
+        The Cartesian Hessian is rebuilt from the frequencies and modes
+        (:func:`vibrapol.vibrations.hessian_from_modes`) and analysed again with the new masses
+        (:func:`vibrapol.vibrations.harmonic_analysis`); ∂α/∂x, α, the geometry and the energy
+        do not depend on the masses and are kept, ∂α/∂Q is derived again.
+
+        Parameters
+        ----------
+        masses_da : array, shape (N,)
+            New mass of every atom in Da, in the order of :attr:`atomic_numbers`.
+
+        Returns
+        -------
+        ModeSet
+            New frequencies (ascending), modes and ∂α/∂Q; ``provenance.masses`` names the
+            masses changed and a provenance note says how the modes were obtained.  IR
+            intensities and the program's species labels are dropped (they belong to the old
+            modes; the note says so).
+
+        Warns
+        -----
+        ChangedValuesWarning
+            Always: the frequencies and modes are no longer the source's (the text is also the
+            provenance note).
+
+        Raises
+        ------
+        ShapeError
+            When the masses are not N positive numbers.
+        VibrapolError
+            When the set of modes is not complete (3N − 6, 3N − 5 for a linear molecule), or
+            the source gives ∂α/∂Q, a², γ² or activities without ∂α/∂x (those of the new
+            modes cannot be derived from them).
+
+        Notes
+        -----
+        The rebuilt Hessian is as precise as the modes and frequencies given: modes printed
+        with few digits give new frequencies good to about a wavenumber.  As ASE's
+        ``VibrationsData.with_new_masses``, the molecule is assumed to be at a stationary
+        point.
+
+        Examples
+        --------
+        D₂O from H₂O: ``modes.with_masses([15.99491462, 2.01410178, 2.01410178])``.
+        """
+        from vibrapol.isotopes import modes_with_masses
+
+        return modes_with_masses(self, masses_da)

@@ -251,7 +251,7 @@ def depolarization_figure(
     *,
     kind: str = "linear",
     width: str | float = "single",
-    height_in: float = 2.2,
+    height_in: float | None = None,
     min_relative_activity: float = 0.01,
     label_count: int = 8,
     xlim_cm1: tuple[float, float] | None = None,
@@ -288,7 +288,9 @@ def depolarization_figure(
     pad = 0.0 if xlim_cm1 else 0.05 * (hi - lo or 100.0)
     size = 8.0 + 42.0 * strength / strength[keep].max()  # marker area ∝ band strength
     with rc_context(STYLE):
-        fig = new_figure(figure_width(width), height_in)
+        w = figure_width(width)
+        # a single column needs more height: the legend and the caption sit above and below
+        fig = new_figure(w, height_in or (2.4 if w >= 5.0 else 3.2))
         ax = fig.add_subplot()
         ax.axhline(limit, color="#555555", lw=0.7, ls=(0, (3, 2)), zorder=1)
         zone_low = POLARIZED_BELOW if kind == "linear" else rho_natural_from_linear(POLARIZED_BELOW)
@@ -329,7 +331,8 @@ def depolarization_figure(
             ),
             Patch(
                 color="#dddddd",
-                label=f"too close to {limit_text} to tell (ρ_linear ≥ {POLARIZED_BELOW:.2f})",
+                label=f"totally symmetric, too close to {limit_text} to tell "
+                f"($\\rho_\\mathrm{{linear}}$ ≥ {POLARIZED_BELOW:.2f})",
             ),
         ]
         ax.set_xlim(lo - pad, hi + pad)
@@ -344,17 +347,17 @@ def depolarization_figure(
             else r"$\rho_\mathrm{natural}$ = NH/NV"
         )
         add_caption(fig, sticks.conditions)
-        ax.legend(
+        # Outside the axes, above them: the markers near 3/4 stay visible.
+        fig.legend(
             handles=handles,
-            loc="upper left",
-            ncols=2,
-            handletextpad=0.2,
+            loc="outside upper left",
+            ncols=3 if fig.get_figwidth() >= 5.0 else 1,
+            handletextpad=0.3,
             columnspacing=1.0,
-            borderaxespad=0.1,
         )
         light = "linearly polarized" if kind == "linear" else "natural (unpolarized)"
         ax.set_title(
-            f"ρ for {light} excitation, 90° scattering\nmarker area ∝ band strength (VV + VH)",
+            f"ρ for {light} excitation\nmarker area ∝ band strength (VV + VH)",
             loc="left",
             fontsize=LABEL_PT,
             color="#333333",

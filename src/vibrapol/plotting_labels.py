@@ -332,30 +332,52 @@ def place_labels(
         xy_text = (to_data(0.5 * (b.x0 + b.x1)), (b.y0 - frame.y0) / height_px * top)
         peak = float(np.interp(pos, x, envelope))
         made.append(
-            ax.annotate(
+            _annotate(
+                ax,
                 text,
                 (pos, peak + 0.5 * offset / height_px * top),
-                xytext=xy_text,
-                textcoords="data",
-                ha="center",
-                va="bottom",
-                in_layout=False,
-                annotation_clip=False,
-                arrowprops={
-                    "arrowstyle": "-",
-                    "lw": 0.4,
-                    "color": "#888888",
-                    "relpos": _relpos(cand),
-                    "patchA": None,
-                    "shrinkA": 0.0,
-                    "shrinkB": 0.0,
-                }
-                if cand.leader is not None
-                else None,
-                **text_kw,
+                xy_text,
+                "center",
+                cand,
+                text_kw,
             )
         )
     return made
+
+
+def _annotate(
+    ax: Axes,
+    text: str,
+    xy: tuple[float, float],
+    xy_text: tuple[float, float],
+    ha: str,
+    cand: Candidate,
+    text_kw: dict[str, object],
+) -> Annotation:
+    """The label at its chosen place (bottom at ``xy_text``), with its leader line if any."""
+    arrow = None
+    if cand.leader is not None:
+        arrow = {
+            "arrowstyle": "-",
+            "lw": 0.4,
+            "color": "#888888",
+            "relpos": _relpos(cand),
+            "patchA": None,
+            "shrinkA": 0.0,
+            "shrinkB": 0.0,
+        }
+    return ax.annotate(
+        text,
+        xy,
+        xytext=xy_text,
+        textcoords="data",
+        ha=ha,
+        va="bottom",
+        in_layout=False,
+        annotation_clip=False,
+        arrowprops=arrow,
+        **text_kw,  # type: ignore[arg-type]
+    )
 
 
 def _relpos(cand: Candidate) -> tuple[float, float]:
@@ -447,30 +469,7 @@ def place_point_labels(
         xd, yd, _, text = points[k]
         b = cand.box
         tx, ty = inverse.transform((b.x0, b.y0))
-        made.append(
-            ax.annotate(
-                text,
-                (xd, yd),
-                xytext=(tx, ty),
-                textcoords="data",
-                ha="left",
-                va="bottom",
-                in_layout=False,
-                annotation_clip=False,
-                arrowprops={
-                    "arrowstyle": "-",
-                    "lw": 0.4,
-                    "color": "#888888",
-                    "relpos": _relpos(cand),
-                    "patchA": None,
-                    "shrinkA": 0.0,
-                    "shrinkB": 0.0,
-                }
-                if cand.leader is not None
-                else None,
-                **text_kw,
-            )
-        )
+        made.append(_annotate(ax, text, (xd, yd), (tx, ty), "left", cand, text_kw))
     return made
 
 

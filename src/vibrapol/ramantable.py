@@ -5,13 +5,13 @@ from __future__ import annotations
 import dataclasses
 import warnings
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from vibrapol import invariants as inv
 from vibrapol import tablechecks
-from vibrapol.errors import AccuracyWarning
+from vibrapol.errors import AccuracyWarning, ShapeError
 from vibrapol.modeset import ModeSet, Provenance
 from vibrapol.polarization import POLARIZED, polarization_class, symmetry_prediction
 
@@ -68,6 +68,12 @@ class RamanTable:
         stderr) and notes.
     symmetrized : bool
         Whether the modes were averaged over the point group (only on request).
+
+    Notes
+    -----
+    Shapes are checked when the table is made (one value per mode); the arrays are private
+    read-only copies, so neither the caller's later edits nor edits through the table change
+    it.  Use :func:`raman_table` to make one.
     """
 
     freqs_cm1: np.ndarray
@@ -93,6 +99,27 @@ class RamanTable:
     notes: tuple[str, ...] = ()
     symmetrized: bool = False
 
+    def __post_init__(self) -> None:
+        n = _column(self, "freqs_cm1", None, "f").shape[0]
+        for name in ("a2", "gamma2", "activity", "rho_linear", "rho_natural"):
+            _column(self, name, n, "f")
+        _column(self, "polarized", n, "b")
+        _column(self, "degenerate_set", n, "i")
+        for name, kind in (
+            ("ir_active", "b"),
+            ("raman_active", "b"),
+            ("totally_symmetric", "b"),
+            ("shown_zero", "b"),
+            ("ir_intensity_km_mol", "f"),
+            ("purity", "f"),
+        ):
+            if getattr(self, name) is not None:
+                _column(self, name, n, kind)
+        _labels(self, "irreps", (n,))
+        _labels(self, "polarization", (0, n))
+        _labels(self, "warnings", None)
+        _labels(self, "notes", None)
+
     @property
     def n_modes(self) -> int:
         """Number of modes in the table."""
@@ -108,6 +135,39 @@ class RamanTable:
         return [
             tuple(np.flatnonzero(self.degenerate_set == k)) for k in np.unique(self.degenerate_set)
         ]
+
+
+_KINDS = {"f": (float, "numbers"), "b": (bool, "booleans"), "i": (int, "whole numbers")}
+
+
+def _column(table: RamanTable, name: str, n: int | None, kind: str) -> np.ndarray:
+    """Store a private read-only copy of one per-mode column after checking its shape."""
+    dtype, what = _KINDS[kind]
+    raw = np.asarray(getattr(table, name))
+    allowed = {"f": "iuf", "b": "b", "i": "iu"}[kind]
+    if raw.size and raw.dtype.kind not in allowed:
+        raise ShapeError(f"RamanTable.{name} should hold {what}, got {raw.dtype}")
+    arr: np.ndarray = np.array(raw, dtype=dtype, copy=True)
+    want = "(n_modes,)" if n is None else f"({n},), one value per mode"
+    if arr.ndim != 1 or (n is not None and arr.shape[0] != n):
+        raise ShapeError(f"RamanTable.{name} should have shape {want}, got {arr.shape}")
+    arr.setflags(write=False)
+    object.__setattr__(table, name, arr)
+    return arr
+
+
+def _labels(table: RamanTable, name: str, lengths: tuple[int, ...] | None) -> None:
+    """Store a tuple of strings after checking how many there are."""
+    value: Any = getattr(table, name)
+    if not isinstance(value, (tuple, list)) or not all(isinstance(x, str) for x in value):
+        raise ShapeError(f"RamanTable.{name} should be a tuple of strings, got {value!r}")
+    labels = tuple(value)
+    if lengths is not None and len(labels) not in lengths:
+        want = " or ".join(str(k) for k in lengths)
+        raise ShapeError(
+            f"RamanTable.{name} should hold {want} labels (one per mode), got {len(labels)}"
+        )
+    object.__setattr__(table, name, labels)
 
 
 def raman_table(
@@ -204,7 +264,7 @@ def raman_table(
     if np.isfinite(a2).any() or symmetry is None:
         polarization = polarization_class(rho_l, ts)
     else:
-        polarization = symmetry_prediction(ts, extra["raman_active"])
+        polarization = symmetry_prediction(symmetry.totally_symmetric, symmetry.raman_active)
     irreps = tuple(irreps) if irreps is not None else ("",) * modes.n_modes
     shown_zero, zero_notes = tablechecks.forbidden_noise(
         s, extra.get("raman_active"), irreps, point_group

@@ -18,6 +18,7 @@ import numpy as np
 from vibrapol.polarization import MARKS, RULE_TEXT
 from vibrapol.ramantable import RamanTable
 from vibrapol.scaling import FrequencyScale
+from vibrapol.tablechecks import FORBIDDEN_NOISE_FRACTION
 from vibrapol.units import CODATA_VERSION
 
 #: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –,
@@ -103,6 +104,7 @@ def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[TableRow]:
     the numbers as read and the header note names the modes.
     """
     rows = []
+    noise_a2, noise_ir = _noise_sets(table) if show_zero else (set(), set())
     for i in range(table.n_modes):
         known = math.isfinite(float(table.a2[i]))
         zero = show_zero and table.shown_zero is not None and bool(table.shown_zero[i])
@@ -128,8 +130,34 @@ def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[TableRow]:
                 {"rho_linear": None, "rho_natural": None, "polarization": "", "activity": 0.0}
             )
             row.update({"a2": 0.0 if known else None, "gamma2": 0.0 if known else None})
+        if show_zero and i in noise_a2:
+            row["a2"] = 0.0
+        if show_zero and i in noise_ir:
+            row["ir_intensity_km_mol"] = 0.0
         rows.append(row)
     return rows
+
+
+def _symmetry_noise(values: np.ndarray | None, forbidden: np.ndarray | None) -> set[int]:
+    """Modes where symmetry makes ``values`` zero and the value read is numerical noise.
+
+    Noise: at most :data:`~vibrapol.tablechecks.FORBIDDEN_NOISE_FRACTION` of the largest
+    |value| of the table, the same level as for forbidden Raman activities.
+    """
+    if values is None or forbidden is None or values.size == 0:
+        return set()
+    v = np.abs(np.asarray(values, dtype=float))
+    if not np.all(np.isfinite(v)) or float(v.max()) <= 0.0:
+        return set()
+    noise = np.asarray(forbidden, dtype=bool) & (v <= FORBIDDEN_NOISE_FRACTION * float(v.max()))
+    return {int(k) for k in np.flatnonzero(noise & (v != 0.0))}
+
+
+def _noise_sets(table: RamanTable) -> tuple[set[int], set[int]]:
+    """(a² noise of non-totally-symmetric modes, IR noise of IR-forbidden modes)."""
+    not_ts = None if table.totally_symmetric is None else ~table.totally_symmetric
+    not_ir = None if table.ir_active is None else ~table.ir_active
+    return _symmetry_noise(table.a2, not_ts), _symmetry_noise(table.ir_intensity_km_mol, not_ir)
 
 
 def _num(value: object, fmt: str) -> str:
@@ -241,8 +269,20 @@ def table_json(table: RamanTable) -> str:
 
 def table_text(table: RamanTable) -> str:
     """A readable fixed-width table with a header naming source, method and point group."""
+    noise_a2, noise_ir = _noise_sets(table)
+    shown = (
+        [
+            f"note: a2 of {len(noise_a2)} non-totally-symmetric modes and the IR intensity of "
+            f"{len(noise_ir)} IR-forbidden modes are shown as 0 in this table: symmetry makes "
+            f"them zero and the values read are below {FORBIDDEN_NOISE_FRACTION:g} of the largest "
+            "(CSV and JSON keep the numbers as read)"
+        ]
+        if (noise_a2 or noise_ir)
+        else []
+    )
     lines = [
         *header_lines(table),
+        *shown,
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
         f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>7} {'set':>4} {'IR':>3} {'Ra':>3}"

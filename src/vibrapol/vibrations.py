@@ -126,11 +126,24 @@ def harmonic_analysis(
     inv_sqrt_m = np.repeat(1.0 / np.sqrt(masses), 3)
     hmw = h * inv_sqrt_m[:, None] * inv_sqrt_m[None, :]
     linear = n > 1 and is_linear(coords, masses)
-    if project:
-        rigid = rigid_body_vectors(coords, masses)
-        # Orthonormal basis of the internal (vibrational) space: complement of the rigid space.
-        q, _ = np.linalg.qr(np.hstack([rigid.T, np.eye(3 * n)]))
-        internal = q[:, rigid.shape[0] : 3 * n]
+    fixed = rigid_body_vectors(coords, masses) if project else np.zeros((0, 3 * n))
+    return modes_in_complement(hmw, fixed, inv_sqrt_m, linear)
+
+
+def modes_in_complement(
+    hmw: np.ndarray, fixed: np.ndarray, inv_sqrt_m: np.ndarray, linear: bool
+) -> HarmonicModes:
+    """Harmonic modes of the mass-weighted Hessian ``hmw`` orthogonal to the rows of ``fixed``.
+
+    ``fixed`` holds orthonormal mass-weighted directions to project out exactly (rigid-body
+    motions, and a reaction-path direction); the Hessian is diagonalised in an orthonormal
+    basis of their complement (Miller, Handy and Adams, J. Chem. Phys. 72, 99 (1980)).  With
+    no rows, all eigenvectors are returned.  Signs follow :func:`canonical_signs`.
+    """
+    dim = hmw.shape[0]
+    if fixed.shape[0]:
+        q, _ = np.linalg.qr(np.hstack([fixed.T, np.eye(dim)]))
+        internal = q[:, fixed.shape[0] : dim]
         eigvals, eigvecs = np.linalg.eigh(internal.T @ hmw @ internal)
         modes = (internal @ eigvecs).T
     else:
@@ -146,6 +159,42 @@ def harmonic_analysis(
         force_constants_mdyn_ang=force_constants_mdyn_ang(freqs, reduced),
         linear=linear,
     )
+
+
+def hessian_from_modes(
+    freqs_cm1: np.ndarray, modes: np.ndarray, masses_da: np.ndarray
+) -> np.ndarray:
+    """Cartesian Hessian H = M¹ᐟ² Lᵀ λ L M¹ᐟ² of a complete set of normal modes.
+
+    The inverse of :func:`harmonic_analysis` with ``project=True``: at a stationary point the
+    Hessian is zero along overall translations and rotations, so the vibrations alone give it
+    in full [1]_.
+
+    Parameters
+    ----------
+    freqs_cm1 : ndarray, shape (n,)
+        Wavenumbers (imaginary ones negative).
+    modes : ndarray, shape (n, 3N)
+        Mass-weighted orthonormal eigenvectors L (rows), all 3N − 6 (3N − 5) vibrations.
+    masses_da : ndarray, shape (N,)
+        The masses the modes belong to.
+
+    Returns
+    -------
+    ndarray, shape (3N, 3N)
+        Cartesian Hessian in hartree bohr⁻², atom-major.
+
+    References
+    ----------
+    .. [1] Wilson, Decius and Cross, *Molecular Vibrations* (1955), ch. 2.
+    """
+    from vibrapol.units import cm1_to_hessian_eigenvalue
+
+    lam = cm1_to_hessian_eigenvalue(freqs_cm1)
+    modes = np.asarray(modes, dtype=float)
+    sqrt_m = np.repeat(np.sqrt(np.asarray(masses_da, dtype=float)), 3)
+    h_mw = modes.T @ (lam[:, None] * modes)
+    return sqrt_m[:, None] * h_mw * sqrt_m[None, :]
 
 
 def force_constants_mdyn_ang(freqs_cm1: np.ndarray, reduced_masses_da: np.ndarray) -> np.ndarray:

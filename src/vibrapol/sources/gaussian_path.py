@@ -15,11 +15,9 @@ import re
 import numpy as np
 
 from vibrapol.errors import ShapeError
-from vibrapol.units import hessian_eigenvalue_to_cm1
 from vibrapol.vibrations import (
     HarmonicModes,
-    canonical_signs,
-    force_constants_mdyn_ang,
+    modes_in_complement,
     rigid_body_vectors,
 )
 
@@ -129,16 +127,4 @@ def path_projected_modes(
     if norm < 1e-12:
         raise ShapeError("the gradient is zero: there is no path direction to project out")
     fixed = np.vstack([rigid, path / norm])
-    q, _ = np.linalg.qr(np.hstack([fixed.T, np.eye(len(path))]))
-    internal = q[:, fixed.shape[0] : len(path)]
-    eigvals, eigvecs = np.linalg.eigh(internal.T @ hmw @ internal)
-    modes = canonical_signs((internal @ eigvecs).T)
-    freqs = hessian_eigenvalue_to_cm1(eigvals)
-    reduced = 1.0 / np.sum(modes**2 * inv_sqrt_m[None, :] ** 2, axis=1)
-    return HarmonicModes(
-        freqs_cm1=freqs,
-        modes=modes,
-        reduced_masses_da=reduced,
-        force_constants_mdyn_ang=force_constants_mdyn_ang(freqs, reduced),
-        linear=rigid.shape[0] == 5,
-    )
+    return modes_in_complement(hmw, fixed, inv_sqrt_m, linear=rigid.shape[0] == 5)

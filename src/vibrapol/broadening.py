@@ -44,7 +44,7 @@ def read_only(
     value: np.ndarray, name: str, shape: tuple[int | None, ...], dtype: type = float
 ) -> np.ndarray:
     """A read-only copy of ``value`` with the given shape (None: any length), else ShapeError."""
-    arr = np.array(value, dtype=dtype, copy=True)
+    arr: np.ndarray = np.array(value, dtype=dtype, copy=True)
     if arr.ndim != len(shape) or any(
         s is not None and s != a for s, a in zip(shape, arr.shape, strict=False)
     ):

@@ -17,6 +17,7 @@ import dataclasses
 import warnings
 from collections import Counter
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 
@@ -97,7 +98,7 @@ def check_conformers(modesets: Sequence[ModeSet], overlay_hint: str = "--overlay
 
 
 def boltzmann_weights(
-    relative_energies_kjmol: Sequence[float],
+    relative_energies_kjmol: Sequence[float] | np.ndarray,
     temperature_k: float,
     degeneracies: Sequence[float] | None = None,
 ) -> np.ndarray:
@@ -145,11 +146,13 @@ def source_energies_kjmol(
             )
         e = m.energy_hartree * units.HARTREE_TO_KJ_MOL
         energies.append(e + (zero_point_kjmol(m) if include_zero_point else 0.0))
-    e = np.array(energies)
-    return e - e.min()
+    relative = np.array(energies)
+    return relative - relative.min()
 
 
-def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> StickSpectrum:
+def mixture(
+    spectra: Sequence[StickSpectrum], weights: Sequence[float] | np.ndarray
+) -> StickSpectrum:
     """One stick spectrum from several, each band's heights multiplied by its species' weight.
 
     All spectra must have the same channels and conditions (quantity, laser, temperature, …).
@@ -190,12 +193,12 @@ def mixture(spectra: Sequence[StickSpectrum], weights: Sequence[float]) -> Stick
 def conformer_spectrum(
     modesets: Sequence[ModeSet],
     *,
-    relative_energies_kjmol: Sequence[float] | None = None,
+    relative_energies_kjmol: Sequence[float] | np.ndarray | None = None,
     temperature_k: float = 298.15,
     include_zero_point: bool = False,
     degeneracies: Sequence[float] | None = None,
     labels: Sequence[str] | None = None,
-    **stick_options: object,
+    **stick_options: Any,
 ) -> StickSpectrum:
     """Boltzmann-weighted stick spectrum of several conformers at ``temperature_k``.
 
@@ -224,7 +227,7 @@ def conformer_spectrum(
     weights = boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
     labels = list(labels) if labels is not None else [m.provenance.source_file for m in modesets]
     spectra = [
-        stick_spectrum(m, temperature_k=temperature_k, label=lab, **stick_options)  # type: ignore[arg-type]
+        stick_spectrum(m, temperature_k=temperature_k, label=lab, **stick_options)
         for m, lab in zip(modesets, labels, strict=True)
     ]
     return mixture(spectra, weights)

@@ -310,6 +310,7 @@ def run_demo(
     sample = scenario.sample
     log(f"[2/{n_steps}] per-mode table and symmetry of {sample.label}")
     sym, table, table_files = tables(modes[sample.name], sample.name)
+    data: str | bytes
     for name, data in table_files:
         write(name, data)
 

@@ -18,7 +18,7 @@ from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable, raman_table
 
 if TYPE_CHECKING:  # pragma: no cover
-    from vibrapol.compare import Assignment, Ranking
+    from vibrapol.compare import AssignedBand, Assignment, Ranking
     from vibrapol.demo import DemoResult, DemoScenario
     from vibrapol.symmetry import ModeSymmetry
 
@@ -84,7 +84,9 @@ def figures(
     ]
 
 
-def check_bands(assignment: Assignment) -> tuple[object | None, object | None]:
+def check_bands(
+    assignment: Assignment,
+) -> tuple[AssignedBand | None, AssignedBand | None]:
     """The strongest assigned polarized band and the strongest assigned depolarized band.
 
     Polarized: computed polarized and measured polarized (ρ + 2σ < 0.70, as in the scores);
@@ -94,7 +96,8 @@ def check_bands(assignment: Assignment) -> tuple[object | None, object | None]:
     from vibrapol.compare import measured_polarized
     from vibrapol.polarization import POLARIZED_MARGIN, RHO_DEPOLARIZED
 
-    pol, dep = None, None
+    pol: AssignedBand | None = None
+    dep: AssignedBand | None = None
     for b in assignment.bands:
         if not b.assigned or not math.isfinite(b.band_rho):
             continue

@@ -17,6 +17,7 @@ References
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from vibrapol.errors import OptionError
 
@@ -88,7 +89,7 @@ def rho_natural(a2: np.ndarray, gamma2: np.ndarray) -> np.ndarray:
     return _ratio(6.0 * g, 45.0 * np.asarray(a2) + 7.0 * g)
 
 
-def rho_natural_from_linear(rho_lin: np.ndarray) -> np.ndarray:
+def rho_natural_from_linear(rho_lin: ArrayLike) -> np.ndarray:
     """ρ_n = 2ρ_l / (1 + ρ_l), which follows from the two definitions above [Long]_."""
     r = np.asarray(rho_lin, dtype=float)
     return 2.0 * r / (1.0 + r)
@@ -115,7 +116,7 @@ def invariants_from_activity(
 
 
 def polarized_intensity(
-    a2: np.ndarray, gamma2: np.ndarray, e_incident: np.ndarray, e_scattered: np.ndarray
+    a2: np.ndarray, gamma2: np.ndarray, e_incident: ArrayLike, e_scattered: ArrayLike
 ) -> np.ndarray:
     """Orientation-averaged ⟨|e_s·α′·e_i|²⟩ for real unit polarization vectors [Long]_.
 

@@ -123,7 +123,7 @@ class Provenance:
 
 def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:
     try:
-        arr = np.array(value, dtype=dtype, copy=True)
+        arr: np.ndarray = np.array(value, dtype=dtype, copy=True)
     except OverflowError:
         raise ShapeError(f"{name} holds a number too large for an array") from None
     if arr.ndim != len(shape) or any(
@@ -318,7 +318,7 @@ class ModeSet:
             return _optional(given, "dalpha_dq", (n_modes, 3, 3))
         from vibrapol.vibrations import project_dalpha
 
-        dq = project_dalpha(self.dalpha_dx, self.modes, self.masses_da)
+        dq = project_dalpha(self.dalpha_dx, self.modes, self._masses())
         if given is not None and earlier is None:
             given = _array(given, "dalpha_dq", (n_modes, 3, 3))
             diff = float(np.max(np.abs(given - dq), initial=0.0))
@@ -393,9 +393,15 @@ class ModeSet:
             f"{where} has no Raman data (no polarizability derivatives or activities)"
         )
 
+    def _masses(self) -> np.ndarray:
+        """``masses_da``, which ``__post_init__`` always fills (the defaults when not given)."""
+        if self.masses_da is None:
+            raise RuntimeError("ModeSet.masses_da is filled when the ModeSet is built")
+        return self.masses_da
+
     def displacements(self) -> np.ndarray:
         """Cartesian displacement of each mode, L/√m, normalised to unit length, shape (n, N, 3)."""
-        d = self.modes / np.repeat(np.sqrt(self.masses_da), 3)[None, :]
+        d = self.modes / np.repeat(np.sqrt(self._masses()), 3)[None, :]
         d /= np.linalg.norm(d, axis=1, keepdims=True)
         return d.reshape(self.n_modes, self.n_atoms, 3)
 

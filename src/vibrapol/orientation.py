@@ -57,7 +57,7 @@ def euler_zyz(alpha_deg: float, beta_deg: float, gamma_deg: float) -> np.ndarray
     return _rz(np.array(a)) @ _ry(np.array(b)) @ _rz(np.array(g))
 
 
-def unit_vector(axis: str | Sequence[float], what: str = "axis") -> np.ndarray:
+def unit_vector(axis: str | Sequence[float] | np.ndarray, what: str = "axis") -> np.ndarray:
     """A unit vector from ``"x"``, ``"y"``, ``"z"`` (optionally signed, ``"-z"``) or 3 numbers."""
     if isinstance(axis, str):
         key = axis.strip().lower()
@@ -76,18 +76,20 @@ def unit_vector(axis: str | Sequence[float], what: str = "axis") -> np.ndarray:
     return v / np.linalg.norm(v)
 
 
-def rotation_between(a: Sequence[float], b: Sequence[float]) -> np.ndarray:
+def rotation_between(
+    a: Sequence[float] | np.ndarray, b: Sequence[float] | np.ndarray
+) -> np.ndarray:
     """The smallest rotation R with R·a ∥ b (Rodrigues' formula); unit vectors not required."""
-    a = unit_vector(a)
-    b = unit_vector(b)
-    v = np.cross(a, b)
-    c = float(np.dot(a, b))
+    ua = unit_vector(a)
+    ub = unit_vector(b)
+    v = np.cross(ua, ub)
+    c = float(np.dot(ua, ub))
     if np.linalg.norm(v) < 1e-12:
         if c > 0:
             return np.eye(3)
-        perp = np.cross(a, [1.0, 0.0, 0.0])
+        perp = np.cross(ua, [1.0, 0.0, 0.0])
         if np.linalg.norm(perp) < 1e-6:
-            perp = np.cross(a, [0.0, 1.0, 0.0])
+            perp = np.cross(ua, [0.0, 1.0, 0.0])
         perp /= np.linalg.norm(perp)
         return 2.0 * np.outer(perp, perp) - np.eye(3)  # rotation by π about perp
     k = np.array([[0.0, -v[2], v[1]], [v[2], 0.0, -v[0]], [-v[1], v[0], 0.0]])

@@ -20,6 +20,7 @@ from matplotlib import rc_context
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+from matplotlib.projections.polar import PolarAxes
 from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
@@ -155,9 +156,9 @@ def spectrum_figure(
     norm = norm or 1.0
     stick_scale = 0.0
     if sticks:
-        st = np.concatenate([grid.sticks.channel(c) for c in chans])
+        heights = np.concatenate([grid.sticks.channel(c) for c in chans])
         env = max(float(np.max(v[shown])) for v in data.values())
-        stick_scale = env / float(np.max(st)) if np.max(st) > 0 else 0.0
+        stick_scale = env / float(np.max(heights)) if np.max(heights) > 0 else 0.0
     n_panels = 1 if layout == "shared" else len(chans)
     w = figure_width(width)
     h = height_in or ((2.4 if w < 5 else 2.7) if layout == "shared" else 0.2 + 1.35 * n_panels)
@@ -241,7 +242,7 @@ def spectrum_figure(
         if normalize:
             for ax in axes:
                 ax.spines["left"].set_bounds(0.0, 1.0)
-                ax.yaxis.set_minor_locator(FixedLocator(np.arange(0.1, 1.0, 0.1)))
+                ax.yaxis.set_minor_locator(FixedLocator(np.arange(0.1, 1.0, 0.1).tolist()))
     return fig
 
 
@@ -363,12 +364,10 @@ def depolarization_figure(
         )
         renderer = fix_layout(fig)
         px_per_pt = fig.dpi / 72.0
-        markers = [
-            marker_box(
-                *ax.transData.transform((pos[i], rho[i])), 0.5 * math.sqrt(size[i]) * px_per_pt
-            )
-            for i in np.flatnonzero(keep)
-        ]
+        markers = []
+        for shown_i in np.flatnonzero(keep):
+            px, py = ax.transData.transform((pos[shown_i], rho[shown_i]))
+            markers.append(marker_box(px, py, 0.5 * math.sqrt(size[shown_i]) * px_per_pt))
         order = [int(i) for i in np.argsort(-np.where(pol, strength, -np.inf)) if pol[i]]
         points = []
         for i in order:
@@ -405,6 +404,7 @@ def polar_figure(
         fig = new_figure(w, rows * (w / cols) * 1.12 + 0.45)
         for b in range(n):
             ax = fig.add_subplot(rows, cols, b + 1, projection="polar")
+            assert isinstance(ax, PolarAxes)
             par, crs = sweep.parallel[:, b], sweep.crossed[:, b]
             scale = max(float(np.max(par)), float(np.max(crs))) if normalize else 1.0
             scale = scale or 1.0

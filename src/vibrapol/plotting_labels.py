@@ -25,11 +25,14 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from matplotlib.axes import Axes
+from matplotlib.backend_bases import RendererBase
 from matplotlib.figure import Figure
 from matplotlib.text import Annotation
+from matplotlib.transforms import BboxBase
 
 #: Gap between a peak (or the curves) and a label, in points.
 OFFSET_PT = 2.0
@@ -75,9 +78,9 @@ class Box:
         )
 
 
-def box_of(bbox: object) -> Box:
+def box_of(bbox: BboxBase) -> Box:
     """A :class:`Box` from a matplotlib ``Bbox``."""
-    return Box(float(bbox.x0), float(bbox.y0), float(bbox.x1), float(bbox.y1))  # type: ignore[attr-defined]
+    return Box(float(bbox.x0), float(bbox.y0), float(bbox.x1), float(bbox.y1))
 
 
 Segment = tuple[float, float, float, float]
@@ -199,21 +202,22 @@ def greedy_place(
     return kept
 
 
-def fix_layout(fig: Figure) -> object:
+def fix_layout(fig: Figure) -> RendererBase:
     """Render once, then freeze the layout so that later text does not move the axes."""
     fig.canvas.draw()
     fig.set_layout_engine("none")
+    # get_renderer exists on the raster canvases (Agg, which new_figure attaches), not the base
     return fig.canvas.get_renderer()  # type: ignore[attr-defined]
 
 
-def _text_size(ax: Axes, renderer: object, text: str, **text_kw: object) -> tuple[float, float]:
-    probe = ax.text(0, 0, text, **text_kw)  # type: ignore[arg-type]
+def _text_size(ax: Axes, renderer: RendererBase, text: str, **text_kw: Any) -> tuple[float, float]:
+    probe = ax.text(0, 0, text, **text_kw)
     ext = probe.get_window_extent(renderer)
     probe.remove()
     return float(ext.width), float(ext.height)
 
 
-def _legend_box(ax: Axes, renderer: object, frame: Box) -> Box | None:
+def _legend_box(ax: Axes, renderer: RendererBase, frame: Box) -> Box | None:
     legend = ax.get_legend()
     if legend is None:
         return None
@@ -233,7 +237,7 @@ def place_labels(
     curves: Sequence[np.ndarray],
     count: int,
     curve_top: float,
-    **text_kw: object,
+    **text_kw: Any,
 ) -> list[Annotation]:
     """Label up to ``count`` bands above the curves, strongest first.
 
@@ -392,7 +396,7 @@ def place_point_labels(
     extra_obstacles: Sequence[Box] = (),
     first: str = "right",
     curves: Sequence[tuple[np.ndarray, np.ndarray]] = (),
-    **text_kw: object,
+    **text_kw: Any,
 ) -> list[Annotation]:
     """Label up to ``count`` scatter points, in the order given (most important first).
 
@@ -455,8 +459,8 @@ def place_point_labels(
                 cands.append(Candidate(box, leader))
         options.append(cands)
     curves_px = []
-    for cx, cy in curves:
-        xy = ax.transData.transform(np.column_stack([cx, cy]))
+    for curve_x, curve_y in curves:
+        xy = ax.transData.transform(np.column_stack([curve_x, curve_y]))
         curves_px.append((xy[:, 0], xy[:, 1]))
     kept = greedy_place(options, obstacles, frame, count, pad, curves_px)
     inverse = ax.transData.inverted()

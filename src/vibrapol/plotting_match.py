@@ -20,6 +20,7 @@ import warnings
 
 import numpy as np
 from matplotlib import rc_context
+from matplotlib.backend_bases import RendererBase
 from matplotlib.figure import Figure
 from matplotlib.text import Text
 
@@ -186,7 +187,7 @@ def cleaning_note(pair: PolarizedPair | None) -> str:
     return "measured: " + ("; ".join(notes) if notes else "as read, no cleaning recorded")
 
 
-def _drop_overlapping(texts: list[Text], renderer: object) -> list[Text]:
+def _drop_overlapping(texts: list[Text], renderer: RendererBase) -> list[Text]:
     """Remove texts that overlap one kept earlier (``texts`` in priority order); the rest."""
     kept: list[Text] = []
     boxes: list[Box] = []

@@ -10,13 +10,18 @@ from __future__ import annotations
 
 import io
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 from matplotlib import rc_context
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
+from matplotlib.layout_engine import ConstrainedLayoutEngine
 
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_writable, write_atomic
+
+if TYPE_CHECKING:
+    from matplotlib.typing import RcKeyType
 
 #: Figure widths in inches.
 WIDTHS_IN = {"single": 3.3, "double": 7.0}
@@ -51,7 +56,7 @@ CHANNEL_NAMES = {
 }
 
 #: Matplotlib settings used while a figure is built and saved.
-STYLE = {
+STYLE: dict[RcKeyType, Any] = {
     "font.family": "DejaVu Sans",
     "font.size": 8.0,
     "axes.labelsize": 8.0,
@@ -104,9 +109,9 @@ def figure_width(width: str | float) -> float:
 
 def new_figure(width_in: float, height_in: float) -> Figure:
     """A Figure with an Agg canvas and constrained layout (no pyplot, no global state)."""
-    fig = Figure(figsize=(width_in, height_in), layout="constrained")
+    layout = ConstrainedLayoutEngine(w_pad=0.02, h_pad=0.02, hspace=0.02, wspace=0.02)
+    fig = Figure(figsize=(width_in, height_in), layout=layout)
     FigureCanvasAgg(fig)
-    fig.get_layout_engine().set(w_pad=0.02, h_pad=0.02, hspace=0.02, wspace=0.02)
     return fig
 
 

@@ -264,7 +264,7 @@ def raman_table(
     if np.isfinite(a2).any() or symmetry is None:
         polarization = polarization_class(rho_l, ts)
     else:
-        polarization = symmetry_prediction(ts, extra["raman_active"])
+        polarization = symmetry_prediction(symmetry.totally_symmetric, symmetry.raman_active)
     irreps = tuple(irreps) if irreps is not None else ("",) * modes.n_modes
     shown_zero, zero_notes = tablechecks.forbidden_noise(
         s, extra.get("raman_active"), irreps, point_group

@@ -11,6 +11,7 @@ import csv
 import io
 import json
 import math
+from typing import TypedDict
 
 import numpy as np
 
@@ -72,7 +73,27 @@ def _at(values: np.ndarray | None, i: int) -> float | None:
     return None if values is None else _finite_or_none(float(values[i]))
 
 
-def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[dict[str, object]]:
+class TableRow(TypedDict):
+    """One mode of the table, keyed by :data:`TABLE_COLUMNS` (None: unknown or not given)."""
+
+    mode: int
+    frequency_cm1: float
+    irrep: str
+    a2: float | None
+    gamma2: float | None
+    activity: float | None
+    rho_linear: float | None
+    rho_natural: float | None
+    polarized: bool | None
+    degenerate_set: int
+    ir_active: bool | None
+    raman_active: bool | None
+    ir_intensity_km_mol: float | None
+    purity: float | None
+    polarization: str
+
+
+def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[TableRow]:
     """One dictionary per mode with the keys of :data:`TABLE_COLUMNS`.
 
     NaN → None.  When the source gives only activities, a², γ², ρ and ``polarized`` are None
@@ -87,7 +108,7 @@ def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[dict[str, 
     for i in range(table.n_modes):
         known = math.isfinite(float(table.a2[i]))
         zero = show_zero and table.shown_zero is not None and bool(table.shown_zero[i])
-        row = {
+        row: TableRow = {
             "mode": i + 1,
             "frequency_cm1": float(table.freqs_cm1[i]),
             "irrep": table.irreps[i],
@@ -105,8 +126,10 @@ def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[dict[str, 
             "polarization": table.polarization[i] if table.polarization else "",
         }
         if zero:
-            row.update(rho_linear=None, rho_natural=None, polarization="", activity=0.0)
-            row.update(a2=0.0 if known else None, gamma2=0.0 if known else None)
+            row.update(
+                {"rho_linear": None, "rho_natural": None, "polarization": "", "activity": 0.0}
+            )
+            row.update({"a2": 0.0 if known else None, "gamma2": 0.0 if known else None})
         if show_zero and i in noise_a2:
             row["a2"] = 0.0
         if show_zero and i in noise_ir:

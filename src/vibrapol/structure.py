@@ -12,11 +12,15 @@ import io
 import os
 import warnings
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from scipy.spatial.distance import cdist
 
 from vibrapol.errors import GeometryError, InputFormatError, VibrapolError, VibrapolWarning
+
+if TYPE_CHECKING:
+    from ase import Atoms
 
 #: Atoms closer than this are taken to overlap (a broken structure): the shortest bond, H₂,
 #: is 0.74 Å (common practice).
@@ -117,10 +121,11 @@ def _xyz_frames(text: str, first_only: bool = False) -> list[tuple[list[int], li
         count = lines[i].strip()
         if not count.isdigit() or int(count) == 0 or i + 1 + int(count) >= len(lines):
             return []
-        atoms = [_xyz_atom(line) for line in lines[i + 2 : i + 2 + int(count)]]
-        if any(a is None for a in atoms):
+        parsed = [_xyz_atom(line) for line in lines[i + 2 : i + 2 + int(count)]]
+        atoms = [a for a in parsed if a is not None]
+        if len(atoms) != len(parsed):
             return []
-        frames.append(([a[0] for a in atoms], [a[1] for a in atoms]))  # type: ignore[index]
+        frames.append(([a[0] for a in atoms], [a[1] for a in atoms]))
         if first_only:
             break
         i += 2 + int(count)
@@ -132,10 +137,17 @@ def looks_like_xyz(text: str) -> bool:
     return bool(_xyz_frames(text[:200_000], first_only=True))
 
 
-def _read_frames(p: Path, warn_xyz: bool = True) -> list:
+def _all_frames(source: str | io.StringIO, **options: Any) -> list[Atoms]:
+    """Every frame ase reads from ``source`` (``index=":"`` always gives a list)."""
+    import ase.io
+
+    frames = ase.io.read(source, index=":", **options)
+    return frames if isinstance(frames, list) else [frames]
+
+
+def _read_frames(p: Path, warn_xyz: bool = True) -> list[Atoms]:
     """Every frame of the structure file ``p`` as ase Atoms (the file checked and bounded)."""
     import ase
-    import ase.io
     from ase.io.formats import filetype
 
     from vibrapol.textio import MAX_STRUCTURE_BYTES, decode_text, read_bytes
@@ -143,7 +155,7 @@ def _read_frames(p: Path, warn_xyz: bool = True) -> list:
     data = read_bytes(p, MAX_STRUCTURE_BYTES, "structure file")
     if b"\x00" in data[:200_000] and not data.startswith(_BOMS):
         try:  # a binary format ase knows (.traj, ...)?
-            return ase.io.read(str(p), index=":")
+            return _all_frames(str(p))
         except Exception:  # noqa: BLE001 - not one: say what is wrong with it as text
             decode_text(data, str(p))
             raise
@@ -157,12 +169,12 @@ def _read_frames(p: Path, warn_xyz: bool = True) -> list:
         try:
             # extended XYZ (key=value comment lines) first; a comment it cannot parse is
             # free text, as in plain XYZ
-            return ase.io.read(io.StringIO(text), format="extxyz", index=":")
+            return _all_frames(io.StringIO(text), format="extxyz")
         except Exception:  # noqa: BLE001 - ase raises many kinds for a comment it cannot parse
             return [ase.Atoms(numbers=z, positions=xyz) for z, xyz in frames]
     if data.startswith(_BOMS):  # ase's text readers trip over byte-order marks and UTF-16
-        return ase.io.read(io.StringIO(text), format=filetype(str(p), read=False), index=":")
-    return ase.io.read(str(p), index=":")
+        return _all_frames(io.StringIO(text), format=filetype(str(p), read=False))
+    return _all_frames(str(p))
 
 
 def read_structure(path: str | Path):  # noqa: ANN201

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -86,7 +87,7 @@ def polar_sweep(
     bands_cm1: Sequence[float] | None = None,
     top: int = 4,
     geometry_deg: int = 180,
-    **stick_options: object,
+    **stick_options: Any,
 ) -> PolarSweep:
     """Parallel and crossed heights of the chosen bands at each polarizer angle.
 
@@ -111,7 +112,7 @@ def polar_sweep(
     crs = [angle_channel(a, a + 90.0) for a in angles]
     sticks = stick_spectrum(
         modes, channels=[*par, *crs], geometry_deg=geometry_deg, **stick_options
-    )  # type: ignore[arg-type]
+    )
     pick = sorted(choose_bands(sticks, bands_cm1, top, par), key=lambda i: sticks.positions_cm1[i])
     ip = [sticks.channels.index(c) for c in par]
     ic = [sticks.channels.index(c) for c in crs]

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import dataclasses
 import json
+from typing import TypedDict
 
 from vibrapol.symmetry import (
     ModeSymmetry,
@@ -34,7 +35,32 @@ def character_table_text(group: PointGroup) -> str:
     return "\n".join(lines) + "\n"
 
 
-def symmetry_rows(group: PointGroup) -> list[dict[str, object]]:
+class SpeciesRow(TypedDict):
+    """One species of the point group, as :func:`symmetry_rows` gives it."""
+
+    irrep: str
+    dim: int
+    count_vib: int
+    ir_active: bool
+    ir_components: str
+    raman_active: bool
+    polarization: str
+
+
+class ModeRow(TypedDict):
+    """One mode with its species, as :func:`mode_rows` gives it."""
+
+    mode: int
+    frequency_cm1: float
+    irrep: str
+    degenerate_set: int
+    purity: float
+    ir_active: bool
+    raman_active: bool
+    polarization: str
+
+
+def symmetry_rows(group: PointGroup) -> list[SpeciesRow]:
     """One dictionary per species: name, dimension, count in Γ_vib and selection rules."""
     counts = gamma_vib(group)
     return [
@@ -51,7 +77,7 @@ def symmetry_rows(group: PointGroup) -> list[dict[str, object]]:
     ]
 
 
-def mode_rows(symmetry: ModeSymmetry) -> list[dict[str, object]]:
+def mode_rows(symmetry: ModeSymmetry) -> list[ModeRow]:
     """One dictionary per mode: frequency, species, set, purity, activities, expected band."""
     rules = {r.irrep: r for r in species_rules(symmetry.group)}
     set_of = {k: i for i, s in enumerate(symmetry.sets) for k in s}
@@ -126,12 +152,12 @@ def symmetry_text(
             f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'set':>4} {'purity':>7} "
             f"{'IR':>3} {'Ra':>3}  Raman band"
         )
-        for row in mode_rows(symmetry):
+        for mode in mode_rows(symmetry):
             lines.append(
-                f"{row['mode']:>4} {row['frequency_cm1']:>10.2f} {row['irrep']:>6} "
-                f"{row['degenerate_set']:>4} {row['purity']:>7.4f} "
-                f"{_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}  "
-                f"{row['polarization']}"
+                f"{mode['mode']:>4} {mode['frequency_cm1']:>10.2f} {mode['irrep']:>6} "
+                f"{mode['degenerate_set']:>4} {mode['purity']:>7.4f} "
+                f"{_text_flag(mode['ir_active']):>3} {_text_flag(mode['raman_active']):>3}  "
+                f"{mode['polarization']}"
             )
     return "\n".join(lines) + "\n"
 

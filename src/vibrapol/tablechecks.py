@@ -30,8 +30,14 @@ def expected_vibrations(modes: ModeSet, linear: bool | None = None) -> int:
     if n < 2:
         return 0
     if linear is None:
-        linear = is_linear(modes.coordinates_ang, modes.masses_da)
+        linear = _is_linear(modes)
     return 3 * n - (5 if linear else 6)
+
+
+def _is_linear(modes: ModeSet) -> bool:
+    masses = modes.masses_da
+    assert masses is not None  # a ModeSet fills in default masses
+    return is_linear(modes.coordinates_ang, masses)
 
 
 def _where(modes: ModeSet) -> str:
@@ -43,7 +49,7 @@ def missing_modes_warning(modes: ModeSet, linear: bool | None = None) -> str:
     if modes.n_atoms < 2:
         return ""
     if linear is None:
-        linear = is_linear(modes.coordinates_ang, modes.masses_da)
+        linear = _is_linear(modes)
     expected = expected_vibrations(modes, linear)
     have = modes.n_modes
     if have >= expected:

@@ -9,11 +9,12 @@ boundary with the factors below.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy import constants as _c
 from scipy.constants import _codata
 
 #: CODATA release of the constants in use (e.g. ``"CODATA 2022"``).
-CODATA_VERSION: str = str(_codata._current_codata)
+CODATA_VERSION: str = str(_codata._current_codata)  # type: ignore[attr-defined]  # private, unstubbed
 
 #: Bohr radius in Å.
 BOHR_ANG: float = _c.physical_constants["Bohr radius"][0] * 1e10
@@ -48,7 +49,7 @@ HARTREE_BOHR2_TO_MDYN_ANG: float = HARTREE_J / (BOHR_ANG * 1e-10) ** 2 / 100.0
 HARTREE_BOHR2_TO_EV_ANG2: float = HARTREE_J / _c.e / BOHR_ANG**2
 
 
-def hessian_eigenvalue_to_cm1(eigenvalues_au: np.ndarray) -> np.ndarray:
+def hessian_eigenvalue_to_cm1(eigenvalues_au: ArrayLike) -> np.ndarray:
     """Convert mass-weighted Hessian eigenvalues to signed wavenumbers.
 
     Parameters
@@ -67,7 +68,7 @@ def hessian_eigenvalue_to_cm1(eigenvalues_au: np.ndarray) -> np.ndarray:
     return np.sign(si) * np.sqrt(np.abs(si)) / (2.0 * np.pi * C_CM_S)
 
 
-def cm1_to_hessian_eigenvalue(freqs_cm1: np.ndarray) -> np.ndarray:
+def cm1_to_hessian_eigenvalue(freqs_cm1: ArrayLike) -> np.ndarray:
     """Inverse of :func:`hessian_eigenvalue_to_cm1` (signed), in hartree bohr⁻² Da⁻¹."""
     nu = np.asarray(freqs_cm1, dtype=float)
     omega2 = np.sign(nu) * (2.0 * np.pi * C_CM_S * nu) ** 2

@@ -248,8 +248,8 @@ def run(args: argparse.Namespace) -> int:
             estimates.append(estimate)
     with ExitStack() as locks, sigterm_as_interrupt():
         try:
-            for item, out in items:
-                locks.enter_context(run_lock(item.checkpoint, str(out)))
+            for _, out in items:
+                locks.enter_context(run_lock(checkpoint_path_for(out), str(out)))
                 check_writable(out, args.force)  # again: another run may have written it
             for line in estimates:
                 say(line)

@@ -18,6 +18,7 @@ import argparse
 import dataclasses
 import math
 import sys
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -32,6 +33,9 @@ from vibrapol.cli.spectrum import parse_range
 from vibrapol.errors import VibrapolError
 from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes
+
+if TYPE_CHECKING:
+    from vibrapol.modeset import ModeSet
 
 HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
 
@@ -144,7 +148,7 @@ def measure(args: argparse.Namespace):  # noqa: ANN201
     """Read, crop, clean and fit the measured pair: (cleaned pair, MeasuredBands)."""
     from vibrapol import measured
 
-    options: dict[str, object] = {"axis": args.axis}
+    options: dict[str, Any] = {"axis": args.axis}
     if args.laser_nm is not None:
         options["laser_nm"] = args.laser_nm
     if args.vh is not None:
@@ -190,12 +194,12 @@ def check_stokes(shift_cm1: np.ndarray, where: str) -> None:
         )
 
 
-def assign_options(args: argparse.Namespace) -> dict[str, object]:
+def assign_options(args: argparse.Namespace) -> dict[str, Any]:
     """Keyword arguments of :func:`vibrapol.compare.assign` from the options."""
     from vibrapol.compare import DEFAULT_MODEL
     from vibrapol.scaling import FrequencyScale
 
-    out: dict[str, object] = {}
+    out: dict[str, Any] = {}
     if args.scale is not None:
         out["scale"] = args.scale
     elif args.scale_for:
@@ -209,12 +213,12 @@ def assign_options(args: argparse.Namespace) -> dict[str, object]:
     return out
 
 
-def check_scale_for(args: argparse.Namespace, modes: object, where: str) -> None:
+def check_scale_for(args: argparse.Namespace, modes: ModeSet, where: str) -> None:
     """Refuse a ``--scale-for`` factor computed for another method or basis than ``modes``."""
     if args.scale_for:
         from vibrapol.scaling import FrequencyScale
 
-        p = modes.provenance  # type: ignore[attr-defined]
+        p = modes.provenance
         FrequencyScale.published(args.scale_for).check_belongs(p.method, p.basis, where)
 
 
@@ -268,7 +272,7 @@ def run(args: argparse.Namespace) -> int:
         from vibrapol.compare.costs import model_for_basis
 
         opts["model"], level_note = model_for_basis(modes.provenance.basis)
-    result = assign(cand, bands, pair=pair, **opts)  # type: ignore[arg-type]
+    result = assign(cand, bands, pair=pair, **opts)
     files: list[tuple[str, str | bytes]] = []
     if args.output:
         files.append((args.output, assignment_csv(result)))

@@ -91,7 +91,7 @@ def run(args: argparse.Namespace) -> int:
     for s in args.sources:
         modes = read_modes(s, kind=args.kind)
         check_scale_for(args, modes, s)
-        candidates.append(candidate_from_modes(modes, label=Path(s).name, **common))  # type: ignore[arg-type]
+        candidates.append(candidate_from_modes(modes, label=Path(s).name, **common))
     members = {f.strip() for group in args.mixture for f in group.split(",")}
     unused = sorted(set(degeneracy) - members)
     if unused:
@@ -112,7 +112,7 @@ def run(args: argparse.Namespace) -> int:
                 degeneracies=[degeneracy.get(f, 1.0) for f in files],
                 labels=[Path(f).name for f in files],
                 label="mixture(" + "+".join(Path(f).name for f in files) + ")",
-                **common,  # type: ignore[arg-type]
+                **common,
             )
         )
     pair, bands = measure(args)

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import math
+from typing import Any
 
 from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
@@ -253,7 +254,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def build_sticks(
-    args: argparse.Namespace, channels: list[str], geometry: int, **extra: object
+    args: argparse.Namespace, channels: list[str], geometry: int, **extra: Any
 ) -> StickSpectrum:
     """Read the sources and compute their (mixture) stick spectrum."""
     if len(args.sources) == 1:
@@ -282,13 +283,13 @@ def build_sticks(
         **extra,
     )
     if len(modesets) == 1:
-        return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)  # type: ignore[arg-type]
+        return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)
     from vibrapol.conformers import conformer_spectrum, overlay
 
     if overlaid:
         return overlay(
             [
-                stick_spectrum(m, temperature_k=args.temperature_k, label=src, **options)  # type: ignore[arg-type]
+                stick_spectrum(m, temperature_k=args.temperature_k, label=src, **options)
                 for m, src in zip(modesets, args.sources, strict=True)
             ]
         )

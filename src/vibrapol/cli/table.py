@@ -14,7 +14,7 @@ from vibrapol.cli.spectrum import add_scale_arguments, scale_from_args
 from vibrapol.cli.symmetry import add_symmetry_arguments, recorded_warnings
 from vibrapol.errors import OptionError, VibrapolError
 from vibrapol.ramantable import raman_table, symmetry_table, with_warnings
-from vibrapol.report import FORMATTERS
+from vibrapol.report import FORMATTERS, table_latex, table_markdown
 from vibrapol.sources import read_modes
 
 HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
@@ -35,7 +35,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 #: Formats with one row per band, which may show scaled wavenumbers.
-BAND_FORMATS = ("markdown", "latex")
+BAND_FORMATTERS = {"markdown": table_markdown, "latex": table_latex}
+BAND_FORMATS = tuple(BAND_FORMATTERS)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -67,7 +68,7 @@ def run(args: argparse.Namespace) -> int:
             )
     table = with_warnings(table, texts)
     if args.format in BAND_FORMATS:
-        emit(args, FORMATTERS[args.format](table, scale))
+        emit(args, BAND_FORMATTERS[args.format](table, scale))
     else:
         emit(args, FORMATTERS[args.format](table))
     return 0

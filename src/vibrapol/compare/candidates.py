@@ -12,6 +12,8 @@ import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import numpy as np
+
 from vibrapol.conformers import (
     boltzmann_weights,
     check_conformers,
@@ -149,7 +151,7 @@ def candidate_from_modes(
 def mixture_candidate(
     modesets: Sequence[ModeSet],
     *,
-    relative_energies_kjmol: Sequence[float] | None = None,
+    relative_energies_kjmol: Sequence[float] | np.ndarray | None = None,
     degeneracies: Sequence[float] | None = None,
     labels: Sequence[str] | None = None,
     label: str = "",

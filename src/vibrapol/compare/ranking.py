@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 from vibrapol.compare.assignment import assign
 from vibrapol.compare.candidates import Candidate
@@ -49,7 +50,7 @@ def rank(
     bands: MeasuredBands,
     *,
     pair: PolarizedPair | None = None,
-    **options: object,
+    **options: Any,
 ) -> Ranking:
     """Assign every candidate to the same measured bands and order them by overall score.
 
@@ -76,6 +77,6 @@ def rank(
     dup = sorted({lab for lab in labels if labels.count(lab) > 1})
     if dup:
         raise VibrapolError(f"candidate labels must differ; repeated: {', '.join(dup)}")
-    results = [assign(c, bands, pair=pair, **options) for c in candidates]  # type: ignore[arg-type]
+    results = [assign(c, bands, pair=pair, **options) for c in candidates]
     results.sort(key=lambda a: (-a.scores.overall, a.scores.total_cost))
     return Ranking(tuple(results))

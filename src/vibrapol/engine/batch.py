@@ -240,17 +240,19 @@ def run_batch(
     outcomes = []
     start = 0
     for k, item in enumerate(items):
-        prep = prepared.get(k)
-        if prep is None:
+        ready = prepared.get(k)
+        if ready is None:
             outcomes.append(BatchOutcome(item.name, None, errors[k]))
             continue
-        mine = results[start : start + len(prep.jobs)]
-        start += len(prep.jobs)
+        mine = results[start : start + len(ready.jobs)]
+        start += len(ready.jobs)
         if k in errors:
             outcomes.append(BatchOutcome(item.name, None, errors[k]))
             continue
+        values = [r for r in mine if r is not None]
+        assert len(values) == len(mine)  # a failed task put its molecule in errors
         own = stats.subset(start - len(mine), start)
-        run = _engine_run(prep, assemble(prep, mine, settings), backend, own, stats, t_start)
+        run = _engine_run(ready, assemble(ready, values, settings), backend, own, stats, t_start)
         outcomes.append(BatchOutcome(item.name, run))
     return outcomes
 

@@ -23,6 +23,7 @@ from collections.abc import Iterable, Mapping
 from pathlib import Path
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from vibrapol.engine.optimize import FMAX_HARTREE_BOHR
 from vibrapol.engine.polarizability import CPHF_TOL
@@ -84,9 +85,10 @@ def task_key(
     return h.hexdigest()
 
 
-def _pack(arrays: Mapping[str, np.ndarray]) -> bytes:
+def _pack(arrays: Mapping[str, ArrayLike]) -> bytes:
     buf = io.BytesIO()
-    np.savez(buf, **{k: np.asarray(v) for k, v in arrays.items()})
+    # numpy's stub types **kwds alongside allow_pickle: bool, which no str-keyed dict can match
+    np.savez(buf, **{k: np.asarray(v) for k, v in arrays.items()})  # type: ignore[arg-type]
     return buf.getvalue()
 
 
@@ -140,12 +142,13 @@ class CheckpointStore:
     def __init__(self, path: str | Path, fresh: bool = False) -> None:
         self.path = Path(path)
         self.damaged: list[str] = []  # labels of rows found damaged (and recomputed)
-        self._lock = run_lock(self.path)
-        self._lock.__enter__()
+        lock = run_lock(self.path)
+        lock.__enter__()
+        self._lock: contextlib.AbstractContextManager[Path] | None = lock
         try:
             self._open(fresh)
         except BaseException:
-            self._lock.__exit__(None, None, None)
+            lock.__exit__(None, None, None)
             raise
 
     def _open(self, fresh: bool) -> None:
@@ -217,7 +220,7 @@ class CheckpointStore:
         self._db.commit()
 
     def put(
-        self, key: str, kind: str, label: str, arrays: Mapping[str, np.ndarray], seconds: float
+        self, key: str, kind: str, label: str, arrays: Mapping[str, ArrayLike], seconds: float
     ) -> None:
         """Store one finished task and commit at once.
 
@@ -317,7 +320,7 @@ class StoreRouter:
         return None if store is None else store.get(key)
 
     def put(
-        self, key: str, kind: str, label: str, arrays: Mapping[str, np.ndarray], seconds: float
+        self, key: str, kind: str, label: str, arrays: Mapping[str, ArrayLike], seconds: float
     ) -> None:
         """Store one finished task in its store (dropped when the key has none)."""
         store = self._by_key.get(key)

@@ -138,7 +138,8 @@ def _find(vecs: np.ndarray, v: np.ndarray) -> int:
 def _design(points: list[np.ndarray], ops: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Directions with both signs known, and their (point, op) pairs."""
     vecs, origin = _known(points, ops)
-    dirs, pairs = [], []
+    dirs: list[np.ndarray] = []
+    pairs: list[tuple[int, ...]] = []
     for i, v in enumerate(vecs):
         if np.linalg.norm(v) < _VEC_TOL:
             continue
@@ -222,9 +223,11 @@ def field_plan(
             if best is None or cost < best[0] or sigma > best[1] + 1e-9:
                 best = (cost, sigma, points, dirs, pairs)
     assert best is not None  # the 13-point stencil always qualifies
-    points = np.array(best[2])
-    labels = tuple("F=(" + ", ".join(f"{c:+.4f}" for c in p) + ")" for p in points[1:])
-    return FieldPlan(f, points, labels, ops, np.asarray(permutations, dtype=int), best[4], best[3])
+    best_points = np.array(best[2])
+    labels = tuple("F=(" + ", ".join(f"{c:+.4f}" for c in p) + ")" for p in best_points[1:])
+    return FieldPlan(
+        f, best_points, labels, ops, np.asarray(permutations, dtype=int), best[4], best[3]
+    )
 
 
 def transform_gradient(matrix: np.ndarray, perm: np.ndarray, grad: np.ndarray) -> np.ndarray:

@@ -124,6 +124,7 @@ def make_jobs(
 ) -> tuple[list, list[str], tuple[str, ...]]:
     """Jobs, checkpoint keys and labels of every task of ``plan``."""
     z = atomic_numbers
+    jobs: list[FieldGradientJob] | list[PolarizabilityJob]
     if isinstance(plan, FieldPlan):
         fields = plan.task_fields_au
         jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in fields]

@@ -25,7 +25,7 @@ from vibrapol.errors import VibrapolError
 try:  # POSIX
     import fcntl
 except ImportError:  # pragma: no cover - Windows: no lock, documented
-    fcntl = None  # type: ignore[assignment]
+    fcntl = None  # type: ignore[assignment]  # the module is absent there
 
 
 class RunLockedError(VibrapolError):

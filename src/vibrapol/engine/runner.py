@@ -11,7 +11,7 @@ from time import perf_counter
 
 import numpy as np
 
-from vibrapol.engine.checkpoint import CheckpointStore
+from vibrapol.engine.checkpoint import CheckpointStore, StoreRouter
 from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityJob, timed_task
 from vibrapol.engine.executors import Backend
 from vibrapol.engine.progress import Progress
@@ -70,7 +70,7 @@ def run_tasks(
     keys: Sequence[str],
     labels: Sequence[str],
     backend: Backend,
-    store: CheckpointStore | None = None,
+    store: CheckpointStore | StoreRouter | None = None,
     progress: Progress | None = None,
     *,
     desc: str = "tasks",
@@ -163,7 +163,7 @@ def run_polarizability_tasks(
     keys: Sequence[str],
     labels: Sequence[str],
     backend: Backend,
-    store: CheckpointStore | None = None,
+    store: CheckpointStore | StoreRouter | None = None,
     progress: Progress | None = None,
 ) -> tuple[np.ndarray, TaskStats]:
     """α (Å³) of every job, in order, as one (n_jobs, 3, 3) array (see :func:`run_tasks`)."""
@@ -171,7 +171,7 @@ def run_polarizability_tasks(
     return np.array(alphas), stats
 
 
-def _stored(store: CheckpointStore, jobs: Sequence[Job], keys: Sequence[str]) -> dict:
+def _stored(store: CheckpointStore | StoreRouter, jobs: Sequence[Job], keys: Sequence[str]) -> dict:
     found = {}
     for i, key in enumerate(keys):
         value = store.get(key)
@@ -183,6 +183,7 @@ def _stored(store: CheckpointStore, jobs: Sequence[Job], keys: Sequence[str]) ->
 
 def _run_on_executor(jobs, todo, backend: Backend, finish, fail) -> None:  # noqa: ANN001
     executor = backend.executor
+    assert executor is not None  # without one, run_tasks runs the jobs in this process
     pending: dict[Future, int] = {}
     for i in todo:
         job = jobs[i]

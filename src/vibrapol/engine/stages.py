@@ -9,6 +9,7 @@ from __future__ import annotations
 from time import perf_counter
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
 from vibrapol.engine.evaluate import ReferenceResult, reference_calculation
@@ -39,7 +40,7 @@ def optimized(
     result = optimize_geometry(atomic_numbers, coordinates_ang, spec)
     seconds = perf_counter() - t0
     if store is not None:
-        arrays = {
+        arrays: dict[str, ArrayLike] = {
             "coordinates_ang": result.coordinates_ang,
             "energy_hartree": result.energy_hartree,
             "max_force_hartree_bohr": result.max_force_hartree_bohr,
@@ -72,10 +73,16 @@ def reference(
     )
     stored = store.get(key) if store is not None else None
     if stored is not None and all(k in stored for k in _REFERENCE_FIELDS + _REFERENCE_TIMES):
-        values = {k: stored[k] for k in _REFERENCE_FIELDS}
-        times = {k: float(stored[k]) for k in _REFERENCE_TIMES}
         return ReferenceResult(
-            energy_hartree=float(stored["energy_hartree"]), **values, **times
+            energy_hartree=float(stored["energy_hartree"]),
+            hessian_hartree_bohr2=stored["hessian_hartree_bohr2"],
+            alpha_ang3=stored["alpha_ang3"],
+            density=stored["density"],
+            gradient_hartree_bohr=stored["gradient_hartree_bohr"],
+            seconds_scf=float(stored["seconds_scf"]),
+            seconds_hessian=float(stored["seconds_hessian"]),
+            seconds_alpha=float(stored["seconds_alpha"]),
+            seconds_gradient=float(stored["seconds_gradient"]),
         ), True
     result = reference_calculation(atomic_numbers, coordinates_ang, spec)
     if store is not None:

@@ -136,7 +136,12 @@ def symmetric_cartesian_plan(
     centred = x0 - np.asarray(centre_ang, dtype=float)
     identity = int(np.argmin([np.abs(m - np.eye(3)).max() for m in ops]))
     seen = np.zeros(x0.shape[0], dtype=bool)
-    coords, labels, atoms, dirs, plus, minus = [], [], [], [], [], []
+    coords: list[np.ndarray] = []
+    labels: list[str] = []
+    atoms: list[int] = []
+    dirs: list[np.ndarray] = []
+    plus: list[tuple[int, int]] = []
+    minus: list[tuple[int, int]] = []
     for a in range(x0.shape[0]):
         if seen[a]:
             continue

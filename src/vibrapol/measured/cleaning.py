@@ -395,6 +395,8 @@ def clean(
                 else ""
             )
         )
+    base: np.ndarray | None
+    used: dict[str, object]
     base, used = None, {}
     if baseline is not None:
         base, used = estimate_baseline(x, y, baseline, baseline_options)

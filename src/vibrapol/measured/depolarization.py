@@ -18,6 +18,7 @@ import json
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -117,7 +118,7 @@ class PolarizationCorrection:
     factor: float
     factor_err: float
     n_reference_bands: int
-    reference: tuple[tuple[float, float, float, float], ...]
+    reference: tuple[tuple[float, ...], ...]
     reduced_chi2: float
     laser_nm: float | None = None
     note: str = ""
@@ -129,7 +130,7 @@ class PolarizationCorrection:
         return {"schema": CORRECTION_SCHEMA, "version": CORRECTION_VERSION, **body}
 
     @classmethod
-    def from_dict(cls, data: dict[str, object], where: str = "") -> PolarizationCorrection:
+    def from_dict(cls, data: dict[str, Any], where: str = "") -> PolarizationCorrection:
         """Inverse of :meth:`to_dict`."""
         if data.get("schema") != CORRECTION_SCHEMA or data.get("version") != CORRECTION_VERSION:
             raise InputFormatError(
@@ -137,15 +138,15 @@ class PolarizationCorrection:
                 f"version {CORRECTION_VERSION})"
             )
         try:
-            ref = tuple(tuple(float(v) for v in row) for row in data["reference"])  # type: ignore[union-attr]
-            factor = float(data["factor"])  # type: ignore[arg-type]
+            ref = tuple(tuple(float(v) for v in row) for row in data["reference"])
+            factor = float(data["factor"])
             out = cls(
                 factor=factor,
-                factor_err=float(data["factor_err"]),  # type: ignore[arg-type]
-                n_reference_bands=int(data["n_reference_bands"]),  # type: ignore[call-overload]
-                reference=ref,  # type: ignore[arg-type]
-                reduced_chi2=float(data["reduced_chi2"]),  # type: ignore[arg-type]
-                laser_nm=None if data.get("laser_nm") is None else float(data["laser_nm"]),  # type: ignore[arg-type]
+                factor_err=float(data["factor_err"]),
+                n_reference_bands=int(data["n_reference_bands"]),
+                reference=ref,
+                reduced_chi2=float(data["reduced_chi2"]),
+                laser_nm=None if data.get("laser_nm") is None else float(data["laser_nm"]),
                 note=str(data.get("note", "")),
             )
         except (KeyError, TypeError, ValueError, OverflowError) as exc:

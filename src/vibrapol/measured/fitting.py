@@ -163,8 +163,8 @@ def _starts(
     if not items:
         raise VibrapolError(f"{spectrum.where}: no starting bands given")
     if items and isinstance(items[0], BandCandidate):
-        pos = np.array([c.position_cm1 for c in items])  # type: ignore[union-attr]
-        fwhm = np.array([c.fwhm_cm1 for c in items])  # type: ignore[union-attr]
+        pos = np.array([c.position_cm1 for c in items])
+        fwhm = np.array([c.fwhm_cm1 for c in items])
     else:
         pos = np.array(items, dtype=float)
         if fwhm_cm1 is not None:

@@ -15,7 +15,7 @@ from __future__ import annotations
 import dataclasses
 import re
 from pathlib import Path
-from typing import TextIO
+from typing import Any, TextIO
 
 import numpy as np
 
@@ -48,7 +48,7 @@ _VH_NAMES = re.compile(r"\bvh\b|\bhv\b|perpendicular|crossed|\bperp\b|\bzx\b|⊥
 
 def _text(source: Source) -> tuple[str, str]:
     if hasattr(source, "read"):
-        text = source.read()  # type: ignore[union-attr]
+        text = source.read()
         where = str(getattr(source, "name", "<text stream>"))
         if not text.strip():
             raise InputFormatError(f"{where}: file is empty")
@@ -145,15 +145,16 @@ def read_spectra(
         A missing, wrong or implausible laser line for the axis; an unknown axis kind.
     """
     text, where = _text(source)
-    common = dict(where=where, axis=axis, laser_nm=laser_nm, max_shift_cm1=max_shift_cm1)
+    common: dict[str, Any] = dict(
+        where=where, axis=axis, laser_nm=laser_nm, max_shift_cm1=max_shift_cm1
+    )
     fmt = file_format
     if fmt == "auto":
         fmt = "jcamp" if looks_like_jcamp(text) else "delimited"
     if fmt == "jcamp":
         blocks = read_jcamp(text, where)
         return tuple(
-            _spectrum(b.x, b.y, b.lines, units=b.x_units, label=b.title, **common)  # type: ignore[arg-type]
-            for b in blocks
+            _spectrum(b.x, b.y, b.lines, units=b.x_units, label=b.title, **common) for b in blocks
         )
     if fmt != "delimited":
         raise VibrapolError(f"{where}: file_format {file_format!r} is not auto, jcamp or delimited")
@@ -161,7 +162,7 @@ def read_spectra(
     x = table.values[:, 0]
     x_units = table.names[0] if not table.names[0].startswith("column ") else ""
     return tuple(
-        _spectrum(x, table.values[:, c], table.lines, units=x_units, label=table.names[c], **common)  # type: ignore[arg-type]
+        _spectrum(x, table.values[:, c], table.lines, units=x_units, label=table.names[c], **common)
         for c in range(1, table.values.shape[1])
     )
 
@@ -184,7 +185,7 @@ def _select(
 
 
 def read_spectrum(
-    source: Source, *, column: int | str | None = None, **options: object
+    source: Source, *, column: int | str | None = None, **options: Any
 ) -> MeasuredSpectrum:
     """Read one spectrum from a file.
 
@@ -202,7 +203,7 @@ def read_spectrum(
     VibrapolError
         When the file holds several spectra and ``column`` is not given, or names none.
     """
-    spectra = read_spectra(source, **options)  # type: ignore[arg-type]
+    spectra = read_spectra(source, **options)
     where = spectra[0].where
     if column is None:
         if len(spectra) > 1:
@@ -233,7 +234,7 @@ def read_pair(
     *,
     vv_column: int | str | None = None,
     vh_column: int | str | None = None,
-    **options: object,
+    **options: Any,
 ) -> PolarizedPair:
     """Read a parallel (VV) and crossed (VH) spectrum.
 
@@ -261,7 +262,7 @@ def read_pair(
     InputFormatError
         What :func:`read_spectra` raises, and a channel whose intensities are all the same.
     """
-    spectra = read_spectra(vv_source, **options)  # type: ignore[arg-type]
+    spectra = read_spectra(vv_source, **options)
     where = spectra[0].where
     if vh_source is not None:
         if vv_column is not None:

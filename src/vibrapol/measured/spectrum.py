@@ -186,7 +186,7 @@ class MeasuredSpectrum:
         """Median point spacing in cm⁻¹."""
         return float(np.median(np.diff(self.shift_cm1)))
 
-    def with_intensity(self, intensity: object, note: str) -> MeasuredSpectrum:
+    def with_intensity(self, intensity: np.ndarray, note: str) -> MeasuredSpectrum:
         """A copy with new intensities on the same axis and one more note."""
         return dataclasses.replace(self, intensity=intensity, notes=(*self.notes, note))
 

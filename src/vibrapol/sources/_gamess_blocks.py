@@ -61,7 +61,13 @@ _ANALYSIS_END = (
 #: Lines that show the job went on after the analysis (so it is not cut inside it).
 _JOB_WENT_ON = (*_ANALYSIS_END, "TERMINATED NORMALLY", "TERMINATED -ABNORMALLY-")
 _RAMAN_LABELS = ("RAMAN ACTIVITY", "RAMAN INTENSITY")
-_KNOWN_ROWS = ("FREQUENCY", "SYMMETRY", "REDUCED MASS", "IR INTENSITY", *_RAMAN_LABELS)
+_KNOWN_ROWS: tuple[str, ...] = (
+    "FREQUENCY",
+    "SYMMETRY",
+    "REDUCED MASS",
+    "IR INTENSITY",
+    *_RAMAN_LABELS,
+)
 _KNOWN_ROWS += ("DEPOLARIZATION",)
 
 #: Warnings the family prints about its frequency results.  The stationary-point box and the

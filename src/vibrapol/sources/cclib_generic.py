@@ -125,7 +125,8 @@ def _cclib_program(head: str) -> str | None:
     from cclib.io.ccio import guess_filetype
 
     parser = guess_filetype(head.splitlines())
-    return None if parser is None else parser.__name__
+    # cclib annotates the result as a Logfile instance; it is the parser class
+    return None if parser is None else parser.__name__  # type: ignore[attr-defined]
 
 
 def sniff_cclib(head: str, tail: str) -> bool:

@@ -288,7 +288,7 @@ def read_raman_rows(lines: list[str], where: str = "") -> RamanRows | None:
     start = first_line_with(lines, "Raman related properties for freq.")
     if start is None:
         return None
-    rows = []
+    rows: list[list[float]] = []
     for line in lines[start + 2 :]:
         tokens = line.split()
         if not tokens or tokens[0] == "Mode":
@@ -400,10 +400,15 @@ def _check(modes: ModeSet, printed: RamanRows, order: np.ndarray, where: str) ->
     a2, gamma2 = modes.raman_invariants()
     s = inv.activity(a2, gamma2)
     s_printed = printed.activities[order]
-    tol = {"where": where, "atol": INVARIANT_ATOL, "rtol": INVARIANT_RTOL}
-    check_printed("a'^2 (Alpha**2)", a2, printed.a2[order], **tol)
-    check_printed("gamma'^2 (Beta(a)**2)", gamma2, printed.gamma2[order], **tol)
-    check_printed("Raman activity (Pol.Int. + Depol.Int.)", s, s_printed, **tol)
+    checks = (
+        ("a'^2 (Alpha**2)", a2, printed.a2[order]),
+        ("gamma'^2 (Beta(a)**2)", gamma2, printed.gamma2[order]),
+        ("Raman activity (Pol.Int. + Depol.Int.)", s, s_printed),
+    )
+    for quantity, computed, shown in checks:
+        check_printed(
+            quantity, computed, shown, where=where, atol=INVARIANT_ATOL, rtol=INVARIANT_RTOL
+        )
     check_printed_rho(
         a2,
         gamma2,

@@ -350,8 +350,8 @@ def read_sections(
         twin = section(len(starts) - 2)
     except InputFormatError:
         return main, None
-    if twin.high_precision == main.high_precision or len(twin.printed.freqs_cm1) != len(
-        main.printed.freqs_cm1
-    ):
+    twin_freqs, main_freqs = twin.printed.freqs_cm1, main.printed.freqs_cm1
+    assert twin_freqs is not None and main_freqs is not None  # read_section always sets them
+    if twin.high_precision == main.high_precision or len(twin_freqs) != len(main_freqs):
         return main, None
     return main, twin

@@ -266,6 +266,7 @@ def _raman_not_computed(job: GaussianJob) -> bool:
 def _refuse_lost_raman(job: GaussianJob, where: str) -> None:
     """Refuse when a printed activity or ratio overflowed and cannot be recomputed."""
     printed = job.printed
+    assert printed.activity is not None and printed.rho_linear is not None  # has_printed_raman
     lost = [item for item in job.overflow if item.startswith(("Raman activity", "depolarization"))]
     if lost or not (
         np.all(np.isfinite(printed.activity)) and np.all(np.isfinite(printed.rho_linear))
@@ -368,6 +369,7 @@ def _build(job: GaussianJob, where: str) -> ModeSet:
         return dataclasses.replace(modeset, provenance=prov.with_note(note))
     if not has_printed_raman:
         return dataclasses.replace(modeset, provenance=prov.with_note("no Raman data in the file"))
+    assert printed.activity is not None and printed.rho_linear is not None  # has_printed_raman
     a2, gamma2 = inv.invariants_from_activity(printed.activity, printed.rho_linear)
     if printed.rho_natural is not None:
         check_printed(

@@ -306,10 +306,12 @@ def _merge_sections(
             notes.append("printed values from the high-precision block (Freq=HPModes)")
         return main.printed, notes
     hp, usual = (main, twin) if main.high_precision else (twin, main)
+    usual_freqs, hp_freqs = usual.printed.freqs_cm1, hp.printed.freqs_cm1
+    assert usual_freqs is not None and hp_freqs is not None  # read_section always sets them
     check_printed(
         "frequency (cm⁻¹) of the usual block",
-        usual.printed.freqs_cm1,
-        hp.printed.freqs_cm1,
+        usual_freqs,
+        hp_freqs,
         where=where,
         atol=1e-4,
         origin="",
@@ -353,11 +355,12 @@ def parse_gaussian_log(text: str, where: str = "Gaussian log") -> GaussianJob:
     messages = [f"Gaussian printed {message}" for message in program_messages(lines)]
     # the decisive line when the job died: "Error termination ..." if printed
     worst = next((m for m in messages if "Error termination" in m), messages[0] if messages else "")
-    if standard is None and given is None:
+    orientation = standard if standard is not None else given
+    if orientation is None:
         if end == len(lines) and messages:
             raise InputFormatError(f"{where}: no vibrational frequencies; {worst}")
         raise InputFormatError(f"{where}: no geometry (orientation table) before the frequencies")
-    z, coords = standard if standard is not None else given
+    z, coords = orientation
     n = len(z)
     try:
         main, twin = read_sections(lines, n, where)

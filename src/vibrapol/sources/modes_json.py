@@ -43,6 +43,8 @@ def _list(value: np.ndarray | None) -> Any:
 
 def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
     """The JSON-ready dictionary of a ModeSet (schema version 1)."""
+    masses = modes.masses_da
+    assert masses is not None  # a ModeSet fills in default masses
     out: dict[str, Any] = {
         "format": FORMAT_NAME,
         "schema_version": SCHEMA_VERSION,
@@ -53,7 +55,7 @@ def modeset_to_dict(modes: ModeSet) -> dict[str, Any]:
         },
         "atoms": {
             "atomic_numbers": modes.atomic_numbers.tolist(),
-            "masses_da": modes.masses_da.tolist(),
+            "masses_da": masses.tolist(),
             "coordinates_ang": modes.coordinates_ang.tolist(),
         },
         "energy_hartree": modes.energy_hartree,
@@ -92,7 +94,7 @@ def modeset_from_dict(data: dict[str, Any], where: str = "JSON") -> ModeSet:
                 f"(known: {', '.join(known)}); remove it or fix its spelling"
             )
         prov["notes"] = tuple(prov.get("notes", ()))
-        kwargs = {attr: data.get(key) for attr, key in _ARRAY_FIELDS.items()}
+        kwargs: dict[str, Any] = {attr: data.get(key) for attr, key in _ARRAY_FIELDS.items()}
         return ModeSet(
             atomic_numbers=atoms["atomic_numbers"],
             masses_da=atoms.get("masses_da"),

@@ -176,13 +176,14 @@ def _label_row(line: str, header: str, cols: list[int]) -> dict[int, str] | None
     tokens = list(re.finditer(r"\S+", line))
     if not tokens:
         return {}
-    if not all(_IRREP.match(t.group()) for t in tokens):
-        return None
+    labels = [(t.end(), _IRREP.match(t.group())) for t in tokens]
     ends = [m.end() for m in re.finditer(r"\S+", header)]
     out: dict[int, str] = {}
-    for t in tokens:
-        j = int(np.argmin([abs(e - t.end()) for e in ends]))
-        out[cols[j]] = _IRREP.match(t.group()).group(2)  # type: ignore[union-attr]
+    for end, label in labels:
+        if label is None:
+            return None
+        j = int(np.argmin([abs(e - end) for e in ends]))
+        out[cols[j]] = label.group(2)
     return out
 
 

@@ -204,10 +204,10 @@ def vibration_blocks(lines: list[str], title: int, n_atoms: int, where: str) -> 
             if len(tokens) != 1 + 3 * n_here:
                 what = f"expected {3 * n_here} displacements of atom {a + 1}"
                 raise _error(where, i, what, lines, _VIB_BLOCK)
-            values = np.array(floats(" ".join(tokens[1:]), f"{where}: line {i + 1}")).reshape(
+            atom_disp = np.array(floats(" ".join(tokens[1:]), f"{where}: line {i + 1}")).reshape(
                 n_here, 3
             )
-            block[:, 3 * a : 3 * a + 3] = values
+            block[:, 3 * a : 3 * a + 3] = atom_disp
         disp.extend(block)
         i += 1
         if i < len(lines) and lines[i].lstrip().startswith("TransDip"):

@@ -278,10 +278,10 @@ def standard_names(facts: GroupFacts) -> NamedTable:
             else:
                 names[r] = ("B1" if chars[r, cz] > 0 else "B2" if chars[r, cy] > 0 else "B3") + g
         labels[cz], labels[cy], labels[cx] = "C2(z)", "C2(y)", "C2(x)"
-        axes = {"z": facts.axis(cz), "y": facts.axis(cy), "x": facts.axis(cx)}
+        c2_axes = {"z": facts.axis(cz), "y": facts.axis(cy), "x": facts.axis(cx)}
         for c in _find(facts, "σ"):
             normal = facts.axis(c)
-            plane = next(k for k, v in axes.items() if abs(v @ normal) > _PARALLEL)
+            plane = next(k for k, v in c2_axes.items() if abs(v @ normal) > _PARALLEL)
             labels[c] = {"z": "σ(xy)", "y": "σ(xz)", "x": "σ(yz)"}[plane]
     elif family in ("C", "D") and n >= 2 and z is not None:
         if family == "C" and sub == "v":

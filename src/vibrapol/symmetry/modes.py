@@ -361,6 +361,7 @@ def symmetrize_modeset(modes: ModeSet, group: PointGroup) -> ModeSet:
 
     n = modes.n_atoms
     masses = modes.masses_da
+    assert masses is not None  # a ModeSet fills in default masses
     where = modes.provenance.source_file or "mode set"
     if modes.dalpha_dq is None and (modes.a2 is not None or modes.activity is not None):
         raise VibrapolError(

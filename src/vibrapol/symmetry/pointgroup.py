@@ -50,7 +50,7 @@ BOND_FACTOR = 1.2
 
 
 def _species_ids(z: np.ndarray, masses: np.ndarray) -> np.ndarray:
-    keys = {}
+    keys: dict[tuple[int, float], int] = {}
     return np.array(
         [
             keys.setdefault((int(a), round(float(m), 6)), len(keys))

@@ -162,9 +162,10 @@ def _starts(
     items = list(starts)
     if not items:
         raise VibrapolError(f"{spectrum.where}: no starting bands given")
-    if items and isinstance(items[0], BandCandidate):
-        pos = np.array([c.position_cm1 for c in items])
-        fwhm = np.array([c.fwhm_cm1 for c in items])
+    candidates = [c for c in items if isinstance(c, BandCandidate)]
+    if candidates:
+        pos = np.array([c.position_cm1 for c in candidates])
+        fwhm = np.array([c.fwhm_cm1 for c in candidates])
     else:
         pos = np.array(items, dtype=float)
         if fwhm_cm1 is not None:

@@ -170,7 +170,7 @@ def find_bands(
     left = np.interp(props["left_ips"], grid, x)
     right = np.interp(props["right_ips"], grid, x)
     found: list[BandCandidate] = []
-    for k, i in enumerate(idx):
+    for k, i in enumerate(idx.tolist()):
         local = 0.5 * (x[min(i + 1, x.size - 1)] - x[max(i - 1, 0)])
         fwhm = float(right[k] - left[k])
         narrowest = max(MIN_FWHM_POINTS * local, MIN_FWHM_CM1)

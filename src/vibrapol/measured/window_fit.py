@@ -188,10 +188,18 @@ def fit_window(
             r[rows] = (model - yu[c]) / su[c]
         return r, jac
 
+    def residuals(p: np.ndarray) -> np.ndarray:
+        return parts(p, False)[0]
+
+    def jacobian(p: np.ndarray) -> np.ndarray:
+        jac = parts(p, True)[1]
+        assert jac is not None  # parts(p, True) always builds it
+        return jac
+
     res = least_squares(
-        lambda p: parts(p, False)[0],
+        residuals,
         p0,
-        jac=lambda p: parts(p, True)[1],
+        jac=jacobian,
         bounds=(lo_b, hi_b),
         method="trf",
         x_scale="jac",
@@ -199,7 +207,7 @@ def fit_window(
         tr_solver="exact" if m <= EXACT_MAX_ROWS else "lsmr",
     )
     p = res.x
-    r, jac = parts(p, True)
+    r, jac = residuals(p), jacobian(p)
     rr = float(r @ r)
     # J = QR, so JᵀJ = RᵀR: the SVD of the small R gives the pseudo-inverse of JᵀJ as
     # accurately as the SVD of the tall J, for a fraction of the cost.

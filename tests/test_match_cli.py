@@ -45,7 +45,10 @@ def chcl3_files(tmp_path_factory):
 
 
 def rows(text):
-    return list(csv.DictReader(io.StringIO(text)))
+    # the assignment CSV starts with '#' lines stating its conditions
+    return list(csv.DictReader(io.StringIO("".join(
+        line for line in text.splitlines(keepends=True) if not line.startswith("#")
+    ))))  # fmt: skip
 
 
 def test_match_writes_csv_and_figure(chcl3_files, tmp_path, capsys):
@@ -56,6 +59,11 @@ def test_match_writes_csv_and_figure(chcl3_files, tmp_path, capsys):
     assert code == 0
     table = rows(out.read_text())
     assert tuple(table[0]) == ASSIGNMENT_COLUMNS
+    # contract: the file says how it was made (issue: every CSV carries its conditions)
+    head = [line for line in out.read_text().splitlines() if line.startswith("#")]
+    for key in ("# candidate:", "# measured spectra:", "# scale: fitted", "# laser: 532 nm",
+                "# detector:", "# scores:"):  # fmt: skip
+        assert any(line.startswith(key) for line in head), key
     assert len(table) == 7  # six fundamentals and the overtone
     by_pos = {round(float(r["band_cm1"])): r for r in table}
     # species of each published fundamental (Shimanouchi 1972) in the irrep column
@@ -116,7 +124,7 @@ def test_small_basis_gets_the_wider_position_tolerance(chcl3_files, capsys):
     assert main(["match", str(source), "--vv", str(vv), "--vh", str(vh), "--laser-nm", "532"]) == 0
     out = capsys.readouterr().out
     assert "note: position tolerance 0.03" in out and "3-21g basis set is small" in out
-    by_pos = {round(float(r["band_cm1"])): r for r in rows(out[out.index("band_cm1") :])}
+    by_pos = {round(float(r["band_cm1"])): r for r in rows(out[out.index("\nband_cm1,") + 1 :])}
     for f in CHCL3:
         assert by_pos[round(f.position_cm1)]["irrep"] == f.species
     # an explicit tolerance wins, and no note is printed
@@ -138,7 +146,7 @@ def test_match_single_two_column_file_and_fixed_scale(chcl3_files, tmp_path, cap
     assert code == 0
     out = capsys.readouterr().out
     assert "scale factor 0.9000 (given)" in out
-    table = rows(out[out.index("band_cm1") :])
+    table = rows(out[out.index("\nband_cm1,") + 1 :])
     assert [float(r["mode_cm1_scaled"]) for r in table if r["mode"] == "4"] == pytest.approx(
         [0.9 * read_modes(CHCL3_MODES).freqs_cm1[3]], abs=0.01
     )

@@ -402,7 +402,7 @@ def _match_files(
         assignment, pair, title=f"{assignment.label} against the INVENTED measured pair"
     )
     return [
-        ("assignment.csv", assignment_csv(assignment)),
+        ("assignment.csv", assignment_csv(assignment, pair)),
         ("match.svg", figure_bytes(fig, "svg")),
         ("match.png", figure_bytes(fig, "png")),
         ("ranking.txt", ranking_text(ranking)),

@@ -273,9 +273,12 @@ def run(args: argparse.Namespace) -> int:
 
         opts["model"], level_note = model_for_basis(modes.provenance.basis)
     result = assign(cand, bands, pair=pair, **opts)
+    notes = [level_note] if level_note else []
+    if args.laser_nm is None:
+        notes.append(f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm")
     files: list[tuple[str, str | bytes]] = []
     if args.output:
-        files.append((args.output, assignment_csv(result)))
+        files.append((args.output, assignment_csv(result, pair, notes)))
     files += [(p, write(result)) for p, write in zip(args.table, writers, strict=True)]
     if args.figure:
         from vibrapol.plotting_match import match_figure
@@ -291,6 +294,6 @@ def run(args: argparse.Namespace) -> int:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
     text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     if not args.output:
-        text += "\n" + assignment_csv(result)
+        text += "\n" + assignment_csv(result, pair, notes)
     print_stdout(text)
     return 0

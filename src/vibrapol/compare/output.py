@@ -6,9 +6,11 @@ import csv
 import io
 import math
 import os
+from collections.abc import Sequence
 
 from vibrapol.compare.ranking import Ranking
 from vibrapol.compare.results import Assignment
+from vibrapol.measured import PolarizedPair
 
 #: Columns of the assignment CSV, one row per measured band.  ``mode`` holds the 1-based mode
 #: numbers of the assigned computed band (a degenerate set as "4 5") and is empty for a band
@@ -36,9 +38,58 @@ def _num(value: float, fmt: str) -> str:
     return format(value, fmt) if math.isfinite(value) else ""
 
 
-def assignment_csv(assignment: Assignment) -> str:
-    """One row per measured band with the columns of :data:`ASSIGNMENT_COLUMNS`."""
+def assignment_conditions(
+    assignment: Assignment, pair: PolarizedPair | None = None, notes: Sequence[str] = ()
+) -> list[tuple[str, str]]:
+    """(name, value) pairs saying how an assignment was made, for file headers."""
+    s, fit = assignment.scores, assignment.scale
+    how = (
+        f"fitted, {fit.factor:.4f} ± {fit.factor_err:.4f}"
+        + (f" (started from {fit.start:.4f}: {fit.start_note})" if fit.start_note else "")
+        if fit.fitted
+        else f"fixed at {fit.factor:.4f}" + (f" ({fit.start_note})" if fit.start_note else "")
+    )
+    items = [
+        ("vibrapol", "assignment of computed modes to measured bands"),
+        ("candidate", assignment.label),
+        ("measured", ", ".join(assignment.measured.source_files) or "(in memory)"),
+    ]
+    if pair is not None:
+        steps = list(dict.fromkeys((*pair.vv.notes, *(pair.vh.notes if pair.vh else ()))))
+        items.append(("measured spectra", "; ".join(steps) or "as read, no cleaning recorded"))
+    items.append(("scale", how))
+    items += [(k, v) for k, v in assignment.sticks.conditions.items() if k != "scale"]
+    items += [("note", n) for n in notes]
+    items.append(
+        (
+            "scores",
+            f"{s.n_assigned}/{s.n_bands} bands assigned, rms {s.rms_cm1:.1f} cm-1, "
+            f"overall {s.overall:.3f}",
+        )
+    )
+    items.append(
+        (
+            "columns",
+            "band_cm1, mode_cm1_scaled, mode_cm1_harmonic, delta_cm1 in cm-1 (mode_cm1_scaled = "
+            "harmonic x scale); rho for 90 deg scattering, linearly polarized excitation",
+        )
+    )
+    return items
+
+
+def assignment_csv(
+    assignment: Assignment, pair: PolarizedPair | None = None, notes: Sequence[str] = ()
+) -> str:
+    """``#`` lines with the conditions, then one row per measured band.
+
+    The columns are :data:`ASSIGNMENT_COLUMNS`; the ``#`` lines
+    (:func:`assignment_conditions`: candidate, measured files and the cleaning applied, scale
+    factor and how it was found, laser, temperature, detector, scores) are skipped by
+    ``pandas.read_csv(comment="#")``.
+    """
     buf = io.StringIO()
+    for key, value in assignment_conditions(assignment, pair, notes):
+        buf.write(f"# {key}: {' '.join(str(value).split())}\n")
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(ASSIGNMENT_COLUMNS)
     for b in assignment.bands:

@@ -29,7 +29,7 @@ from time import perf_counter
 from typing import TYPE_CHECKING
 
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.fileio import check_writable, write_all
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable
 
@@ -290,10 +290,13 @@ def run_demo(
     out = prepare_output_dir(output_dir, [n for n, _ in planned], force)
     what = dict(planned)
     written: list[tuple[Path, str]] = []
+    pending: list[tuple[str | Path, str | bytes]] = []
 
     def write(name: str, data: str | bytes) -> None:
-        path = write_atomic(out / name, data, force=force)
-        written.append((path, what[name]))
+        # Collected and written together at the end, all or nothing (the engine's modes files
+        # and checkpoints are written as they are computed, so that a rerun resumes).
+        pending.append((out / name, data))
+        written.append((out / name, what[name]))
 
     n_steps = 5
     modes: dict[str, ModeSet] = {}
@@ -320,7 +323,7 @@ def run_demo(
 
     log(f"[4/{n_steps}] measured VV/VH pair (INVENTED data): spikes, baseline, band fit")
     write(MEASURED_COPY, data_path(scenario.measured).read_text(encoding="utf-8"))
-    pair = measured.read_pair(out / MEASURED_COPY)
+    pair = measured.read_pair(data_path(scenario.measured))
     pair, _, _ = measured.clean_pair(pair)
     bands = measured.measure_bands(pair)
     candidates = [
@@ -351,6 +354,7 @@ def run_demo(
     )
     text = summary_text(result, scenario, [*written, (out / "summary.txt", what["summary.txt"])])
     write("summary.txt", f"{text}\n{CAUTION}\n")
+    write_all(pending, force=force)
     return dataclasses.replace(
         result, files=tuple(written), summary=text, seconds_wall=perf_counter() - t_start
     )

@@ -113,9 +113,11 @@ def test_match_with_windows_line_endings(tmp_path, capsys):
         argv = ["match", str(CHCL3_MODES), "--vv", files[0], "--vh", files[1], "-o", str(out)]
         assert main(argv) == 0
         capsys.readouterr()
-        results[variant] = out.read_text()
+        # the '#' header names the measured files, which sit in different folders
+        results[variant] = out.read_text().replace(str(d), "DIR")
     assert results["crlf"] == results["lf"]
-    assert results["lf"].count("\n") == 8  # header, six fundamentals and the overtone
+    rows = [line for line in results["lf"].splitlines() if not line.startswith("#")]
+    assert len(rows) == 8  # header, six fundamentals and the overtone
 
 
 @pytest.mark.parametrize("variant", ["crlf", "cr", "utf8-bom", "utf16", "utf16-be"])

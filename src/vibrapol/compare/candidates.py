@@ -22,8 +22,7 @@ from vibrapol.conformers import (
 )
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
-from vibrapol.ramantable import RamanTable, raman_table
-from vibrapol.ramantable import symmetry_table as labelled_table
+from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 from vibrapol.scaling import FrequencyScale, lookup_factor
 from vibrapol.spectrum import StickSpectrum, stick_spectrum
 
@@ -65,15 +64,15 @@ def published_scale(modes: ModeSet) -> FrequencyScale | None:
     return FrequencyScale.published(f"{method}/{basis}")
 
 
-def symmetry_table(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
-    """Raman table with symmetry species and degenerate sets from the point group.
+def _table_and_note(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
+    """:func:`vibrapol.ramantable.symmetry_table` and a note for the candidate.
 
-    :func:`vibrapol.ramantable.symmetry_table` plus a note; when the point group cannot be
-    found, the table has no species and degenerate sets come from frequencies (with a warning).
+    When the point group cannot be found, the table has no species and degenerate sets come
+    from frequencies (with a warning).
     """
     where = modes.provenance.source_file or "mode set"
     try:
-        sym_modes, table = labelled_table(modes)
+        sym_modes, table = symmetry_table(modes)
     except (VibrapolError, ValueError) as exc:
         warnings.warn(
             f"{where}: no symmetry species ({exc}); degenerate sets from frequencies",
@@ -96,7 +95,7 @@ def _sticks(
     detector: str = "photon",
 ) -> tuple[StickSpectrum, str, str]:
     if symmetry:
-        modes, table, note = symmetry_table(modes)
+        modes, table, note = _table_and_note(modes)
     else:
         table, note = raman_table(modes), "symmetry not used"
     quantity = "intensity" if modes.has_raman or modes.activity is not None else "activity"

@@ -14,12 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.conformers import (
-    boltzmann_weights,
-    check_conformers,
-    mixture,
-    source_energies_kjmol,
-)
+from vibrapol.conformers import conformer_weights, mixture
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
@@ -183,14 +178,14 @@ def mixture_candidate(
     """
     if not modesets:
         raise VibrapolError("a mixture candidate needs at least one conformer")
-    check_conformers(modesets, overlay_hint="separate SOURCE arguments (one candidate each)")
-    if relative_energies_kjmol is None:
-        relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
-    elif len(relative_energies_kjmol) != len(modesets):
-        raise VibrapolError(
-            f"give one energy per conformer ({len(modesets)}), got {len(relative_energies_kjmol)}"
-        )
-    weights = boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
+    weights = conformer_weights(
+        modesets,
+        relative_energies_kjmol,
+        temperature_k,
+        degeneracies=degeneracies,
+        include_zero_point=include_zero_point,
+        overlay_hint="separate SOURCE arguments (one candidate each)",
+    )
     names = (
         list(labels)
         if labels is not None

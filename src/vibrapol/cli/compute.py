@@ -24,8 +24,8 @@ from vibrapol.engine.compute import (
     DEFAULT_FIELD_AU,
     DEFAULT_STEP_ANG,
     BatchItem,
+    EngineSettings,
     as_structure,
-    engine_settings,
     run_batch,
 )
 from vibrapol.engine.estimate import (
@@ -215,7 +215,7 @@ def run(args: argparse.Namespace) -> int:
     Returns 0 when every structure succeeded, 2 when any failed (each failure one line), 130
     when interrupted (Ctrl-C or SIGTERM; finished tasks stay in the checkpoints).
     """
-    settings = engine_settings(
+    settings = EngineSettings(
         args.method,
         args.basis,
         charge=args.charge,

@@ -158,9 +158,9 @@ def conformer_weights(
     modesets: Sequence[ModeSet],
     relative_energies_kjmol: Sequence[float] | np.ndarray | None,
     temperature_k: float,
-    *,
     degeneracies: Sequence[float] | None = None,
     include_zero_point: bool = False,
+    *,
     overlay_hint: str = "--overlay",
 ) -> np.ndarray:
     """Boltzmann population of each conformer, after checking they are conformers.
@@ -247,11 +247,7 @@ def conformer_spectrum(
         Passed to :func:`vibrapol.spectrum.stick_spectrum` (the temperature is passed too).
     """
     weights = conformer_weights(
-        modesets,
-        relative_energies_kjmol,
-        temperature_k,
-        degeneracies=degeneracies,
-        include_zero_point=include_zero_point,
+        modesets, relative_energies_kjmol, temperature_k, degeneracies, include_zero_point
     )
     labels = list(labels) if labels is not None else [m.provenance.source_file for m in modesets]
     spectra = [

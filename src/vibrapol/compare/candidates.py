@@ -178,13 +178,14 @@ def mixture_candidate(
     """
     if not modesets:
         raise VibrapolError("a mixture candidate needs at least one conformer")
+    hint = "separate SOURCE arguments (one candidate each)"
     weights = conformer_weights(
         modesets,
         relative_energies_kjmol,
         temperature_k,
-        degeneracies=degeneracies,
-        include_zero_point=include_zero_point,
-        overlay_hint="separate SOURCE arguments (one candidate each)",
+        degeneracies,
+        include_zero_point,
+        overlay_hint=hint,
     )
     names = (
         list(labels)

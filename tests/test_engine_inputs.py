@@ -88,3 +88,30 @@ def test_the_basis_is_checked_quietly_element_by_element(capfd):
         build_molecule(z, np.array([[0, 0, 0], [0, 0, 2.5]]), MethodSpec("hf", "6-31g*"))
     captured = capfd.readouterr()
     assert captured.out == "" and captured.err == ""  # PySCF's own messages are not shown
+
+
+def test_engine_settings_hold_the_defaults_and_checks_of_compute_modes():
+    # Contract: the settings object is the one source of the engine's keyword defaults and
+    # checks; compute_modes documents the same defaults.
+    import inspect
+
+    from vibrapol.engine.compute import DEFAULT_STEP_ANG, EngineSettings, compute_modes
+    from vibrapol.errors import ShapeError
+
+    s = EngineSettings()
+    assert (s.method, s.basis, s.route, s.step_ang) == (
+        "hf",
+        "6-31g*",
+        "cartesian",
+        DEFAULT_STEP_ANG,
+    )
+    assert s.spec.label() == "HF/6-31g*"
+    assert EngineSettings("B3LYP", "STO-3G", route="normal").route == "normal-mode"
+    assert EngineSettings("B3LYP", "STO-3G").spec.method == "b3lyp"
+    doc = inspect.getdoc(compute_modes) or ""
+    for name in ("charge", "optimize", "step_ang", "route", "field_au", "symmetry", "cartesian_d"):
+        assert name in doc
+    with pytest.raises(ShapeError, match="field strength"):
+        EngineSettings(field_au=0.1)
+    with pytest.raises(ShapeError, match="displacement step"):
+        EngineSettings(step_ang=0.0)

@@ -121,7 +121,7 @@ def test_symmetrize_cannot_go_with_no_symmetry(capsys):
 def test_library_paths_keep_the_source_modes():
     # spectrum, match and rank label modes through symmetry_table: by default the modes that
     # come back are the ones given (contract: no averaging unless asked).
-    from vibrapol.compare import symmetry_table as candidate_table
+    from vibrapol.compare import candidate_from_modes
 
     modes = read_modes(qc_output(ORCA6))
     with pytest.warns(AccuracyWarning, match="look mixed"):
@@ -132,8 +132,8 @@ def test_library_paths_keep_the_source_modes():
     np.testing.assert_array_equal(table.a2, a2)
     np.testing.assert_array_equal(table.activity, 45 * a2 + 7 * g2)
     with pytest.warns(AccuracyWarning):
-        again, _, note = candidate_table(modes)
-    assert again is modes and "symmetrized" not in note
+        candidate = candidate_from_modes(modes)
+    assert candidate.notes == (f"point group {table.point_group}",)  # not "(modes symmetrized)"
 
 
 # -- §2: warnings reach CSV and JSON -----------------------------------------------------------

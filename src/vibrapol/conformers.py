@@ -45,7 +45,9 @@ def formula(modes: ModeSet) -> str:
     return "".join(f"{k}{counts[k] if counts[k] > 1 else ''}" for k in order)
 
 
-def check_conformers(modesets: Sequence[ModeSet], overlay_hint: str = "--overlay") -> None:
+def check_conformers(
+    modesets: Sequence[ModeSet], overlay_hint: str = "--overlay", *, stacklevel: int = 3
+) -> None:
     """Refuse a Boltzmann mixture of sources that are not conformers at one level of theory.
 
     Parameters
@@ -53,6 +55,8 @@ def check_conformers(modesets: Sequence[ModeSet], overlay_hint: str = "--overlay
     modesets : sequence of ModeSet
     overlay_hint : str
         How the user overlays different molecules instead (named in the message).
+    stacklevel : int
+        Passed to :func:`warnings.warn` (3: the caller of the function that calls this one).
 
     Raises
     ------
@@ -82,7 +86,7 @@ def check_conformers(modesets: Sequence[ModeSet], overlay_hint: str = "--overlay
                 f"{name}: no method/basis recorded, so the conformers' level of theory could "
                 "not be compared",
                 AccuracyWarning,
-                stacklevel=3,
+                stacklevel=stacklevel,
             )
             continue
         levels.append(
@@ -148,6 +152,31 @@ def source_energies_kjmol(
         energies.append(e + (zero_point_kjmol(m) if include_zero_point else 0.0))
     relative = np.array(energies)
     return relative - relative.min()
+
+
+def conformer_weights(
+    modesets: Sequence[ModeSet],
+    relative_energies_kjmol: Sequence[float] | np.ndarray | None,
+    temperature_k: float,
+    degeneracies: Sequence[float] | None = None,
+    include_zero_point: bool = False,
+    *,
+    overlay_hint: str = "--overlay",
+) -> np.ndarray:
+    """Boltzmann population of each conformer, after checking they are conformers.
+
+    :func:`check_conformers`, then the energies (given, one per conformer, or
+    :func:`source_energies_kjmol` from the sources), then :func:`boltzmann_weights`.
+    Warnings name the caller of the function that calls this one.
+    """
+    check_conformers(modesets, overlay_hint=overlay_hint, stacklevel=4)
+    if relative_energies_kjmol is None:
+        relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
+    elif len(relative_energies_kjmol) != len(modesets):
+        raise VibrapolError(
+            f"give one energy per conformer ({len(modesets)}), got {len(relative_energies_kjmol)}"
+        )
+    return boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
 
 
 def mixture(
@@ -217,14 +246,9 @@ def conformer_spectrum(
     **stick_options
         Passed to :func:`vibrapol.spectrum.stick_spectrum` (the temperature is passed too).
     """
-    check_conformers(modesets)
-    if relative_energies_kjmol is None:
-        relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
-    elif len(relative_energies_kjmol) != len(modesets):
-        raise VibrapolError(
-            f"give one energy per conformer ({len(modesets)}), got {len(relative_energies_kjmol)}"
-        )
-    weights = boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
+    weights = conformer_weights(
+        modesets, relative_energies_kjmol, temperature_k, degeneracies, include_zero_point
+    )
     labels = list(labels) if labels is not None else [m.provenance.source_file for m in modesets]
     spectra = [
         stick_spectrum(m, temperature_k=temperature_k, label=lab, **stick_options)

@@ -28,6 +28,24 @@ from pathlib import Path
 from vibrapol.errors import VibrapolError
 from vibrapol.textio import inputs_read
 
+#: Figure formats vibrapol writes, named by the file suffix.
+FIGURE_FORMATS = ("png", "svg", "pdf")
+
+
+def figure_format(path: str | os.PathLike[str]) -> str:
+    """Format of a figure file from its suffix (``png``, ``svg`` or ``pdf``, any case).
+
+    Raises
+    ------
+    VibrapolError
+        If the name does not end in one of the figure suffixes.
+    """
+    name = os.fspath(path)
+    fmt = name.rsplit(".", 1)[-1].lower() if "." in name else ""
+    if fmt not in FIGURE_FORMATS:
+        raise VibrapolError(f"{name}: figure files must end in .png, .svg or .pdf")
+    return fmt
+
 
 def _oserror(p: str | Path, exc: OSError, doing: str = "cannot be written") -> VibrapolError:
     if exc.errno == errno.ENAMETOOLONG:

@@ -36,7 +36,7 @@ SHAPES = ("lorentzian", "gaussian", "voigt")
 MAX_FWHM_CM1 = 1.0e4
 
 
-def lorentzian(x: np.ndarray, center: np.ndarray, fwhm: np.ndarray) -> np.ndarray:
+def lorentzian(x: np.ndarray, center: np.ndarray | float, fwhm: np.ndarray | float) -> np.ndarray:
     """Area-normalised Lorentzian (Cauchy) profile.
 
     L(x) = (Γ/2π) / ((x − x₀)² + (Γ/2)²) with Γ the FWHM; ∫L dx = 1.
@@ -47,7 +47,7 @@ def lorentzian(x: np.ndarray, center: np.ndarray, fwhm: np.ndarray) -> np.ndarra
     return hw / np.pi / (d**2 + hw**2)
 
 
-def gaussian(x: np.ndarray, center: np.ndarray, fwhm: np.ndarray) -> np.ndarray:
+def gaussian(x: np.ndarray, center: np.ndarray | float, fwhm: np.ndarray | float) -> np.ndarray:
     """Area-normalised Gaussian profile with σ = FWHM / (2√(2 ln 2)); ∫G dx = 1."""
     sigma = np.asarray(fwhm, dtype=float) / GAUSS_FWHM_PER_SIGMA
     d = np.asarray(x, dtype=float) - np.asarray(center, dtype=float)

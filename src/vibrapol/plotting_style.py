@@ -18,7 +18,7 @@ from matplotlib.figure import Figure
 from matplotlib.layout_engine import ConstrainedLayoutEngine
 
 from vibrapol.errors import VibrapolError
-from vibrapol.fileio import check_writable, write_atomic
+from vibrapol.fileio import FIGURE_FORMATS, check_writable, figure_format, write_atomic
 
 if TYPE_CHECKING:
     from matplotlib.typing import RcKeyType
@@ -130,7 +130,7 @@ def format_irrep(label: str) -> str:
 
 def figure_bytes(fig: Figure, fmt: str, dpi: int = 300) -> bytes:
     """The figure rendered as ``png``, ``svg`` or ``pdf`` (reproducible: no dates embedded)."""
-    if fmt not in ("png", "svg", "pdf"):
+    if fmt not in FIGURE_FORMATS:
         raise VibrapolError(f"figure format must be png, svg or pdf, got {fmt!r}")
     meta = {"png": {"Software": None}, "svg": {"Date": None}, "pdf": {"CreationDate": None}}[fmt]
     buf = io.BytesIO()
@@ -142,8 +142,6 @@ def figure_bytes(fig: Figure, fmt: str, dpi: int = 300) -> bytes:
 def save_figure(fig: Figure, path: str | Path, *, force: bool = False, dpi: int = 300) -> Path:
     """Write the figure to ``path`` (format from the suffix .png/.svg/.pdf) atomically."""
     p = Path(path)
-    fmt = p.suffix.lower().lstrip(".")
-    if fmt not in ("png", "svg", "pdf"):
-        raise VibrapolError(f"{p}: figure files must end in .png, .svg or .pdf")
+    fmt = figure_format(p)
     check_writable(p, force)
     return write_atomic(p, figure_bytes(fig, fmt, dpi), force=force)

@@ -14,6 +14,7 @@ refused while the first holds its lock (NAME.modes.checkpoint.sqlite.lock).
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import sys
 from contextlib import ExitStack
 from pathlib import Path
@@ -24,8 +25,8 @@ from vibrapol.engine.compute import (
     DEFAULT_FIELD_AU,
     DEFAULT_STEP_ANG,
     BatchItem,
+    EngineSettings,
     as_structure,
-    engine_settings,
     run_batch,
 )
 from vibrapol.engine.estimate import (
@@ -209,24 +210,20 @@ def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
     return check_outputs(outputs, args.force, inputs=files)
 
 
+def settings_from_args(args: argparse.Namespace) -> EngineSettings:
+    """The engine settings from the options named as its fields (``--use-symmetry``: symmetry)."""
+    options = {f.name: f.name for f in dataclasses.fields(EngineSettings) if f.init}
+    options["symmetry"] = "use_symmetry"
+    return EngineSettings(**{field: getattr(args, option) for field, option in options.items()})
+
+
 def run(args: argparse.Namespace) -> int:
     """Read the structures, run the engine on them together, write each modes file atomically.
 
     Returns 0 when every structure succeeded, 2 when any failed (each failure one line), 130
     when interrupted (Ctrl-C or SIGTERM; finished tasks stay in the checkpoints).
     """
-    settings = engine_settings(
-        args.method,
-        args.basis,
-        charge=args.charge,
-        multiplicity=args.multiplicity,
-        optimize=args.optimize,
-        step_ang=args.step_ang,
-        route=args.route,
-        field_au=args.field_au,
-        symmetry=args.use_symmetry,
-        cartesian_d=args.cartesian_d,
-    )
+    settings = settings_from_args(args)
     if args.scheduler:
         check_scheduler_address(args.scheduler)
     files = structure_files(args.structures)

@@ -136,14 +136,6 @@ def table_writer(path: str):  # noqa: ANN201
     return PAPER_TABLES[suffix]
 
 
-def figure_format(path: str) -> str:
-    """Format of a figure file from its suffix."""
-    fmt = path.rsplit(".", 1)[-1].lower() if "." in path else ""
-    if fmt not in ("png", "svg", "pdf"):
-        raise VibrapolError(f"{path}: figure files must end in .png, .svg or .pdf")
-    return fmt
-
-
 def measure(args: argparse.Namespace):  # noqa: ANN201
     """Read, crop, clean and fit the measured pair: (cleaned pair, MeasuredBands)."""
     from vibrapol import measured
@@ -257,7 +249,7 @@ def run(args: argparse.Namespace) -> int:
 
     outputs = [p for p in [args.output, *args.figure, *args.table] if p]
     check_outputs(args, outputs)
-    formats = [figure_format(p) for p in args.figure]
+    formats = [fileio.figure_format(p) for p in args.figure]
     writers = [table_writer(p) for p in args.table]
     opts = assign_options(args)
     modes = read_modes(args.source, kind=args.kind)

@@ -27,6 +27,7 @@ from vibrapol.cli._options import (
 )
 from vibrapol.cli._renamed import add_renamed
 from vibrapol.errors import VibrapolError
+from vibrapol.fileio import figure_format
 from vibrapol.lineshapes import SHAPES, LineShape
 from vibrapol.quantities import DETECTORS, QUANTITY_UNITS
 from vibrapol.scaling import NO_SCALE, FrequencyScale
@@ -319,7 +320,7 @@ def run(args: argparse.Namespace) -> int:
     """Compute the spectrum and write every requested output (all or nothing)."""
     check_output(args, args.sticks, *args.figure, *args.rho_figure)
     for path in [*args.figure, *args.rho_figure]:
-        _suffix(path)
+        figure_format(path)
     if args.top < 0:
         raise VibrapolError(f"--top must be 0 or more, got {args.top}")
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
@@ -357,19 +358,12 @@ def run(args: argparse.Namespace) -> int:
                 label_count=0 if overlaid else args.top,
                 sticks=not overlaid,
             )
-            outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.figure]
+            outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.figure]
         if args.rho_figure:
             fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)
-            outputs += [(p, plotting.figure_bytes(fig, _suffix(p))) for p in args.rho_figure]
+            outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.rho_figure]
     text = spectrum_io.grid_csv(grid) if args.format == "csv" else spectrum_io.grid_json(grid)
     write_outputs(args, [*outputs, (args.output, text)])  # all or nothing
     if not args.output:
         print_stdout(text)
     return 0
-
-
-def _suffix(path: str) -> str:
-    fmt = path.rsplit(".", 1)[-1].lower() if "." in path else ""
-    if fmt not in ("png", "svg", "pdf"):
-        raise VibrapolError(f"{path}: figure files must end in .png, .svg or .pdf")
-    return fmt

@@ -26,6 +26,7 @@ from vibrapol.cli.spectrum import (
     scale_from_args,
 )
 from vibrapol.errors import VibrapolError
+from vibrapol.fileio import figure_format
 from vibrapol.sources import read_modes
 from vibrapol.sweep import polar_sweep
 
@@ -183,12 +184,7 @@ def check_bands_found(wanted_cm1: list[float], found_cm1: np.ndarray) -> None:
 def run(args: argparse.Namespace) -> int:
     """Compute the sweep and write the table (and the figure)."""
     check_output(args, *args.figure)
-    formats = []
-    for path in args.figure:
-        fmt = path.rsplit(".", 1)[-1].lower()
-        if fmt not in ("png", "svg", "pdf"):
-            raise VibrapolError(f"{path}: figure files must end in .png, .svg or .pdf")
-        formats.append(fmt)
+    formats = [figure_format(path) for path in args.figure]
     orientation = orientation_from_args(args)
     angles = parse_angles(args.angles_deg)
     modes = read_modes(args.source, kind=args.kind)

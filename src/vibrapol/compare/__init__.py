@@ -34,7 +34,6 @@ from vibrapol.compare.candidates import (
     candidate_from_modes,
     mixture_candidate,
     published_scale,
-    symmetry_table,
 )
 from vibrapol.compare.costs import MEASURED_POLARIZED_MARGIN, CostModel, measured_polarized
 from vibrapol.compare.ranking import Ranking, rank
@@ -58,5 +57,4 @@ __all__ = [
     "published_scale",
     "rank",
     "spectral_similarity",
-    "symmetry_table",
 ]

@@ -14,16 +14,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.conformers import (
-    boltzmann_weights,
-    check_conformers,
-    mixture,
-    source_energies_kjmol,
-)
+from vibrapol.conformers import conformer_weights, mixture
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
-from vibrapol.ramantable import RamanTable, raman_table
-from vibrapol.ramantable import symmetry_table as labelled_table
+from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 from vibrapol.scaling import FrequencyScale, lookup_factor
 from vibrapol.spectrum import StickSpectrum, stick_spectrum
 
@@ -65,15 +59,15 @@ def published_scale(modes: ModeSet) -> FrequencyScale | None:
     return FrequencyScale.published(f"{method}/{basis}")
 
 
-def symmetry_table(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
-    """Raman table with symmetry species and degenerate sets from the point group.
+def _table_and_note(modes: ModeSet) -> tuple[ModeSet, RamanTable, str]:
+    """:func:`vibrapol.ramantable.symmetry_table` and a note for the candidate.
 
-    :func:`vibrapol.ramantable.symmetry_table` plus a note; when the point group cannot be
-    found, the table has no species and degenerate sets come from frequencies (with a warning).
+    When the point group cannot be found, the table has no species and degenerate sets come
+    from frequencies (with a warning).
     """
     where = modes.provenance.source_file or "mode set"
     try:
-        sym_modes, table = labelled_table(modes)
+        sym_modes, table = symmetry_table(modes)
     except (VibrapolError, ValueError) as exc:
         warnings.warn(
             f"{where}: no symmetry species ({exc}); degenerate sets from frequencies",
@@ -96,7 +90,7 @@ def _sticks(
     detector: str = "photon",
 ) -> tuple[StickSpectrum, str, str]:
     if symmetry:
-        modes, table, note = symmetry_table(modes)
+        modes, table, note = _table_and_note(modes)
     else:
         table, note = raman_table(modes), "symmetry not used"
     quantity = "intensity" if modes.has_raman or modes.activity is not None else "activity"
@@ -184,14 +178,15 @@ def mixture_candidate(
     """
     if not modesets:
         raise VibrapolError("a mixture candidate needs at least one conformer")
-    check_conformers(modesets, overlay_hint="separate SOURCE arguments (one candidate each)")
-    if relative_energies_kjmol is None:
-        relative_energies_kjmol = source_energies_kjmol(modesets, include_zero_point)
-    elif len(relative_energies_kjmol) != len(modesets):
-        raise VibrapolError(
-            f"give one energy per conformer ({len(modesets)}), got {len(relative_energies_kjmol)}"
-        )
-    weights = boltzmann_weights(relative_energies_kjmol, temperature_k, degeneracies)
+    hint = "separate SOURCE arguments (one candidate each)"
+    weights = conformer_weights(
+        modesets,
+        relative_energies_kjmol,
+        temperature_k,
+        degeneracies,
+        include_zero_point,
+        overlay_hint=hint,
+    )
     names = (
         list(labels)
         if labels is not None

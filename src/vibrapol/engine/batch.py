@@ -22,11 +22,12 @@ import numpy as np
 from vibrapol.engine.checkpoint import CheckpointStore, StoreRouter
 from vibrapol.engine.executors import choose_workers, open_backend
 from vibrapol.engine.optimize import OptimizationResult
-from vibrapol.engine.prepare import EngineSettings, Prepared, assemble, prepare
+from vibrapol.engine.prepare import Prepared, assemble, prepare
 from vibrapol.engine.progress import Progress, want_progress
 from vibrapol.engine.routes import task_seconds
 from vibrapol.engine.runner import TaskStats, run_tasks
 from vibrapol.engine.scf import EngineInputError, build_molecule, transition_metal_note
+from vibrapol.engine.settings import EngineSettings
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet, default_masses
 from vibrapol.structure import check_structure

@@ -21,12 +21,10 @@ from vibrapol.engine.batch import (
     as_structure,
     run_batch,
 )
-from vibrapol.engine.displacements import check_step
 from vibrapol.engine.fieldplan import DEFAULT_FIELD_AU
-from vibrapol.engine.prepare import EngineSettings
-from vibrapol.engine.routes import ROUTES, normalize_route
-from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, MethodSpec
-from vibrapol.errors import ShapeError
+from vibrapol.engine.routes import ROUTES
+from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD
+from vibrapol.engine.settings import DEFAULT_STEP_ANG, EngineSettings
 from vibrapol.modeset import ModeSet
 
 __all__ = [
@@ -36,6 +34,7 @@ __all__ = [
     "BatchItem",
     "BatchOutcome",
     "EngineRun",
+    "EngineSettings",
     "Structure",
     "as_structure",
     "compute_modes",
@@ -44,32 +43,12 @@ __all__ = [
     "run_engine",
 ]
 
-#: Default displacement (Å): activities change ≤ 3e-4 relative between 0.001 and 0.01 Å with
-#: errors ∝ h², so 0.005 Å is far from both truncation and SCF noise.
-DEFAULT_STEP_ANG = 0.005
-
 
 def engine_settings(
-    method: str = DEFAULT_METHOD,
-    basis: str = DEFAULT_BASIS,
-    *,
-    charge: int = 0,
-    multiplicity: int = 1,
-    optimize: bool = True,
-    step_ang: float = DEFAULT_STEP_ANG,
-    route: str = "cartesian",
-    field_au: float = DEFAULT_FIELD_AU,
-    symmetry: bool = True,
-    cartesian_d: bool = False,
+    method: str = DEFAULT_METHOD, basis: str = DEFAULT_BASIS, **options: Any
 ) -> EngineSettings:
-    """Checked :class:`~vibrapol.engine.prepare.EngineSettings` (see :func:`compute_modes`)."""
-    spec = MethodSpec(method, basis, int(charge), int(multiplicity), bool(cartesian_d))
-    check_step(step_ang)
-    if not 0.0 < float(field_au) <= 0.05:
-        raise ShapeError(f"field strength must be in (0, 0.05] au, got {field_au}")
-    return EngineSettings(
-        spec, bool(optimize), float(step_ang), normalize_route(route), float(field_au), symmetry
-    )
+    """Checked :class:`~vibrapol.engine.settings.EngineSettings` (see :func:`compute_modes`)."""
+    return EngineSettings(method, basis, **options)
 
 
 def run_engine(
@@ -77,34 +56,21 @@ def run_engine(
     method: str = DEFAULT_METHOD,
     basis: str = DEFAULT_BASIS,
     *,
-    charge: int = 0,
-    multiplicity: int = 1,
-    optimize: bool = True,
-    step_ang: float = DEFAULT_STEP_ANG,
-    route: str = "cartesian",
-    field_au: float = DEFAULT_FIELD_AU,
-    symmetry: bool = True,
     masses_da: np.ndarray | None = None,
-    cartesian_d: bool = False,
     workers: int | None = 1,
     scheduler: str | None = None,
     checkpoint: str | Path | None = None,
     fresh: bool = False,
     progress: bool | None = None,
+    **options: Any,
 ) -> EngineRun:
-    """:func:`compute_modes` with the run's statistics (see there for the parameters)."""
-    settings = engine_settings(
-        method,
-        basis,
-        charge=charge,
-        multiplicity=multiplicity,
-        optimize=optimize,
-        step_ang=step_ang,
-        route=route,
-        field_au=field_au,
-        symmetry=symmetry,
-        cartesian_d=cartesian_d,
-    )
+    """:func:`compute_modes` with the run's statistics (see there for the parameters).
+
+    ``options`` are the other fields of :class:`~vibrapol.engine.settings.EngineSettings`
+    (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
+    ``symmetry``, ``cartesian_d``).
+    """
+    settings = EngineSettings(method, basis, **options)
     item = BatchItem(atoms, "structure", checkpoint, masses_da)
     (outcome,) = run_batch(
         [item],
@@ -123,21 +89,7 @@ def compute_modes(
     atoms: Any,
     method: str = DEFAULT_METHOD,
     basis: str = DEFAULT_BASIS,
-    *,
-    charge: int = 0,
-    multiplicity: int = 1,
-    optimize: bool = True,
-    step_ang: float = DEFAULT_STEP_ANG,
-    route: str = "cartesian",
-    field_au: float = DEFAULT_FIELD_AU,
-    symmetry: bool = True,
-    masses_da: np.ndarray | None = None,
-    cartesian_d: bool = False,
-    workers: int | None = 1,
-    scheduler: str | None = None,
-    checkpoint: str | Path | None = None,
-    fresh: bool = False,
-    progress: bool | None = None,
+    **options: Any,
 ) -> ModeSet:
     """Frequencies, normal modes and polarizability derivatives of a molecule, from scratch.
 
@@ -201,22 +153,4 @@ def compute_modes(
     EngineConvergenceError
         An SCF or the optimisation did not converge.
     """
-    return run_engine(
-        atoms,
-        method,
-        basis,
-        charge=charge,
-        multiplicity=multiplicity,
-        optimize=optimize,
-        step_ang=step_ang,
-        route=route,
-        field_au=field_au,
-        symmetry=symmetry,
-        masses_da=masses_da,
-        cartesian_d=cartesian_d,
-        workers=workers,
-        scheduler=scheduler,
-        checkpoint=checkpoint,
-        fresh=fresh,
-        progress=progress,
-    ).modes
+    return run_engine(atoms, method, basis, **options).modes

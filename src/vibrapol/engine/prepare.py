@@ -30,41 +30,15 @@ from vibrapol.engine.routes import (
 from vibrapol.engine.scf import (
     SCF_CONV_TOL,
     SCF_CONV_TOL_GRAD,
-    MethodSpec,
     transition_metal_note,
 )
+from vibrapol.engine.settings import EngineSettings
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
 
 #: A symmetrized geometry closer than this to the given one is taken as the given one, so that
 #: a rerun on an already symmetric geometry finds its checkpointed stages.
 SAME_GEOMETRY_ANG = 1e-10
-
-
-@dataclass(frozen=True)
-class EngineSettings:
-    """What every molecule of a run shares.
-
-    Attributes
-    ----------
-    spec : MethodSpec
-    optimize : bool
-    step_ang : float
-        Displacement of the Cartesian and normal-mode routes.
-    route : str
-        ``auto``, ``cartesian``, ``normal-mode`` or ``field``.
-    field_au : float
-        Field strength of the field route.
-    symmetry : bool
-        Find the point group, impose it on the geometry and use it to cut the tasks.
-    """
-
-    spec: MethodSpec
-    optimize: bool
-    step_ang: float
-    route: str
-    field_au: float
-    symmetry: bool
 
 
 @dataclass(frozen=True, eq=False)

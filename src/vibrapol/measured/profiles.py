@@ -2,6 +2,8 @@
 
 Every profile integrates to 1 over the whole axis and is parametrized by its centre ``x0`` and
 full width at half maximum ``fwhm`` (both cm⁻¹), so a fitted amplitude *is* the band area.
+The Lorentzian and Gaussian themselves are those of :mod:`vibrapol.lineshapes` (re-exported
+here under the same names).
 """
 
 from __future__ import annotations
@@ -9,23 +11,14 @@ from __future__ import annotations
 import numpy as np
 
 from vibrapol.errors import VibrapolError
+from vibrapol.lineshapes import gaussian, lorentzian
+
+__all__ = ["SHAPES", "gaussian", "height_factor", "lorentzian", "profile", "profile_derivatives"]
 
 #: Band shapes the fitter knows.
 SHAPES: tuple[str, ...] = ("lorentzian", "gaussian", "pseudo_voigt")
 
 _A = 4.0 * np.log(2.0)  # Gaussian: exp(-4 ln2 t²) is ½ at t = ±½
-
-
-def lorentzian(x: np.ndarray, x0: float, fwhm: float) -> np.ndarray:
-    """L(x) = (2/(π w)) / (1 + 4(x − x0)²/w²), area 1, FWHM w."""
-    u = 2.0 * (np.asarray(x) - x0) / fwhm
-    return (2.0 / (np.pi * fwhm)) / (1.0 + u * u)
-
-
-def gaussian(x: np.ndarray, x0: float, fwhm: float) -> np.ndarray:
-    """G(x) = (√(4 ln2/π)/w) exp(−4 ln2 (x − x0)²/w²), area 1, FWHM w."""
-    t = (np.asarray(x) - x0) / fwhm
-    return np.sqrt(_A / np.pi) / fwhm * np.exp(-_A * t * t)
 
 
 def profile(shape: str, x: np.ndarray, x0: float, fwhm: float, eta: float = 0.5) -> np.ndarray:
@@ -65,13 +58,13 @@ def profile_derivatives(
     """
     x = np.asarray(x, dtype=float)
     u = 2.0 * (x - x0) / fwhm
-    lor = (2.0 / (np.pi * fwhm)) / (1.0 + u * u)
+    lor = lorentzian(x, x0, fwhm)
     lor_x0 = lor * 4.0 * u / (fwhm * (1.0 + u * u))
     lor_w = lor / fwhm * (u * u - 1.0) / (1.0 + u * u)
     if shape == "lorentzian":
         return lor, lor_x0, lor_w, np.zeros_like(x)
     t = (x - x0) / fwhm
-    gau = np.sqrt(_A / np.pi) / fwhm * np.exp(-_A * t * t)
+    gau = gaussian(x, x0, fwhm)
     gau_x0 = gau * 2.0 * _A * t / fwhm
     gau_w = gau / fwhm * (2.0 * _A * t * t - 1.0)
     if shape == "gaussian":

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -209,6 +209,25 @@ def _label(facts: GroupFacts, c: int, name: str | None = None) -> str:
     return f"{size if size > 1 else ''}{name or facts.op_names[facts.rep(c)]}"
 
 
+@dataclass(eq=False)
+class _Naming:
+    """Names, labels and frame of one group while the rules of its family are applied."""
+
+    facts: GroupFacts
+    names: list[str]
+    labels: list[str]
+    one_d: list[int]
+    inversion: int | None
+    z: np.ndarray | None
+    x_hint: np.ndarray | None = None
+    convention: str = CONVENTION_DEFAULT
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def chars(self) -> np.ndarray:
+        return self.facts.characters
+
+
 def standard_names(facts: GroupFacts) -> NamedTable:
     """Standard species names, class labels and labelling frame for a detected group.
 
@@ -220,132 +239,162 @@ def standard_names(facts: GroupFacts) -> NamedTable:
     -------
     NamedTable
     """
-    names = list(facts.irrep_names)
-    labels = [_label(facts, c) for c in range(facts.n_classes)]
-    notes: list[str] = []
-    convention = CONVENTION_DEFAULT
-    chars = facts.characters
     identity = _find(facts, "E")[0]
-    one_d = [r for r in range(len(names)) if round(chars[r, identity]) == 1]
+    w = _Naming(
+        facts,
+        names=list(facts.irrep_names),
+        labels=[_label(facts, c) for c in range(facts.n_classes)],
+        one_d=[
+            r for r in range(len(facts.irrep_names)) if round(facts.characters[r, identity]) == 1
+        ],
+        inversion=next(iter(_find(facts, "i")), None),
+        z=_principal_axis(facts),
+    )
     symbol = facts.symbol
     m = re.fullmatch(r"([CDS])(\d+)([hvd]?)", symbol)
     family, n, sub = (m.group(1), int(m.group(2)), m.group(3)) if m else (symbol, 0, "")
-    inversion = next(iter(_find(facts, "i")), None)
-    z = _principal_axis(facts)
-    x_hint = None
-
     if symbol == "C2v":
-        c2 = _find(facts, "C")[0]
-        yz, xz = _best(facts, _find(facts, "σ"), notes, "C2v yz plane")
-        z, x_hint = facts.axis(c2), facts.axis(yz)
-        for r in one_d:
-            if chars[r, c2] < 0:
-                names[r] = "B1" if chars[r, xz] > 0 else "B2"
-        labels[c2], labels[xz], labels[yz] = "C2", "σv(xz)", "σv'(yz)"
-        n_atoms = facts.permutations.shape[1]
-        if facts.score(yz)[0] == n_atoms:
-            convention = "planar C2v: x perpendicular to the molecular plane (Mulliken 1955)"
-        else:
-            convention = "C2v: yz is the mirror plane holding more (then heavier) atoms"
+        _name_c2v(w)
     elif symbol in ("D2", "D2h"):
-        c2s = [c for c in _find(facts, "C")]
-        planar = [c for c in _find(facts, "σ") if facts.score(c)[0] == facts.permutations.shape[1]]
-        ranked = sorted(c2s, key=facts.score, reverse=True)
-        if len({facts.score(c) for c in c2s}) < 3 and not planar:
-            notes.append(f"{symbol}: C2 axes with equal atom counts; their order is arbitrary")
-        if planar:
-            normal = facts.axis(planar[0])
-            cx = next(c for c in c2s if abs(facts.axis(c) @ normal) > _PARALLEL)
-            cz, cy = [c for c in ranked if c != cx]
-            if facts.score(cz) == facts.score(cy):
-                notes.append(
-                    f"{symbol}: in-plane C2 axes hold the same atoms; z was chosen arbitrarily"
-                )
-            convention = (
-                f"planar {symbol}: x perpendicular to the plane, z along the in-plane C2 axis "
-                "through more atoms or bonds (Mulliken 1955)"
-            )
-        else:
-            cz, cy, cx = ranked
-            convention = (
-                f"{symbol}: z, y, x are the C2 axes through most to fewest atoms (then bonds)"
-            )
-        z, x_hint = facts.axis(cz), facts.axis(cx)
-        for r in one_d:
-            g = _parity(facts, r, inversion)
-            if chars[r, cz] > 0 and chars[r, cy] > 0:
-                names[r] = "A" + g
-            else:
-                names[r] = ("B1" if chars[r, cz] > 0 else "B2" if chars[r, cy] > 0 else "B3") + g
-        labels[cz], labels[cy], labels[cx] = "C2(z)", "C2(y)", "C2(x)"
-        c2_axes = {"z": facts.axis(cz), "y": facts.axis(cy), "x": facts.axis(cx)}
-        for c in _find(facts, "σ"):
-            normal = facts.axis(c)
-            plane = next(k for k, v in c2_axes.items() if abs(v @ normal) > _PARALLEL)
-            labels[c] = {"z": "σ(xy)", "y": "σ(xz)", "x": "σ(yz)"}[plane]
-    elif family in ("C", "D") and n >= 2 and z is not None:
+        _name_d2(w)
+    elif family in ("C", "D") and n >= 2 and w.z is not None:
         if family == "C" and sub == "v":
-            planes = _find(facts, "σ")
-            if n % 2 == 0 and len(planes) == 2:
-                sv, sd = _best(facts, planes, notes, f"{symbol} σv planes")
-                for r in one_d:
-                    if names[r].startswith("B"):
-                        names[r] = _b_name(names[r], "1" if chars[r, sv] > 0 else "2")
-                labels[sv], labels[sd] = _label(facts, sv, "σv"), _label(facts, sd, "σd")
-                convention = f"{symbol}: σv are the mirror planes through more atoms"
-            x_hint = np.cross(facts.axis(planes[0]), z)
+            _name_cnv(w, w.z, n)
         elif family == "D":
-            perp = [
-                c
-                for c in range(facts.n_classes)
-                if _is_c2(facts, c) and abs(facts.axis(c) @ z) < _PERPENDICULAR
-            ]
-            if n % 2 == 0 and len(perp) == 2 and sub != "d":
-                c2p, c2pp = _best(
-                    facts, perp, notes, f"{symbol} C2' axes", _plane_holding(facts, z)
-                )
-                for r in one_d:
-                    if names[r].startswith("B"):
-                        names[r] = _b_name(names[r], "1" if chars[r, c2p] > 0 else "2")
-                labels[c2p], labels[c2pp] = _label(facts, c2p, "C2'"), _label(facts, c2pp, "C2''")
-                a = facts.axis(c2p)
-                for c in _find(facts, "σ"):
-                    if abs(facts.axis(c) @ z) < _PERPENDICULAR:
-                        contains = any(
-                            abs(operation_axis(facts.matrices[g]) @ a) < _PERPENDICULAR
-                            for g in np.flatnonzero(facts.op_class == c)
-                        )
-                        labels[c] = _label(facts, c, "σv" if contains else "σd")
-                convention = f"{symbol}: C2' are the two-fold axes through more atoms"
-            if perp:
-                x_hint = facts.axis(perp[0])
-            if sub == "d" and n % 2 == 0:
-                _b2_is_z(facts, names, one_d, z)
+            _name_dn(w, w.z, n, sub)
     elif symbol in ("T", "Td", "Th", "O", "Oh", "I", "Ih"):
-        order = 4 if symbol in ("O", "Oh") else 2
-        axes_n = [
-            operation_axis(mm)
-            for mm in facts.matrices
-            if operation_kind(mm) == "C" and abs(rotation_angle(mm) - 2 * np.pi / order) < 1e-3
-        ]
-        z = axes_n[0]
-        x_hint = next(a for a in axes_n if abs(a @ z) < _PERPENDICULAR)
+        _frame_cubic(w)
     elif symbol == "Cs":
-        z = facts.axis(_find(facts, "σ")[0])
-    if z is None:
-        axes = np.eye(3)
-    else:
-        axes = _frame(z, x_hint, facts.centred_ang)
+        w.z = facts.axis(_find(facts, "σ")[0])
+    axes = np.eye(3) if w.z is None else _frame(w.z, w.x_hint, facts.centred_ang)
+    names = _finish_names(w)
+    return NamedTable(tuple(names), tuple(w.labels), axes, w.convention, tuple(w.notes))
 
+
+def _name_c2v(w: _Naming) -> None:
+    """C2v: z the C2 axis, yz the mirror plane holding more (then heavier) atoms."""
+    facts, names, chars = w.facts, w.names, w.chars
+    c2 = _find(facts, "C")[0]
+    yz, xz = _best(facts, _find(facts, "σ"), w.notes, "C2v yz plane")
+    w.z, w.x_hint = facts.axis(c2), facts.axis(yz)
+    for r in w.one_d:
+        if chars[r, c2] < 0:
+            names[r] = "B1" if chars[r, xz] > 0 else "B2"
+    w.labels[c2], w.labels[xz], w.labels[yz] = "C2", "σv(xz)", "σv'(yz)"
+    n_atoms = facts.permutations.shape[1]
+    if facts.score(yz)[0] == n_atoms:
+        w.convention = "planar C2v: x perpendicular to the molecular plane (Mulliken 1955)"
+    else:
+        w.convention = "C2v: yz is the mirror plane holding more (then heavier) atoms"
+
+
+def _name_d2(w: _Naming) -> None:
+    """D2 and D2h: the three C2 axes ranked into z, y, x; species A, B1, B2, B3."""
+    facts, names, chars, symbol = w.facts, w.names, w.chars, w.facts.symbol
+    c2s = [c for c in _find(facts, "C")]
+    planar = [c for c in _find(facts, "σ") if facts.score(c)[0] == facts.permutations.shape[1]]
+    ranked = sorted(c2s, key=facts.score, reverse=True)
+    if len({facts.score(c) for c in c2s}) < 3 and not planar:
+        w.notes.append(f"{symbol}: C2 axes with equal atom counts; their order is arbitrary")
+    if planar:
+        normal = facts.axis(planar[0])
+        cx = next(c for c in c2s if abs(facts.axis(c) @ normal) > _PARALLEL)
+        cz, cy = [c for c in ranked if c != cx]
+        if facts.score(cz) == facts.score(cy):
+            w.notes.append(
+                f"{symbol}: in-plane C2 axes hold the same atoms; z was chosen arbitrarily"
+            )
+        w.convention = (
+            f"planar {symbol}: x perpendicular to the plane, z along the in-plane C2 axis "
+            "through more atoms or bonds (Mulliken 1955)"
+        )
+    else:
+        cz, cy, cx = ranked
+        w.convention = (
+            f"{symbol}: z, y, x are the C2 axes through most to fewest atoms (then bonds)"
+        )
+    w.z, w.x_hint = facts.axis(cz), facts.axis(cx)
+    for r in w.one_d:
+        g = _parity(facts, r, w.inversion)
+        if chars[r, cz] > 0 and chars[r, cy] > 0:
+            names[r] = "A" + g
+        else:
+            names[r] = ("B1" if chars[r, cz] > 0 else "B2" if chars[r, cy] > 0 else "B3") + g
+    w.labels[cz], w.labels[cy], w.labels[cx] = "C2(z)", "C2(y)", "C2(x)"
+    c2_axes = {"z": facts.axis(cz), "y": facts.axis(cy), "x": facts.axis(cx)}
+    for c in _find(facts, "σ"):
+        normal = facts.axis(c)
+        plane = next(k for k, v in c2_axes.items() if abs(v @ normal) > _PARALLEL)
+        w.labels[c] = {"z": "σ(xy)", "y": "σ(xz)", "x": "σ(yz)"}[plane]
+
+
+def _name_cnv(w: _Naming, z: np.ndarray, n: int) -> None:
+    """Cnv (n ≥ 3, or C2v handled apart): with even n, σv are the planes through more atoms."""
+    facts, names, chars = w.facts, w.names, w.chars
+    planes = _find(facts, "σ")
+    if n % 2 == 0 and len(planes) == 2:
+        sv, sd = _best(facts, planes, w.notes, f"{facts.symbol} σv planes")
+        for r in w.one_d:
+            if names[r].startswith("B"):
+                names[r] = _b_name(names[r], "1" if chars[r, sv] > 0 else "2")
+        w.labels[sv], w.labels[sd] = _label(facts, sv, "σv"), _label(facts, sd, "σd")
+        w.convention = f"{facts.symbol}: σv are the mirror planes through more atoms"
+    w.x_hint = np.cross(facts.axis(planes[0]), z)
+
+
+def _name_dn(w: _Naming, z: np.ndarray, n: int, sub: str) -> None:
+    """Dn, Dnh, Dnd (n ≥ 3, or D2 handled apart): C2' through more atoms; B2 of Dnd is z."""
+    facts, names, chars, symbol = w.facts, w.names, w.chars, w.facts.symbol
+    perp = [
+        c
+        for c in range(facts.n_classes)
+        if _is_c2(facts, c) and abs(facts.axis(c) @ z) < _PERPENDICULAR
+    ]
+    if n % 2 == 0 and len(perp) == 2 and sub != "d":
+        c2p, c2pp = _best(facts, perp, w.notes, f"{symbol} C2' axes", _plane_holding(facts, z))
+        for r in w.one_d:
+            if names[r].startswith("B"):
+                names[r] = _b_name(names[r], "1" if chars[r, c2p] > 0 else "2")
+        w.labels[c2p], w.labels[c2pp] = _label(facts, c2p, "C2'"), _label(facts, c2pp, "C2''")
+        a = facts.axis(c2p)
+        for c in _find(facts, "σ"):
+            if abs(facts.axis(c) @ z) < _PERPENDICULAR:
+                contains = any(
+                    abs(operation_axis(facts.matrices[g]) @ a) < _PERPENDICULAR
+                    for g in np.flatnonzero(facts.op_class == c)
+                )
+                w.labels[c] = _label(facts, c, "σv" if contains else "σd")
+        w.convention = f"{symbol}: C2' are the two-fold axes through more atoms"
+    if perp:
+        w.x_hint = facts.axis(perp[0])
+    if sub == "d" and n % 2 == 0:
+        _b2_is_z(facts, names, w.one_d, z)
+
+
+def _frame_cubic(w: _Naming) -> None:
+    """T, O and I groups: z along a C4 (O, Oh) or C2 axis, x along a perpendicular one."""
+    order = 4 if w.facts.symbol in ("O", "Oh") else 2
+    axes_n = [
+        operation_axis(mm)
+        for mm in w.facts.matrices
+        if operation_kind(mm) == "C" and abs(rotation_angle(mm) - 2 * np.pi / order) < 1e-3
+    ]
+    w.z = axes_n[0]
+    w.x_hint = next(a for a in axes_n if abs(a @ w.z) < _PERPENDICULAR)
+
+
+def _finish_names(w: _Naming) -> list[str]:
+    """E for a lone E1, T for F; the library's names if the rules left two species alike."""
+    names = w.names
     if not any(re.match(r"E2", s) for s in names):
         names = [re.sub(r"^E1", "E", s) for s in names]
     names = [s.replace("F", "T") for s in names]
     if len(set(names)) != len(names):  # pragma: no cover - a labelling rule went wrong
-        notes.append(
-            f"could not give {symbol} standard species names; the library's names are used"
+        w.notes.append(
+            f"could not give {w.facts.symbol} standard species names; the library's names are used"
         )
-        names = list(facts.irrep_names)
-    return NamedTable(tuple(names), tuple(labels), axes, convention, tuple(notes))
+        names = list(w.facts.irrep_names)
+    return names
 
 
 def _plane_holding(facts: GroupFacts, z: np.ndarray) -> Callable[[int], tuple]:

@@ -17,7 +17,6 @@ import argparse
 import math
 from typing import Any
 
-from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
 from vibrapol.cli._options import (
     add_degeneracy_argument,
@@ -28,11 +27,12 @@ from vibrapol.cli._options import (
 from vibrapol.cli._renamed import add_renamed
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import figure_format
-from vibrapol.lineshapes import SHAPES, LineShape
-from vibrapol.quantities import DETECTORS, QUANTITY_UNITS
-from vibrapol.scaling import NO_SCALE, FrequencyScale
 from vibrapol.sources import read_modes
 from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
+from vibrapol.spectrum.channels import GEOMETRIES
+from vibrapol.spectrum.lineshapes import SHAPES, LineShape
+from vibrapol.spectrum.quantities import DETECTORS, QUANTITY_UNITS
+from vibrapol.spectrum.scaling import NO_SCALE, FrequencyScale
 
 HELP = "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures"
 
@@ -285,7 +285,7 @@ def build_sticks(
     )
     if len(modesets) == 1:
         return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)
-    from vibrapol.conformers import conformer_spectrum, overlay
+    from vibrapol.spectrum.conformers import conformer_spectrum, overlay
 
     if overlaid:
         return overlay(
@@ -335,13 +335,13 @@ def run(args: argparse.Namespace) -> int:
         span = default_range(sticks, lineshape)
     overlaid = args.overlay and len(args.sources) > 1
     if overlaid:
-        from vibrapol.conformers import overlay_grid
+        from vibrapol.spectrum.conformers import overlay_grid
 
         grid = overlay_grid(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
     else:
         grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
 
-    from vibrapol import spectrum_io
+    from vibrapol.output import spectra as spectrum_io
 
     outputs: list[tuple[str, str | bytes]] = []
     if args.sticks:

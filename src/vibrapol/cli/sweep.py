@@ -16,8 +16,6 @@ import math
 
 import numpy as np
 
-from vibrapol import orientation as orient
-from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
 from vibrapol.cli._options import add_figure_width_argument
 from vibrapol.cli.spectrum import (
@@ -28,7 +26,9 @@ from vibrapol.cli.spectrum import (
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import figure_format
 from vibrapol.sources import read_modes
-from vibrapol.sweep import polar_sweep
+from vibrapol.spectrum import orientation as orient
+from vibrapol.spectrum.channels import GEOMETRIES
+from vibrapol.spectrum.sweep import polar_sweep
 
 HELP = "band intensities versus polarizer angle for isotropic or oriented samples"
 
@@ -204,7 +204,7 @@ def run(args: argparse.Namespace) -> int:
     )
     if args.bands:
         check_bands_found(parse_floats(args.bands, "--bands"), sweep.positions_cm1)
-    from vibrapol import spectrum_io
+    from vibrapol.output import spectra as spectrum_io
 
     figures: list[tuple[str | None, str | bytes]] = []
     text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)

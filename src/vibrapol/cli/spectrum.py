@@ -23,6 +23,7 @@ from vibrapol.cli._options import (
     add_figure_width_argument,
     add_kind_argument,
     add_temperature_argument,
+    figure_width,
 )
 from vibrapol.cli._renamed import add_renamed
 from vibrapol.errors import VibrapolError
@@ -305,17 +306,6 @@ def build_sticks(
     )
 
 
-def _width(text: str) -> str | float:
-    if text in ("single", "double"):
-        return text
-    try:
-        return float(text)
-    except ValueError:
-        raise VibrapolError(
-            f"--width must be single, double or a number of inches, got {text!r}"
-        ) from None
-
-
 def run(args: argparse.Namespace) -> int:
     """Compute the spectrum and write every requested output (all or nothing)."""
     check_output(args, args.sticks, *args.figure, *args.rho_figure)
@@ -354,13 +344,15 @@ def run(args: argparse.Namespace) -> int:
                 grid,
                 channels=grid.channels,
                 layout=args.layout,
-                width=_width(args.width),
+                width=figure_width(args.width),
                 label_count=0 if overlaid else args.top,
                 sticks=not overlaid,
             )
             outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.figure]
         if args.rho_figure:
-            fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)
+            fig = plotting.depolarization_figure(
+                sticks, width=figure_width(args.width), xlim_cm1=span
+            )
             outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.rho_figure]
     text = spectrum_io.grid_csv(grid) if args.format == "csv" else spectrum_io.grid_json(grid)
     write_outputs(args, [*outputs, (args.output, text)])  # all or nothing

@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
-from vibrapol.cli._options import add_figure_width_argument
+from vibrapol.cli._options import add_figure_width_argument, figure_width
 from vibrapol.cli.spectrum import (
     add_physics_arguments,
     parse_floats,
@@ -210,9 +210,8 @@ def run(args: argparse.Namespace) -> int:
     text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)
     if args.figure:
         from vibrapol import plotting
-        from vibrapol.cli.spectrum import _width
 
-        fig = plotting.polar_figure(sweep, width=_width(args.width))
+        fig = plotting.polar_figure(sweep, width=figure_width(args.width))
         figures = [
             (p, plotting.figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)
         ]

@@ -2,7 +2,8 @@
 
 Contracts checked (docs/api.md, design.md "Package layout"): every name of ``vibrapol.__all__``
 resolves to the object of its home module; ``import vibrapol`` never loads PySCF, Dask or
-matplotlib (heavy libraries are imported where they are used, never at start-up).
+matplotlib (heavy libraries are imported where they are used, never at start-up); importing the
+measured-spectrum package does not load the quantum-chemistry readers.
 """
 
 import importlib
@@ -18,16 +19,26 @@ import vibrapol
 SRC = str(Path(vibrapol.__file__).resolve().parents[1])
 
 
-def test_import_loads_no_heavy_library():
+def _loaded_after(statement: str, prefixes: tuple[str, ...]) -> str:
     code = (
-        "import sys, vibrapol; "
-        "print(sorted({m.split('.')[0] for m in sys.modules} & {'pyscf', 'dask', 'matplotlib'}))"
+        f"import sys; {statement}; "
+        f"print(sorted(m for m in sys.modules if m.split('.')[0] in {prefixes!r}"
+        f" or m.startswith({prefixes!r})))"
     )
     env = {**os.environ, "PYTHONPATH": SRC}
     out = subprocess.run(
         [sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True
     )
-    assert out.stdout.strip() == "[]"
+    return out.stdout.strip()
+
+
+def test_import_loads_no_heavy_library():
+    assert _loaded_after("import vibrapol", ("pyscf", "dask", "matplotlib")) == "[]"
+
+
+def test_measured_spectra_do_not_load_the_program_readers():
+    # design.md: measured/ reads measured spectra; the quantum-chemistry readers are not its room
+    assert _loaded_after("import vibrapol.measured", ("vibrapol.sources",)) == "[]"
 
 
 @pytest.mark.parametrize("name", sorted(set(vibrapol.__all__) - {"__version__"}))

@@ -15,8 +15,8 @@ The public API at a glance (each name is documented in its module)::
     candidate_from_modes, assign, rank                   (vibrapol.compare)
     compute_modes(structure)         -> ModeSet          (vibrapol.engine, PySCF)
 
-The data model is imported with the package; everything else is imported on first use, so
-``import vibrapol`` stays fast and never loads PySCF, Dask or matplotlib.
+The data model is imported with the package; everything else (the readers too) is imported on
+first use, so ``import vibrapol`` stays fast and never loads PySCF, Dask or matplotlib.
 """
 
 from __future__ import annotations
@@ -24,12 +24,9 @@ from __future__ import annotations
 import importlib
 from typing import TYPE_CHECKING, Any
 
-__version__ = "0.1.0"
-
-from vibrapol.errors import VibrapolError  # noqa: E402
-from vibrapol.modeset import ModeSet, Provenance  # noqa: E402
-from vibrapol.ramantable import RamanTable, raman_table, symmetry_table  # noqa: E402
-from vibrapol.sources import read_modes  # noqa: E402
+from vibrapol.errors import VibrapolError
+from vibrapol.modeset import ModeSet, Provenance
+from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 
 if TYPE_CHECKING:  # pragma: no cover
     from vibrapol.compare import (
@@ -43,6 +40,7 @@ if TYPE_CHECKING:  # pragma: no cover
     )
     from vibrapol.engine import compute_modes
     from vibrapol.measured import PolarizedPair, clean_pair, measure_bands, read_pair
+    from vibrapol.sources import read_modes
     from vibrapol.spectrum import (
         Conditions,
         GridSpectrum,
@@ -52,8 +50,11 @@ if TYPE_CHECKING:  # pragma: no cover
     )
     from vibrapol.symmetry import ModeSymmetry, mode_symmetry
 
+__version__ = "0.1.0"
+
 #: Names imported on first use, and the module each comes from.
 _LAZY = {
+    "read_modes": "vibrapol.sources",
     "Conditions": "vibrapol.spectrum",
     "GridSpectrum": "vibrapol.spectrum",
     "StickSpectrum": "vibrapol.spectrum",
@@ -77,7 +78,17 @@ _LAZY = {
 
 #: Sub-packages reachable as attributes (``vibrapol.plotting``) without importing them first.
 _SUBPACKAGES = frozenset(
-    {"compare", "demo", "engine", "measured", "output", "plotting", "spectrum", "symmetry"}
+    {
+        "compare",
+        "demo",
+        "engine",
+        "measured",
+        "output",
+        "plotting",
+        "sources",
+        "spectrum",
+        "symmetry",
+    }
 )
 
 

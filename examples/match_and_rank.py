@@ -22,8 +22,8 @@ from pathlib import Path
 
 from vibrapol import measured, read_modes
 from vibrapol.compare import candidate_from_modes, rank
-from vibrapol.compare.output import ranking_text
 from vibrapol.demo import SAMPLE_SPECTRUM, data_path
+from vibrapol.output.assignments import ranking_text
 
 HERE = Path(__file__).resolve().parent / "solvent-check"
 DEFAULT_CANDIDATES = [HERE / "dichloromethane.modes.json", HERE / "chloroform.modes.json"]
@@ -75,7 +75,7 @@ def main(argv: list[str] | None = None) -> None:
     print(ranking_text(ranking), end="")
     if args.figure:
         from vibrapol.plotting import save_figure
-        from vibrapol.plotting_match import match_figure
+        from vibrapol.plotting.match import match_figure
 
         print(f"wrote {save_figure(match_figure(best, pair), args.figure)}")
 

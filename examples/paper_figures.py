@@ -12,7 +12,7 @@ Writes into DIR (default ``paper-figures``):
   the strongest bands labelled with wavenumber, species and (polarized bands) ρ;
 - ``rho.pdf``: depolarization ratio of every band against the 3/4 limit;
 - ``modes.tex``: a booktabs table of the Raman-active bands (wavenumber, species, activity, ρ,
-  p/dp), from :func:`vibrapol.report.table_latex`;
+  p/dp), from :func:`vibrapol.output.tables.table_latex`;
 - ``modes.csv``: the full per-mode table.
 
 Wavenumbers are scaled by the method's published factor when vibrapol knows one.  Laser
@@ -30,10 +30,10 @@ import numpy as np
 from vibrapol import plotting, raman_table, read_modes
 from vibrapol.compare import published_scale
 from vibrapol.fileio import check_writable, write_atomic
-from vibrapol.lineshapes import LineShape
-from vibrapol.report import table_csv, table_latex
-from vibrapol.scaling import NO_SCALE
+from vibrapol.output.tables import table_csv, table_latex
 from vibrapol.spectrum import broaden, stick_spectrum
+from vibrapol.spectrum.lineshapes import LineShape
+from vibrapol.spectrum.scaling import NO_SCALE
 from vibrapol.symmetry import mode_symmetry
 
 ROOT = Path(__file__).resolve().parents[1]

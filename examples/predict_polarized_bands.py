@@ -26,7 +26,7 @@ import numpy as np
 
 from vibrapol import raman_table, read_modes
 from vibrapol.compare import published_scale
-from vibrapol.scaling import NO_SCALE, FrequencyScale
+from vibrapol.spectrum.scaling import NO_SCALE, FrequencyScale
 from vibrapol.symmetry import (
     band_counts,
     find_point_group,

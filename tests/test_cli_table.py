@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from vibrapol.cli import main
-from vibrapol.report import TABLE_COLUMNS
+from vibrapol.output.tables import TABLE_COLUMNS
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "water.modes.json"
 
@@ -174,13 +174,13 @@ def test_latex_table_of_a_linear_molecule(capsys):
      ("Σ⁻", "$\\Sigma^-$"), ("T2g", "$T_{2g}$"), ("E", "$E$")],
 )  # fmt: skip
 def test_latex_species_names(name, tex):
-    from vibrapol.report import latex_species
+    from vibrapol.output.tables import latex_species
 
     assert latex_species(name) == tex
 
 
 def test_tex_escape_of_free_text():
-    from vibrapol.report import tex_escape
+    from vibrapol.output.tables import tex_escape
 
     assert tex_escape("a_b & c%{d}") == "a\\_b \\& c\\%\\{d\\}"
 
@@ -189,8 +189,8 @@ def test_band_tables_leave_out_imaginary_modes():
     # An imaginary mode (printed as a negative wavenumber) means the structure is not a
     # minimum; it is no band of a spectrum, and the caption says it was left out.
     from test_modeset import small_modeset
+    from vibrapol.output.tables import band_rows, table_markdown
     from vibrapol.ramantable import raman_table
-    from vibrapol.report import band_rows, table_markdown
 
     table = raman_table(small_modeset())  # modes at −50, 1600 and 3800 cm⁻¹
     assert [round(r["wavenumber_cm1"]) for r in band_rows(table)] == [1600, 3800]

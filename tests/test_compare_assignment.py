@@ -27,7 +27,7 @@ from compare_helpers import (
 )
 from vibrapol.compare import assign, candidate_from_modes
 from vibrapol.errors import VibrapolError
-from vibrapol.scaling import lookup_factor
+from vibrapol.spectrum.scaling import lookup_factor
 
 
 @pytest.fixture(scope="module")

@@ -21,7 +21,7 @@ from vibrapol.demo import (
     planned_files,
     run_demo,
 )
-from vibrapol.demo_report import check_bands
+from vibrapol.demo.report import check_bands
 from vibrapol.errors import VibrapolError
 from vibrapol.measured.synthetic import TrueBand, synthetic_pair
 

@@ -29,8 +29,8 @@ import scipy.constants as C
 
 from spectrum_helpers import analytic_modeset
 from vibrapol.errors import VibrapolError
-from vibrapol.orientation import aligned
 from vibrapol.spectrum import stick_spectrum
+from vibrapol.spectrum.orientation import aligned
 
 # A totally symmetric tensor with a = 1 and γ² = ½(9 + 9 + 0) = 9.
 POLARIZED = np.diag([2.0, -1.0, 2.0])
@@ -89,7 +89,7 @@ def test_anti_stokes_to_stokes_ratio_photon_counting():
 @pytest.mark.parametrize(("laser_nm", "shift_k"), [(532.0, -6.4), (1064.0, -12.6)])
 def test_reading_a_photon_count_ratio_as_energy_shifts_the_temperature(laser_nm, shift_k):
     # Derivation in the module docstring (298.15 K, 1000 cm⁻¹ band).
-    from vibrapol.quantities import anti_stokes_ratio, temperature_from_anti_stokes
+    from vibrapol.spectrum.quantities import anti_stokes_ratio, temperature_from_anti_stokes
 
     ratio = float(anti_stokes_ratio(np.array([1000.0]), laser_nm, 298.15, "photon")[0])
     t_photon = temperature_from_anti_stokes(ratio, 1000.0, laser_nm, "photon")
@@ -154,7 +154,7 @@ def test_oriented_ratios_are_ratios_of_the_computed_channels(geometry):
 
 
 def test_stick_file_ratio_at_180_degrees_is_not_the_90_degree_value():
-    from vibrapol.spectrum_io import sticks_dict
+    from vibrapol.output.spectra import sticks_dict
 
     m = analytic_modeset([POLARIZED], [1000.0])
     doc = sticks_dict(stick_spectrum(m, geometry_deg=180))

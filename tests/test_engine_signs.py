@@ -15,9 +15,9 @@ import numpy as np
 import pytest
 
 from _paths import PROJECT_ROOT
-from vibrapol.orientation import aligned, oriented_channel_activity
 from vibrapol.ramantable import raman_table
 from vibrapol.sources.modes_json import read_modes_json
+from vibrapol.spectrum.orientation import aligned, oriented_channel_activity
 from vibrapol.vibrations import SIGN_TIE_RTOL, canonical_signs, harmonic_analysis
 
 WATER_MODES = PROJECT_ROOT / "examples" / "water.modes.json"  # engine output of our own

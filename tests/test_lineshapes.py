@@ -8,7 +8,8 @@ from scipy.integrate import quad
 
 from spectrum_helpers import analytic_modeset
 from vibrapol.errors import VibrapolError
-from vibrapol.lineshapes import (
+from vibrapol.spectrum import broaden, stick_spectrum
+from vibrapol.spectrum.lineshapes import (
     LineShape,
     gaussian,
     lorentzian,
@@ -16,7 +17,6 @@ from vibrapol.lineshapes import (
     voigt,
     voigt_fwhm_unit,
 )
-from vibrapol.spectrum import broaden, stick_spectrum
 
 SHAPES = [("lorentzian", 0.5), ("gaussian", 0.5), ("voigt", 0.5), ("voigt", 0.2), ("voigt", 0.8)]
 

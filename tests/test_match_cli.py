@@ -24,7 +24,7 @@ from compare_helpers import (
 )
 from vibrapol.cli import main
 from vibrapol.compare import assign, candidate_from_modes
-from vibrapol.compare.output import ASSIGNMENT_COLUMNS
+from vibrapol.output.assignments import ASSIGNMENT_COLUMNS
 from vibrapol.sources import read_modes
 
 
@@ -216,7 +216,7 @@ def test_rank_with_a_conformer_mixture(tmp_path, capsys):
 def test_match_figure_draws_one_line_per_assigned_band():
     from matplotlib.figure import Figure
 
-    from vibrapol.plotting_match import match_figure
+    from vibrapol.plotting.match import match_figure
 
     pair, bands = clean_measured(chcl3_pair())
     result = assign(candidate_from_modes(read_modes(CHCL3_MODES)), bands, pair=pair)

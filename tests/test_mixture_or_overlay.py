@@ -17,9 +17,9 @@ import pytest
 
 from _paths import PROJECT_ROOT
 from vibrapol.cli import main
-from vibrapol.conformers import conformer_spectrum, formula
 from vibrapol.errors import VibrapolError
 from vibrapol.sources import read_modes
+from vibrapol.spectrum.conformers import conformer_spectrum, formula
 
 WATER = PROJECT_ROOT / "examples" / "water.modes.json"
 AMMONIA = PROJECT_ROOT / "tests" / "fixtures" / "orca6_nh3_planar.out"

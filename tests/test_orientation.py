@@ -6,12 +6,12 @@ import numpy as np
 import pytest
 
 from spectrum_helpers import analytic_modeset
-from vibrapol import orientation as o
-from vibrapol.channels import isotropic_channel_activity
 from vibrapol.errors import VibrapolError
 from vibrapol.invariants import tensor_invariants
+from vibrapol.spectrum import orientation as o
 from vibrapol.spectrum import stick_spectrum
-from vibrapol.sweep import polar_sweep
+from vibrapol.spectrum.channels import isotropic_channel_activity
+from vibrapol.spectrum.sweep import polar_sweep
 
 CHANNELS = ["vv", "vh", "hv", "hh", "vu", "nv", "nh", "nu", "p30a-60", "p17a41"]
 

@@ -6,12 +6,12 @@ import numpy as np
 import pytest
 
 from spectrum_helpers import analytic_modeset
-from vibrapol import orientation as o
 from vibrapol import plotting
 from vibrapol.errors import VibrapolError
-from vibrapol.lineshapes import LineShape
 from vibrapol.spectrum import broaden, stick_spectrum
-from vibrapol.sweep import polar_sweep
+from vibrapol.spectrum import orientation as o
+from vibrapol.spectrum.lineshapes import LineShape
+from vibrapol.spectrum.sweep import polar_sweep
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 

@@ -19,17 +19,17 @@ from matplotlib.text import Annotation, Text
 from _paths import qc_output
 from spectrum_helpers import analytic_modeset
 from vibrapol import plotting
-from vibrapol.lineshapes import LineShape
-from vibrapol.plotting_labels import (
+from vibrapol.plotting.labels import (
     Box,
     Candidate,
     box_of,
     greedy_place,
     segment_hits_box,
 )
-from vibrapol.plotting_style import STYLE
+from vibrapol.plotting.style import STYLE
 from vibrapol.sources import read_modes
 from vibrapol.spectrum import broaden, stick_spectrum
+from vibrapol.spectrum.lineshapes import LineShape
 
 #: Slack in display pixels for rounding of text extents (well under one pixel at 100 dpi).
 SLACK = 0.5
@@ -165,7 +165,7 @@ def test_segment_box_intersection():
 def test_match_figure_says_what_cleaning_and_shows_rho():
     from vibrapol import measured
     from vibrapol.compare import assign, candidate_from_modes
-    from vibrapol.plotting_match import match_figure
+    from vibrapol.plotting.match import match_figure
 
     root = __import__("pathlib").Path(__file__).resolve().parents[1]
     data = root / "src" / "vibrapol" / "data" / "dichloromethane_liquid_vv_vh_INVENTED.txt"

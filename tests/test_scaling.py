@@ -18,8 +18,14 @@ import pytest
 from spectrum_helpers import analytic_modeset
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import Provenance
-from vibrapol.scaling import SCALE_FACTORS, SOURCES, WHERE_SEEN, FrequencyScale, lookup_factor
 from vibrapol.spectrum import stick_spectrum
+from vibrapol.spectrum.scaling import (
+    SCALE_FACTORS,
+    SOURCES,
+    WHERE_SEEN,
+    FrequencyScale,
+    lookup_factor,
+)
 
 REFERENCE = Path(__file__).resolve().parents[2] / "shared" / "reference" / "scale-factors.md"
 

@@ -19,8 +19,8 @@ from _paths import FIXTURES, qc_output
 from _source_contract import cclib_data, csv_records, table_rows
 from vibrapol.cli import main
 from vibrapol.errors import AccuracyWarning, InputFormatError, ShapeError, VibrapolError
+from vibrapol.output.tables import table_csv, table_json, table_text
 from vibrapol.ramantable import raman_table
-from vibrapol.report import table_csv, table_json, table_text
 from vibrapol.sources import read_modes, readers
 from vibrapol.sources.cclib_generic import read_cclib, sniff_cclib
 from vibrapol.sources.modes_json import read_modes_json, write_modes_json

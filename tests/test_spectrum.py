@@ -9,11 +9,11 @@ from scipy import constants as C
 
 from spectrum_helpers import analytic_modeset
 from vibrapol.errors import AccuracyWarning, VibrapolError
-from vibrapol.lineshapes import LineShape
-from vibrapol.quantities import cross_section_cm2_sr, thermal_factor
-from vibrapol.scaling import FrequencyScale, lookup_factor
+from vibrapol.output.spectra import grid_csv, grid_json, sticks_csv
 from vibrapol.spectrum import broaden, stick_spectrum
-from vibrapol.spectrum_io import grid_csv, grid_json, sticks_csv
+from vibrapol.spectrum.lineshapes import LineShape
+from vibrapol.spectrum.quantities import cross_section_cm2_sr, thermal_factor
+from vibrapol.spectrum.scaling import FrequencyScale, lookup_factor
 
 # diag(1, 2, 3): a = 2, a² = 4; γ² = ½[(1−2)² + (2−3)² + (3−1)²] = 3 (definitions in D. A.
 # Long, The Raman Effect, 2002, ch. 5).  So 45a² + 4γ² = 192, 3γ² = 9, S = 45a² + 7γ² = 201.
@@ -224,6 +224,6 @@ def test_near_zero_band_is_warned_for_intensities():
 
 def test_restricted_method_names_find_the_published_factor():
     # "RHF" (as PySCF and several programs record it) is the closed-shell HF of the table.
-    from vibrapol.scaling import lookup_factor
+    from vibrapol.spectrum.scaling import lookup_factor
 
     assert lookup_factor("RHF/6-31G*").factor == lookup_factor("HF/6-31G*").factor

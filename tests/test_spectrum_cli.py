@@ -187,11 +187,11 @@ def test_two_sources_make_a_boltzmann_mixture(water, tmp_path):
 
 def test_sweep_orientation_options():
     # z-y-z Euler angles (H. Goldstein, Classical Mechanics, 1980): the CLI builds the same
-    # rotation as vibrapol.orientation.euler_zyz; inf spread means no preferred tilt.
+    # rotation as vibrapol.spectrum.orientation.euler_zyz; inf spread means no preferred tilt.
     import argparse
 
-    from vibrapol import orientation as o
     from vibrapol.cli.sweep import add_arguments, orientation_from_args
+    from vibrapol.spectrum import orientation as o
 
     parser = argparse.ArgumentParser()
     add_arguments(parser)

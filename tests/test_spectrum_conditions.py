@@ -16,12 +16,12 @@ import pytest
 
 from _paths import PROJECT_ROOT
 from vibrapol.errors import AccuracyWarning
-from vibrapol.lineshapes import LineShape
-from vibrapol.scaling import FrequencyScale
+from vibrapol.output.spectra import grid_csv, sticks_csv, sweep_csv
 from vibrapol.sources import read_modes
 from vibrapol.spectrum import broaden, stick_spectrum
-from vibrapol.spectrum_io import grid_csv, sticks_csv, sweep_csv
-from vibrapol.sweep import polar_sweep
+from vibrapol.spectrum.lineshapes import LineShape
+from vibrapol.spectrum.scaling import FrequencyScale
+from vibrapol.spectrum.sweep import polar_sweep
 
 WATER = PROJECT_ROOT / "examples" / "water.modes.json"
 
@@ -108,7 +108,7 @@ def test_every_csv_states_its_conditions(water):
 def test_json_states_the_same_conditions(water):
     import json
 
-    from vibrapol.spectrum_io import grid_json
+    from vibrapol.output.spectra import grid_json
 
     scale = FrequencyScale.published("HF/6-31G*")
     sticks = stick_spectrum(water, laser_nm=785.0, scale=scale, detector="energy")

@@ -7,17 +7,17 @@ import pytest
 from scipy import constants as C
 
 from spectrum_helpers import analytic_modeset
-from vibrapol import orientation as o
-from vibrapol.conformers import (
+from vibrapol.errors import VibrapolError
+from vibrapol.modeset import ModeSet
+from vibrapol.spectrum import orientation as o
+from vibrapol.spectrum import stick_spectrum
+from vibrapol.spectrum.conformers import (
     boltzmann_weights,
     conformer_spectrum,
     mixture,
     source_energies_kjmol,
     zero_point_kjmol,
 )
-from vibrapol.errors import VibrapolError
-from vibrapol.modeset import ModeSet
-from vibrapol.spectrum import stick_spectrum
 
 A = np.diag([1.0, 2.0, 3.0])
 B = np.array([[0.0, 1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 0.0]])

@@ -19,8 +19,8 @@ from _paths import FIXTURES, PROJECT_ROOT, qc_output
 from _source_contract import csv_comments, csv_records
 from vibrapol.cli import main
 from vibrapol.errors import AccuracyWarning, VibrapolWarning
+from vibrapol.output.tables import table_csv, table_json, table_markdown, table_text
 from vibrapol.ramantable import raman_table, symmetry_table
-from vibrapol.report import table_csv, table_json, table_markdown, table_text
 from vibrapol.sources import read_modes
 from vibrapol.sources.modes_json import read_modes_json, write_modes_json
 
@@ -264,7 +264,7 @@ def test_forbidden_noise_is_shown_as_zero(name):
     forbidden = ~table.raman_active
     assert forbidden.sum() == 27  # 27 Ag+Bg Raman-active of 54 (Γ_vib = 10Ag+4Au+...; README)
     assert np.all(table.activity[forbidden] > 0)  # the numbers read, unchanged
-    from vibrapol.report import table_rows
+    from vibrapol.output.tables import table_rows
 
     shown = table_rows(table, show_zero=True)
     rows = csv_records(table_csv(table))
@@ -283,7 +283,7 @@ def test_symmetry_zero_a2_and_ir_noise_shown_as_zero_in_text_only():
     # trade) and IR-forbidden (g species, mutual exclusion).  The derivatives give a2 ~ 1e-29 and
     # an IR intensity ~ 2e-28 km/mol: numerical noise, shown as 0 in the text table with a
     # note; CSV keeps what was computed from the file.
-    from vibrapol.report import table_rows
+    from vibrapol.output.tables import table_rows
 
     _, table = symmetry_table(read_modes(qc_output(G16)))
     assert table.irreps[1] == "Bg"

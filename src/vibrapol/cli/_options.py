@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 
+from vibrapol.errors import VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1
 from vibrapol.sources import readers
 
@@ -68,3 +69,15 @@ def add_figure_width_argument(parser: argparse.ArgumentParser, default: str) -> 
         metavar="single|double|INCHES",
         help=f"figure width: single or double journal column, or inches (default {default})",
     )
+
+
+def figure_width(text: str) -> str | float:
+    """The value of ``--width``: ``"single"``, ``"double"`` or a width in inches."""
+    if text in ("single", "double"):
+        return text
+    try:
+        return float(text)
+    except ValueError:
+        raise VibrapolError(
+            f"--width must be single, double or a number of inches, got {text!r}"
+        ) from None

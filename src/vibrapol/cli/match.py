@@ -31,8 +31,8 @@ from vibrapol.cli._options import (
 )
 from vibrapol.cli.spectrum import parse_range
 from vibrapol.errors import VibrapolError
-from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes
+from vibrapol.spectrum.quantities import DETECTOR_NOTES
 
 if TYPE_CHECKING:
     from vibrapol.modeset import ModeSet
@@ -128,7 +128,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 def table_writer(path: str):  # noqa: ANN201
     """The paper-table writer for a file from its suffix."""
-    from vibrapol.compare.output import PAPER_TABLES
+    from vibrapol.output.assignments import PAPER_TABLES
 
     suffix = "." + path.rsplit(".", 1)[-1].lower() if "." in path else ""
     if suffix not in PAPER_TABLES:
@@ -189,7 +189,7 @@ def check_stokes(shift_cm1: np.ndarray, where: str) -> None:
 def assign_options(args: argparse.Namespace) -> dict[str, Any]:
     """Keyword arguments of :func:`vibrapol.compare.assign` from the options."""
     from vibrapol.compare import DEFAULT_MODEL
-    from vibrapol.scaling import FrequencyScale
+    from vibrapol.spectrum.scaling import FrequencyScale
 
     out: dict[str, Any] = {}
     if args.scale is not None:
@@ -208,7 +208,7 @@ def assign_options(args: argparse.Namespace) -> dict[str, Any]:
 def check_scale_for(args: argparse.Namespace, modes: ModeSet, where: str) -> None:
     """Refuse a ``--scale-for`` factor computed for another method or basis than ``modes``."""
     if args.scale_for:
-        from vibrapol.scaling import FrequencyScale
+        from vibrapol.spectrum.scaling import FrequencyScale
 
         p = modes.provenance
         FrequencyScale.published(args.scale_for).check_belongs(p.method, p.basis, where)
@@ -245,7 +245,7 @@ def check_outputs(args: argparse.Namespace, paths: list[str]) -> None:
 def run(args: argparse.Namespace) -> int:
     """Read, measure, assign; write the CSV and figures (all or nothing); print the summary."""
     from vibrapol.compare import assign, candidate_from_modes
-    from vibrapol.compare.output import assignment_csv, assignment_summary
+    from vibrapol.output.assignments import assignment_csv, assignment_summary
 
     outputs = [p for p in [args.output, *args.figure, *args.table] if p]
     check_outputs(args, outputs)
@@ -273,8 +273,8 @@ def run(args: argparse.Namespace) -> int:
         files.append((args.output, assignment_csv(result, pair, notes)))
     files += [(p, write(result)) for p, write in zip(args.table, writers, strict=True)]
     if args.figure:
-        from vibrapol.plotting_match import match_figure
-        from vibrapol.plotting_style import figure_bytes
+        from vibrapol.plotting.match import match_figure
+        from vibrapol.plotting.style import figure_bytes
 
         fig = match_figure(result, pair)
         files += [(p, figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)]

@@ -25,8 +25,8 @@ from vibrapol.cli.match import (
     measure,
 )
 from vibrapol.errors import VibrapolError
-from vibrapol.quantities import DETECTOR_NOTES
 from vibrapol.sources import read_modes
+from vibrapol.spectrum.quantities import DETECTOR_NOTES
 
 HELP = "rank candidate structures by how well they match a measured VV/VH spectrum"
 
@@ -74,7 +74,7 @@ def _degeneracies(items: list[str]) -> dict[str, float]:
 def run(args: argparse.Namespace) -> int:
     """Build the candidates, rank them, print (and write) the table."""
     from vibrapol.compare import candidate_from_modes, mixture_candidate, rank
-    from vibrapol.compare.output import ranking_text
+    from vibrapol.output.assignments import ranking_text
 
     if not args.sources and not args.mixture:
         raise VibrapolError("give at least one SOURCE or --mixture")

@@ -17,22 +17,23 @@ import argparse
 import math
 from typing import Any
 
-from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
 from vibrapol.cli._options import (
     add_degeneracy_argument,
     add_figure_width_argument,
     add_kind_argument,
     add_temperature_argument,
+    figure_width,
 )
 from vibrapol.cli._renamed import add_renamed
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import figure_format
-from vibrapol.lineshapes import SHAPES, LineShape
-from vibrapol.quantities import DETECTORS, QUANTITY_UNITS
-from vibrapol.scaling import NO_SCALE, FrequencyScale
 from vibrapol.sources import read_modes
 from vibrapol.spectrum import StickSpectrum, broaden, stick_spectrum
+from vibrapol.spectrum.channels import GEOMETRIES
+from vibrapol.spectrum.lineshapes import SHAPES, LineShape
+from vibrapol.spectrum.quantities import DETECTORS, QUANTITY_UNITS
+from vibrapol.spectrum.scaling import NO_SCALE, FrequencyScale
 
 HELP = "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures"
 
@@ -285,7 +286,7 @@ def build_sticks(
     )
     if len(modesets) == 1:
         return stick_spectrum(modesets[0], temperature_k=args.temperature_k, **options)
-    from vibrapol.conformers import conformer_spectrum, overlay
+    from vibrapol.spectrum.conformers import conformer_spectrum, overlay
 
     if overlaid:
         return overlay(
@@ -303,17 +304,6 @@ def build_sticks(
         include_zero_point=getattr(args, "zero_point", False),
         **options,
     )
-
-
-def _width(text: str) -> str | float:
-    if text in ("single", "double"):
-        return text
-    try:
-        return float(text)
-    except ValueError:
-        raise VibrapolError(
-            f"--width must be single, double or a number of inches, got {text!r}"
-        ) from None
 
 
 def run(args: argparse.Namespace) -> int:
@@ -335,13 +325,13 @@ def run(args: argparse.Namespace) -> int:
         span = default_range(sticks, lineshape)
     overlaid = args.overlay and len(args.sources) > 1
     if overlaid:
-        from vibrapol.conformers import overlay_grid
+        from vibrapol.spectrum.conformers import overlay_grid
 
         grid = overlay_grid(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
     else:
         grid = broaden(sticks, lineshape, range_cm1=span, step_cm1=args.step_cm1)
 
-    from vibrapol import spectrum_io
+    from vibrapol.output import spectra as spectrum_io
 
     outputs: list[tuple[str, str | bytes]] = []
     if args.sticks:
@@ -354,13 +344,15 @@ def run(args: argparse.Namespace) -> int:
                 grid,
                 channels=grid.channels,
                 layout=args.layout,
-                width=_width(args.width),
+                width=figure_width(args.width),
                 label_count=0 if overlaid else args.top,
                 sticks=not overlaid,
             )
             outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.figure]
         if args.rho_figure:
-            fig = plotting.depolarization_figure(sticks, width=_width(args.width), xlim_cm1=span)
+            fig = plotting.depolarization_figure(
+                sticks, width=figure_width(args.width), xlim_cm1=span
+            )
             outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.rho_figure]
     text = spectrum_io.grid_csv(grid) if args.format == "csv" else spectrum_io.grid_json(grid)
     write_outputs(args, [*outputs, (args.output, text)])  # all or nothing

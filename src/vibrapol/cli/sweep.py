@@ -16,10 +16,8 @@ import math
 
 import numpy as np
 
-from vibrapol import orientation as orient
-from vibrapol.channels import GEOMETRIES
 from vibrapol.cli._common import add_output_arguments, check_output, print_stdout, write_outputs
-from vibrapol.cli._options import add_figure_width_argument
+from vibrapol.cli._options import add_figure_width_argument, figure_width
 from vibrapol.cli.spectrum import (
     add_physics_arguments,
     parse_floats,
@@ -28,7 +26,9 @@ from vibrapol.cli.spectrum import (
 from vibrapol.errors import VibrapolError
 from vibrapol.fileio import figure_format
 from vibrapol.sources import read_modes
-from vibrapol.sweep import polar_sweep
+from vibrapol.spectrum import orientation as orient
+from vibrapol.spectrum.channels import GEOMETRIES
+from vibrapol.spectrum.sweep import polar_sweep
 
 HELP = "band intensities versus polarizer angle for isotropic or oriented samples"
 
@@ -204,15 +204,14 @@ def run(args: argparse.Namespace) -> int:
     )
     if args.bands:
         check_bands_found(parse_floats(args.bands, "--bands"), sweep.positions_cm1)
-    from vibrapol import spectrum_io
+    from vibrapol.output import spectra as spectrum_io
 
     figures: list[tuple[str | None, str | bytes]] = []
     text = spectrum_io.sweep_csv(sweep) if args.format == "csv" else spectrum_io.sweep_json(sweep)
     if args.figure:
         from vibrapol import plotting
-        from vibrapol.cli.spectrum import _width
 
-        fig = plotting.polar_figure(sweep, width=_width(args.width))
+        fig = plotting.polar_figure(sweep, width=figure_width(args.width))
         figures = [
             (p, plotting.figure_bytes(fig, f)) for p, f in zip(args.figure, formats, strict=True)
         ]

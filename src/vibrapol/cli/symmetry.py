@@ -20,11 +20,12 @@ from vibrapol.cli._common import add_output_arguments, check_output, emit
 from vibrapol.cli._options import add_kind_argument
 from vibrapol.errors import OptionError, VibrapolWarning
 from vibrapol.modeset import ModeSet
+from vibrapol.output.symmetry import symmetry_json, symmetry_text
 from vibrapol.sources import read_modes
-from vibrapol.sources.registry import read_text, sniff_text
+from vibrapol.sources.registry import sniff_text
 from vibrapol.structure import read_structure
 from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, analyse_modes, find_point_group
-from vibrapol.symmetry_report import symmetry_json, symmetry_text
+from vibrapol.textio import read_text
 
 HELP = "point group, Γ_vib and selection rules of a structure or of computed modes"
 

@@ -13,8 +13,8 @@ from vibrapol.cli._options import (
 from vibrapol.cli.spectrum import add_scale_arguments, scale_from_args
 from vibrapol.cli.symmetry import add_symmetry_arguments, recorded_warnings
 from vibrapol.errors import OptionError, VibrapolError
+from vibrapol.output.tables import FORMATTERS, table_latex, table_markdown
 from vibrapol.ramantable import raman_table, symmetry_table, with_warnings
-from vibrapol.report import FORMATTERS, table_latex, table_markdown
 from vibrapol.sources import read_modes
 
 HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"

@@ -14,12 +14,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.conformers import conformer_weights, mixture
 from vibrapol.errors import AccuracyWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
-from vibrapol.scaling import FrequencyScale, lookup_factor
 from vibrapol.spectrum import StickSpectrum, stick_spectrum
+from vibrapol.spectrum.conformers import conformer_weights, mixture
+from vibrapol.spectrum.scaling import FrequencyScale, lookup_factor
 
 
 @dataclass(frozen=True, eq=False)
@@ -127,7 +127,7 @@ def candidate_from_modes(
     laser_nm, temperature_k : float
         Conditions of the measurement: the computed intensities use them (the Stokes factor
         ν̃₀(ν̃₀ − ν̃)³ / (ν̃ [1 − exp(−hcν̃/kT)]) for a photon-counting detector,
-        :mod:`vibrapol.quantities`).
+        :mod:`vibrapol.spectrum.quantities`).
     symmetry : bool
         Find the point group and label each band with its species (degenerate sets then come
         from symmetry).
@@ -159,7 +159,8 @@ def mixture_candidate(
     """A Boltzmann mixture of conformers as one candidate.
 
     Each conformer's intensities are multiplied by its population
-    g_i exp(−ΔE_i/RT) / Σ g_j exp(−ΔE_j/RT) (:func:`vibrapol.conformers.boltzmann_weights`).
+    g_i exp(−ΔE_i/RT) / Σ g_j exp(−ΔE_j/RT)
+    (:func:`vibrapol.spectrum.conformers.boltzmann_weights`).
 
     Parameters
     ----------
@@ -174,7 +175,8 @@ def mixture_candidate(
     label : str
         Name of the mixture (default: the component names joined by "+").
     laser_nm, temperature_k, include_zero_point, symmetry, start_scale, detector
-        As in :func:`candidate_from_modes` and :func:`vibrapol.conformers.conformer_spectrum`.
+        As in :func:`candidate_from_modes` and
+        :func:`vibrapol.spectrum.conformers.conformer_spectrum`.
     """
     if not modesets:
         raise VibrapolError("a mixture candidate needs at least one conformer")

@@ -10,9 +10,9 @@ import numpy as np
 
 from vibrapol.compare.costs import BandData, ModeData, measured_polarized
 from vibrapol.compare.results import AssignmentScores
-from vibrapol.lineshapes import LineShape
 from vibrapol.measured import MeasuredBands, PolarizedPair
 from vibrapol.spectrum import StickSpectrum, broaden
+from vibrapol.spectrum.lineshapes import LineShape
 
 #: Width used for the computed bands when the measured widths are unknown or absurd, cm⁻¹.
 DEFAULT_FWHM_CM1 = 8.0

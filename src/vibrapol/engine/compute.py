@@ -101,6 +101,18 @@ def compute_modes(
         ``"hf"`` or a DFT functional name (``"b3lyp"``, ``"pbe0"`` …); closed shell only.
     basis : str
         Basis-set name PySCF knows.
+    **options
+        The other fields of :class:`~vibrapol.engine.settings.EngineSettings` and the run's
+        options, listed under Other Parameters.
+
+    Returns
+    -------
+    ModeSet
+        With frequencies, modes, ``dalpha_dx`` (Cartesian and field routes) or ``dalpha_dq``
+        (normal-mode route), α at the reference geometry, the SCF energy and provenance.
+
+    Other Parameters
+    ----------------
     charge, multiplicity : int
         Total charge; multiplicity must be 1.
     optimize : bool
@@ -139,12 +151,6 @@ def compute_modes(
         Delete the checkpoint file first.
     progress : bool or None
         Progress on stderr; None: only when stderr is a terminal.
-
-    Returns
-    -------
-    ModeSet
-        With frequencies, modes, ``dalpha_dx`` (Cartesian and field routes) or ``dalpha_dq``
-        (normal-mode route), α at the reference geometry, the SCF energy and provenance.
 
     Raises
     ------

@@ -26,7 +26,7 @@ from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import write_atomic
 from vibrapol.measured.fitting import SHAPE, BandFit, Starts, fit_bands, fit_joint
 from vibrapol.measured.spectrum import MeasuredSpectrum, PolarizedPair
-from vibrapol.sources.registry import read_text
+from vibrapol.textio import read_text
 
 #: Schema name and version of stored corrections.
 CORRECTION_SCHEMA = "vibrapol.polarization-correction"

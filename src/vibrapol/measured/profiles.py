@@ -2,7 +2,7 @@
 
 Every profile integrates to 1 over the whole axis and is parametrized by its centre ``x0`` and
 full width at half maximum ``fwhm`` (both cm⁻¹), so a fitted amplitude *is* the band area.
-The Lorentzian and Gaussian themselves are those of :mod:`vibrapol.lineshapes` (re-exported
+The Lorentzian and Gaussian themselves are those of :mod:`vibrapol.spectrum.lineshapes` (re-exported
 here under the same names).
 """
 
@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from vibrapol.errors import VibrapolError
-from vibrapol.lineshapes import gaussian, lorentzian
+from vibrapol.spectrum.lineshapes import gaussian, lorentzian
 
 __all__ = ["SHAPES", "gaussian", "height_factor", "lorentzian", "profile", "profile_derivatives"]
 

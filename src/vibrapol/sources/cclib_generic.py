@@ -45,7 +45,8 @@ from vibrapol.errors import AccuracyWarning, InputFormatError
 from vibrapol.modeset import ModeSet, Provenance, default_masses
 from vibrapol.sources import _gamess_blocks, dalton, qchem
 from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
-from vibrapol.sources.registry import SNIFF_CHARS, Reader, read_text, readers, register
+from vibrapol.sources.registry import SNIFF_CHARS, Reader, readers
+from vibrapol.textio import read_text
 from vibrapol.vibrations import modes_from_displacements
 
 #: cclib ``metadata["package"]`` values whose ``vibramans`` are not Raman activities.
@@ -257,11 +258,10 @@ def _cclib_version() -> str:
     return str(cclib.__version__)
 
 
-register(
-    Reader(
-        "cclib",
-        "any output cclib reads (frequencies, modes, activities; no ratios)",
-        sniff_cclib,
-        read_cclib,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "cclib",
+    "any output cclib reads (frequencies, modes, activities; no ratios)",
+    sniff_cclib,
+    read_cclib,
 )

@@ -40,7 +40,8 @@ from vibrapol.sources._common import (
 )
 from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
+from vibrapol.textio import read_text
 from vibrapol.units import BOHR2_TO_ANG2, BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
 
@@ -420,4 +421,5 @@ def _check(modes: ModeSet, printed: RamanRows, order: np.ndarray, where: str) ->
     )
 
 
-register(Reader("dalton", "DALTON Raman output", sniff, read_dalton))
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader("dalton", "DALTON Raman output", sniff, read_dalton)

@@ -58,7 +58,8 @@ from vibrapol.sources._program_warnings import (
     find_program_warnings,
     pass_on,
 )
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
+from vibrapol.textio import read_text
 from vibrapol.vibrations import modes_from_displacements
 
 __all__ = [
@@ -264,11 +265,10 @@ def _check(
         )
 
 
-register(
-    Reader(
-        "firefly",
-        "GAMESS family (Firefly, PC GAMESS, GAMESS-US) frequency and Raman output",
-        sniff,
-        read_firefly,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "firefly",
+    "GAMESS family (Firefly, PC GAMESS, GAMESS-US) frequency and Raman output",
+    sniff,
+    read_firefly,
 )

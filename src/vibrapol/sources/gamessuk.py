@@ -53,7 +53,8 @@ from vibrapol.sources._common import (
 )
 from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
+from vibrapol.textio import read_text
 from vibrapol.units import BOHR2_TO_ANG2
 from vibrapol.vibrations import modes_from_displacements, rigid_body_vectors
 
@@ -557,4 +558,5 @@ def _check(modes: ModeSet, printed: RamanRows, vib: np.ndarray, where: str) -> N
     )
 
 
-register(Reader("gamess-uk", "GAMESS-UK Raman output", sniff, read_gamessuk))
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader("gamess-uk", "GAMESS-UK Raman output", sniff, read_gamessuk)

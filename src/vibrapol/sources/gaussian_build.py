@@ -23,7 +23,7 @@ from vibrapol.modeset import ModeSet, Provenance, default_masses
 from vibrapol.sources._common import check_printed
 from vibrapol.sources.gaussian import GaussianJob, PrintPrecision
 from vibrapol.sources.gaussian_path import path_projected_modes
-from vibrapol.sources.registry import read_text
+from vibrapol.textio import read_text
 from vibrapol.units import BOHR2_TO_ANG2, BOHR3_TO_ANG3, hessian_eigenvalue_to_cm1
 from vibrapol.vibrations import HarmonicModes, harmonic_analysis, modes_from_displacements
 

@@ -34,7 +34,7 @@ from vibrapol.sources.gaussian import (
 )
 from vibrapol.sources.gaussian_build import read_job
 from vibrapol.sources.gaussian_path import asks_projected
-from vibrapol.sources.registry import Reader, register
+from vibrapol.sources.registry import Reader
 from vibrapol.units import BOHR_ANG
 
 #: Rows of ``Vib-E2`` that vibrapol compares (0-based; each row holds one value per mode).
@@ -291,11 +291,10 @@ def read_gaussian_fchk(path: str | Path) -> ModeSet:
     return read_job(parse_gaussian_fchk, path)
 
 
-register(
-    Reader(
-        "gaussian-fchk",
-        "Gaussian formatted checkpoint (.fchk) of a Freq job: Hessian and derivatives",
-        sniff_gaussian_fchk,
-        read_gaussian_fchk,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "gaussian-fchk",
+    "Gaussian formatted checkpoint (.fchk) of a Freq job: Hessian and derivatives",
+    sniff_gaussian_fchk,
+    read_gaussian_fchk,
 )

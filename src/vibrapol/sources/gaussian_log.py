@@ -47,7 +47,7 @@ from vibrapol.sources.gaussian import (
 from vibrapol.sources.gaussian_blocks import FREQ_HEADER, FrequencySection, read_sections
 from vibrapol.sources.gaussian_build import read_job
 from vibrapol.sources.gaussian_path import asks_projected, program_messages, route_blocks
-from vibrapol.sources.registry import Reader, register
+from vibrapol.sources.registry import Reader
 
 #: Log precision: Hessian 8 decimals; frequencies, activities and ratios 4 decimals.  The
 #: activity and ratio tolerances add, to half a printed unit, an allowance for the rounding of
@@ -445,11 +445,10 @@ def read_gaussian_log(path: str | Path) -> ModeSet:
     return read_job(parse_gaussian_log, path)
 
 
-register(
-    Reader(
-        "gaussian-log",
-        "Gaussian log of a Freq or Freq=Raman job (archive Hessian and derivatives)",
-        sniff_gaussian_log,
-        read_gaussian_log,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "gaussian-log",
+    "Gaussian log of a Freq or Freq=Raman job (archive Hessian and derivatives)",
+    sniff_gaussian_log,
+    read_gaussian_log,
 )

@@ -17,7 +17,8 @@ import numpy as np
 from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import write_atomic
 from vibrapol.modeset import ModeSet, Provenance
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
+from vibrapol.textio import read_text
 from vibrapol.units import CODATA_VERSION
 
 FORMAT_NAME = "vibrapol.modes"
@@ -140,4 +141,5 @@ def _sniff(head: str, tail: str) -> bool:
     return head.lstrip().startswith("{") and f'"{FORMAT_NAME}"' in head[:2000]
 
 
-register(Reader("modes-json", "vibrapol's own *.modes.json", _sniff, read_modes_json))
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader("modes-json", "vibrapol's own *.modes.json", _sniff, read_modes_json)

@@ -69,7 +69,8 @@ from vibrapol.sources.orca_blocks import (
     polarizability_block,
     raman_block,
 )
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
+from vibrapol.textio import read_text
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
 
@@ -430,11 +431,10 @@ def sniff_orca(head: str, tail: str) -> bool:
     return "O   R   C   A" in head
 
 
-register(
-    Reader(
-        "orca",
-        "ORCA 5/6 output (frequencies, modes, Raman activity and ratio)",
-        sniff_orca,
-        read_orca,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "orca",
+    "ORCA 5/6 output (frequencies, modes, Raman activity and ratio)",
+    sniff_orca,
+    read_orca,
 )

@@ -47,7 +47,8 @@ from vibrapol.sources._common import (
 )
 from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule, find_program_warnings, pass_on
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
+from vibrapol.textio import read_text
 from vibrapol.units import BOHR3_TO_ANG3
 from vibrapol.vibrations import modes_from_displacements
 
@@ -407,11 +408,10 @@ def sniff_qchem(head: str, tail: str) -> bool:
     return "Welcome to Q-Chem" in head or "A Quantum Leap Into The Future Of Chemistry" in head
 
 
-register(
-    Reader(
-        "qchem",
-        "Q-Chem output (frequencies, modes, Raman activity and ratio)",
-        sniff_qchem,
-        read_qchem,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "qchem",
+    "Q-Chem output (frequencies, modes, Raman activity and ratio)",
+    sniff_qchem,
+    read_qchem,
 )

@@ -38,8 +38,9 @@ from vibrapol.sources._common import (
     atomic_numbers_from_symbols,
     truncated_error,
 )
-from vibrapol.sources.registry import Reader, read_text, register
+from vibrapol.sources.registry import Reader
 from vibrapol.sources.turbomole_raman import relative_invariants
+from vibrapol.textio import read_text
 from vibrapol.units import BOHR_ANG, C_CM_S, HARTREE_J, PLANCK_J_S
 from vibrapol.vibrations import modes_from_displacements
 
@@ -461,11 +462,10 @@ def sniff_turbomole(head: str, tail: str) -> bool:
     return any(TITLE in part and "reduced mass(g/mol)" in part for part in (head, tail))
 
 
-register(
-    Reader(
-        "turbomole",
-        "TURBOMOLE aoforce output (frequencies, modes, IR, relative Raman cross sections)",
-        sniff_turbomole,
-        read_turbomole,
-    )
+#: This module's reader; its place in the sniffing order is set in :mod:`vibrapol.sources`.
+READER = Reader(
+    "turbomole",
+    "TURBOMOLE aoforce output (frequencies, modes, IR, relative Raman cross sections)",
+    sniff_turbomole,
+    read_turbomole,
 )

@@ -15,7 +15,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
-from vibrapol.lineshapes import LineShape
+from vibrapol.spectrum.lineshapes import LineShape
 
 if TYPE_CHECKING:  # pragma: no cover
     from vibrapol.spectrum import StickSpectrum

@@ -17,7 +17,7 @@ import numpy as np
 
 from vibrapol.polarization import MARKS, RULE_TEXT
 from vibrapol.ramantable import RamanTable
-from vibrapol.scaling import FrequencyScale
+from vibrapol.spectrum.scaling import FrequencyScale
 from vibrapol.tablechecks import FORBIDDEN_NOISE_FRACTION
 from vibrapol.units import CODATA_VERSION
 

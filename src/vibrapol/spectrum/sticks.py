@@ -1,16 +1,18 @@
 """Theoretical Raman spectra: sticks per band and broadened spectra on a grid.
 
 ``stick_spectrum`` turns a :class:`~vibrapol.modeset.ModeSet` into a :class:`StickSpectrum`: one
-stick per degenerate set, with a height in each polarization channel (:mod:`vibrapol.channels`)
-for the chosen quantity, laser line, temperature and scattering geometry.  ``broaden`` samples it
-on a grid with a line shape (:mod:`vibrapol.lineshapes`) into a :class:`GridSpectrum`.
+stick per degenerate set, with a height in each polarization channel
+(:mod:`vibrapol.spectrum.channels`) for the chosen quantity, laser line, temperature and scattering
+geometry. ``broaden`` samples it on a grid with a line shape (:mod:`vibrapol.spectrum.lineshapes`)
+into a :class:`GridSpectrum`.
 
-Broadening lives in :mod:`vibrapol.broadening` and is re-exported here.
+Broadening lives in :mod:`vibrapol.spectrum.broadening` and is re-exported here.
 
-Stick heights are one of the quantities of :mod:`vibrapol.quantities` (Raman activity, relative
-intensity at a laser line and temperature, absolute cross section), Stokes or anti-Stokes.
+Stick heights are one of the quantities of :mod:`vibrapol.spectrum.quantities` (Raman activity,
+relative intensity at a laser line and temperature, absolute cross section), Stokes or anti-Stokes.
 
-Scaled wavenumbers (:mod:`vibrapol.scaling`) are used for the band positions and in every factor.
+Scaled wavenumbers (:mod:`vibrapol.spectrum.scaling`) are used for the band positions and in
+every factor.
 """
 
 from __future__ import annotations
@@ -22,7 +24,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.broadening import (  # noqa: F401  (re-exported: the public spectrum API)
+from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
+from vibrapol.invariants import DEGENERACY_TOL_CM1, check_degeneracy_tol, sum_over_sets
+from vibrapol.modeset import ModeSet
+from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
+from vibrapol.spectrum.broadening import (  # noqa: F401  (re-exported: the public spectrum API)
     ACTIVE_FRACTION,
     DEFAULT_LINESHAPE,
     HIDDEN_BAND_FRACTION,
@@ -33,18 +39,15 @@ from vibrapol.broadening import (  # noqa: F401  (re-exported: the public spectr
     make_grid,
     read_only,
 )
-from vibrapol.channels import (
+from vibrapol.spectrum.channels import (
     RATIO_CHANNELS,
     check_geometry,
     depolarization_ratios,
     isotropic_channel_activity,
     with_base_channels,
 )
-from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
-from vibrapol.invariants import DEGENERACY_TOL_CM1, check_degeneracy_tol, sum_over_sets
-from vibrapol.modeset import ModeSet
-from vibrapol.orientation import Orientation, oriented_channel_activity
-from vibrapol.quantities import (
+from vibrapol.spectrum.orientation import Orientation, oriented_channel_activity
+from vibrapol.spectrum.quantities import (
     DETECTOR_NOTES,
     QUANTITY_UNITS,
     SIDES,
@@ -52,8 +55,7 @@ from vibrapol.quantities import (
     quantity_factor,
     thermal_factor,
 )
-from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
-from vibrapol.scaling import NO_SCALE, FrequencyScale
+from vibrapol.spectrum.scaling import NO_SCALE, FrequencyScale
 
 #: Bands below this wavenumber are suspicious (residual rotations/translations): warned.
 LOW_BAND_CM1 = 10.0
@@ -145,7 +147,7 @@ class StickSpectrum:
     heights : ndarray (n, n_channels)
         Height in each channel, in ``conditions.unit``.
     channels : tuple of str
-        Channel names (:mod:`vibrapol.channels`); ``vv`` and ``vh`` come first.
+        Channel names (:mod:`vibrapol.spectrum.channels`); ``vv`` and ``vh`` come first.
     harmonic_cm1 : ndarray (n,)
         Unscaled harmonic wavenumber (mean over the set).
     mode_sets : tuple of tuple of int
@@ -155,7 +157,9 @@ class StickSpectrum:
     rho_linear, rho_natural : ndarray (n,)
         Depolarization ratios of the band for the spectrum's geometry and sample: VH/VV
         (linearly polarized incident light) and NH/NV (natural light), from the channels
-        computed (:func:`vibrapol.channels.depolarization_ratios`); NaN when inactive.  At 90°
+        computed (:func:`vibrapol.spectrum.channels.depolarization_ratios`); NaN when inactive.
+
+        At 90°
         for an isotropic sample these are the usual ρ_linear and ρ_natural; at 180° the
         natural-light ratio of an isotropic sample is 1.
     polarized : ndarray of bool (n,)
@@ -274,7 +278,7 @@ def stick_spectrum(
     scale : FrequencyScale
         Applied to every mode before grouping the set's position and computing the factors.
     orientation : Orientation, optional
-        Oriented sample (:mod:`vibrapol.orientation`); default: isotropic (closed form).
+        Oriented sample (:mod:`vibrapol.spectrum.orientation`); default: isotropic (closed form).
     table : RamanTable, optional
         Supplies the degenerate sets, ρ and irreps.  Default: with ``symmetry`` the table of
         :func:`vibrapol.ramantable.symmetry_table` (species and sets from the point group; the
@@ -284,7 +288,7 @@ def stick_spectrum(
         Label the bands by symmetry species when no ``table`` is given (default True).
     detector : str
         ``"photon"`` (counting detectors, default) or ``"energy"``: the convention of the
-        relative intensity (:func:`vibrapol.quantities.frequency_factor`).
+        relative intensity (:func:`vibrapol.spectrum.quantities.frequency_factor`).
 
     Raises
     ------

@@ -16,9 +16,9 @@ from typing import Any
 
 import numpy as np
 
-from vibrapol.lineshapes import LineShape
 from vibrapol.spectrum import Conditions, GridSpectrum, StickSpectrum
-from vibrapol.sweep import PolarSweep
+from vibrapol.spectrum.lineshapes import LineShape
+from vibrapol.spectrum.sweep import PolarSweep
 from vibrapol.units import CODATA_VERSION
 
 #: Leading columns of the stick table, before one column per channel.
@@ -239,7 +239,7 @@ def sweep_json(sweep: PolarSweep) -> str:
     """The sweep with its conditions as JSON."""
     c = sweep.conditions
     doc = {
-        "format": "vibrapol.sweep",
+        "format": "vibrapol.spectrum.sweep",
         "quantity": c.quantity,
         "unit": c.unit,
         "geometry_deg": c.geometry_deg,

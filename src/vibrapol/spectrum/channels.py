@@ -1,6 +1,6 @@
 """Polarization channels: which incident and scattered polarizations a spectrum records.
 
-Laboratory frame (used by every channel and by :mod:`vibrapol.orientation`):
+Laboratory frame (used by every channel and by :mod:`vibrapol.spectrum.orientation`):
 
 * the incident beam travels along +z;
 * the scattering plane is the xz plane; **V** (vertical) is y, perpendicular to it;

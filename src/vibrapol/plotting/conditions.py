@@ -12,8 +12,8 @@ import textwrap
 
 from matplotlib.figure import Figure
 
-from vibrapol.lineshapes import LineShape
 from vibrapol.spectrum import Conditions
+from vibrapol.spectrum.lineshapes import LineShape
 
 #: Size of the caption text (points).
 CAPTION_PT = 5.5
@@ -61,7 +61,7 @@ def caption_text(conditions: Conditions, lineshape: LineShape | None = None) -> 
     else:
         parts.append(_plain(c.scale.describe(short=True)))
     if lineshape is not None:
-        from vibrapol.spectrum_io import lineshape_text
+        from vibrapol.output.spectra import lineshape_text
 
         parts.append(_plain(lineshape_text(lineshape)).replace("cm-1", "cm$^{-1}$"))
     parts.append(_plain(c.method) if c.method else "method not recorded by the source")

@@ -23,10 +23,7 @@ import numpy as np
 
 from vibrapol import units
 from vibrapol.errors import AccuracyWarning, VibrapolError
-from vibrapol.lineshapes import LineShape
 from vibrapol.modeset import ModeSet
-from vibrapol.quantities import check_temperature
-from vibrapol.scaling import normalize_basis, parse_method
 from vibrapol.spectrum import (
     DEFAULT_LINESHAPE,
     GridSpectrum,
@@ -35,6 +32,9 @@ from vibrapol.spectrum import (
     default_range,
     stick_spectrum,
 )
+from vibrapol.spectrum.lineshapes import LineShape
+from vibrapol.spectrum.quantities import check_temperature
+from vibrapol.spectrum.scaling import normalize_basis, parse_method
 
 
 def formula(modes: ModeSet) -> str:

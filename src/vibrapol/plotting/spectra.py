@@ -5,7 +5,7 @@ pyplot, no global state), so they render headless.  Every function returns the `
 further editing in Python; :func:`save_figure` writes SVG, PDF (vector, text kept as text) or
 300 dpi PNG atomically.  No numeric module imports this one.
 
-Sizes, fonts and colours are in :mod:`vibrapol.plotting_style` (journal column widths,
+Sizes, fonts and colours are in :mod:`vibrapol.plotting.style` (journal column widths,
 7–8 pt text, a colour-blind-safe palette); VV and VH also differ in line style so a figure reads
 in grey scale.
 """
@@ -25,8 +25,8 @@ from matplotlib.ticker import AutoMinorLocator, FixedLocator
 
 from vibrapol.errors import VibrapolError
 from vibrapol.invariants import rho_natural_from_linear
-from vibrapol.plotting_conditions import add_caption, shift_label
-from vibrapol.plotting_labels import (
+from vibrapol.plotting.conditions import add_caption, shift_label
+from vibrapol.plotting.labels import (
     CURVE_HEADROOM,
     box_of,
     fix_layout,
@@ -34,7 +34,7 @@ from vibrapol.plotting_labels import (
     place_labels,
     place_point_labels,
 )
-from vibrapol.plotting_style import (
+from vibrapol.plotting.style import (
     CHANNEL_NAMES,
     DASHES,
     LABEL_PT,
@@ -50,7 +50,7 @@ from vibrapol.plotting_style import (
 )
 from vibrapol.polarization import POLARIZED_BELOW
 from vibrapol.spectrum import GridSpectrum, StickSpectrum
-from vibrapol.sweep import PolarSweep
+from vibrapol.spectrum.sweep import PolarSweep
 
 __all__ = [
     "CHANNEL_NAMES",

@@ -26,10 +26,9 @@ from matplotlib.text import Text
 
 from vibrapol.compare.results import Assignment
 from vibrapol.compare.scores import DEFAULT_FWHM_CM1, measured_curves
-from vibrapol.lineshapes import LineShape
 from vibrapol.measured import PolarizedPair
-from vibrapol.plotting_labels import Box, box_of, fix_layout, place_point_labels
-from vibrapol.plotting_style import (
+from vibrapol.plotting.labels import Box, box_of, fix_layout, place_point_labels
+from vibrapol.plotting.style import (
     DASHES,
     LABEL_PT,
     PALETTE,
@@ -40,6 +39,7 @@ from vibrapol.plotting_style import (
     new_figure,
 )
 from vibrapol.spectrum import broaden
+from vibrapol.spectrum.lineshapes import LineShape
 
 #: Vertical layout in normalized units: computed spectrum in [0, 1], measured in
 #: [MEASURED_BASE, MEASURED_BASE + 1], joining lines in the gap between.

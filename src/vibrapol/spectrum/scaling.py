@@ -245,7 +245,7 @@ def lookup_factor(spec: str, source: str | None = None) -> PublishedFactor:
     if not rows:
         raise VibrapolError(
             f"no published scale factor for {text!r} in vibrapol's table "
-            "(vibrapol.scaling.SCALE_FACTORS); give a factor with --scale instead"
+            "(vibrapol.spectrum.scaling.SCALE_FACTORS); give a factor with --scale instead"
         )
     if source is not None:
         key = source.upper()

@@ -1,8 +1,8 @@
 """Oriented samples: molecules fixed in the laboratory frame and uniaxially aligned ensembles.
 
 An orientation distribution is a set of rotations R (molecule frame → laboratory frame, see
-:mod:`vibrapol.channels` for the laboratory axes) with quadrature weights.  The intensity of a
-mode for polarizations e_i, e_s is Σ_r w_r |e_s·R α′ Rᵀ·e_i|², evaluated as
+:mod:`vibrapol.spectrum.channels` for the laboratory axes) with quadrature weights.  The
+intensity of a mode for polarizations e_i, e_s is Σ_r w_r |e_s·R α′ Rᵀ·e_i|², evaluated as
 Σ_r w_r ((Rᵀe_s)·α′·(Rᵀe_i))².
 
 The quadratures are exact for the isotropic average: the integrand is a polynomial of degree 4
@@ -26,8 +26,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.channels import channel_terms
 from vibrapol.errors import VibrapolError
+from vibrapol.spectrum.channels import channel_terms
 
 #: Quadrature sizes of :func:`isotropic` (tilt nodes in cos θ, azimuth, twist).
 ISOTROPIC_NODES = (4, 6, 6)
@@ -267,8 +267,8 @@ def oriented_channel_activity(
 ) -> np.ndarray:
     """Channel heights 45 Σ_r w_r |e_s·R α′ Rᵀ·e_i|², shape (n_modes, n_channels), Å⁴ amu⁻¹.
 
-    Same normalisation as :func:`vibrapol.channels.isotropic_channel_activity`, to which it is
-    equal for the :func:`isotropic` orientation.
+    Same normalisation as :func:`vibrapol.spectrum.channels.isotropic_channel_activity`, to
+    which it is equal for the :func:`isotropic` orientation.
     """
     t = np.asarray(dalpha_dq, dtype=float)
     out = np.zeros((t.shape[0], len(channels)))

@@ -189,7 +189,7 @@ def assignment_markdown(assignment: Assignment) -> str:
 
 def assignment_latex(assignment: Assignment) -> str:
     r"""The assignment as a booktabs LaTeX table (needs ``\usepackage{booktabs}``)."""
-    from vibrapol.report import latex_species, tex_escape
+    from vibrapol.output.tables import latex_species, tex_escape
 
     caption = (
         tex_escape(_paper_caption(assignment))

@@ -1,6 +1,6 @@
 """Files and summary of ``vibrapol demo``: tables, spectra and figures, the printed summary.
 
-Split from :mod:`vibrapol.demo`, which runs the steps; everything here turns results into
+Split from :mod:`vibrapol.demo.run`, which runs the steps; everything here turns results into
 text or bytes (nothing is written here).
 """
 
@@ -19,7 +19,7 @@ from vibrapol.ramantable import RamanTable, raman_table
 
 if TYPE_CHECKING:  # pragma: no cover
     from vibrapol.compare import AssignedBand, Assignment, Ranking
-    from vibrapol.demo import DemoResult, DemoScenario
+    from vibrapol.demo.scenario import DemoResult, DemoScenario
     from vibrapol.symmetry import ModeSymmetry
 
 #: Bands shown with a label in the spectrum figure.
@@ -30,7 +30,7 @@ WIDTH = 100
 
 def tables(modes: ModeSet, name: str) -> tuple[ModeSymmetry, RamanTable, list[tuple[str, str]]]:
     """Symmetry analysis, the Raman table, and the table as text and CSV."""
-    from vibrapol.report import table_csv, table_text
+    from vibrapol.output.tables import table_csv, table_text
     from vibrapol.symmetry import mode_symmetry
 
     sym = mode_symmetry(modes)
@@ -44,7 +44,7 @@ def tables(modes: ModeSet, name: str) -> tuple[ModeSymmetry, RamanTable, list[tu
 
 def _scale(modes: ModeSet):  # noqa: ANN202
     from vibrapol.compare import published_scale
-    from vibrapol.scaling import NO_SCALE
+    from vibrapol.spectrum.scaling import NO_SCALE
 
     return published_scale(modes) or NO_SCALE
 
@@ -53,9 +53,10 @@ def figures(
     sym: ModeSymmetry, table: RamanTable, scenario: DemoScenario, name: str
 ) -> list[tuple[str, str | bytes]]:
     """Spectrum CSV, stick CSV, VV/VH figure and ρ figure (SVG and PNG) of the sample."""
-    from vibrapol import plotting, spectrum_io
-    from vibrapol.lineshapes import LineShape
+    from vibrapol import plotting
+    from vibrapol.output import spectra as spectrum_io
     from vibrapol.spectrum import broaden, stick_spectrum
+    from vibrapol.spectrum.lineshapes import LineShape
 
     scale = _scale(sym.modes)
     sticks = stick_spectrum(

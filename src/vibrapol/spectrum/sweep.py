@@ -1,10 +1,10 @@
 """Polar sweeps: intensity of chosen bands versus the angle of the incident polarization.
 
-The polarizer turns by θ from V towards H (laboratory frame of :mod:`vibrapol.channels`); the
-analyzer follows it (parallel, channel ``p<θ>a<θ>``) or stays 90° away (crossed,
-``p<θ>a<θ+90>``).  In back-scattering (180°, the usual microscope geometry) both beams share
-the xy plane, so parallel means e_s = e_i.  For an isotropic sample the curves are flat; for
-oriented samples (:mod:`vibrapol.orientation`) they show the symmetry of the Raman tensor.
+The polarizer turns by θ from V towards H (laboratory frame of :mod:`vibrapol.spectrum.channels`);
+the analyzer follows it (parallel, channel ``p<θ>a<θ>``) or stays 90° away (crossed,
+``p<θ>a<θ+90>``). In back-scattering (180°, the usual microscope geometry) both beams share the xy
+plane, so parallel means e_s = e_i. For an isotropic sample the curves are flat; for oriented
+samples (:mod:`vibrapol.spectrum.orientation`) they show the symmetry of the Raman tensor.
 """
 
 from __future__ import annotations
@@ -15,10 +15,10 @@ from typing import Any
 
 import numpy as np
 
-from vibrapol.channels import angle_channel
 from vibrapol.errors import ShapeError, VibrapolError
 from vibrapol.modeset import ModeSet
 from vibrapol.spectrum import Conditions, StickSpectrum, stick_spectrum
+from vibrapol.spectrum.channels import angle_channel
 
 #: Default polarizer angles: 0 to 360° every 5°.
 DEFAULT_ANGLES_DEG = np.arange(0.0, 360.0 + 1e-9, 5.0)

@@ -1,7 +1,7 @@
 """Quantities a stick can carry: activity, relative intensity, absolute cross section.
 
-With A_c = 45⟨|e_s·α′·e_i|²⟩ the channel activity (:mod:`vibrapol.channels`), ν̃₀ the laser and
-ν̃_k the band wavenumber in cm⁻¹:
+With A_c = 45⟨|e_s·α′·e_i|²⟩ the channel activity (:mod:`vibrapol.spectrum.channels`), ν̃₀ the
+laser and ν̃_k the band wavenumber in cm⁻¹:
 
 * ``"activity"``: A_c in Å⁴ amu⁻¹.
 * ``"intensity"``: the signal a detector records, relative.  With ν̃_s = ν̃₀ ∓ ν̃_k the scattered

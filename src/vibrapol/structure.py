@@ -15,7 +15,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-from scipy.spatial.distance import cdist
 
 from vibrapol.errors import GeometryError, InputFormatError, VibrapolError, VibrapolWarning
 
@@ -70,6 +69,8 @@ def check_structure(
         raise GeometryError(
             f"{prefix}a single atom has no vibrations; give a molecule with at least two atoms"
         )
+    from scipy.spatial.distance import cdist  # here: SciPy is slow to import
+
     d = cdist(coords, coords) + np.eye(len(coords)) * 1e9
     i, j = np.unravel_index(np.argmin(d), d.shape)
     if d[i, j] < MIN_SEPARATION_ANG:

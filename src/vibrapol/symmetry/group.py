@@ -6,7 +6,6 @@ import re
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial.distance import cdist
 
 from vibrapol.symmetry.printed import normalize_label
 
@@ -153,6 +152,8 @@ def match_atoms(
     ``tolerance_ang`` or two images claim the same partner.
     """
     image = centred @ np.asarray(matrix).T
+    from scipy.spatial.distance import cdist  # here: SciPy is slow to import
+
     d = cdist(image, centred)
     d[species[:, None] != species[None, :]] = np.inf
     perm = np.argmin(d, axis=1)

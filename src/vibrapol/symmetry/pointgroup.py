@@ -15,7 +15,6 @@ import warnings
 
 import numpy as np
 from ase.data import covalent_radii
-from scipy.spatial.distance import cdist
 
 from vibrapol.errors import AccuracyWarning, GeometryError
 from vibrapol.modeset import default_masses
@@ -61,6 +60,8 @@ def _species_ids(z: np.ndarray, masses: np.ndarray) -> np.ndarray:
 
 def _bonds(z: np.ndarray, coords: np.ndarray) -> np.ndarray:
     r = covalent_radii[z]
+    from scipy.spatial.distance import cdist  # here: SciPy is slow to import
+
     d = cdist(coords, coords)
     i, j = np.nonzero(np.triu(d < BOND_FACTOR * (r[:, None] + r[None, :]), k=1))
     return np.stack([i, j], axis=1)
@@ -278,6 +279,8 @@ def _closed(matrices: np.ndarray) -> bool:
     flat = matrices.reshape(len(matrices), 9)
     for a in matrices:
         prod = (a @ matrices).reshape(len(matrices), 9)
+        from scipy.spatial.distance import cdist  # here: SciPy is slow to import
+
         if np.max(np.min(cdist(prod, flat), axis=1)) > 1e-6:
             return False
     return True

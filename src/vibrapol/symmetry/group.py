@@ -7,6 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from vibrapol.structure import distances_ang
 from vibrapol.symmetry.printed import normalize_label
 
 
@@ -152,9 +153,7 @@ def match_atoms(
     ``tolerance_ang`` or two images claim the same partner.
     """
     image = centred @ np.asarray(matrix).T
-    from scipy.spatial.distance import cdist  # here: SciPy is slow to import
-
-    d = cdist(image, centred)
+    d = distances_ang(image, centred)
     d[species[:, None] != species[None, :]] = np.inf
     perm = np.argmin(d, axis=1)
     worst = float(np.max(d[np.arange(len(perm)), perm]))

@@ -15,8 +15,9 @@ The public API at a glance (each name is documented in its module)::
     candidate_from_modes, assign, rank                   (vibrapol.compare)
     compute_modes(structure)         -> ModeSet          (vibrapol.engine, PySCF)
 
-The data model is imported with the package; everything else (the readers too) is imported on
-first use, so ``import vibrapol`` stays fast and never loads PySCF, Dask or matplotlib.
+Every name is imported on first use (the data model and the readers too), so ``import vibrapol``
+loads only the error types: the ``vibrapol`` command starts without NumPy or SciPy, and no import
+of the package loads PySCF, Dask or matplotlib before they are needed.
 """
 
 from __future__ import annotations
@@ -25,8 +26,6 @@ import importlib
 from typing import TYPE_CHECKING, Any
 
 from vibrapol.errors import VibrapolError
-from vibrapol.modeset import ModeSet, Provenance
-from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 
 if TYPE_CHECKING:  # pragma: no cover
     from vibrapol.compare import (
@@ -40,6 +39,8 @@ if TYPE_CHECKING:  # pragma: no cover
     )
     from vibrapol.engine import compute_modes
     from vibrapol.measured import PolarizedPair, clean_pair, measure_bands, read_pair
+    from vibrapol.modeset import ModeSet, Provenance
+    from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
     from vibrapol.sources import read_modes
     from vibrapol.spectrum import (
         Conditions,
@@ -54,6 +55,11 @@ __version__ = "0.1.0"
 
 #: Names imported on first use, and the module each comes from.
 _LAZY = {
+    "ModeSet": "vibrapol.modeset",
+    "Provenance": "vibrapol.modeset",
+    "RamanTable": "vibrapol.ramantable",
+    "raman_table": "vibrapol.ramantable",
+    "symmetry_table": "vibrapol.ramantable",
     "read_modes": "vibrapol.sources",
     "Conditions": "vibrapol.spectrum",
     "GridSpectrum": "vibrapol.spectrum",

@@ -1,8 +1,9 @@
 """Command line: ``vibrapol SUBCOMMAND ...``, one module per subcommand.
 
 Each subcommand module has ``add_arguments(parser)`` and ``run(args) -> int``; the logic lives in
-the library.  A :class:`~vibrapol.errors.VibrapolError` prints one line and exits with status 2;
-``--traceback`` shows the stack instead.
+the library.  :data:`SUBCOMMANDS` names the modules, and only the chosen one is imported.  A
+:class:`~vibrapol.errors.VibrapolError` prints one line and exits with status 2; ``--traceback``
+shows the stack instead.
 """
 
 from __future__ import annotations
@@ -12,8 +13,8 @@ import errno
 import importlib
 import sys
 import warnings
-from collections.abc import Sequence
-from typing import NoReturn
+from collections.abc import Iterable, Sequence
+from typing import NamedTuple, NoReturn
 
 from vibrapol import __version__
 from vibrapol.cli._common import ascii_safe_streams, devnull_stdout
@@ -26,16 +27,48 @@ _ENVIRONMENT_ERRNOS = frozenset(
     {errno.ENOSPC, errno.EDQUOT, errno.EFBIG, errno.EROFS, errno.EIO, errno.ENAMETOOLONG}
 )
 
-#: Subcommand name → module in vibrapol.cli.
-SUBCOMMANDS = {
-    "table": "vibrapol.cli.table",
-    "symmetry": "vibrapol.cli.symmetry",
-    "compute": "vibrapol.cli.compute",
-    "spectrum": "vibrapol.cli.spectrum",
-    "sweep": "vibrapol.cli.sweep",
-    "match": "vibrapol.cli.match",
-    "rank": "vibrapol.cli.rank",
-    "demo": "vibrapol.cli.demo",
+
+class Subcommand(NamedTuple):
+    """Where a subcommand lives and its one-line help (shown by ``vibrapol --help``)."""
+
+    module: str
+    help: str
+
+
+#: Subcommand name → its module in vibrapol.cli and one-line help, in the order of
+#: ``vibrapol --help``.  The top-level parser is built from this table alone, so ``vibrapol
+#: --help`` imports no subcommand module and ``vibrapol SUB ...`` imports only SUB's.
+SUBCOMMANDS: dict[str, Subcommand] = {
+    "table": Subcommand(
+        "vibrapol.cli.table", "per-mode Raman table of a quantum-chemistry output or *.modes.json"
+    ),
+    "symmetry": Subcommand(
+        "vibrapol.cli.symmetry",
+        "point group, Γ_vib and selection rules of a structure or of computed modes",
+    ),
+    "compute": Subcommand(
+        "vibrapol.cli.compute",
+        "compute modes and Raman tensors of a structure with the embedded PySCF engine",
+    ),
+    "spectrum": Subcommand(
+        "vibrapol.cli.spectrum",
+        "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures",
+    ),
+    "sweep": Subcommand(
+        "vibrapol.cli.sweep",
+        "band intensities versus polarizer angle for isotropic or oriented samples",
+    ),
+    "match": Subcommand(
+        "vibrapol.cli.match", "assign computed modes to the bands of a measured VV/VH spectrum"
+    ),
+    "rank": Subcommand(
+        "vibrapol.cli.rank",
+        "rank candidate structures by how well they match a measured VV/VH spectrum",
+    ),
+    "demo": Subcommand(
+        "vibrapol.cli.demo",
+        "run the whole job on the embedded engine in a worked scenario (a few minutes)",
+    ),
 }
 
 
@@ -57,8 +90,14 @@ class OneLineParser(argparse.ArgumentParser):
         self.exit(2, f"{self.prog}: error: {message}{hint}; see {self.prog} --help\n")
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """The top-level parser with every subcommand attached."""
+def build_parser(commands: Iterable[str] | None = None) -> argparse.ArgumentParser:
+    """The top-level parser; the options of ``commands`` (default: every subcommand) attached.
+
+    Every subcommand is listed (``vibrapol --help``, "invalid choice" errors), but only the
+    modules of ``commands`` are imported and only their parsers get options, description and
+    epilog: :func:`main` passes the one subcommand named on the command line.
+    """
+    wanted = set(SUBCOMMANDS if commands is None else commands)
     parser = OneLineParser(
         prog="vibrapol",
         description="Polarized Raman spectra of molecules: invariants, depolarization ratios, "
@@ -67,11 +106,14 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"vibrapol {__version__}")
     parser.add_argument("--traceback", action="store_true", help="show the full stack on errors")
     sub = parser.add_subparsers(dest="command", metavar="SUBCOMMAND", required=True)
-    for name, module_name in SUBCOMMANDS.items():
+    for name, (module_name, one_line) in SUBCOMMANDS.items():
+        if name not in wanted:
+            sub.add_parser(name, help=one_line)
+            continue
         module = importlib.import_module(module_name)
         p = sub.add_parser(
             name,
-            help=module.HELP,
+            help=one_line,
             description=module.__doc__,
             epilog=getattr(module, "EPILOG", None),
         )
@@ -86,6 +128,18 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def chosen_subcommand(argv: Sequence[str]) -> str | None:
+    """The subcommand named in ``argv``, or None when there is none (or it is not one of ours).
+
+    The top-level options take no value, so the subcommand is the first word that is not an
+    option; argparse itself then reports a missing or unknown one as it always has.
+    """
+    for word in argv:
+        if not word.startswith("-"):
+            return word if word in SUBCOMMANDS else None
+    return None
+
+
 def _format_warning(message, category, filename, lineno, line=None):  # noqa: ANN001
     return f"vibrapol: warning: {message}\n"
 
@@ -93,9 +147,11 @@ def _format_warning(message, category, filename, lineno, line=None):  # noqa: AN
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``vibrapol`` console script; returns the exit status."""
     ascii_safe_streams()
-    parser = build_parser()
+    words = sys.argv[1:] if argv is None else list(argv)
+    command = chosen_subcommand(words)
+    parser = build_parser([] if command is None else [command])
     try:
-        args = parser.parse_args(argv)
+        args = parser.parse_args(words)
     except SystemExit as exc:  # --help, --version, or a usage error (already printed)
         return exc.code if isinstance(exc.code, int) else 0 if exc.code is None else 2
     warnings.formatwarning = _format_warning

@@ -49,8 +49,6 @@ STRUCTURE_SUFFIXES = (".xyz", ".extxyz", ".pdb", ".cif", ".sdf", ".mol", ".traj"
 #: Exit status after Ctrl-C or SIGTERM (as for any interrupted vibrapol command).
 INTERRUPTED = 130
 
-HELP = "compute modes and Raman tensors of a structure with the embedded PySCF engine"
-
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol compute``."""

@@ -27,7 +27,6 @@ from vibrapol.demo import (
 )
 from vibrapol.errors import VibrapolError
 
-HELP = "run the whole job on the embedded engine in a worked scenario (a few minutes)"
 EPILOG = LASER_CAUTION  # shown once, below the options
 
 

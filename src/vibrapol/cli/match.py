@@ -37,7 +37,6 @@ from vibrapol.spectrum.quantities import DETECTOR_NOTES
 if TYPE_CHECKING:
     from vibrapol.modeset import ModeSet
 
-HELP = "assign computed modes to the bands of a measured VV/VH spectrum"
 
 #: Laser line used for the computed intensities when none is given.
 DEFAULT_LASER_NM = 532.0

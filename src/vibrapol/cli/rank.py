@@ -28,8 +28,6 @@ from vibrapol.errors import VibrapolError
 from vibrapol.sources import read_modes
 from vibrapol.spectrum.quantities import DETECTOR_NOTES
 
-HELP = "rank candidate structures by how well they match a measured VV/VH spectrum"
-
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol rank``."""

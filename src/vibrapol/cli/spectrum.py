@@ -35,8 +35,6 @@ from vibrapol.spectrum.lineshapes import SHAPES, LineShape
 from vibrapol.spectrum.quantities import DETECTORS, QUANTITY_UNITS
 from vibrapol.spectrum.scaling import NO_SCALE, FrequencyScale
 
-HELP = "polarized Raman spectrum (VV, VH, ...) as CSV/JSON, with optional figures"
-
 
 def parse_range(text: str) -> tuple[float, float]:
     """``"100:3600"`` → (100.0, 3600.0)."""

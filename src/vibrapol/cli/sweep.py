@@ -30,8 +30,6 @@ from vibrapol.spectrum import orientation as orient
 from vibrapol.spectrum.channels import GEOMETRIES
 from vibrapol.spectrum.sweep import polar_sweep
 
-HELP = "band intensities versus polarizer angle for isotropic or oriented samples"
-
 ORIENTATIONS = ("isotropic", "fixed", "aligned", "uniaxial")
 
 #: Most polarizer angles in one sweep (0.01° steps over a full turn).

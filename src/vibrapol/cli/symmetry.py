@@ -27,8 +27,6 @@ from vibrapol.structure import read_structure
 from vibrapol.symmetry import DEFAULT_TOLERANCE_ANG, analyse_modes, find_point_group
 from vibrapol.textio import read_text
 
-HELP = "point group, Γ_vib and selection rules of a structure or of computed modes"
-
 
 def add_symmetry_arguments(parser: argparse.ArgumentParser) -> None:
     """``--symmetry-tolerance-ang`` and ``--symmetrize`` (shared with ``vibrapol table``)."""

@@ -17,8 +17,6 @@ from vibrapol.output.tables import FORMATTERS, table_latex, table_markdown
 from vibrapol.ramantable import raman_table, symmetry_table, with_warnings
 from vibrapol.sources import read_modes
 
-HELP = "per-mode Raman table of a quantum-chemistry output or *.modes.json"
-
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol table``."""

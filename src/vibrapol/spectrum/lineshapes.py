@@ -20,8 +20,6 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
-from scipy.optimize import brentq
-from scipy.special import voigt_profile
 
 from vibrapol.errors import VibrapolError
 
@@ -67,6 +65,9 @@ def voigt_fwhm_unit(lorentzian_share: float) -> float:
         return 1.0
     if s >= 1.0:
         return 1.0
+    from scipy.optimize import brentq  # here: SciPy's optimizer package is slow to import
+    from scipy.special import voigt_profile
+
     f_l, f_g = s, 1.0 - s
     sigma, gamma = f_g / GAUSS_FWHM_PER_SIGMA, 0.5 * f_l
     half = 0.5 * float(voigt_profile(0.0, sigma, gamma))
@@ -101,6 +102,8 @@ def voigt(
         return gaussian(x, center, fwhm)
     if s == 1.0:
         return lorentzian(x, center, fwhm)
+    from scipy.special import voigt_profile  # here: only Voigt lines need scipy.special
+
     w = np.asarray(fwhm, dtype=float) / voigt_fwhm_unit(s)
     sigma = (1.0 - s) * w / GAUSS_FWHM_PER_SIGMA
     gamma = 0.5 * s * w

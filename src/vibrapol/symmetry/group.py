@@ -6,8 +6,8 @@ import re
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial.distance import cdist
 
+from vibrapol.structure import distances_ang
 from vibrapol.symmetry.printed import normalize_label
 
 
@@ -153,7 +153,7 @@ def match_atoms(
     ``tolerance_ang`` or two images claim the same partner.
     """
     image = centred @ np.asarray(matrix).T
-    d = cdist(image, centred)
+    d = distances_ang(image, centred)
     d[species[:, None] != species[None, :]] = np.inf
     perm = np.argmin(d, axis=1)
     worst = float(np.max(d[np.arange(len(perm)), perm]))

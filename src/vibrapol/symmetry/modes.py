@@ -19,7 +19,6 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import linear_sum_assignment
 
 from vibrapol.errors import AccuracyWarning, ChangedValuesWarning, ShapeError, VibrapolError
 from vibrapol.modeset import ModeSet
@@ -382,6 +381,8 @@ def symmetrize_modeset(modes: ModeSet, group: PointGroup) -> ModeSet:
     h_cart = symmetrize_hessian(h_cart, group)
     harmonic = harmonic_analysis(h_cart, masses, coords)
     overlap = harmonic.modes @ modes.modes.T  # (new, old)
+    from scipy.optimize import linear_sum_assignment  # here: SciPy is slow to import
+
     rows, cols = linear_sum_assignment(-(overlap**2))
     order = rows[np.argsort(cols)]
     new_modes = harmonic.modes[order]

@@ -15,11 +15,10 @@ import warnings
 
 import numpy as np
 from ase.data import covalent_radii
-from scipy.spatial.distance import cdist
 
 from vibrapol.errors import AccuracyWarning, GeometryError
 from vibrapol.modeset import default_masses
-from vibrapol.structure import check_structure
+from vibrapol.structure import check_structure, distances_ang
 from vibrapol.symmetry import _msym
 from vibrapol.symmetry.abelian import abelian_group
 from vibrapol.symmetry.group import PointGroup, match_atoms, symmetrize_coordinates
@@ -61,7 +60,7 @@ def _species_ids(z: np.ndarray, masses: np.ndarray) -> np.ndarray:
 
 def _bonds(z: np.ndarray, coords: np.ndarray) -> np.ndarray:
     r = covalent_radii[z]
-    d = cdist(coords, coords)
+    d = distances_ang(coords, coords)
     i, j = np.nonzero(np.triu(d < BOND_FACTOR * (r[:, None] + r[None, :]), k=1))
     return np.stack([i, j], axis=1)
 
@@ -278,7 +277,7 @@ def _closed(matrices: np.ndarray) -> bool:
     flat = matrices.reshape(len(matrices), 9)
     for a in matrices:
         prod = (a @ matrices).reshape(len(matrices), 9)
-        if np.max(np.min(cdist(prod, flat), axis=1)) > 1e-6:
+        if np.max(np.min(distances_ang(prod, flat), axis=1)) > 1e-6:
             return False
     return True
 

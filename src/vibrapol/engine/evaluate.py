@@ -61,7 +61,9 @@ class PolarizabilityDipoleJob(PolarizabilityJob):
     that it is stored and checkpointed like every other task result.
     """
 
-    kind: ClassVar[str] = "alpha-dipole"
+    #: The checkpoint's kind stays that of a displaced-geometry task; the key differs
+    #: (``routes.make_jobs``), so α-only results of older checkpoints are not taken for these.
+    kind: ClassVar[str] = "alpha"
     result_name: ClassVar[str] = "alpha_ang3_dipole_e_ang"
 
     def result_shape(self) -> tuple[int, ...]:

@@ -89,6 +89,31 @@ def test_symmetry_reduced_plans_give_the_full_plans_intensities(water):
         )
 
 
+def test_cation_away_from_the_origin_gives_the_same_intensities_by_every_plan():
+    # H3O+ (C3v), HF/STO-3G, placed 6 Å from the frame origin.  An ion's dipole depends on the
+    # origin; its derivatives along the vibrations do not (the modes keep the centre of mass
+    # fixed; common practice).  Contract: the reduced Cartesian plan equals the full one
+    # (measured 2e-5 at h = 0.002 Å; 1.4e-3 before the rebuild moved the dipoles to the
+    # centre of the operations), the field and normal-mode routes agree within 1e-3.
+    z = np.array([8, 1, 1, 1])
+    x = np.array([[0, 0, 0.1], [0.95, 0, -0.2], [-0.475, 0.823, -0.2], [-0.475, -0.823, -0.2]])
+    x = x + [3.0, -2.0, 5.0]
+    common = {"charge": 1, "optimize": False, "step_ang": 0.002}
+    field = compute_modes((z, x), "hf", "sto-3g", route="field", **common)
+    geometry = (field.atomic_numbers, field.coordinates_ang)
+    ir = {
+        name: compute_modes(geometry, "hf", "sto-3g", **common, **opts).ir_intensity_km_mol
+        for name, opts in (
+            ("reduced", {"route": "cartesian"}),
+            ("full", {"route": "cartesian", "symmetry": False}),
+            ("normal", {"route": "normal-mode"}),
+        )
+    }
+    np.testing.assert_allclose(ir["reduced"], ir["full"], rtol=1e-4)
+    np.testing.assert_allclose(field.ir_intensity_km_mol, ir["normal"], rtol=1e-3)
+    np.testing.assert_allclose(ir["full"], ir["normal"], rtol=1e-3)
+
+
 def test_provenance_records_the_ir_method(water):
     notes = " ".join(water["field"].provenance.notes)
     assert "IR intensities (km/mol)" in notes and "dmu/dx from their first field" in notes

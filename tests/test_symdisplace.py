@@ -99,6 +99,29 @@ def test_rebuilt_derivative_equals_the_full_plan(name, symbol, n_tasks):
     assert error < 1e-6
 
 
+@pytest.mark.parametrize("name", ["NH3", "CH4", "C6H6", "CH3OH"])
+def test_ion_dipole_rebuild_is_taken_about_the_centre_of_the_operations(name):
+    # Contract: an ion's dipole about the frame origin is μ_c + q c; far from the origin the
+    # images of a task differ from R μ by q (1 − R) c, and the rebuild must remove q c first.
+    # Regression: without it the reduced plan was off by q (R₊ − R₋) c / 2h.
+    atoms = molecule(name)
+    z = atoms.numbers
+    group = find_point_group(z, atoms.positions + [3.0, -2.0, 5.0], atoms.get_masses())
+    x = symmetrize_coordinates(atoms.positions + [3.0, -2.0, 5.0], group)
+    weights = z / z.sum()  # equal on equivalent atoms: a charge centre the group maps to itself
+
+    def ion_dipole(c: np.ndarray) -> np.ndarray:
+        return _model_dipole(z, c) + 1.0 * weights @ c
+
+    full = cartesian_plan(x, STEP_ANG)
+    ref = dmu_from_displacements(full, np.array([ion_dipole(c) for c in full.coordinates_ang]))
+    plan = symmetric_cartesian_plan(
+        x, STEP_ANG, group.operations, group.permutations, group.centre_ang, group.axes
+    )
+    rebuilt = rebuild_dmu_dx(plan, np.array([ion_dipole(c) for c in plan.coordinates_ang]), 1)
+    assert np.abs(rebuilt - ref).max() < 1e-6 * np.abs(ref).max()
+
+
 @pytest.mark.parametrize("name", ["C3H4_C3v", "NH3", "C6H6"])
 def test_grid_preserving_subgroup_also_rebuilds_exactly(name):
     # DFT runs use only the signed axis permutations (engine.routes.grid_operations).

@@ -80,11 +80,20 @@ def dmu_from_displacements(plan: DisplacementPlan, dipoles_e_ang: np.ndarray) ->
     return (pairs[:, 0] - pairs[:, 1]) / (2.0 * plan.step_ang) * plan.scale[:, None]
 
 
-def rebuild_dmu_dx(plan: SymmetricPlan, dipoles_e_ang: np.ndarray) -> np.ndarray:
-    """The full ∂μ/∂x (3N, 3) in e from the dipoles (n_tasks, 3), e·Å, of ``plan``'s tasks."""
+def rebuild_dmu_dx(
+    plan: SymmetricPlan, dipoles_e_ang: np.ndarray, charge: int = 0
+) -> np.ndarray:
+    """The full ∂μ/∂x (3N, 3) in e from the dipoles (n_tasks, 3), e·Å, of ``plan``'s tasks.
+
+    The dipoles are about the frame origin.  For an ion (``charge`` q ≠ 0) they are first moved
+    to the centre c of the operations, μ_c = μ − q c: only about a point that every operation
+    leaves fixed is μ(R x) = R μ(x); about another point the images differ by q (1 − R) c,
+    which the ±h difference of two differently turned tasks would not cancel.
+    """
     mu = np.asarray(dipoles_e_ang, dtype=float)
     if mu.shape != (plan.n_tasks, 3):
         raise ShapeError(f"need dipoles of shape ({plan.n_tasks}, 3), got {mu.shape}")
+    mu = mu - float(charge) * np.asarray(plan.centre_ang, dtype=float)[None, :]
     ops, perms = plan.operations, plan.permutations
     n_atoms = perms.shape[1]
     rows: list[list[np.ndarray]] = [[] for _ in range(n_atoms)]

@@ -153,7 +153,7 @@ def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings
     deriv = derivatives(prep.plan, results, prep.reference)
     normal = route_name(prep.plan) == "normal-mode"
     ref = prep.reference
-    dmu = dipole_derivatives(prep.plan, results, ref)
+    dmu = dipole_derivatives(prep.plan, results, ref, settings.spec.charge)
     if not normal:
         dmu = project_dmu(dmu, prep.harmonic.modes, prep.masses_da)
     return ModeSet(

@@ -157,16 +157,19 @@ def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> 
     return central_differences(plan, stacked)
 
 
-def dipole_derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> np.ndarray:
+def dipole_derivatives(
+    plan: Plan, results: list[np.ndarray], ref: ReferenceResult, charge: int = 0
+) -> np.ndarray:
     """∂μ/∂x (3N, 3) in e (Cartesian and field routes) or ∂μ/∂Q (n_modes, 3) in e Da⁻¹ᐟ².
 
-    From the same task results as :func:`derivatives` (:mod:`vibrapol.engine.dipole`).
+    From the same task results as :func:`derivatives` (:mod:`vibrapol.engine.dipole`);
+    ``charge`` is the molecule's total charge (the symmetry rebuild needs it).
     """
     if isinstance(plan, FieldPlan):
         return dmu_dx_from_gradients(plan, np.array([ref.gradient_hartree_bohr, *results]))
     dipoles = np.array(results)[:, 3]
     if isinstance(plan, SymmetricPlan):
-        return rebuild_dmu_dx(plan, dipoles)
+        return rebuild_dmu_dx(plan, dipoles, charge)
     return dmu_from_displacements(plan, dipoles)
 
 

@@ -80,9 +80,7 @@ def dmu_from_displacements(plan: DisplacementPlan, dipoles_e_ang: np.ndarray) ->
     return (pairs[:, 0] - pairs[:, 1]) / (2.0 * plan.step_ang) * plan.scale[:, None]
 
 
-def rebuild_dmu_dx(
-    plan: SymmetricPlan, dipoles_e_ang: np.ndarray, charge: int = 0
-) -> np.ndarray:
+def rebuild_dmu_dx(plan: SymmetricPlan, dipoles_e_ang: np.ndarray, charge: int = 0) -> np.ndarray:
     """The full ∂μ/∂x (3N, 3) in e from the dipoles (n_tasks, 3), e·Å, of ``plan``'s tasks.
 
     The dipoles are about the frame origin.  For an ion (``charge`` q ≠ 0) they are first moved

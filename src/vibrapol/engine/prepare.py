@@ -36,11 +36,13 @@ from vibrapol.engine.scf import (
 )
 from vibrapol.engine.settings import EngineSettings
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
+from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
 
 #: How the engine's IR intensities are obtained (recorded in the provenance).
 IR_NOTE = (
-    "IR intensities (km/mol): double-harmonic, 42.2561 × |dmu/dQ|² in D² Å⁻² amu⁻¹ "
+    "IR intensities (km/mol): double-harmonic, "
+    f"{DEBYE2_PER_AMU_ANG2_TO_KM_MOL:.4f} × |dmu/dQ|² in D² Å⁻² amu⁻¹ "
     "(Wilson, Decius & Cross 1955); dipole about the fixed frame origin (centre-of-mass "
     "intensities for ions)"
 )

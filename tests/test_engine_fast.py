@@ -132,6 +132,13 @@ def test_tetrahedral_molecule_field_and_reduced_routes():
     assert np.abs(reduced.modes.dalpha_dx - ref).max() < 1e-6 * np.abs(ref).max()
     act, rho = _compare(full.modes, field.modes)
     assert act < 0.01 and rho < 0.01
+    # IR intensities: the reduced plan's rebuilt ∂μ/∂x gives the full plan's; the field route
+    # agrees within its O(F²) error; Td: only the T2 modes absorb (common practice).
+    ir = full.modes.ir_intensity_km_mol
+    seen = ir > 1e-3 * ir.max()
+    np.testing.assert_allclose(reduced.modes.ir_intensity_km_mol[seen], ir[seen], rtol=1e-5)
+    np.testing.assert_allclose(field.modes.ir_intensity_km_mol[seen], ir[seen], rtol=1e-3)
+    assert seen.sum() == 6 and np.all(ir[~seen] < 1e-6 * ir.max())
     # Td: the totally symmetric stretch has ρ = 0 exactly (common practice).
     t = raman_table(field.modes)
     assert t.rho_linear[t.activity.argmax()] == pytest.approx(0.0, abs=1e-6)

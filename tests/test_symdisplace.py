@@ -19,6 +19,7 @@ import numpy as np
 import pytest
 from ase.build import molecule
 
+from vibrapol.engine.dipole import dmu_from_displacements, rebuild_dmu_dx
 from vibrapol.engine.displacements import cartesian_plan, central_differences
 from vibrapol.engine.routes import grid_operations
 from vibrapol.engine.symdisplace import rebuild_dalpha_dx, symmetric_cartesian_plan
@@ -40,6 +41,17 @@ def _model_alpha(z: np.ndarray, x: np.ndarray) -> np.ndarray:
     return alpha
 
 
+def _model_dipole(z: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """A covariant model dipole (invented): μ(R x) = R μ(x), a polar vector; pair terms."""
+    mu = np.zeros(3)
+    for i in range(len(x)):
+        for j in range(i + 1, len(x)):
+            r = x[j] - x[i]
+            d = np.linalg.norm(r)
+            mu += (z[i] - z[j]) * np.exp(-d) * (1.0 + 0.2 * d * d) * r / d
+    return mu
+
+
 def _rebuild_error(name: str, grid_subgroup: bool = False) -> tuple[str, int, float]:
     atoms = molecule(name)
     z = atoms.numbers
@@ -53,7 +65,14 @@ def _rebuild_error(name: str, grid_subgroup: bool = False) -> tuple[str, int, fl
     plan = symmetric_cartesian_plan(x, STEP_ANG, ops, perms, group.centre_ang, group.axes)
     alphas = np.array([_model_alpha(z, c) for c in plan.coordinates_ang])
     rebuilt = rebuild_dalpha_dx(plan, alphas)
-    return group.symbol, plan.n_tasks, float(np.abs(rebuilt - ref).max() / np.abs(ref).max())
+    error = float(np.abs(rebuilt - ref).max() / np.abs(ref).max())
+    # ∂μ/∂x, a vector per coordinate, rebuilt from the same tasks (engine.dipole).
+    mu_ref = dmu_from_displacements(
+        full, np.array([_model_dipole(z, c) for c in full.coordinates_ang])
+    )
+    mu = rebuild_dmu_dx(plan, np.array([_model_dipole(z, c) for c in plan.coordinates_ang]))
+    error = max(error, float(np.abs(mu - mu_ref).max() / np.abs(mu_ref).max()))
+    return group.symbol, plan.n_tasks, error
 
 
 # (ASE g2 name, point group, displaced geometries of the reduced plan)
@@ -78,6 +97,29 @@ def test_rebuilt_derivative_equals_the_full_plan(name, symbol, n_tasks):
     assert count == n_tasks and count < 6 * len(molecule(name))
     # Central differences of both plans differ at O(h²) ≈ 1e-8 relative.
     assert error < 1e-6
+
+
+@pytest.mark.parametrize("name", ["NH3", "CH4", "C6H6", "CH3OH"])
+def test_ion_dipole_rebuild_is_taken_about_the_centre_of_the_operations(name):
+    # Contract: an ion's dipole about the frame origin is μ_c + q c; far from the origin the
+    # images of a task differ from R μ by q (1 − R) c, and the rebuild must remove q c first.
+    # Regression: without it the reduced plan was off by q (R₊ − R₋) c / 2h.
+    atoms = molecule(name)
+    z = atoms.numbers
+    group = find_point_group(z, atoms.positions + [3.0, -2.0, 5.0], atoms.get_masses())
+    x = symmetrize_coordinates(atoms.positions + [3.0, -2.0, 5.0], group)
+    weights = z / z.sum()  # equal on equivalent atoms: a charge centre the group maps to itself
+
+    def ion_dipole(c: np.ndarray) -> np.ndarray:
+        return _model_dipole(z, c) + 1.0 * weights @ c
+
+    full = cartesian_plan(x, STEP_ANG)
+    ref = dmu_from_displacements(full, np.array([ion_dipole(c) for c in full.coordinates_ang]))
+    plan = symmetric_cartesian_plan(
+        x, STEP_ANG, group.operations, group.permutations, group.centre_ang, group.axes
+    )
+    rebuilt = rebuild_dmu_dx(plan, np.array([ion_dipole(c) for c in plan.coordinates_ang]), 1)
+    assert np.abs(rebuilt - ref).max() < 1e-6 * np.abs(ref).max()
 
 
 @pytest.mark.parametrize("name", ["C3H4_C3v", "NH3", "C6H6"])

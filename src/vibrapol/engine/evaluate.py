@@ -17,7 +17,7 @@ import numpy as np
 from vibrapol.engine.hessian import analytic_hessian
 from vibrapol.engine.polarizability import cphf_polarizability
 from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
-from vibrapol.units import BOHR3_TO_ANG3
+from vibrapol.units import BOHR3_TO_ANG3, BOHR_ANG
 
 
 @dataclass(frozen=True, eq=False)
@@ -51,6 +51,28 @@ class PolarizabilityJob:
     def run(self) -> np.ndarray:
         """α in Å³ (see :func:`evaluate_polarizability`)."""
         return evaluate_polarizability(self)
+
+
+@dataclass(frozen=True, eq=False)
+class PolarizabilityDipoleJob(PolarizabilityJob):
+    """A displaced geometry whose α and total dipole are both wanted (the engine's routes).
+
+    The result stacks α (Å³, rows 0–2) over the dipole (e·Å, row 3): one (4, 3) array, so
+    that it is stored and checkpointed like every other task result.
+    """
+
+    #: The checkpoint's kind stays that of a displaced-geometry task; the key differs
+    #: (``routes.make_jobs``), so α-only results of older checkpoints are not taken for these.
+    kind: ClassVar[str] = "alpha"
+    result_name: ClassVar[str] = "alpha_ang3_dipole_e_ang"
+
+    def result_shape(self) -> tuple[int, ...]:
+        """Shape of the result array."""
+        return (4, 3)
+
+    def run(self) -> np.ndarray:
+        """α in Å³ over μ in e·Å (see :func:`evaluate_polarizability_dipole`)."""
+        return evaluate_polarizability_dipole(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -162,6 +184,20 @@ def evaluate_polarizability(job: PolarizabilityJob) -> np.ndarray:
         mol = build_molecule(job.atomic_numbers, job.coordinates_ang, job.spec)
         mf = run_scf(mol, job.spec, dm0=job.dm0, where="displaced geometry")
         return cphf_polarizability(mf) * BOHR3_TO_ANG3
+
+
+def evaluate_polarizability_dipole(job: PolarizabilityJob) -> np.ndarray:
+    """α (Å³) over the total dipole (e·Å) at one displaced geometry, shape (4, 3).
+
+    The dipole is PySCF's ``dip_moment(unit="AU")``: electrons and nuclei about the frame
+    origin (see :mod:`vibrapol.engine.dipole` for why the origin does not matter).
+    """
+    with threads_limited(job.threads):
+        mol = build_molecule(job.atomic_numbers, job.coordinates_ang, job.spec)
+        mf = run_scf(mol, job.spec, dm0=job.dm0, where="displaced geometry")
+        alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
+        dipole = mf.dip_moment(unit="AU", origin=(0.0, 0.0, 0.0), verbose=0) * BOHR_ANG
+        return np.vstack([alpha, dipole[None, :]])
 
 
 def reference_calculation(

@@ -15,6 +15,7 @@ import numpy as np
 
 from vibrapol.engine import stages
 from vibrapol.engine.checkpoint import CheckpointStore
+from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.fieldplan import FieldPlan
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
@@ -24,6 +25,7 @@ from vibrapol.engine.routes import (
     build_plan,
     choose_route,
     derivatives,
+    dipole_derivatives,
     make_jobs,
     route_name,
 )
@@ -34,7 +36,16 @@ from vibrapol.engine.scf import (
 )
 from vibrapol.engine.settings import EngineSettings
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
+from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
+
+#: How the engine's IR intensities are obtained (recorded in the provenance).
+IR_NOTE = (
+    "IR intensities (km/mol): double-harmonic, "
+    f"{DEBYE2_PER_AMU_ANG2_TO_KM_MOL:.4f} × |dmu/dQ|² in D² Å⁻² amu⁻¹ "
+    "(Wilson, Decius & Cross 1955); dipole about the fixed frame origin (centre-of-mass "
+    "intensities for ions)"
+)
 
 #: A symmetrized geometry closer than this to the given one is taken as the given one, so that
 #: a rerun on an already symmetric geometry finds its checkpointed stages.
@@ -144,6 +155,9 @@ def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings
     deriv = derivatives(prep.plan, results, prep.reference)
     normal = route_name(prep.plan) == "normal-mode"
     ref = prep.reference
+    dmu = dipole_derivatives(prep.plan, results, ref, settings.spec.charge)
+    if not normal:
+        dmu = project_dmu(dmu, prep.harmonic.modes, prep.masses_da)
     return ModeSet(
         atomic_numbers=prep.atomic_numbers,
         coordinates_ang=prep.coordinates_ang,
@@ -154,6 +168,7 @@ def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings
         dalpha_dq=deriv if normal else None,
         polarizability_ang3=ref.alpha_ang3,
         energy_hartree=ref.energy_hartree,
+        ir_intensity_km_mol=ir_intensities_km_mol(dmu),
         provenance=_provenance(prep, settings),
     )
 
@@ -183,17 +198,20 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
     if isinstance(plan, FieldPlan):
         how = (
             f"dalpha/dx from analytic gradients in uniform fields (field route), "
-            f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients"
+            f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients; dmu/dx from their "
+            "first field differences"
         )
     else:
         how = (
             f"dalpha by central differences, {route} route, step {plan.step_ang} Å, "
-            f"{plan.n_tasks} displaced geometries"
+            f"{plan.n_tasks} displaced geometries; dmu from the total dipole (PySCF "
+            "dip_moment, frame origin) at the same geometries"
         )
     notes.append(
         f"analytic Hessian; CPHF static polarizability; {how}; "
         f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
     )
+    notes.append(IR_NOTE)
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")

@@ -20,13 +20,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from vibrapol.engine.checkpoint import task_key
+from vibrapol.engine.dipole import dmu_dx_from_gradients, dmu_from_displacements, rebuild_dmu_dx
 from vibrapol.engine.displacements import (
     DisplacementPlan,
     cartesian_plan,
     central_differences,
     normal_mode_plan,
 )
-from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityJob, ReferenceResult
+from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityDipoleJob, ReferenceResult
 from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
 from vibrapol.engine.fieldplan import FieldPlan, dalpha_dx_from_gradients, field_plan
 from vibrapol.engine.scf import EngineInputError, MethodSpec
@@ -124,7 +125,7 @@ def make_jobs(
 ) -> tuple[list, list[str], tuple[str, ...]]:
     """Jobs, checkpoint keys and labels of every task of ``plan``."""
     z = atomic_numbers
-    jobs: list[FieldGradientJob] | list[PolarizabilityJob]
+    jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob]
     if isinstance(plan, FieldPlan):
         fields = plan.task_fields_au
         jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in fields]
@@ -140,8 +141,8 @@ def make_jobs(
             for f in fields
         ]
         return jobs, keys, plan.labels
-    jobs = [PolarizabilityJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
-    keys = [task_key("alpha", z, x, spec) for x in plan.coordinates_ang]
+    jobs = [PolarizabilityDipoleJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
+    keys = [task_key("alpha-dipole", z, x, spec) for x in plan.coordinates_ang]
     return jobs, keys, plan.labels
 
 
@@ -150,10 +151,26 @@ def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> 
     if isinstance(plan, FieldPlan):
         gradients = np.array([ref.gradient_hartree_bohr, *results])
         return dalpha_dx_from_gradients(plan, gradients)
-    stacked = np.array(results)
+    stacked = np.array(results)[:, :3]  # α over the dipole (PolarizabilityDipoleJob)
     if isinstance(plan, SymmetricPlan):
         return rebuild_dalpha_dx(plan, stacked)
     return central_differences(plan, stacked)
+
+
+def dipole_derivatives(
+    plan: Plan, results: list[np.ndarray], ref: ReferenceResult, charge: int = 0
+) -> np.ndarray:
+    """∂μ/∂x (3N, 3) in e (Cartesian and field routes) or ∂μ/∂Q (n_modes, 3) in e Da⁻¹ᐟ².
+
+    From the same task results as :func:`derivatives` (:mod:`vibrapol.engine.dipole`);
+    ``charge`` is the molecule's total charge (the symmetry rebuild needs it).
+    """
+    if isinstance(plan, FieldPlan):
+        return dmu_dx_from_gradients(plan, np.array([ref.gradient_hartree_bohr, *results]))
+    dipoles = np.array(results)[:, 3]
+    if isinstance(plan, SymmetricPlan):
+        return rebuild_dmu_dx(plan, dipoles, charge)
+    return dmu_from_displacements(plan, dipoles)
 
 
 def route_name(plan: Plan) -> str:

@@ -17,7 +17,7 @@ molecule keeps all 6N.
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -46,6 +46,8 @@ class SymmetricPlan:
         (task, operation) giving α at +h and at −h: the task's α turned by the operation.
     operations : ndarray (g, 3, 3)
     permutations : ndarray of int (g, N)
+    centre_ang : ndarray (3,)
+        The point the operations leave fixed.
     """
 
     step_ang: float
@@ -57,6 +59,7 @@ class SymmetricPlan:
     minus: np.ndarray
     operations: np.ndarray
     permutations: np.ndarray
+    centre_ang: np.ndarray = field(default_factory=lambda: np.zeros(3))
 
     route = "cartesian"
 
@@ -169,6 +172,7 @@ def symmetric_cartesian_plan(
         np.array(minus, dtype=int),
         ops,
         perms,
+        np.asarray(centre_ang, dtype=float),
     )
 
 

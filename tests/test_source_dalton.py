@@ -119,8 +119,8 @@ def test_real_ir_intensities_from_the_km_mol_column():
 def test_real_two_ir_columns_give_the_conversion_factor():
     # DALTON prints each IR intensity twice, in km/mol (3 decimals) and in (D/A)**2/amu (4
     # decimals): the ratio is the factor 42.2561 vibrapol uses for the GAMESS family (derived
-    # in vibrapol.sources._ir from CODATA constants; Wilson, Decius & Cross 1955).
-    from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL as factor
+    # in vibrapol.units from CODATA constants; Wilson, Decius & Cross 1955).
+    from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL as factor
 
     lines = qc_output(REAL).read_text().splitlines()
     start = max(i for i, s in enumerate(lines) if "Vibrational Frequencies and IR Int" in s)

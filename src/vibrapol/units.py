@@ -78,3 +78,25 @@ def cm1_to_hessian_eigenvalue(freqs_cm1: ArrayLike) -> np.ndarray:
 def wavelength_nm_to_cm1(wavelength_nm: float | np.ndarray) -> float | np.ndarray:
     """Vacuum wavelength in nm → absolute wavenumber in cm⁻¹ (1e7 / λ)."""
     return 1.0e7 / np.asarray(wavelength_nm, dtype=float)
+
+
+# Infrared intensities are kept in km mol⁻¹ (``ModeSet.ir_intensity_km_mol``).  Some programs
+# print |∂μ/∂Q|² in D² amu⁻¹ Å⁻² instead (the GAMESS family; DALTON beside its km/mol column),
+# and the engine computes ∂μ/∂Q.  In the double-harmonic approximation the integrated absorption
+# coefficient of a fundamental is A = N_A / (12 ε₀ c²) · |∂μ/∂Q|² (SI: m mol⁻¹), the
+# Gaussian-unit N_A π / (3 c²) |∂μ/∂Q|² with 1/(4π ε₀) written out: 1 D² amu⁻¹ Å⁻² =
+# 42.2561 km mol⁻¹ with CODATA constants.  References: E. B. Wilson, J. C. Decius,
+# P. C. Cross, Molecular Vibrations (1955), ch. 7; W. B. Person, G. Zerbi (eds.), Vibrational
+# Intensities in Infrared and Raman Spectroscopy (1982), ch. 2.
+
+#: Debye in C m (10⁻²¹/c statC cm, the definition of the unit).
+DEBYE_C_M: float = 1e-21 / _c.c
+
+#: 1 D² amu⁻¹ Å⁻² (|∂μ/∂Q|²) → km mol⁻¹ (integrated IR absorption coefficient), ≈ 42.2561.
+DEBYE2_PER_AMU_ANG2_TO_KM_MOL: float = (
+    _c.N_A
+    / (12.0 * _c.epsilon_0 * _c.c**2)
+    * DEBYE_C_M**2
+    / (_c.physical_constants["atomic mass constant"][0] * 1e-20)
+    / 1000.0
+)

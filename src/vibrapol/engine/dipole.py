@@ -26,7 +26,7 @@ P. C. Cross, *Molecular Vibrations*, McGraw-Hill (1955), ch. 7; quoted from memo
     A_k = N_A π / (3 c²) · |∂μ/∂Q_k|²     (Gaussian units),
 
 which is 42.2561 km mol⁻¹ per D² Å⁻² amu⁻¹ (the constant is
-:data:`vibrapol.sources._ir.DEBYE2_PER_AMU_ANG2_TO_KM_MOL`, computed there from CODATA).
+:data:`vibrapol.units.DEBYE2_PER_AMU_ANG2_TO_KM_MOL`, computed there from CODATA).
 ∂μ/∂Q_k = Σ_i L_ki m_i⁻¹ᐟ² ∂μ/∂x_i in e Da⁻¹ᐟ² is turned into D Å⁻¹ Da⁻¹ᐟ² with
 1 e = 1 e·Å/Å = :data:`E_ANG_TO_DEBYE` D/Å.
 """
@@ -40,7 +40,7 @@ from vibrapol.engine.displacements import DisplacementPlan
 from vibrapol.engine.fieldplan import FieldPlan, transform_gradient
 from vibrapol.engine.symdisplace import SymmetricPlan
 from vibrapol.errors import ShapeError
-from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL, DEBYE_C_M
+from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL, DEBYE_C_M
 
 #: 1 e·Å in debye (≈ 4.80320).
 E_ANG_TO_DEBYE: float = _c.e * 1e-10 / DEBYE_C_M

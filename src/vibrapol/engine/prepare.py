@@ -36,7 +36,7 @@ from vibrapol.engine.scf import (
 )
 from vibrapol.engine.settings import EngineSettings
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
-from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
+from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
 
 #: How the engine's IR intensities are obtained (recorded in the provenance).

@@ -41,9 +41,9 @@ import numpy as np
 
 from vibrapol.errors import InputFormatError
 from vibrapol.sources._common import floats, last_line_with, truncated_error
-from vibrapol.sources._ir import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.sources._layout import layout_error
 from vibrapol.sources._program_warnings import Rule
+from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 
 ANALYSIS = "NORMAL COORDINATE ANALYSIS IN THE HARMONIC APPROXIMATION"
 DERIVATIVE_BLOCK = "ALPHA POLARIZABILITY DERIVATIVE TENSOR"
@@ -137,7 +137,7 @@ class ModeTable:
     rho_linear : ndarray (n_printed,) or None
         ``DEPOLARIZATION`` row (linearly polarized incident light).
     ir_km_mol : ndarray (n_printed,) or None
-        ``IR INTENSITY`` row converted to km/mol (see :mod:`vibrapol.sources._ir`).
+        ``IR INTENSITY`` row converted to km/mol (see :mod:`vibrapol.units`).
     rigid : tuple of int
         0-based indices of the modes the program took as rotations and translations.
     raman_label : str

@@ -14,7 +14,7 @@ provenance.  What the programs print, and what vibrapol does with it:
   :func:`vibrapol.vibrations.modes_from_displacements`;
 - per mode the Raman activity (Å⁴/amu; PC GAMESS labels the row ``RAMAN INTENSITY`` but its
   heading gives the activity's unit), the depolarization ratio for linearly polarized light
-  and the IR intensity in D² amu⁻¹ Å⁻², stored in km/mol (× 42.2561, :mod:`._ir`);
+  and the IR intensity in D² amu⁻¹ Å⁻², stored in km/mol (× 42.2561, :mod:`vibrapol.units`);
 - where printed (Firefly), the Cartesian polarizability derivatives in bohr² (``ALPHA
   POLARIZABILITY DERIVATIVE TENSOR BOHR**2``), from which vibrapol computes every Raman
   quantity and checks the printed ones; otherwise a², γ² come from the printed activity and

@@ -196,3 +196,21 @@ def test_match_figure_says_what_cleaning_and_shows_rho():
     for a, b in itertools.combinations(modes, 2):
         assert not a.overlaps(b, -SLACK)
     assert_clean(fig, ax, rho_labels, modes)
+
+
+def test_unresolved_bands_get_their_own_marker(dvb_sticks):
+    # Gaussian 16 dvb: the Ag band at 673.6 cm-1 has rho_linear 0.704, totally symmetric but
+    # within the 0.05 margin of 3/4 (vibrapol.polarization): the table calls it "p?", so the
+    # sticks and the rho figure must not show it as depolarized.
+    k = int(np.argmin(np.abs(dvb_sticks.positions_cm1 - 673.6)))
+    assert dvb_sticks.irreps[k] == "Ag" and 0.70 <= dvb_sticks.rho_linear[k] < 0.75
+    assert dvb_sticks.unresolved[k] and not dvb_sticks.polarized[k]
+    fig = plotting.depolarization_figure(dvb_sticks)
+    ax = fig.axes[0]
+    offsets = [c.get_offsets() for c in ax.collections if len(c.get_offsets())]
+    hit = [
+        i
+        for i, pts in enumerate(offsets)
+        if np.any(np.isclose(pts[:, 0], dvb_sticks.positions_cm1[k]))
+    ]
+    assert hit == [2]  # the third marker set: polarized, depolarized, unresolved

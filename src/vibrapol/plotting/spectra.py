@@ -283,7 +283,8 @@ def depolarization_figure(
     if not np.any(keep):
         raise VibrapolError("no Raman-active band to show in the depolarization figure")
     pol = keep & sticks.polarized
-    dep = keep & ~sticks.polarized
+    unres = keep & ~sticks.polarized & sticks.unresolved
+    dep = keep & ~sticks.polarized & ~sticks.unresolved
     lo, hi = xlim_cm1 or (float(pos[keep].min()), float(pos[keep].max()))
     pad = 0.0 if xlim_cm1 else 0.05 * (hi - lo or 100.0)
     size = 8.0 + 42.0 * strength / strength[keep].max()  # marker area ∝ band strength
@@ -316,6 +317,16 @@ def depolarization_figure(
             lw=0.9,
             zorder=3,
         )
+        # totally symmetric but too close to 3/4 to tell: half blue, half open
+        ax.scatter(
+            pos[unres],
+            rho[unres],
+            s=size[unres],
+            facecolor="#9cc3e0",
+            edgecolor=PALETTE["vv"],
+            lw=0.9,
+            zorder=3,
+        )
         handles = [
             Line2D([], [], ls="none", marker="o", ms=4.5, color=PALETTE["vv"], label="polarized"),
             Line2D(
@@ -329,9 +340,20 @@ def depolarization_figure(
                 mew=0.9,
                 label="depolarized",
             ),
+            Line2D(
+                [],
+                [],
+                ls="none",
+                marker="o",
+                ms=4.5,
+                mfc="#9cc3e0",
+                mec=PALETTE["vv"],
+                mew=0.9,
+                label="totally symmetric, ρ too close to 3/4 to tell",
+            ),
             Patch(
                 color="#dddddd",
-                label=f"totally symmetric, too close to {limit_text} to tell "
+                label=f"zone too close to {limit_text} to tell "
                 f"($\\rho_\\mathrm{{linear}}$ ≥ {POLARIZED_BELOW:.2f})",
             ),
         ]

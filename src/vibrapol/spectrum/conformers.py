@@ -210,6 +210,7 @@ def mixture(
         rho_linear=np.concatenate([s.rho_linear for s in spectra]),
         rho_natural=np.concatenate([s.rho_natural for s in spectra]),
         polarized=np.concatenate([s.polarized for s in spectra]),
+        unresolved=np.concatenate([s.unresolved for s in spectra]),
         component=np.concatenate([np.full(s.n_bands, i) for i, s in enumerate(spectra)]).astype(
             int
         ),
@@ -299,6 +300,7 @@ def _component(sticks: StickSpectrum, k: int) -> StickSpectrum:
         rho_linear=sticks.rho_linear[keep],
         rho_natural=sticks.rho_natural[keep],
         polarized=sticks.polarized[keep],
+        unresolved=sticks.unresolved[keep],
         component=np.zeros(idx.size, dtype=int),
         components=(sticks.components[k],),
         weights=(sticks.weights[k],),

@@ -20,13 +20,14 @@ from __future__ import annotations
 import math
 import warnings
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
 from vibrapol.invariants import DEGENERACY_TOL_CM1, check_degeneracy_tol, sum_over_sets
 from vibrapol.modeset import ModeSet
+from vibrapol.polarization import UNRESOLVED
 from vibrapol.ramantable import RamanTable, raman_table, symmetry_table
 from vibrapol.spectrum.broadening import (  # noqa: F401  (re-exported: the public spectrum API)
     ACTIVE_FRACTION,
@@ -163,6 +164,7 @@ class StickSpectrum:
         for an isotropic sample these are the usual ρ_linear and ρ_natural; at 180° the
         natural-light ratio of an isotropic sample is 1.
     polarized : ndarray of bool (n,)
+        Measurably polarized by the rule of :mod:`vibrapol.polarization`.
     component : ndarray of int (n,)
         Index into ``components`` (the conformer a band belongs to; 0 for a single molecule).
     components : tuple of str
@@ -170,6 +172,9 @@ class StickSpectrum:
     weights : tuple of float
         Population weight of each component (already applied to the heights).
     conditions : Conditions
+    unresolved : ndarray of bool (n,)
+        Totally symmetric, but ρ too close to 3/4 for a measurement to tell it from a
+        depolarized band (:mod:`vibrapol.polarization`); all False when not given.
     """
 
     positions_cm1: np.ndarray
@@ -185,10 +190,14 @@ class StickSpectrum:
     components: tuple[str, ...] = ("",)
     weights: tuple[float, ...] = (1.0,)
     conditions: Conditions = Conditions()
+    unresolved: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
 
     def __post_init__(self) -> None:
         n = np.asarray(self.positions_cm1).shape[0]
         set_ = object.__setattr__
+        given = np.asarray(self.unresolved, dtype=bool)
+        flags = np.zeros(n, dtype=bool) if given.size == 0 else given
+        set_(self, "unresolved", read_only(flags, "unresolved", (n,), bool))
         set_(self, "positions_cm1", read_only(self.positions_cm1, "positions_cm1", (n,)))
         set_(self, "heights", read_only(self.heights, "heights", (n, len(self.channels))))
         for name in ("harmonic_cm1", "rho_linear", "rho_natural"):
@@ -372,6 +381,11 @@ def stick_spectrum(
         rho_linear=np.tile(rho_lin, rep),
         rho_natural=np.tile(rho_nat, rep),
         polarized=np.tile(table.polarized[first], rep) if sets else np.zeros(0, bool),
+        unresolved=np.tile(
+            np.array([table.polarization[i] == UNRESOLVED for i in first], dtype=bool), rep
+        )
+        if sets and table.polarization
+        else np.zeros(0, dtype=bool),
         component=np.zeros(len(sets) * rep, dtype=int),
         components=(label or modes.provenance.source_file,),
         conditions=cond,

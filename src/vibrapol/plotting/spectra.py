@@ -17,6 +17,7 @@ from collections.abc import Sequence
 
 import numpy as np
 from matplotlib import rc_context
+from matplotlib.artist import Artist
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
@@ -307,50 +308,23 @@ def depolarization_figure(
             fontsize=LABEL_PT,
             color="#555555",
         )
-        ax.scatter(pos[pol], rho[pol], s=size[pol], color=PALETTE["vv"], lw=0, zorder=3)
-        ax.scatter(
-            pos[dep],
-            rho[dep],
-            s=size[dep],
-            facecolor="white",
-            edgecolor=PALETTE["vh"],
-            lw=0.9,
-            zorder=3,
-        )
-        # totally symmetric but too close to 3/4 to tell: half blue, half open
-        ax.scatter(
-            pos[unres],
-            rho[unres],
-            s=size[unres],
-            facecolor="#9cc3e0",
-            edgecolor=PALETTE["vv"],
-            lw=0.9,
-            zorder=3,
-        )
-        handles = [
-            Line2D([], [], ls="none", marker="o", ms=4.5, color=PALETTE["vv"], label="polarized"),
-            Line2D(
-                [],
-                [],
-                ls="none",
-                marker="o",
-                ms=4.5,
-                mfc="white",
-                mec=PALETTE["vh"],
-                mew=0.9,
-                label="depolarized",
-            ),
-            Line2D(
-                [],
-                [],
-                ls="none",
-                marker="o",
-                ms=4.5,
-                mfc="#9cc3e0",
-                mec=PALETTE["vv"],
-                mew=0.9,
-                label="totally symmetric, ρ too close to 3/4 to tell",
-            ),
+        # one marker per outcome of the polarization rule: (bands, face, edge, edge width, label)
+        kinds = [
+            (pol, PALETTE["vv"], PALETTE["vv"], 0.0, "polarized"),
+            (dep, "white", PALETTE["vh"], 0.9, "depolarized"),
+            (unres, "#9cc3e0", PALETTE["vv"], 0.9, "totally symmetric, ρ too close to 3/4 to tell"),
+        ]
+        handles: list[Artist] = []
+        for bands, face, edge, width, label in kinds:
+            ax.scatter(
+                pos[bands], rho[bands], s=size[bands], facecolor=face, edgecolor=edge, lw=width,
+                zorder=3,
+            )  # fmt: skip
+            handles.append(
+                Line2D([], [], ls="none", marker="o", ms=4.5, mfc=face, mec=edge, mew=width,
+                       label=label)
+            )  # fmt: skip
+        handles += [
             Patch(
                 color="#dddddd",
                 label=f"zone too close to {limit_text} to tell "

@@ -299,6 +299,16 @@ class ModeSet:
                     "vibrations.modes_from_displacements"
                 )
 
+    def __repr__(self) -> str:
+        from vibrapol.display import modeset_lines
+
+        return "\n".join(modeset_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import modeset_html
+
+        return modeset_html(self)
+
     def _checked_dalpha_dq(
         self, n_modes: int, given_modes: Any, given_masses: Any
     ) -> np.ndarray | None:

@@ -16,6 +16,8 @@ from vibrapol.modeset import ModeSet, Provenance
 from vibrapol.polarization import POLARIZED, polarization_class, symmetry_prediction
 
 if TYPE_CHECKING:
+    import pandas as pd
+
     from vibrapol.symmetry import ModeSymmetry
 
 #: Text of the note carried by tables of sources without any Raman data.
@@ -119,6 +121,27 @@ class RamanTable:
         _labels(self, "polarization", (0, n))
         _labels(self, "warnings", None)
         _labels(self, "notes", None)
+
+    def __repr__(self) -> str:
+        from vibrapol.display import table_lines
+
+        return "\n".join(table_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import table_html
+
+        return table_html(self)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The table as a pandas DataFrame, one row per mode.
+
+        Columns and their order are those of the CSV file (the same rows, unrounded);
+        ``df.attrs`` holds the conditions of its ``#`` lines.  Needs pandas (imported here).
+        See :func:`vibrapol.output.frames.table_dataframe`.
+        """
+        from vibrapol.output.frames import table_dataframe
+
+        return table_dataframe(self)
 
     @property
     def n_modes(self) -> int:

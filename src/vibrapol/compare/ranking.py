@@ -4,13 +4,16 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from vibrapol.compare.assignment import assign
 from vibrapol.compare.candidates import Candidate
 from vibrapol.compare.results import Assignment
 from vibrapol.errors import VibrapolError
 from vibrapol.measured import MeasuredBands, PolarizedPair
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 @dataclass(frozen=True, eq=False)
@@ -24,6 +27,27 @@ class Ranking:
     """
 
     assignments: tuple[Assignment, ...]
+
+    def __repr__(self) -> str:
+        from vibrapol.display import ranking_lines
+
+        return "\n".join(ranking_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import ranking_html
+
+        return ranking_html(self)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The ranking as a pandas DataFrame, one row per candidate, best first.
+
+        Columns and their order are those of the CSV file (the same rows, unrounded);
+        ``df.attrs`` holds the conditions of its ``#`` lines.  Needs pandas (imported here).
+        See :func:`vibrapol.output.frames.ranking_dataframe`.
+        """
+        from vibrapol.output.frames import ranking_dataframe
+
+        return ranking_dataframe(self)
 
     def __len__(self) -> int:
         return len(self.assignments)

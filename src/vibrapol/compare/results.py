@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -11,6 +12,9 @@ from vibrapol.compare.costs import CostModel
 from vibrapol.errors import VibrapolError
 from vibrapol.measured import MeasuredBands
 from vibrapol.spectrum import StickSpectrum
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 @dataclass(frozen=True)
@@ -206,6 +210,27 @@ class Assignment:
     range_cm1: tuple[float, float]
     sticks: StickSpectrum
     measured: MeasuredBands
+
+    def __repr__(self) -> str:
+        from vibrapol.display import assignment_lines
+
+        return "\n".join(assignment_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import assignment_html
+
+        return assignment_html(self)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The assignment as a pandas DataFrame, one row per measured band.
+
+        Columns and their order are those of the CSV file (the same rows, unrounded);
+        ``df.attrs`` holds the conditions of its ``#`` lines.  Needs pandas (imported here).
+        See :func:`vibrapol.output.frames.assignment_dataframe`.
+        """
+        from vibrapol.output.frames import assignment_dataframe
+
+        return assignment_dataframe(self)
 
     def __len__(self) -> int:
         return len(self.bands)

@@ -18,7 +18,7 @@ import json
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -27,6 +27,10 @@ from vibrapol.fileio import write_atomic
 from vibrapol.measured.fitting import SHAPE, BandFit, Starts, fit_bands, fit_joint
 from vibrapol.measured.spectrum import MeasuredSpectrum, PolarizedPair
 from vibrapol.textio import read_text
+
+if TYPE_CHECKING:
+    import pandas as pd
+
 
 #: Schema name and version of stored corrections.
 CORRECTION_SCHEMA = "vibrapol.polarization-correction"
@@ -184,6 +188,27 @@ class MeasuredBands:
     correction: PolarizationCorrection | None = None
     laser_nm: float | None = None
     source_files: tuple[str, ...] = ()
+
+    def __repr__(self) -> str:
+        from vibrapol.display import bands_lines
+
+        return "\n".join(bands_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import bands_html
+
+        return bands_html(self)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The bands as a pandas DataFrame, one row per band.
+
+        Columns and their order are those of the CSV file (the same rows, unrounded);
+        ``df.attrs`` holds the conditions of its ``#`` lines.  Needs pandas (imported here).
+        See :func:`vibrapol.output.frames.measured_bands_dataframe`.
+        """
+        from vibrapol.output.frames import measured_bands_dataframe
+
+        return measured_bands_dataframe(self)
 
     def __len__(self) -> int:
         return len(self.bands)

@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import csv
-import io
 import math
 import os
 from collections.abc import Sequence
@@ -11,6 +9,7 @@ from collections.abc import Sequence
 from vibrapol.compare.ranking import Ranking
 from vibrapol.compare.results import Assignment
 from vibrapol.measured import PolarizedPair
+from vibrapol.output.tables import csv_document
 
 #: Columns of the assignment CSV, one row per measured band.  ``mode`` holds the 1-based mode
 #: numbers of the assigned computed band (a degenerate set as "4 5") and is empty for a band
@@ -77,6 +76,53 @@ def assignment_conditions(
     return items
 
 
+def assignment_rows(assignment: Assignment) -> list[dict[str, object]]:
+    """One dictionary per measured band keyed by :data:`ASSIGNMENT_COLUMNS` (NaN → None).
+
+    The rows of :func:`assignment_csv` and of :meth:`Assignment.to_dataframe`; ``mode`` and
+    ``alternative`` are text ("4 5" for a degenerate set, "" when unassigned).
+    """
+    return [
+        {
+            "band_cm1": float(b.band_cm1),
+            "band_rho": _or_none(b.band_rho),
+            "mode": b.mode,
+            "mode_cm1_scaled": _or_none(b.mode_cm1_scaled),
+            "irrep": b.irrep,
+            "mode_rho": _or_none(b.mode_rho),
+            "delta_cm1": _or_none(b.delta_cm1),
+            "confidence": _or_none(b.confidence),
+            "band_rho_err": _or_none(b.band_rho_err),
+            "band_area": _or_none(b.band_area),
+            "mode_cm1_harmonic": _or_none(b.mode_cm1),
+            "component": b.component,
+            "cost": float(b.cost),
+            "alternative": b.alternative,
+        }
+        for b in assignment.bands
+    ]
+
+
+#: How :func:`assignment_csv` writes each column (others as they are).
+ASSIGNMENT_CSV_FORMATS = {
+    "band_cm1": ".2f",
+    "band_rho": ".4f",
+    "mode_cm1_scaled": ".2f",
+    "mode_rho": ".4f",
+    "delta_cm1": ".2f",
+    "confidence": ".4f",
+    "band_rho_err": ".4f",
+    "band_area": ".6g",
+    "mode_cm1_harmonic": ".2f",
+    "cost": ".3f",
+}
+
+
+def _or_none(value: float) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
 def assignment_csv(
     assignment: Assignment, pair: PolarizedPair | None = None, notes: Sequence[str] = ()
 ) -> str:
@@ -87,31 +133,98 @@ def assignment_csv(
     factor and how it was found, laser, temperature, detector, scores) are skipped by
     ``pandas.read_csv(comment="#")``.
     """
-    buf = io.StringIO()
-    for key, value in assignment_conditions(assignment, pair, notes):
-        buf.write(f"# {key}: {' '.join(str(value).split())}\n")
-    writer = csv.writer(buf, lineterminator="\n")
-    writer.writerow(ASSIGNMENT_COLUMNS)
-    for b in assignment.bands:
-        writer.writerow(
-            [
-                f"{b.band_cm1:.2f}",
-                _num(b.band_rho, ".4f"),
-                b.mode,
-                _num(b.mode_cm1_scaled, ".2f"),
-                b.irrep,
-                _num(b.mode_rho, ".4f"),
-                _num(b.delta_cm1, ".2f"),
-                _num(b.confidence, ".4f"),
-                _num(b.band_rho_err, ".4f"),
-                _num(b.band_area, ".6g"),
-                _num(b.mode_cm1, ".2f"),
-                b.component,
-                f"{b.cost:.3f}",
-                b.alternative,
-            ]
+    return csv_document(
+        assignment_conditions(assignment, pair, notes),
+        ASSIGNMENT_COLUMNS,
+        assignment_rows(assignment),
+        ASSIGNMENT_CSV_FORMATS,
+    )
+
+
+#: Columns of the ranking CSV, one row per candidate, best first (``rms_cm1`` and
+#: ``max_abs_cm1``: deviations of the assigned bands after scaling, cm⁻¹; the shares and
+#: agreements are between 0 and 1, see :class:`~vibrapol.compare.results.AssignmentScores`).
+RANKING_COLUMNS = (
+    "rank",
+    "candidate",
+    "overall",
+    "n_assigned",
+    "n_bands",
+    "rms_cm1",
+    "max_abs_cm1",
+    "polarization_agreement",
+    "similarity",
+    "explained_fraction",
+    "predicted_found_fraction",
+    "scale_factor",
+    "scale_factor_err",
+    "scale_fitted",
+)
+
+#: How :func:`ranking_csv` writes each column (others as they are).
+RANKING_CSV_FORMATS = {
+    "overall": ".4f",
+    "rms_cm1": ".2f",
+    "max_abs_cm1": ".2f",
+    "polarization_agreement": ".4f",
+    "similarity": ".4f",
+    "explained_fraction": ".4f",
+    "predicted_found_fraction": ".4f",
+    "scale_factor": ".5f",
+    "scale_factor_err": ".5f",
+}
+
+
+def ranking_rows(ranking: Ranking) -> list[dict[str, object]]:
+    """One dictionary per candidate keyed by :data:`RANKING_COLUMNS`, best first."""
+    rows = []
+    for k, a in enumerate(ranking.assignments, start=1):
+        s = a.scores
+        rows.append(
+            {
+                "rank": k,
+                "candidate": a.label,
+                "overall": _or_none(s.overall),
+                "n_assigned": int(s.n_assigned),
+                "n_bands": int(s.n_bands),
+                "rms_cm1": _or_none(s.rms_cm1),
+                "max_abs_cm1": _or_none(s.max_abs_cm1),
+                "polarization_agreement": _or_none(s.polarization_agreement),
+                "similarity": _or_none(s.similarity),
+                "explained_fraction": _or_none(s.explained_fraction),
+                "predicted_found_fraction": _or_none(s.predicted_found_fraction),
+                "scale_factor": _or_none(a.scale.factor),
+                "scale_factor_err": _or_none(a.scale.factor_err),
+                "scale_fitted": bool(a.scale.fitted),
+            }
         )
-    return buf.getvalue()
+    return rows
+
+
+def ranking_conditions(ranking: Ranking) -> list[tuple[str, str]]:
+    """(name, value) pairs saying what was ranked against what, for file headers."""
+    items = [("vibrapol", "ranking of candidates against one measured spectrum")]
+    if ranking.assignments:
+        best = ranking.best
+        items.append(("measured", ", ".join(best.measured.source_files) or "(in memory)"))
+        items += [(k, v) for k, v in best.sticks.conditions.items() if k not in ("scale", "method")]
+    if len(ranking) > 1:
+        items.append(("margin", f"{ranking.margin():.4f} (overall score, best − runner-up)"))
+    items.append(
+        (
+            "columns",
+            "overall and the shares between 0 and 1 (1 = perfect); rms_cm1, max_abs_cm1 in "
+            "cm-1 after scaling; scale_factor fitted or fixed per candidate (scale_fitted)",
+        )
+    )
+    return items
+
+
+def ranking_csv(ranking: Ranking) -> str:
+    """``#`` lines with the conditions, then :data:`RANKING_COLUMNS`, one row per candidate."""
+    return csv_document(
+        ranking_conditions(ranking), RANKING_COLUMNS, ranking_rows(ranking), RANKING_CSV_FORMATS
+    )
 
 
 def _fmt(value: float, fmt: str = ".3f") -> str:

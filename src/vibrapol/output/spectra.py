@@ -16,6 +16,7 @@ from typing import Any
 
 import numpy as np
 
+from vibrapol.output.tables import csv_cell
 from vibrapol.spectrum import Conditions, GridSpectrum, StickSpectrum
 from vibrapol.spectrum.lineshapes import LineShape
 from vibrapol.spectrum.sweep import PolarSweep
@@ -56,14 +57,14 @@ def lineshape_text(lineshape: LineShape | None) -> str:
     return text
 
 
-def conditions_lines(
+def conditions_items(
     conditions: Conditions,
     lineshape: LineShape | None = None,
     components: tuple[str, ...] = (),
     weights: tuple[float, ...] = (),
     columns: str = "",
-) -> str:
-    """``# name: value`` lines stating how a spectrum was computed (for CSV files)."""
+) -> list[tuple[str, str]]:
+    """(name, value) pairs stating how a spectrum was computed (CSV header, DataFrame attrs)."""
     items = [("vibrapol", "computed Raman spectrum (a prediction, not a measurement)")]
     items += conditions.items()
     items.append(("line shape", lineshape_text(lineshape)))
@@ -80,7 +81,19 @@ def conditions_lines(
     if columns:
         items.append(("columns", columns))
     items.append(("constants", CODATA_VERSION))
-    return "".join(f"# {k}: {' '.join(str(v).split())}\n" for k, v in items)
+    return [(k, " ".join(str(v).split())) for k, v in items]
+
+
+def conditions_lines(
+    conditions: Conditions,
+    lineshape: LineShape | None = None,
+    components: tuple[str, ...] = (),
+    weights: tuple[float, ...] = (),
+    columns: str = "",
+) -> str:
+    """``# name: value`` lines stating how a spectrum was computed (for CSV files)."""
+    items = conditions_items(conditions, lineshape, components, weights, columns)
+    return "".join(f"# {k}: {v}\n" for k, v in items)
 
 
 def _shift_note(conditions: Conditions) -> str:
@@ -89,26 +102,46 @@ def _shift_note(conditions: Conditions) -> str:
     return "shift_cm1 = scaled wavenumber (see scale)"
 
 
-def grid_csv(grid: GridSpectrum) -> str:
-    """Conditions as ``#`` lines, then ``shift_cm1,vv,vh,…``: one row per grid point."""
+def grid_items(grid: GridSpectrum) -> list[tuple[str, str]]:
+    """The conditions of a broadened spectrum: the ``#`` lines of :func:`grid_csv`."""
     st = grid.sticks
-    head = conditions_lines(
+    return conditions_items(
         st.conditions,
         grid.lineshape,
         st.components,
         st.weights,
         f"{_shift_note(st.conditions)}; channels in {grid.unit}",
     )
-    rows: list[list[object]] = [["shift_cm1", *grid.channels]]
-    for x, vals in zip(grid.shift_cm1, grid.values, strict=True):
-        rows.append([f"{x:.4f}", *(_num(v, ".8g") for v in vals)])
+
+
+def grid_columns(grid: GridSpectrum) -> tuple[str, ...]:
+    """Column names of the grid table: ``shift_cm1`` and one per channel."""
+    return ("shift_cm1", *grid.channels)
+
+
+def grid_array(grid: GridSpectrum) -> np.ndarray:
+    """The grid table as one array, shape (m, 1 + n_channels), in :func:`grid_columns` order."""
+    return np.column_stack([grid.shift_cm1, grid.values])
+
+
+#: How :func:`grid_csv` writes the shift and the channel values.
+GRID_CSV_FORMATS = (".4f", ".8g")
+
+
+def grid_csv(grid: GridSpectrum) -> str:
+    """Conditions as ``#`` lines, then ``shift_cm1,vv,vh,…``: one row per grid point."""
+    head = "".join(f"# {k}: {v}\n" for k, v in grid_items(grid))
+    rows: list[list[object]] = [list(grid_columns(grid))]
+    x_fmt, v_fmt = GRID_CSV_FORMATS
+    for x, *vals in grid_array(grid):
+        rows.append([f"{x:{x_fmt}}", *(_num(v, v_fmt) for v in vals)])
     return head + _csv(rows)
 
 
-def sticks_csv(sticks: StickSpectrum) -> str:
-    """Conditions as ``#`` lines, then one row per band: :data:`STICK_COLUMNS`, then heights."""
+def stick_items(sticks: StickSpectrum) -> list[tuple[str, str]]:
+    """The conditions of a stick table: the ``#`` lines of :func:`sticks_csv`."""
     c = sticks.conditions
-    head = conditions_lines(
+    return conditions_items(
         c,
         None,
         sticks.components,
@@ -116,22 +149,60 @@ def sticks_csv(sticks: StickSpectrum) -> str:
         f"{_shift_note(c)}; harmonic_cm1 = unscaled; rho_linear = vh/vv and rho_natural = "
         f"nh/nv at {c.geometry_deg} deg for this sample ({c.orientation}); channels in {c.unit}",
     )
-    rows: list[list[object]] = [[*STICK_COLUMNS, *sticks.channels]]
+
+
+def stick_columns(sticks: StickSpectrum) -> tuple[str, ...]:
+    """Column names of the stick table: :data:`STICK_COLUMNS`, then one per channel."""
+    return (*STICK_COLUMNS, *sticks.channels)
+
+
+def stick_rows(sticks: StickSpectrum) -> list[dict[str, object]]:
+    """One dictionary per band keyed by :func:`stick_columns` (NaN → None).
+
+    ``modes`` holds the 1-based numbers of the modes behind the band ("4 5" for a degenerate
+    set), ``component`` the label of the conformer it belongs to.
+    """
+    rows = []
     for i in range(sticks.n_bands):
-        rows.append(
-            [
-                f"{sticks.positions_cm1[i]:.4f}",
-                f"{sticks.harmonic_cm1[i]:.4f}",
-                " ".join(str(k + 1) for k in sticks.mode_sets[i]),
-                sticks.irreps[i],
-                _num(sticks.rho_linear[i], ".6f"),
-                _num(sticks.rho_natural[i], ".6f"),
-                "true" if sticks.polarized[i] else "false",
-                sticks.components[sticks.component[i]],
-                *(_num(v, ".8g") for v in sticks.heights[i]),
-            ]
-        )
+        row: dict[str, object] = {
+            "shift_cm1": float(sticks.positions_cm1[i]),
+            "harmonic_cm1": float(sticks.harmonic_cm1[i]),
+            "modes": " ".join(str(k + 1) for k in sticks.mode_sets[i]),
+            "irrep": sticks.irreps[i],
+            "rho_linear": _or_none(sticks.rho_linear[i]),
+            "rho_natural": _or_none(sticks.rho_natural[i]),
+            "polarized": bool(sticks.polarized[i]),
+            "component": sticks.components[sticks.component[i]],
+        }
+        for j, name in enumerate(sticks.channels):
+            row[name] = _or_none(sticks.heights[i, j])
+        rows.append(row)
+    return rows
+
+
+#: How :func:`sticks_csv` writes each column (channels: ``.8g``; others as they are).
+STICK_CSV_FORMATS = {
+    "shift_cm1": ".4f",
+    "harmonic_cm1": ".4f",
+    "rho_linear": ".6f",
+    "rho_natural": ".6f",
+}
+
+
+def sticks_csv(sticks: StickSpectrum) -> str:
+    """Conditions as ``#`` lines, then one row per band: :data:`STICK_COLUMNS`, then heights."""
+    head = "".join(f"# {k}: {v}\n" for k, v in stick_items(sticks))
+    columns = stick_columns(sticks)
+    formats = {**dict.fromkeys(sticks.channels, ".8g"), **STICK_CSV_FORMATS}
+    rows: list[list[object]] = [list(columns)]
+    for row in stick_rows(sticks):
+        rows.append([csv_cell(row[name], formats.get(name, "")) for name in columns])
     return head + _csv(rows)
+
+
+def _or_none(value: float) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
 
 
 def _finite(values: np.ndarray) -> list[float | None]:

@@ -11,6 +11,7 @@ import csv
 import io
 import json
 import math
+from collections.abc import Sequence
 from typing import TypedDict
 
 import numpy as np
@@ -63,10 +64,6 @@ def _finite_or_none(value: float) -> float | None:
 
 def _flag(values: np.ndarray | None, i: int) -> bool | None:
     return None if values is None else bool(values[i])
-
-
-def _csv_flag(value: bool | None) -> str:
-    return "" if value is None else ("true" if value else "false")
 
 
 def _at(values: np.ndarray | None, i: int) -> float | None:
@@ -160,10 +157,6 @@ def _noise_sets(table: RamanTable) -> tuple[set[int], set[int]]:
     return _symmetry_noise(table.a2, not_ts), _symmetry_noise(table.ir_intensity_km_mol, not_ir)
 
 
-def _num(value: object, fmt: str) -> str:
-    return "" if value is None else format(value, fmt)
-
-
 def header_fields(table: RamanTable) -> dict[str, str]:
     """Source, program, method, point group and species convention of the table."""
     p = table.provenance
@@ -212,8 +205,51 @@ def header_lines(table: RamanTable) -> list[str]:
     return lines
 
 
+#: How :func:`table_csv` writes each column of :data:`TABLE_COLUMNS` (None: an empty cell).
+TABLE_CSV_FORMATS: dict[str, str] = {
+    "frequency_cm1": ".4f",
+    "a2": CSV_DIGITS,
+    "gamma2": CSV_DIGITS,
+    "activity": CSV_DIGITS,
+    "rho_linear": ".6f",
+    "rho_natural": ".6f",
+    "ir_intensity_km_mol": ".6g",
+    "purity": ".4f",
+}
+
+
+def csv_cell(value: object, fmt: str = "") -> object:
+    """One CSV cell: None → empty, booleans → true/false, numbers with ``fmt``."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    return format(value, fmt) if fmt else value
+
+
+def csv_document(
+    items: Sequence[tuple[str, str]],
+    columns: Sequence[str],
+    rows: Sequence[dict[str, object]],
+    formats: dict[str, str],
+) -> str:
+    """``# name: value`` lines, the column names, then the rows (cells by :func:`csv_cell`)."""
+    buf = io.StringIO()
+    for key, value in items:
+        buf.write(f"# {key}: {' '.join(str(value).split())}\n")
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(columns)
+    for row in rows:
+        writer.writerow([csv_cell(row[name], formats.get(name, "")) for name in columns])
+    return buf.getvalue()
+
+
 def table_csv(table: RamanTable) -> str:
-    """CSV with exactly :data:`TABLE_COLUMNS`, after ``#`` lines with the header."""
+    """CSV with exactly :data:`TABLE_COLUMNS`, after ``#`` lines with the header.
+
+    The cells are those of :func:`table_rows` (the rows of :meth:`RamanTable.to_dataframe`
+    too), written with :data:`TABLE_CSV_FORMATS`.
+    """
     buf = io.StringIO()
     for line in header_lines(table):
         buf.write(f"# {line}\n")
@@ -221,46 +257,40 @@ def table_csv(table: RamanTable) -> str:
     writer.writerow(TABLE_COLUMNS)
     for row in table_rows(table):
         writer.writerow(
-            [
-                row["mode"],
-                f"{row['frequency_cm1']:.4f}",
-                row["irrep"],
-                _num(row["a2"], CSV_DIGITS),
-                _num(row["gamma2"], CSV_DIGITS),
-                _num(row["activity"], CSV_DIGITS),
-                _num(row["rho_linear"], ".6f"),
-                _num(row["rho_natural"], ".6f"),
-                "" if row["polarized"] is None else str(row["polarized"]).lower(),
-                row["degenerate_set"],
-                _csv_flag(row["ir_active"]),
-                _csv_flag(row["raman_active"]),
-                _num(row["ir_intensity_km_mol"], ".6g"),
-                _num(row["purity"], ".4f"),
-                row["polarization"],
-            ]
+            [csv_cell(row[name], TABLE_CSV_FORMATS.get(name, "")) for name in TABLE_COLUMNS]  # type: ignore[literal-required]
         )
     return buf.getvalue()
 
 
-def table_json(table: RamanTable) -> str:
-    """JSON document: header (with ``notes`` and ``warnings``), units, one record per mode."""
-    header: dict[str, object] = dict(header_fields(table))
+def table_units(table: RamanTable) -> dict[str, str]:
+    """Unit of each numeric column of the per-mode table (JSON ``units``, DataFrame attrs)."""
     unit = "relative (largest activity 100)" if _relative(table) else "angstrom^4/amu"
+    return {
+        "frequency_cm1": "cm-1",
+        "a2": unit,
+        "gamma2": unit,
+        "activity": unit,
+        "ir_intensity_km_mol": "km/mol",
+    }
+
+
+def table_header(table: RamanTable) -> dict[str, object]:
+    """The JSON header of the table: source, method, point group, notes, warnings, rule."""
+    header: dict[str, object] = dict(header_fields(table))
     header.update(
         symmetrized=table.symmetrized,
         notes=table_notes(table),
         warnings=list(table.warnings),
         polarization_rule=RULE_TEXT,
     )
+    return header
+
+
+def table_json(table: RamanTable) -> str:
+    """JSON document: header (with ``notes`` and ``warnings``), units, one record per mode."""
     doc = {
-        "header": header,
-        "units": {
-            "frequency_cm1": "cm-1",
-            "a2": unit,
-            "gamma2": unit,
-            "activity": unit,
-            "ir_intensity_km_mol": "km/mol",
-        },
+        "header": table_header(table),
+        "units": table_units(table),
         "constants": CODATA_VERSION,
         "modes": table_rows(table),
     }

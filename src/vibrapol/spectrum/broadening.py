@@ -18,6 +18,8 @@ from vibrapol.errors import AccuracyWarning, ShapeError, VibrapolError
 from vibrapol.spectrum.lineshapes import LineShape
 
 if TYPE_CHECKING:  # pragma: no cover
+    import pandas as pd
+
     from vibrapol.spectrum import StickSpectrum
 
 #: Line shape used when none is given: Lorentzian, FWHM 8 cm⁻¹.
@@ -81,6 +83,27 @@ class GridSpectrum:
         object.__setattr__(
             self, "values", read_only(self.values, "values", (m, len(self.channels)))
         )
+
+    def __repr__(self) -> str:
+        from vibrapol.display import grid_lines
+
+        return "\n".join(grid_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import grid_html
+
+        return grid_html(self)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The spectrum as a pandas DataFrame, one row per grid point.
+
+        Columns and their order are those of the CSV file (the same rows, unrounded);
+        ``df.attrs`` holds the conditions of its ``#`` lines.  Needs pandas (imported here).
+        See :func:`vibrapol.output.frames.grid_dataframe`.
+        """
+        from vibrapol.output.frames import grid_dataframe
+
+        return grid_dataframe(self)
 
     @property
     def unit(self) -> str:

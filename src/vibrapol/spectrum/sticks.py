@@ -21,6 +21,7 @@ import math
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -57,6 +58,10 @@ from vibrapol.spectrum.quantities import (
     thermal_factor,
 )
 from vibrapol.spectrum.scaling import NO_SCALE, FrequencyScale
+
+if TYPE_CHECKING:
+    import pandas as pd
+
 
 #: Bands below this wavenumber are suspicious (residual rotations/translations): warned.
 LOW_BAND_CM1 = 10.0
@@ -208,6 +213,27 @@ class StickSpectrum:
             raise ShapeError(f"mode_sets and irreps need one entry per band ({n})")
         if len(self.components) != len(self.weights):
             raise ShapeError("components and weights must have the same length")
+
+    def __repr__(self) -> str:
+        from vibrapol.display import sticks_lines
+
+        return "\n".join(sticks_lines(self))
+
+    def _repr_html_(self) -> str:
+        from vibrapol.display import sticks_html
+
+        return sticks_html(self)
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The sticks as a pandas DataFrame, one row per band.
+
+        Columns and their order are those of the CSV file (the same rows, unrounded);
+        ``df.attrs`` holds the conditions of its ``#`` lines.  Needs pandas (imported here).
+        See :func:`vibrapol.output.frames.sticks_dataframe`.
+        """
+        from vibrapol.output.frames import sticks_dataframe
+
+        return sticks_dataframe(self)
 
     @property
     def n_bands(self) -> int:

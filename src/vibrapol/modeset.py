@@ -442,6 +442,37 @@ class ModeSet:
             self, freqs_cm1=self.freqs_cm1[idx], modes=self.modes[idx], **pick
         )
 
+    @classmethod
+    def from_ase_vibrations(cls, vib: Any, **options: Any) -> ModeSet:
+        """A ModeSet from an ``ase.vibrations.VibrationsData`` (its Hessian and masses).
+
+        See :func:`vibrapol.sources.objects.modes_from_ase_vibrations` (options:
+        ``dalpha_dx``, ``polarizability_ang3``, ``source``).
+        """
+        from vibrapol.sources.objects import modes_from_ase_vibrations
+
+        return modes_from_ase_vibrations(vib, **options)
+
+    def to_ase_vibrations(self) -> Any:
+        """The Hessian and masses of the modes as an ``ase.vibrations.VibrationsData``.
+
+        See :func:`vibrapol.sources.objects.modes_to_ase_vibrations`; needs every vibration.
+        """
+        from vibrapol.sources.objects import modes_to_ase_vibrations
+
+        return modes_to_ase_vibrations(self)
+
+    @classmethod
+    def from_ccdata(cls, data: Any, source: str = "") -> ModeSet:
+        """A ModeSet from cclib's parsed data (``cclib.io.ccread(...)``).
+
+        See :func:`vibrapol.sources.cclib_generic.modes_from_ccdata`: the same function as the
+        generic cclib reader, so a file and its ``ccData`` give the same numbers.
+        """
+        from vibrapol.sources.cclib_generic import modes_from_ccdata
+
+        return modes_from_ccdata(data, source=source)
+
     def with_masses(self, masses_da: np.ndarray | list[float]) -> ModeSet:
         """The same molecule with other atomic masses (isotopes): new frequencies and modes.
 

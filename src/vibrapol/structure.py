@@ -41,6 +41,30 @@ def distances_ang(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.sqrt((diff * diff).sum(axis=-1))
 
 
+def structure_arrays(
+    atoms: Any, masses_da: np.ndarray | None = None
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """Atomic numbers, coordinates (Å) and masses of an ``ase.Atoms``.
+
+    The masses are ``masses_da`` when given, else those set on the Atoms with ``set_masses``,
+    else None (the caller's default: vibrapol uses the most abundant isotopes, not ASE's
+    standard atomic weights).
+
+    Raises
+    ------
+    GeometryError
+        When ``atoms`` is not an ``ase.Atoms`` (or alike).
+    """
+    if not (hasattr(atoms, "get_atomic_numbers") and hasattr(atoms, "get_positions")):
+        raise GeometryError(
+            f"give an ase.Atoms, or atomic numbers and coordinates; got {type(atoms).__name__} "
+            "without coordinates"
+        )
+    if masses_da is None and callable(getattr(atoms, "has", None)) and atoms.has("masses"):
+        masses_da = np.asarray(atoms.get_masses(), dtype=float)
+    return np.asarray(atoms.get_atomic_numbers()), np.asarray(atoms.get_positions()), masses_da
+
+
 def check_structure(
     atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, where: str = ""
 ) -> None:

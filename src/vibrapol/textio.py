@@ -63,6 +63,12 @@ _ONCE: contextvars.ContextVar[dict[tuple[int, int, int, int], str] | None] = con
 )
 
 
+#: Texts given in memory (a file object, bytes) inside :func:`given_text`, by name.
+_GIVEN: contextvars.ContextVar[dict[str, str] | None] = contextvars.ContextVar(
+    "vibrapol_given_text", default=None
+)
+
+
 def _size(n: int) -> str:
     for unit, factor in (("GB", 1024**3), ("MB", 1024**2), ("kB", 1024)):
         if n >= factor:
@@ -193,6 +199,9 @@ def read_text(path: str | Path, limit: int = MAX_QC_BYTES, what: str = "file") -
         For missing, non-regular, oversized, unreadable, empty or binary files.
     """
     p = Path(path)
+    given = _GIVEN.get()
+    if given is not None and str(p) in given:
+        return given[str(p)]
     cache = _ONCE.get()
     key = None
     if cache is not None:
@@ -223,6 +232,58 @@ def reading_once() -> Iterator[None]:
         yield
     finally:
         _ONCE.reset(token)
+
+
+@contextlib.contextmanager
+def given_text(name: str, text: str) -> Iterator[None]:
+    """Within the block, :func:`read_text` of ``name`` returns ``text`` (no file is opened).
+
+    How :func:`vibrapol.sources.read_modes` hands the text of a file object or of bytes to the
+    readers, which read by name.
+    """
+    token = _GIVEN.set({**(_GIVEN.get() or {}), str(Path(name)): text})
+    try:
+        yield
+    finally:
+        _GIVEN.reset(token)
+
+
+def stream_text(source: object, where: str, limit: int = MAX_QC_BYTES) -> str:
+    """The text of bytes, or of an open file (text or binary), decoded as :func:`read_text` does.
+
+    At most ``limit`` bytes (characters for a text stream) are read; a text stream's byte-order
+    mark is dropped.
+
+    Raises
+    ------
+    InputFormatError
+        When the content is larger than ``limit``, binary, empty, or the stream cannot be read.
+    """
+    if isinstance(source, (bytes, bytearray, memoryview)):
+        data: object = bytes(source)
+    else:
+        try:
+            data = source.read(limit + 1)  # type: ignore[attr-defined]
+        except (OSError, ValueError, UnicodeDecodeError) as exc:
+            raise InputFormatError(f"{where}: cannot be read ({exc})") from None
+    if len(data) > limit:  # type: ignore[arg-type]
+        raise InputFormatError(
+            f"{where}: holds more than the {_size(limit)} an input may have; "
+            "check that this is the right file"
+        )
+    if isinstance(data, bytes):
+        text = decode_text(data, where)
+    elif isinstance(data, str):
+        if "\x00" in data[:NUL_SCAN_BYTES]:
+            raise InputFormatError(f"{where}: contains NUL characters: a binary file, not text")
+        text = data.removeprefix("\ufeff")
+    else:
+        raise InputFormatError(
+            f"{where}: reading gave {type(data).__name__}, expected text or bytes"
+        )
+    if not text.strip():
+        raise InputFormatError(f"{where}: is empty")
+    return text
 
 
 def _note(st: os.stat_result) -> None:

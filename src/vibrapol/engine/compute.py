@@ -71,6 +71,8 @@ def run_engine(
     ``symmetry``, ``cartesian_d``).
     """
     settings = EngineSettings(method, basis, **options)
+    if masses_da is None and callable(getattr(atoms, "has", None)) and atoms.has("masses"):
+        masses_da = atoms.get_masses()  # masses set on an ase.Atoms (isotopes) are the user's
     item = BatchItem(atoms, "structure", checkpoint, masses_da)
     (outcome,) = run_batch(
         [item],
@@ -132,7 +134,9 @@ def compute_modes(
         Find the point group (:func:`vibrapol.symmetry.find_point_group`), make the geometry
         exactly symmetric and compute only symmetry-inequivalent tasks (C1: all of them).
     masses_da : ndarray (N,), optional
-        Atomic masses in Da; default: most abundant isotopes.
+        Atomic masses in Da; default: the masses set on an ``ase.Atoms`` with ``set_masses``
+        (recorded as given), else the most abundant isotopes (not ASE's default standard
+        atomic weights).
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
     workers : int or None

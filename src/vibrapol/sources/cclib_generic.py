@@ -172,10 +172,54 @@ def _parse(path: Path) -> tuple[Any, str, str]:
 
 def read_cclib(path: str | Path) -> ModeSet:
     """Read any output cclib parses (see the module docstring for what is taken)."""
-    where = str(path)
     data, text, parser = _parse(Path(path))
+    return modes_from_ccdata(data, source=str(path), lines=text.splitlines(), parser=parser)
+
+
+#: Provenance note of a ModeSet made from a ccData object rather than from a file.
+CCDATA_NOTE = (
+    "made from a cclib ccData object: the output's text was not seen, so depolarization "
+    "ratios, derivative blocks and warnings printed in it were not looked for"
+)
+
+
+def modes_from_ccdata(
+    data: Any,
+    *,
+    source: str = "",
+    lines: list[str] | None = None,
+    parser: str | None = None,
+) -> ModeSet:
+    """A :class:`ModeSet` from cclib's parsed data (``cclib.io.ccread(...)``, a ``ccData``).
+
+    What is taken is listed in the module docstring; this is the function :func:`read_cclib`
+    uses, so a file and its ``ccData`` give the same numbers.
+
+    Parameters
+    ----------
+    data : cclib.parser.data.ccData
+        Parsed output of a frequency job.
+    source : str
+        The file it was parsed from, for the provenance and messages ('' when unknown).
+    lines, parser : optional
+        The output's text and cclib's parser class name: lost Raman blocks and the program's
+        own warnings are looked for there.  Without them a provenance note
+        (:data:`CCDATA_NOTE`) says the text was not seen.
+
+    Raises
+    ------
+    InputFormatError
+        When the data hold no frequencies, no displacements or no atoms.
+    """
+    where = source or "cclib ccData"
+    if not hasattr(data, "__dict__"):  # a path or text: not parsed data
+        raise InputFormatError(
+            f"{where}: expected cclib's parsed data (cclib.io.ccread), got {type(data).__name__}; "
+            "give a file to vibrapol.read_modes"
+        )
     metadata = getattr(data, "metadata", {}) or {}
     program = str(metadata.get("package") or "")
+    parser = parser or program
     if not hasattr(data, "vibfreqs") or len(data.vibfreqs) == 0:
         held = (
             " (it holds a static polarizability only)" if hasattr(data, "polarizabilities") else ""
@@ -219,19 +263,21 @@ def read_cclib(path: str | Path) -> ModeSet:
         notes.append("IR intensities (km/mol) as cclib converts them (vibirs)")
     if len(data.atomcoords) > 1:
         notes.append("coordinates: the last of the geometries cclib found")
-    lines = text.splitlines()
-    notes += _announce_losses(lines, parser, where)
-    notes += pass_on(
-        find_program_warnings(lines, PROGRAM_WARNING_RULES.get(parser, ())),
-        where=where,
-        program=program or parser,
-    )
+    if lines is None:
+        notes.append(CCDATA_NOTE)
+    else:
+        notes += _announce_losses(lines, parser, where)
+        notes += pass_on(
+            find_program_warnings(lines, PROGRAM_WARNING_RULES.get(parser, ())),
+            where=where,
+            program=program or parser,
+        )
     version = metadata.get("legacy_package_version") or metadata.get("package_version") or ""
     version = str(version).replace("revision", " rev. ")  # Gaussian: "16revisionA.03"
     methods = metadata.get("methods") or []
     method = metadata.get("functional") or (methods[-1] if methods else "")
     provenance = Provenance(
-        source_file=where,
+        source_file=source,
         source_kind="cclib",
         program=program,
         program_version=version,

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import os
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from vibrapol.errors import InputFormatError
 from vibrapol.modeset import ModeSet
@@ -109,22 +111,35 @@ def sniff(path: str | Path) -> str:
     return name
 
 
-def read_modes(path: str | Path, kind: str | None = None) -> ModeSet:
-    """Read a :class:`ModeSet` from ``path``.
+def read_modes(path: str | Path | Any, kind: str | None = None) -> ModeSet:
+    """Read a :class:`ModeSet` from ``path``, a file object, bytes, or a parsed object.
 
     Parameters
     ----------
-    path : str or Path
+    path : str, Path, file object, bytes, cclib ccData or ase.vibrations.VibrationsData
+        A file on disk; an open file (text or binary: its text is read from the current
+        position) or bytes, sniffed and read by the same readers as a file (messages and the
+        provenance name the file object's ``name``, or ``<bytes>``); cclib's parsed data
+        (:func:`~vibrapol.sources.cclib_generic.modes_from_ccdata`); or an ASE VibrationsData
+        (:func:`~vibrapol.sources.objects.modes_from_ase_vibrations`).
     kind : str, optional
-        Name of a registered reader; guessed from the content when omitted.
+        Name of a registered reader; guessed from the content when omitted (files and text).
 
     Raises
     ------
     InputFormatError
-        For unknown kinds, unreadable files, or content the reader cannot parse.
+        For unknown kinds, unreadable files, or content the reader cannot parse; for text whose
+        kind cannot be told, the message asks for ``kind``.
+    VibrapolError
+        For an ``ase.Atoms`` (a structure without vibrations) or another object.
     """
     if kind is not None and kind not in _READERS:
         raise InputFormatError(f"unknown input kind {kind!r}; known kinds: {', '.join(_READERS)}")
+    if not isinstance(path, (str, os.PathLike)):
+        from vibrapol.sources.objects import read_modes_from
+
+        return read_modes_from(path, kind)
+    path = Path(path) if not isinstance(path, str) else path
     # The file is read and decoded once: the sniffer and the reader (which calls read_text
     # itself) get the same text.
     with reading_once():

@@ -12,13 +12,14 @@ from __future__ import annotations
 import dataclasses
 import re
 import warnings
+from typing import Any
 
 import numpy as np
 from ase.data import covalent_radii
 
 from vibrapol.errors import AccuracyWarning, GeometryError
 from vibrapol.modeset import default_masses
-from vibrapol.structure import check_structure, distances_ang
+from vibrapol.structure import check_structure, distances_ang, structure_arrays
 from vibrapol.symmetry import _msym
 from vibrapol.symmetry.abelian import abelian_group
 from vibrapol.symmetry.group import PointGroup, match_atoms, symmetrize_coordinates
@@ -136,8 +137,8 @@ def _trivial_group(
 
 
 def find_point_group(
-    atomic_numbers: np.ndarray,
-    coordinates_ang: np.ndarray,
+    atomic_numbers: np.ndarray | Any,
+    coordinates_ang: np.ndarray | None = None,
     masses_da: np.ndarray | None = None,
     *,
     tolerance_ang: float = DEFAULT_TOLERANCE_ANG,
@@ -147,9 +148,11 @@ def find_point_group(
 
     Parameters
     ----------
-    atomic_numbers : array of int (N,)
+    atomic_numbers : array of int (N,), or ase.Atoms
+        An ``ase.Atoms`` gives the numbers, the coordinates and, when set with
+        ``set_masses``, the masses (ASE's default masses are not used: the default below is).
     coordinates_ang : array (N, 3)
-        Cartesian coordinates in Å, in any orientation.
+        Cartesian coordinates in Å, in any orientation (not with an ``ase.Atoms``).
     masses_da : array (N,), optional
         Atomic masses; atoms are equivalent only when element and mass agree (isotopes lower
         the symmetry of the vibrations).  Default: :func:`vibrapol.modeset.default_masses`.
@@ -168,6 +171,8 @@ def find_point_group(
     GeometryError
         For one atom, overlapping atoms, bad shapes or an unreasonable tolerance.
     """
+    if coordinates_ang is None:
+        atomic_numbers, coordinates_ang, masses_da = structure_arrays(atomic_numbers, masses_da)
     z = np.asarray(atomic_numbers, dtype=int).ravel()
     coords = np.asarray(coordinates_ang, dtype=float)
     check_structure(z, coords, where)

@@ -50,6 +50,7 @@ def _loaded(modules: set[str], names: tuple[str, ...]) -> list[str]:
 def test_top_level_help_imports_no_subcommand_and_no_heavy_library():
     modules = _modules_after(["--help"])
     heavy = ("pyscf", "matplotlib", "dask", "cclib", "ase", "scipy.optimize", "numpy", "scipy")
+    heavy += ("pandas",)
     assert _loaded(modules, heavy) == []
     assert _loaded(modules, tuple(m for m, _ in SUBCOMMANDS.values())) == []
 
@@ -65,7 +66,7 @@ def test_subcommand_help_imports_only_that_subcommand():
 def test_table_of_a_gaussian_log_loads_no_engine_plotting_or_cluster_library():
     modules = _modules_after(["table", str(GAUSSIAN_LOG)])
     assert "vibrapol.sources.gaussian_log" in modules  # it did read the file
-    assert _loaded(modules, ("pyscf", "matplotlib", "dask")) == []
+    assert _loaded(modules, ("pyscf", "matplotlib", "dask", "pandas")) == []
     # our own Gaussian reader, and symmetry without SciPy's optimizer or spatial packages
     assert _loaded(modules, ("cclib", "scipy.optimize", "scipy.spatial")) == []
 

@@ -72,12 +72,18 @@ class Backend:
         Tasks that run at the same time (for Dask: the cluster's total threads at connection).
     task_threads : int or None
         Threads each task may use (None: the process default).
+    cores : int or None
+        Threads the backend's tasks may share when few run at once: a task sent while k tasks
+        are running gets ``max(task_threads, cores // k)`` (:mod:`vibrapol.engine.runner`), so
+        a lone Hessian uses every core.  None: always ``task_threads`` (Dask, where the cores
+        of a worker's machine are not known; serial runs use every thread anyway).
     """
 
     executor: Executor | None
     name: str
     workers: int
     task_threads: int | None
+    cores: int | None = None
 
 
 #: Seconds between two looks of a worker's watchdog at its parent (where the operating system
@@ -182,7 +188,7 @@ def open_backend(workers: int | None = None, scheduler: str | None = None) -> It
         initargs=(threads, os.getpid()),
     )
     try:
-        yield Backend(pool, "process pool", n, threads)
+        yield Backend(pool, "process pool", n, threads, cores)
     except BaseException:
         stop_pool(pool)
         raise

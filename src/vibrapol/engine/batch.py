@@ -375,7 +375,7 @@ class _Flow:
         self.results[k] = [None] * n
         self.reused[k], self.seconds[k] = [False] * n, [0.0] * n
         self.window[k] = [perf_counter(), perf_counter()]
-        self._say(k, f"{m.choice.route} route: {n} tasks ({m.choice.reason})")
+        self._say(k, f"{m.choice.route} route: {n} tasks")
         for i, job in enumerate(m.jobs):
 
             def done(value, seconds, memory_mb, reused, i=i) -> None:  # noqa: ANN001

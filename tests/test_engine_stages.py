@@ -86,9 +86,7 @@ def _kinds(path):
         return sorted(k for (k,) in con.execute("SELECT kind FROM results"))
 
 
-def test_a_run_stopped_in_the_hessian_resumes_without_redoing_earlier_stages(
-    tmp_path, monkeypatch
-):
+def test_stopped_in_the_hessian_resumes_without_redoing_earlier_stages(tmp_path, monkeypatch):
     path = tmp_path / "w.modes.checkpoint.sqlite"
     water = molecule("H2O")
     whole = run_engine(water, METHOD, BASIS, route="field", workers=1)

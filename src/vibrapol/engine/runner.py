@@ -14,6 +14,7 @@ every core, many jobs at once use one thread each.  A job already running keeps 
 from __future__ import annotations
 
 import dataclasses
+import functools
 from collections import deque
 from collections.abc import Callable, Sequence
 from concurrent.futures import FIRST_COMPLETED, Future, wait
@@ -127,19 +128,13 @@ def run_tasks(
         results[i], reused[i], task_seconds[i] = value, was_reused, seconds
         peak_mb = max(peak_mb, memory_mb)
 
-    def failed(i: int, exc: Exception) -> None:
-        assert on_error is not None
-        on_error(i, exc)
+    def failed(i: int) -> Callable[[Exception], None] | None:
+        if on_error is None:
+            return None
+        return functools.partial(on_error, i)
 
     for i, job in enumerate(jobs):
-        runner.submit(
-            job,
-            keys[i],
-            labels[i],
-            store,
-            lambda *a, i=i: done(i, *a),
-            None if on_error is None else (lambda exc, i=i: failed(i, exc)),
-        )
+        runner.submit(job, keys[i], labels[i], store, functools.partial(done, i), failed(i))
     try:
         runner.run()
     finally:

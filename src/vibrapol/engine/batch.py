@@ -83,8 +83,9 @@ class EngineRun:
         ``"serial"``, ``"process pool"`` or ``"dask"``.
     workers : int
     tasks : TaskStats
-        Counts and times of this molecule's derivative tasks; ``seconds_wall`` from the first
-        of them sent to the last finished, ``peak_mb_worker`` over all its stages and tasks.
+        Counts and times of this molecule's derivative tasks: ``seconds_wall`` from the start
+        of the first of them to the end of the last; ``peak_mb_worker`` over all its stages
+        and tasks.
     route : str
         Route taken: ``cartesian``, ``normal-mode`` or ``field``.
     route_reason : str

@@ -21,6 +21,7 @@ from ase.build import molecule
 
 from vibrapol.engine import stages
 from vibrapol.engine.compute import BatchItem, engine_settings, run_batch, run_engine
+from vibrapol.engine.evaluate import threads_limited
 from vibrapol.engine.executors import Backend
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.runner import TaskRunner
@@ -61,13 +62,16 @@ def test_batch_with_every_stage_on_dask_equals_serial_runs(capsys):
     err = capsys.readouterr().err
     assert [o.error for o in outcomes] == [None, None]
     runs = [o.run for o in outcomes]
-    # Every job ran on the cluster: per molecule optimisation, SCF, Hessian, its tasks.
-    assert ran == sum(3 + r.tasks.n_tasks for r in runs)
+    # Every job ran on the cluster: per molecule optimisation, SCF, Hessian, its tasks (more
+    # only if Dask had to run one again after losing it).
+    assert ran >= sum(3 + r.tasks.n_tasks for r in runs)
     for name, run in zip(NAMES, runs, strict=True):
         assert run.backend == "dask" and run.reused_stages == ()
         # auto chooses from measured times (a near tie can go either way): the serial run
-        # takes the route the batch chose.
-        alone = run_engine(molecule(NAMES[name]), METHOD, BASIS, route=run.route, workers=1)
+        # takes the route the batch chose; one thread, as each Dask job has, so that the
+        # optimiser takes the same steps.
+        with threads_limited(1):
+            alone = run_engine(molecule(NAMES[name]), METHOD, BASIS, route=run.route, workers=1)
         assert run.point_group == alone.point_group
         _same_modes(run.modes, alone.modes)
         for stage in ("optimisation", "reference SCF, polarizability and gradient"):

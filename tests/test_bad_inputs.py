@@ -74,13 +74,12 @@ def _snapshot(root: Path) -> dict[str, object]:
 
 @pytest.fixture
 def no_engine(monkeypatch):
-    """Make any SCF stage of the engine fail the test: bad input must stop before them."""
+    """Make any job sent to the backend fail the test: bad input must stop before them."""
 
     def reached(*args, **kwargs):
         raise AssertionError("the engine was started on bad input")
 
-    monkeypatch.setattr("vibrapol.engine.stages.optimized", reached)
-    monkeypatch.setattr("vibrapol.engine.stages.reference", reached)
+    monkeypatch.setattr("vibrapol.engine.runner.TaskRunner.submit", reached)
 
 
 def _prepare(case: Case, tmp_path: Path) -> list[str]:

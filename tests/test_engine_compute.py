@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import numpy as np
 import pytest
 from ase.build import molecule
@@ -108,7 +110,13 @@ def test_optimisation_reaches_the_known_hf_sto3g_water_geometry():
 def test_progress_bar_on_stderr_when_asked(capsys):
     compute_modes(molecule("H2O"), "hf", "sto-3g", optimize=False, symmetry=False, progress=True)
     err = capsys.readouterr().err
-    assert "18/18" in err and "tasks" in err
+    # One bar over every job: the reference SCF, the Hessian and the 18 displaced geometries.
+    assert "20/20" in err and "tasks" in err
+    # A line when each stage is sent and one when it finishes, with its time (progress.py).
+    for stage in ("reference SCF, polarizability and gradient", "analytic Hessian"):
+        assert f"vibrapol: {stage} …" in err
+        assert re.search(f"vibrapol: {stage}: done in [0-9.]+ s", err)
+    assert "vibrapol: cartesian route: 18 tasks" in err
     compute_modes(molecule("H2O"), "hf", "sto-3g", optimize=False, progress=None)
     assert capsys.readouterr().err == ""  # not a terminal under pytest: quiet
 

@@ -23,13 +23,12 @@ STOPPED = "stopped here by the test"
 
 @pytest.fixture
 def stop_at_the_engine(monkeypatch):
-    """The first SCF stage raises instead of running: these tests end before any SCF."""
+    """The first job sent to the backend raises instead: these tests end before any SCF."""
 
     def stop(*args, **kwargs):
         raise VibrapolError(STOPPED)
 
-    monkeypatch.setattr("vibrapol.engine.stages.optimized", stop)
-    monkeypatch.setattr("vibrapol.engine.stages.reference", stop)
+    monkeypatch.setattr("vibrapol.engine.runner.TaskRunner.submit", stop)
 
 
 def test_yes_lets_a_large_run_start_after_its_estimate(tmp_path, capsys, stop_at_the_engine):

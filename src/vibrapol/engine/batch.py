@@ -1,10 +1,18 @@
-"""Engine runs of one or many molecules whose tasks share one executor and one progress bar.
+"""Engine runs of one or many molecules whose every stage is a task on one backend.
 
-Each molecule is first prepared in this process (optimisation, symmetry, reference
-calculation with all threads, route choice); then the tasks of every molecule go to the one
-backend together, so a pool or a Dask cluster stays busy across molecules; then each molecule's
-:class:`~vibrapol.modeset.ModeSet` is assembled.  A molecule that fails (bad structure, SCF that
-does not converge, a checkpoint that cannot be used) is reported and the others go on.
+Each molecule goes through its stages as jobs on the one backend (serial, process pool or
+Dask), each stage sent as soon as the one it needs has finished:
+
+    optimisation → (client: point group) → reference SCF, α, gradient
+        → analytic Hessian ─┐ (client: harmonic analysis)
+        → (client: route, task list) → derivative tasks → (client: ModeSet)
+
+A requested Cartesian or field route is planned right after the SCF, so its tasks run beside
+the Hessian; ``auto`` and the normal-mode route are planned after it
+(:func:`~vibrapol.engine.prepare.plan_route`).  So M molecules run M optimisations, then M
+SCFs and Hessians at once, and the client only schedules, checkpoints (every stage is stored
+when it finishes) and assembles.  A molecule that fails (bad structure, SCF that does not
+converge, a checkpoint that cannot be used) is reported in one line and the others go on.
 """
 
 from __future__ import annotations
@@ -19,13 +27,14 @@ from typing import Any
 
 import numpy as np
 
-from vibrapol.engine.checkpoint import CheckpointStore, StoreRouter
-from vibrapol.engine.executors import choose_workers, open_backend
+from vibrapol.engine.checkpoint import CheckpointStore
+from vibrapol.engine.estimate import estimate_cost
+from vibrapol.engine.executors import Backend, choose_workers, open_backend
+from vibrapol.engine.flow import STAGE_NAMES, Flow
 from vibrapol.engine.optimize import OptimizationResult
-from vibrapol.engine.prepare import Prepared, assemble, prepare
+from vibrapol.engine.prepare import Molecule
 from vibrapol.engine.progress import Progress, want_progress
-from vibrapol.engine.routes import task_seconds
-from vibrapol.engine.runner import TaskStats, run_tasks
+from vibrapol.engine.runner import TaskStats
 from vibrapol.engine.scf import EngineInputError, build_molecule, transition_metal_note
 from vibrapol.engine.settings import EngineSettings
 from vibrapol.errors import AccuracyWarning, VibrapolError
@@ -74,7 +83,9 @@ class EngineRun:
         ``"serial"``, ``"process pool"`` or ``"dask"``.
     workers : int
     tasks : TaskStats
-        Counts and times of this molecule's tasks (in a batch: the batch's wall time).
+        Counts and times of this molecule's derivative tasks: ``seconds_wall`` from the start
+        of the first of them to the end of the last; ``peak_mb_worker`` over all its stages
+        and tasks.
     route : str
         Route taken: ``cartesian``, ``normal-mode`` or ``field``.
     route_reason : str
@@ -82,11 +93,15 @@ class EngineRun:
     point_group : str
         Point group used (``C1`` when symmetry was off or absent).
     reused_optimization, reused_reference : bool
-        Whether those stages came from the checkpoint.
+        Whether those stages came from the checkpoint (the reference: its SCF stage and, when
+        the route needs one, its Hessian stage).
     seconds_optimize, seconds_scf, seconds_hessian, seconds_alpha, seconds_gradient : float
         Wall time of each stage when it ran (its recorded time when reused).
     seconds_wall : float
         Wall time of the whole call.
+    reused_stages : tuple of str
+        The stages found in the checkpoint, of ``optimisation``, ``reference SCF`` and
+        ``Hessian``.
     """
 
     modes: ModeSet
@@ -105,6 +120,7 @@ class EngineRun:
     seconds_alpha: float
     seconds_gradient: float
     seconds_wall: float
+    reused_stages: tuple[str, ...] = ()
 
     @property
     def n_qc_evaluations(self) -> int:
@@ -141,17 +157,24 @@ class BatchOutcome:
     error: str | None = None
 
 
-def _check_item(item: BatchItem, settings: EngineSettings) -> tuple[Structure, np.ndarray, bool]:
+def _check_item(item: BatchItem, settings: EngineSettings) -> tuple[Molecule, float]:
+    """The molecule of ``item``, checked before any work, and its estimated serial seconds."""
     structure = as_structure(item.atoms)
     z = structure.atomic_numbers
-    build_molecule(z, structure.coordinates_ang, settings.spec)  # input errors before any work
+    mol = build_molecule(z, structure.coordinates_ang, settings.spec)  # errors before any work
     note = transition_metal_note(z, settings.spec)
     if note is not None:
         warnings.warn(f"{item.name}: {note}", AccuracyWarning, stacklevel=3)
     masses = default_masses(z) if item.masses_da is None else np.asarray(item.masses_da, float)
     if masses.shape != z.shape or np.any(masses <= 0):
         raise EngineInputError(f"masses_da must be {z.shape[0]} positive numbers")
-    return structure, masses, item.masses_da is None
+    seconds = estimate_cost(len(z), mol.nao, settings.spec).seconds
+    if settings.optimize:  # of the order of the rest again (more from a drawn start)
+        seconds *= 2.0
+    molecule = Molecule(
+        item.name, z, structure.coordinates_ang, masses, item.masses_da is None, None
+    )
+    return molecule, seconds
 
 
 def run_batch(
@@ -164,14 +187,16 @@ def run_batch(
     progress: bool | None = None,
     raise_errors: bool = False,
 ) -> list[BatchOutcome]:
-    """Run every molecule of ``items``; their tasks share one backend.
+    """Run every molecule of ``items``; all their stages and tasks share one backend.
 
     Parameters
     ----------
     items : sequence of BatchItem
     settings : EngineSettings
     workers, scheduler, fresh, progress
-        As for :func:`vibrapol.engine.compute_modes`.
+        As for :func:`vibrapol.engine.compute_modes`.  With ``workers=None`` the run is serial
+        when the whole batch is estimated (:mod:`vibrapol.engine.estimate`) to take less than
+        :data:`~vibrapol.engine.executors.SERIAL_BELOW_S`, else one worker per core.
     raise_errors : bool
         Raise the first error instead of reporting it (a single-molecule run).
 
@@ -185,96 +210,69 @@ def run_batch(
         raise EngineInputError(f"workers must be 1 or more, got {workers}")
     report = Progress(want_progress(progress))
     errors: dict[int, str] = {}
-    prepared: dict[int, Prepared] = {}
-    router = StoreRouter()
+    molecules: dict[int, Molecule] = {}
     with ExitStack() as stack:
         # A Dask scheduler is contacted at once so that a bad address fails before any work.
         backend = stack.enter_context(open_backend(scheduler=scheduler)) if scheduler else None
+        estimate = 0.0
         for k, item in enumerate(items):
             try:
-                structure, masses, default = _check_item(item, settings)
-                store = None
+                molecules[k], seconds = _check_item(item, settings)
                 if item.checkpoint is not None:
                     store = stack.enter_context(CheckpointStore(item.checkpoint, fresh=fresh))
-                if len(items) > 1:
-                    report.stage(f"[{k + 1}/{len(items)}] {item.name}")
-                prepared[k] = prep = prepare(
-                    structure.atomic_numbers,
-                    structure.coordinates_ang,
-                    masses,
-                    default,
-                    settings,
-                    store,
-                    report,
-                )
-                router.assign(prep.keys, store)
+                    molecules[k].store = store
+                estimate += seconds
             except VibrapolError as exc:
                 if raise_errors:
                     raise
+                molecules.pop(k, None)
                 errors[k] = str(exc)
                 report.stage(f"{item.name}: failed: {exc}")
-        owner = [k for k, p in prepared.items() for _ in p.jobs]
-        jobs = [j for p in prepared.values() for j in p.jobs]
-        keys = [key for p in prepared.values() for key in p.keys]
-        labels = [lab for p in prepared.values() for lab in p.labels]
         if backend is None:
-            estimate = sum(
-                len(p.jobs) * task_seconds(p.choice.route, p.reference) for p in prepared.values()
-            )
             backend = stack.enter_context(open_backend(choose_workers(workers, estimate)))
-        routes = ", ".join(f"{p.choice.route} {p.choice.n_tasks}" for p in prepared.values())
         report.stage(
-            f"{len(jobs)} tasks ({routes}) on {backend.workers} worker(s) ({backend.name})"
+            f"{len(molecules)} structure(s) on {backend.workers} worker(s) ({backend.name})"
         )
-
-        def failed(i: int, exc: Exception) -> None:
-            if raise_errors:
-                raise exc
-            k = owner[i]
-            if k not in errors:
-                errors[k] = str(exc)
-                report.stage(f"{items[k].name}: failed: {exc}")
-
-        results, stats = run_tasks(
-            jobs, keys, labels, backend, router, report, desc="tasks", on_error=failed
-        )
+        flow = Flow(molecules, settings, backend, report, errors, raise_errors, len(items) > 1)
+        try:
+            flow.run()
+        finally:
+            flow.runner.close()
     outcomes = []
-    start = 0
     for k, item in enumerate(items):
-        ready = prepared.get(k)
-        if ready is None:
-            outcomes.append(BatchOutcome(item.name, None, errors[k]))
+        if k in errors or k not in flow.modes:
+            outcomes.append(BatchOutcome(item.name, None, errors.get(k, "not finished")))
             continue
-        mine = results[start : start + len(ready.jobs)]
-        start += len(ready.jobs)
-        if k in errors:
-            outcomes.append(BatchOutcome(item.name, None, errors[k]))
-            continue
-        values = [r for r in mine if r is not None]
-        assert len(values) == len(mine)  # a failed task put its molecule in errors
-        own = stats.subset(start - len(mine), start)
-        run = _engine_run(ready, assemble(ready, values, settings), backend, own, stats, t_start)
+        run = _engine_run(flow, k, backend, perf_counter() - t_start)
         outcomes.append(BatchOutcome(item.name, run))
     return outcomes
 
 
-def _engine_run(prep, modes, backend, own, stats, t_start) -> EngineRun:  # noqa: ANN001
-    ref = prep.reference
+def _engine_run(flow: Flow, k: int, backend: Backend, seconds_wall: float) -> EngineRun:
+    """The finished run of molecule ``k``."""
+    m = flow.molecules[k]
+    ref = m.reference
+    assert ref is not None and m.choice is not None
+    stages_reused = tuple(s for s in STAGE_NAMES.values() if s in m.reused)
+    reference_reused = "reference SCF" in m.reused and (
+        "Hessian" in m.reused or not m.needs_hessian
+    )
     return EngineRun(
-        modes=modes,
-        optimization=prep.optimization,
+        modes=flow.modes[k],
+        optimization=m.optimization,
         backend=backend.name,
         workers=backend.workers,
-        tasks=own,
-        route=prep.choice.route,
-        route_reason=prep.choice.reason,
-        point_group=prep.point_group,
-        reused_optimization=prep.reused_optimization,
-        reused_reference=prep.reused_reference,
-        seconds_optimize=prep.seconds_optimize,
+        tasks=flow.stats(k),
+        route=m.choice.route,
+        route_reason=m.choice.reason,
+        point_group=m.point_group,
+        reused_optimization="optimisation" in m.reused,
+        reused_reference=reference_reused,
+        seconds_optimize=m.seconds_optimize,
         seconds_scf=ref.seconds_scf,
         seconds_hessian=ref.seconds_hessian,
         seconds_alpha=ref.seconds_alpha,
         seconds_gradient=ref.seconds_gradient,
-        seconds_wall=perf_counter() - t_start,
+        seconds_wall=seconds_wall,
+        reused_stages=stages_reused,
     )

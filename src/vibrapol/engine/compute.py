@@ -1,9 +1,10 @@
 """``compute_modes``: a bare structure in, a complete :class:`~vibrapol.modeset.ModeSet` out.
 
-Steps: (optional) geometry optimisation → point group, imposed on the geometry → SCF, analytic
-Hessian, CPHF α and gradient at the reference geometry → harmonic analysis
+Steps: (optional) geometry optimisation → point group, imposed on the geometry → SCF, CPHF α
+and gradient at the reference geometry → analytic Hessian → harmonic analysis
 (:mod:`vibrapol.vibrations`) → the tasks of the chosen route (:mod:`vibrapol.engine.routes`),
-independent and checkpointed → ∂α.  :func:`run_batch` does the same for many molecules at once.
+independent and checkpointed → ∂α.  Every stage is a job on the one backend;
+:func:`run_batch` runs many molecules at once (:mod:`vibrapol.engine.batch`).
 """
 
 from __future__ import annotations
@@ -140,9 +141,10 @@ def compute_modes(
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
     workers : int or None
-        Local worker processes for the displaced geometries; 1 (the default here) runs them in
-        this process.  None (the command line's default) chooses: one per core, unless the
-        displacements are estimated to take less than
+        Local worker processes for every stage and task (optimisation, reference SCF, Hessian,
+        displaced geometries or fields); 1 (the default here) runs them in this process.  None
+        (the command line's default) chooses: one per core, unless the whole run is estimated
+        to take less than
         :data:`~vibrapol.engine.executors.SERIAL_BELOW_S` serially, when starting a pool would
         cost more than it saves.  Scripts that use more than one need the
         ``if __name__ == "__main__":`` guard.

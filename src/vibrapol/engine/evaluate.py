@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import Any, ClassVar
 
 import numpy as np
 
@@ -122,7 +122,8 @@ class ReferenceResult:
     Attributes
     ----------
     energy_hartree : float
-    hessian_hartree_bohr2 : ndarray (3N, 3N)
+    hessian_hartree_bohr2 : ndarray (3N, 3N) or None
+        None until the Hessian stage has run (:mod:`vibrapol.engine.stages`).
     alpha_ang3 : ndarray (3, 3)
     density : ndarray (nao, nao)
         Converged AO density matrix, used as the start of every displaced SCF.
@@ -134,7 +135,7 @@ class ReferenceResult:
     """
 
     energy_hartree: float
-    hessian_hartree_bohr2: np.ndarray
+    hessian_hartree_bohr2: np.ndarray | None
     alpha_ang3: np.ndarray
     density: np.ndarray
     gradient_hartree_bohr: np.ndarray
@@ -245,7 +246,7 @@ def peak_memory_mb() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
-def timed_task(job: PolarizabilityJob | FieldGradientJob) -> tuple[np.ndarray, float, float]:
+def timed_task(job: Any) -> tuple[Any, float, float]:
     """``job.run()``, its wall time (s) and the worker's peak memory (MB)."""
     from time import perf_counter
 

@@ -6,7 +6,9 @@ Every backend is a :class:`concurrent.futures.Executor` (Dask through
 Threads: one BLAS/OpenMP thread per pool worker and one worker per core by default.  For
 these many small, independent SCF + CPHF tasks, separate processes scale better than PySCF's
 threads inside one process (measured with CCl4 HF/6-31G*: 2 workers × 1 thread 1.3× faster
-than 1 process × 2 threads; 2 × 2, oversubscribed, slower than serial).
+than 1 process × 2 threads; 2 × 2, oversubscribed, slower than serial).  A job sent while
+few run (a lone Hessian) gets more threads, up to every core (``Backend.cores``,
+:mod:`vibrapol.engine.runner`).
 """
 
 from __future__ import annotations
@@ -33,7 +35,7 @@ from vibrapol.errors import VibrapolError
 DASK_CONNECT_TIMEOUT_S = 10.0
 
 
-#: With ``workers=None``, run serially when the displacements are estimated to take less than
+#: With ``workers=None``, run serially when the whole run is estimated to take less than
 #: this (s): starting worker processes and importing PySCF in each takes a few seconds.
 SERIAL_BELOW_S = 10.0
 
@@ -41,9 +43,8 @@ SERIAL_BELOW_S = 10.0
 def choose_workers(workers: int | None, estimated_serial_s: float) -> int:
     """``workers`` if given; else one per core, or 1 for jobs shorter than :data:`SERIAL_BELOW_S`.
 
-    ``estimated_serial_s`` is the expected serial time of all displaced geometries (number of
-    tasks × the reference SCF + α time, an overestimate since displaced SCFs start from the
-    reference density).
+    ``estimated_serial_s`` is the expected serial time of the whole run, every stage and task
+    of every molecule (:mod:`vibrapol.engine.estimate`, an order of magnitude).
     """
     if workers is not None:
         return int(workers)
@@ -72,12 +73,18 @@ class Backend:
         Tasks that run at the same time (for Dask: the cluster's total threads at connection).
     task_threads : int or None
         Threads each task may use (None: the process default).
+    cores : int or None
+        Threads the backend's tasks may share when few run at once: a task sent while k tasks
+        are running gets ``max(task_threads, cores // k)`` (:mod:`vibrapol.engine.runner`), so
+        a lone Hessian uses every core.  None: always ``task_threads`` (Dask, where the cores
+        of a worker's machine are not known; serial runs use every thread anyway).
     """
 
     executor: Executor | None
     name: str
     workers: int
     task_threads: int | None
+    cores: int | None = None
 
 
 #: Seconds between two looks of a worker's watchdog at its parent (where the operating system
@@ -182,7 +189,7 @@ def open_backend(workers: int | None = None, scheduler: str | None = None) -> It
         initargs=(threads, os.getpid()),
     )
     try:
-        yield Backend(pool, "process pool", n, threads)
+        yield Backend(pool, "process pool", n, threads, cores)
     except BaseException:
         stop_pool(pool)
         raise

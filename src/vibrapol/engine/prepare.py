@@ -1,21 +1,28 @@
-"""One molecule's part of an engine run: the stages before its tasks and the ModeSet after.
+"""One molecule's run in the client: its state between stages, route choice, its ModeSet.
 
-:func:`prepare` optimises the geometry, finds and imposes its point group, runs the reference
-calculation (SCF, analytic Hessian, CPHF α, gradient), picks the route and lists the tasks;
-:func:`assemble` turns the tasks' results into a :class:`~vibrapol.modeset.ModeSet`.  Between
-the two the tasks of any number of molecules can share one executor
-(:mod:`vibrapol.engine.batch`).
+The stages themselves (optimisation, reference SCF, Hessian, derivative tasks) run as jobs on
+the backend (:mod:`vibrapol.engine.stages`, :mod:`vibrapol.engine.batch`); between them the
+client does the cheap steps kept here: it imposes the point group on the geometry, chooses the
+route and lists its tasks (:func:`plan_route`), and turns the results into a
+:class:`~vibrapol.modeset.ModeSet` (:func:`assemble`).
+
+When the route is chosen: a requested route whose tasks do not need the normal modes
+(:data:`ROUTES_WITHOUT_MODES`) is fixed right after the reference SCF, so its tasks run
+alongside the Hessian; ``auto`` and the normal-mode route wait for the Hessian (the one needs
+the modes' count and costs, the other the modes).  A route in :data:`HESSIAN_FREE_ROUTES` (none
+yet) would skip the Hessian stage altogether.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from vibrapol.engine import stages
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
+from vibrapol.engine.evaluate import ReferenceResult
 from vibrapol.engine.fieldplan import FieldPlan
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
@@ -39,6 +46,9 @@ from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
 from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
 
+if TYPE_CHECKING:
+    from vibrapol.symmetry import PointGroup
+
 #: How the engine's IR intensities are obtained (recorded in the provenance).
 IR_NOTE = (
     "IR intensities (km/mol): double-harmonic, "
@@ -51,107 +61,134 @@ IR_NOTE = (
 #: a rerun on an already symmetric geometry finds its checkpointed stages.
 SAME_GEOMETRY_ANG = 1e-10
 
+#: Requested routes whose task list needs no normal modes: chosen after the reference SCF.
+ROUTES_WITHOUT_MODES = frozenset({"cartesian", "field"})
 
-@dataclass(frozen=True, eq=False)
-class Prepared:
-    """A molecule ready for its tasks."""
+#: Routes whose own tasks give the Hessian: their molecules skip the Hessian stage (none yet).
+HESSIAN_FREE_ROUTES: frozenset[str] = frozenset()
 
+
+@dataclass(eq=False)
+class Molecule:
+    """One molecule of a run, filled in as its stages finish.
+
+    Attributes
+    ----------
+    name : str
+    atomic_numbers : ndarray (N,)
+    coordinates_ang : ndarray (N, 3)
+        The input geometry; after the optimisation the optimised one; after symmetry the
+        symmetrized one (the geometry of every later stage).
+    masses_da : ndarray (N,)
+    default_masses : bool
+    store : CheckpointStore or None
+    optimization : OptimizationResult or None
+    seconds_optimize : float
+    reused : set of str
+        Stages found in the checkpoint (``optimisation``, ``reference SCF``, ``Hessian``).
+    group : PointGroup or None
+    point_group : str
+    symmetry_shift_ang : float
+    reference : ReferenceResult or None
+        After the SCF stage; its Hessian after the Hessian stage.
+    harmonic : HarmonicModes or None
+    choice, plan
+        The route, once chosen.
+    jobs, keys, labels
+        Its derivative tasks.
+    """
+
+    name: str
     atomic_numbers: np.ndarray
     coordinates_ang: np.ndarray
     masses_da: np.ndarray
     default_masses: bool
-    optimization: OptimizationResult | None
-    reused_optimization: bool
-    seconds_optimize: float
-    reference: stages.ReferenceResult
-    reused_reference: bool
-    harmonic: HarmonicModes
-    point_group: str
-    symmetry_shift_ang: float
-    choice: RouteChoice
-    plan: Plan
-    jobs: list
-    keys: list[str]
-    labels: tuple[str, ...]
+    store: CheckpointStore | None
+    optimization: OptimizationResult | None = None
+    seconds_optimize: float = 0.0
+    reused: set[str] = field(default_factory=set)
+    group: PointGroup | None = None
+    point_group: str = "C1"
+    symmetry_shift_ang: float = 0.0
+    reference: ReferenceResult | None = None
+    harmonic: HarmonicModes | None = None
+    choice: RouteChoice | None = None
+    plan: Plan | None = None
+    jobs: list = field(default_factory=list)
+    keys: list[str] = field(default_factory=list)
+    labels: tuple[str, ...] = ()
+
+    def add_hessian(self, reference: ReferenceResult) -> None:
+        """Take the completed reference and do the harmonic analysis."""
+        assert reference.hessian_hartree_bohr2 is not None
+        self.reference = reference
+        self.harmonic = harmonic_analysis(
+            reference.hessian_hartree_bohr2, self.masses_da, self.coordinates_ang
+        )
+
+    @property
+    def needs_hessian(self) -> bool:
+        """False when the chosen route gives the Hessian itself."""
+        return self.choice is None or self.choice.route not in HESSIAN_FREE_ROUTES
 
 
-def _impose_symmetry(z, coords, masses, report: Progress):  # noqa: ANN001, ANN202
+def impose_symmetry(m: Molecule, report: Progress, prefix: str = "") -> None:
+    """Find the point group of ``m``'s geometry and make the geometry exactly symmetric."""
     from vibrapol.symmetry import find_point_group, symmetrize_coordinates
 
-    group = find_point_group(z, coords, masses)
+    coords = m.coordinates_ang
+    group = find_point_group(m.atomic_numbers, coords, m.masses_da)
+    m.group, m.point_group = group, group.symbol
     if group.order == 1:
-        return group, coords, 0.0
+        return
     symmetric = symmetrize_coordinates(coords, group)
     shift = float(np.max(np.linalg.norm(symmetric - coords, axis=1)))
+    m.symmetry_shift_ang = shift
     if shift < SAME_GEOMETRY_ANG:  # already symmetric: keep the exact bytes (checkpoint keys)
-        return group, coords, shift
-    report.stage(f"point group {group.symbol}; geometry symmetrized (max shift {shift:.1e} Å)")
-    return group, symmetric, shift
+        return
+    report.stage(
+        f"{prefix}point group {group.symbol}; geometry symmetrized (max shift {shift:.1e} Å)"
+    )
+    m.coordinates_ang = symmetric
 
 
-def prepare(
-    atomic_numbers: np.ndarray,
-    coordinates_ang: np.ndarray,
-    masses_da: np.ndarray,
-    default_masses: bool,
-    settings: EngineSettings,
-    store: CheckpointStore | None,
-    report: Progress,
-) -> Prepared:
-    """Optimisation, symmetry, reference calculation, route choice and task list."""
-    z, spec = atomic_numbers, settings.spec
-    coords, opt, seconds_opt, reused_opt = coordinates_ang, None, 0.0, False
-    if settings.optimize:
-        report.stage(f"optimising the geometry ({spec.label()}, ASE BFGS)")
-        opt, seconds_opt, reused_opt = stages.optimized(z, coords, spec, store)
-        coords = opt.coordinates_ang
-    group, shift = None, 0.0
-    if settings.symmetry:
-        group, coords, shift = _impose_symmetry(z, coords, masses_da, report)
-    report.stage("reference SCF, analytic Hessian, polarizability and gradient")
-    ref, reused_ref = stages.reference(z, coords, spec, store)
-    harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
+def plan_route(m: Molecule, settings: EngineSettings) -> bool:
+    """Choose ``m``'s route and list its tasks if that can be done now; True when done.
+
+    Before the Hessian (``m.harmonic`` None) only a requested route of
+    :data:`ROUTES_WITHOUT_MODES` can be planned; after it, any route.
+    """
+    assert m.reference is not None
     wanted = (
         ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
     )
+    if m.harmonic is None and not set(wanted) <= ROUTES_WITHOUT_MODES:
+        return False
+    # Before the Hessian there are no modes; the routes planned then do not use them.
+    modes = m.harmonic.modes if m.harmonic is not None else np.zeros((0, m.masses_da.size * 3))
     plans = {
         r: build_plan(
             r,
-            coords,
-            harmonic.modes,
-            masses_da,
+            m.coordinates_ang,
+            modes,
+            m.masses_da,
             settings.step_ang,
             settings.field_au,
-            group,
-            grid_free=spec.is_hf,
+            m.group if settings.symmetry else None,
+            grid_free=settings.spec.is_hf,
         )
         for r in wanted
     }
-    choice, plan = choose_route(settings.route, plans, ref)
-    jobs, keys, labels = make_jobs(plan, z, coords, spec, ref)
-    return Prepared(
-        atomic_numbers=z,
-        coordinates_ang=coords,
-        masses_da=masses_da,
-        default_masses=default_masses,
-        optimization=opt,
-        reused_optimization=reused_opt,
-        seconds_optimize=seconds_opt,
-        reference=ref,
-        reused_reference=reused_ref,
-        harmonic=harmonic,
-        point_group="C1" if group is None else group.symbol,
-        symmetry_shift_ang=shift,
-        choice=choice,
-        plan=plan,
-        jobs=jobs,
-        keys=keys,
-        labels=labels,
+    m.choice, m.plan = choose_route(settings.route, plans, m.reference)
+    m.jobs, m.keys, m.labels = make_jobs(
+        m.plan, m.atomic_numbers, m.coordinates_ang, settings.spec, m.reference
     )
+    return True
 
 
-def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings) -> ModeSet:
-    """The ModeSet of a prepared molecule from its tasks' results."""
+def assemble(prep: Molecule, results: list[np.ndarray], settings: EngineSettings) -> ModeSet:
+    """The ModeSet of a molecule whose stages and tasks have all finished."""
+    assert prep.plan is not None and prep.reference is not None and prep.harmonic is not None
     deriv = derivatives(prep.plan, results, prep.reference)
     normal = route_name(prep.plan) == "normal-mode"
     ref = prep.reference
@@ -173,8 +210,10 @@ def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings
     )
 
 
-def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
+def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
     import pyscf
+
+    assert prep.plan is not None and prep.choice is not None
 
     spec, plan, opt = settings.spec, prep.plan, prep.optimization
     if opt is None:

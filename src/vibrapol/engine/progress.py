@@ -1,4 +1,11 @@
-"""Progress on standard error: stage messages and a task bar with counts and ETA (tqdm)."""
+"""Progress on standard error: a line per stage and a bar over all tasks (tqdm).
+
+A run prints, per molecule, a line when a stage is sent to the backend
+(``vibrapol: water.xyz: analytic Hessian …``), one when it finishes with its own wall time
+(``… analytic Hessian: done in 2.1 s``, or ``taken from the checkpoint``), the route and its
+number of tasks, and a last line when the molecule is done; below them one bar counts every
+job of the run, stages and derivative tasks, its total growing as molecules reach their route.
+"""
 
 from __future__ import annotations
 
@@ -20,9 +27,14 @@ class Progress:
         self.enabled = enabled
 
     def stage(self, message: str) -> None:
-        """One line such as ``vibrapol: analytic Hessian …``."""
+        """One line such as ``vibrapol: water.xyz: analytic Hessian: done in 2.1 s``.
+
+        Written through tqdm, so that it appears above an open bar instead of breaking it.
+        """
         if self.enabled:
-            print(f"vibrapol: {message}", file=sys.stderr, flush=True)
+            from tqdm import tqdm
+
+            tqdm.write(f"vibrapol: {message}", file=sys.stderr)
 
     def bar(self, total: int, initial: int, desc: str) -> Any:
         """A tqdm bar on stderr (a no-op bar when disabled)."""

@@ -1,13 +1,27 @@
-"""Run independent engine tasks on a backend, reusing and filling the checkpoint store."""
+"""Run engine jobs on a backend as they become ready, reusing and filling the checkpoint store.
+
+:class:`TaskRunner` is the client's event loop: a job is submitted with a callback, runs on the
+backend (or is found in the checkpoint), is stored as soon as it finishes, and its callback may
+submit the next jobs (the next stage of the same molecule).  :func:`run_tasks` runs a fixed
+list of independent jobs on it.
+
+Threads: a job submitted while k jobs are in flight (k counted after every job submitted in the
+same round) gets ``max(task_threads, cores // k)`` BLAS/OpenMP threads
+(:class:`~vibrapol.engine.executors.Backend`): a lone stage (the Hessian of one molecule) uses
+every core, many jobs at once use one thread each.  A job already running keeps its threads.
+"""
 
 from __future__ import annotations
 
 import dataclasses
+import functools
+from collections import deque
 from collections.abc import Callable, Sequence
 from concurrent.futures import FIRST_COMPLETED, Future, wait
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass
 from time import perf_counter
+from typing import Any
 
 import numpy as np
 
@@ -102,60 +116,222 @@ def run_tasks(
     results : list of ndarray (None for failed jobs)
     stats : TaskStats
     """
-    progress = progress or Progress(False)
     t0 = perf_counter()
+    runner = TaskRunner(backend, progress or Progress(False), desc)
     results: list[np.ndarray | None] = [None] * len(jobs)
-    if store is not None:
-        for i, found in _stored(store, jobs, keys).items():
-            results[i] = found
-    todo = [i for i, a in enumerate(results) if a is None]
-    n_reused = len(jobs) - len(todo)
-    bar = progress.bar(len(jobs), n_reused, desc)
-    seconds_tasks = 0.0
-    peak_mb = 0.0
-    reused = [a is not None for a in results]
+    reused = [False] * len(jobs)
     task_seconds = [0.0] * len(jobs)
+    peak_mb = 0.0
 
-    def finish(i: int, value: np.ndarray, seconds: float, memory_mb: float) -> None:
-        nonlocal seconds_tasks, peak_mb
-        results[i] = value
-        seconds_tasks += seconds
-        task_seconds[i] = seconds
+    def done(i: int, value: Any, seconds: float, memory_mb: float, was_reused: bool) -> None:
+        nonlocal peak_mb
+        results[i], reused[i], task_seconds[i] = value, was_reused, seconds
         peak_mb = max(peak_mb, memory_mb)
-        if store is not None:
-            store.put(keys[i], jobs[i].kind, labels[i], {jobs[i].result_name: value}, seconds)
-        bar.update(1)
 
-    def fail(i: int, exc: Exception) -> None:
-        if on_error is None or not isinstance(exc, VibrapolError):
-            raise exc
-        on_error(i, exc)
-        bar.update(1)
+    def failed(i: int) -> Callable[[Exception], None] | None:
+        if on_error is None:
+            return None
+        return functools.partial(on_error, i)
 
+    for i, job in enumerate(jobs):
+        runner.submit(job, keys[i], labels[i], store, functools.partial(done, i), failed(i))
     try:
-        if backend.executor is None:
-            for i in todo:
-                try:
-                    outcome = timed_task(jobs[i])
-                except VibrapolError as exc:
-                    fail(i, exc)
-                    continue
-                finish(i, *outcome)
-        else:
-            _run_on_executor(jobs, todo, backend, finish, fail)
+        runner.run()
     finally:
-        bar.close()
+        runner.close()
+    n_reused = sum(reused)
+    computed = [s for s, r in zip(task_seconds, reused, strict=True) if not r]
     stats = TaskStats(
         len(jobs),
         n_reused,
-        len(todo),
+        len(jobs) - n_reused,
         perf_counter() - t0,
-        seconds_tasks,
+        float(sum(computed)),
         peak_mb,
         tuple(reused),
-        tuple(task_seconds),
+        tuple(s if not r else 0.0 for s, r in zip(task_seconds, reused, strict=True)),
     )
     return results, stats
+
+
+#: ``done(value, seconds, memory_mb, reused)``: called with a job's result.
+Done = Callable[[Any, float, float, bool], None]
+
+
+@dataclass(eq=False)
+class _Entry:
+    job: Any
+    key: str | None
+    label: str
+    store: CheckpointStore | StoreRouter | None
+    done: Done
+    failed: Callable[[Exception], None] | None
+    owner: object
+
+
+class TaskRunner:
+    """The client's event loop: jobs run on the backend, each stored when it finishes.
+
+    Parameters
+    ----------
+    backend : Backend
+    progress : Progress
+        Its bar counts every job submitted (its total grows as jobs are submitted).
+    desc : str
+        Name of the bar.
+    """
+
+    def __init__(self, backend: Backend, progress: Progress, desc: str = "tasks") -> None:
+        self.backend = backend
+        self.bar = progress.bar(0, 0, desc)
+        self._ready: deque[tuple[_Entry, Any, float, float, bool]] = deque()
+        self._new: list[_Entry] = []
+        self._queue: deque[_Entry] = deque()  # the serial backend's jobs, in order
+        self._pending: dict[Future, _Entry] = {}
+        self._dropped: set[object] = set()
+
+    def submit(
+        self,
+        job: Any,
+        key: str | None,
+        label: str,
+        store: CheckpointStore | StoreRouter | None,
+        done: Done,
+        failed: Callable[[Exception], None] | None = None,
+        owner: object = None,
+    ) -> bool:
+        """Run ``job`` (or take its result from ``store``), then call ``done``.
+
+        Returns True when the result was found in ``store`` (``done`` is still called from
+        :meth:`run`).  ``failed(exc)`` is called instead when the job raises a
+        :class:`~vibrapol.errors.VibrapolError` (without it the error is raised from
+        :meth:`run`).  Callbacks run inside :meth:`run`, in this process, and may submit more.
+        """
+        entry = _Entry(job, key, label, store, done, failed, owner)
+        self.bar.total += 1
+        if store is not None and key is not None:
+            found = _from_store(job, store.get(key))
+            if found is not None:
+                self.bar.update(1)
+                self._ready.append((entry, *found, 0.0, True))
+                return True
+        self._new.append(entry)
+        return False
+
+    def drop(self, owner: object) -> None:
+        """Forget the jobs of ``owner`` (a failed molecule): not started, no callbacks.
+
+        A job of it already running still has its result stored when it arrives.
+        """
+        self._dropped.add(owner)
+        for future, entry in list(self._pending.items()):
+            if entry.owner == owner and future.cancel():
+                del self._pending[future]
+                self.bar.update(1)
+        for queue in (self._queue, self._new):
+            kept = [e for e in queue if e.owner != owner]
+            self.bar.update(len(queue) - len(kept))
+            queue.clear()
+            queue.extend(kept)
+
+    def run(self) -> None:
+        """Until no job is left: deliver results, send new jobs, wait for the next to finish."""
+        try:
+            while True:
+                while self._ready:
+                    self._deliver(*self._ready.popleft())
+                    self._send()
+                self._send()
+                if self._ready:
+                    continue
+                if self.backend.executor is None:
+                    if not self._queue:
+                        return
+                    self._run_here(self._queue.popleft())
+                else:
+                    if not self._pending:
+                        return
+                    self._wait()
+        except BrokenProcessPool as exc:
+            raise VibrapolError(
+                "a worker process died (out of memory, killed, or a script calling the engine "
+                "without the `if __name__ == '__main__':` guard that process pools need); rerun "
+                "to resume from the checkpoint, or use one worker"
+            ) from exc
+        except Exception as exc:
+            if not _is_cluster_failure(exc):
+                raise
+            raise VibrapolError(
+                f"the Dask cluster lost a task ({type(exc).__name__}); workers died or the "
+                "connection dropped (often memory: give each worker more, or run fewer per "
+                "machine); rerun to resume from the checkpoint"
+            ) from exc
+        finally:
+            for future in self._pending:
+                future.cancel()
+
+    def close(self) -> None:
+        """Close the progress bar."""
+        self.bar.close()
+
+    def _threads(self, in_flight: int) -> int | None:
+        b = self.backend
+        if b.task_threads is None or b.cores is None:
+            return b.task_threads
+        return max(b.task_threads, b.cores // max(1, in_flight))
+
+    def _send(self) -> None:
+        """Send the jobs submitted since the last call, with threads for their number."""
+        new, self._new = self._new, []
+        self.bar.refresh()
+        if self.backend.executor is None:
+            self._queue.extend(new)  # each runs alone, with this process's threads
+            return
+        threads = self._threads(len(self._pending) + len(new))
+        for entry in new:
+            job = entry.job
+            if threads is not None:
+                job = dataclasses.replace(job, threads=threads)
+            self._pending[self.backend.executor.submit(timed_task, job)] = entry
+
+    def _run_here(self, entry: _Entry) -> None:
+        try:
+            outcome = timed_task(entry.job)
+        except VibrapolError as exc:
+            self._fail(entry, exc)
+            return
+        self._finish(entry, *outcome)
+
+    def _wait(self) -> None:
+        done, _ = wait(self._pending, return_when=FIRST_COMPLETED)
+        for future in done:
+            entry = self._pending.pop(future)
+            try:
+                outcome = future.result()
+            except VibrapolError as exc:
+                self._fail(entry, exc)
+                continue
+            self._finish(entry, *outcome)
+
+    def _finish(self, entry: _Entry, value: Any, seconds: float, memory_mb: float) -> None:
+        if entry.store is not None and entry.key is not None:
+            arrays = _to_store(entry.job, value, seconds)
+            entry.store.put(entry.key, entry.job.kind, entry.label, arrays, seconds)
+        self.bar.update(1)
+        self._deliver(entry, value, seconds, memory_mb, False)
+
+    def _fail(self, entry: _Entry, exc: VibrapolError) -> None:
+        if entry.failed is None:
+            raise exc
+        self.bar.update(1)
+        if entry.owner is None or entry.owner not in self._dropped:
+            entry.failed(exc)
+
+    def _deliver(
+        self, entry: _Entry, value: Any, seconds: float, memory_mb: float, reused: bool
+    ) -> None:
+        if entry.owner is None or entry.owner not in self._dropped:
+            entry.done(value, seconds, memory_mb, reused)
 
 
 def run_polarizability_tasks(
@@ -171,53 +347,25 @@ def run_polarizability_tasks(
     return np.array(alphas), stats
 
 
-def _stored(store: CheckpointStore | StoreRouter, jobs: Sequence[Job], keys: Sequence[str]) -> dict:
-    found = {}
-    for i, key in enumerate(keys):
-        value = store.get(key)
-        name, shape = jobs[i].result_name, jobs[i].result_shape()
-        if value is not None and value.get(name, np.zeros(0)).shape == shape:
-            found[i] = value[name]
-    return found
+def _from_store(job: Any, stored: dict[str, np.ndarray] | None) -> tuple[Any, float] | None:
+    """A job's result and recorded seconds from its checkpoint row, or None."""
+    if stored is None:
+        return None
+    unpack = getattr(job, "unpack", None)
+    if unpack is not None:  # a stage (vibrapol.engine.stages): several arrays and its time
+        value = unpack(stored)
+        return None if value is None else (value, float(stored.get("seconds", 0.0)))
+    value = stored.get(job.result_name)
+    if value is None or value.shape != job.result_shape():
+        return None
+    return value, 0.0
 
 
-def _run_on_executor(jobs, todo, backend: Backend, finish, fail) -> None:  # noqa: ANN001
-    executor = backend.executor
-    assert executor is not None  # without one, run_tasks runs the jobs in this process
-    pending: dict[Future, int] = {}
-    for i in todo:
-        job = jobs[i]
-        if backend.task_threads is not None:
-            job = dataclasses.replace(job, threads=backend.task_threads)
-        pending[executor.submit(timed_task, job)] = i
-    try:
-        while pending:
-            done, _ = wait(pending, return_when=FIRST_COMPLETED)
-            for future in done:
-                i = pending.pop(future)
-                try:
-                    outcome = future.result()
-                except VibrapolError as exc:
-                    fail(i, exc)
-                    continue
-                finish(i, *outcome)
-    except BrokenProcessPool as exc:
-        raise VibrapolError(
-            "a worker process died (out of memory, killed, or a script calling the engine without "
-            "the `if __name__ == '__main__':` guard that process pools need); rerun to resume from "
-            "the checkpoint, or use one worker"
-        ) from exc
-    except Exception as exc:
-        if not _is_cluster_failure(exc):
-            raise
-        raise VibrapolError(
-            f"the Dask cluster lost a task ({type(exc).__name__}); workers died or the "
-            "connection dropped (often memory: give each worker more, or run fewer per machine); "
-            "rerun to resume from the checkpoint"
-        ) from exc
-    finally:
-        for future in pending:
-            future.cancel()
+def _to_store(job: Any, value: Any, seconds: float) -> dict[str, Any]:
+    pack = getattr(job, "pack", None)
+    if pack is not None:
+        return {**pack(value), "seconds": seconds}
+    return {job.result_name: value}
 
 
 def _is_cluster_failure(exc: BaseException) -> bool:

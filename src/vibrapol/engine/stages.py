@@ -1,94 +1,266 @@
-"""The two single-shot stages of a run, each stored in the checkpoint when it finishes.
+"""The single-shot stages of a molecule's run, as picklable jobs for any backend.
 
-* optimisation of the input structure (:mod:`vibrapol.engine.optimize`);
-* the reference calculation at the final geometry: SCF, analytic Hessian, CPHF α.
+* :class:`OptimizeJob`: optimisation of the input structure (:mod:`vibrapol.engine.optimize`);
+* :class:`ScfJob`: at the final geometry, the SCF (tightened to the field route's settings),
+  the CPHF α and the analytic gradient;
+* :class:`HessianJob`: the analytic Hessian, from the orbitals of the SCF stage (no second SCF:
+  the Hessian is bit for bit the one computed in the same process as the SCF).
+
+Each job has ``run()`` (what a worker calls, through :func:`~vibrapol.engine.evaluate.timed_task`),
+``kind``, ``label``, ``key()`` (its checkpoint key, :func:`~vibrapol.engine.checkpoint.task_key`)
+and ``pack`` / ``unpack`` between its result and the arrays of a checkpoint row, so that the
+runner (:mod:`vibrapol.engine.runner`) treats stages and derivative tasks alike: each result is
+stored as soon as it arrives and found again by key on a rerun.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from time import perf_counter
+from typing import Any, ClassVar
 
 import numpy as np
-from numpy.typing import ArrayLike
 
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
-from vibrapol.engine.evaluate import ReferenceResult, reference_calculation
+from vibrapol.engine.evaluate import ReferenceResult, threads_limited
 from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
 from vibrapol.engine.optimize import OptimizationResult, optimize_geometry
-from vibrapol.engine.scf import MethodSpec
+from vibrapol.engine.scf import MethodSpec, build_molecule
+
+#: The convergence settings of the reference SCF enter the keys of both reference stages.
+_REFERENCE_KEY = {
+    "reference_conv": [FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
+    "grid_response": True,
+}
 
 
-def optimized(
-    atomic_numbers: np.ndarray,
-    coordinates_ang: np.ndarray,
-    spec: MethodSpec,
-    store: CheckpointStore | None,
-) -> tuple[OptimizationResult, float, bool]:
-    """Optimised geometry (from the store when present), its wall time, and whether reused."""
-    key = task_key("optimize", atomic_numbers, coordinates_ang, spec)
-    stored = store.get(key) if store is not None else None
-    if stored is not None:
-        result = OptimizationResult(
-            coordinates_ang=stored["coordinates_ang"],
-            energy_hartree=float(stored["energy_hartree"]),
-            max_force_hartree_bohr=float(stored["max_force_hartree_bohr"]),
-            n_steps=int(stored["n_steps"]),
-            n_gradients=int(stored["n_gradients"]),
-        )
-        return result, float(stored["seconds"]), True
-    t0 = perf_counter()
-    result = optimize_geometry(atomic_numbers, coordinates_ang, spec)
-    seconds = perf_counter() - t0
-    if store is not None:
-        arrays: dict[str, ArrayLike] = {
+@dataclass(frozen=True, eq=False)
+class OptimizeJob:
+    """Optimise a structure (``threads``: BLAS/OpenMP threads inside the job, None: as set)."""
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    spec: MethodSpec
+    threads: int | None = None
+
+    kind: ClassVar[str] = "optimize"
+    label: ClassVar[str] = "optimisation"
+
+    def key(self) -> str:
+        """Checkpoint key (the same as vibrapol's earlier versions used)."""
+        return task_key("optimize", self.atomic_numbers, self.coordinates_ang, self.spec)
+
+    def run(self) -> OptimizationResult:
+        """The optimised geometry (raises EngineConvergenceError when it does not converge)."""
+        with threads_limited(self.threads):
+            return optimize_geometry(self.atomic_numbers, self.coordinates_ang, self.spec)
+
+    @staticmethod
+    def pack(result: OptimizationResult) -> dict[str, Any]:
+        """The arrays stored in the checkpoint."""
+        return {
             "coordinates_ang": result.coordinates_ang,
             "energy_hartree": result.energy_hartree,
             "max_force_hartree_bohr": result.max_force_hartree_bohr,
             "n_steps": result.n_steps,
             "n_gradients": result.n_gradients,
-            "seconds": seconds,
         }
-        store.put(key, "optimize", "optimisation", arrays, seconds)
-    return result, seconds, False
+
+    @staticmethod
+    def unpack(stored: dict[str, np.ndarray]) -> OptimizationResult | None:
+        """The result from a checkpoint row (None when a field is missing)."""
+        try:
+            return OptimizationResult(
+                coordinates_ang=stored["coordinates_ang"],
+                energy_hartree=float(stored["energy_hartree"]),
+                max_force_hartree_bohr=float(stored["max_force_hartree_bohr"]),
+                n_steps=int(stored["n_steps"]),
+                n_gradients=int(stored["n_gradients"]),
+            )
+        except KeyError:
+            return None
 
 
-_REFERENCE_FIELDS = ("hessian_hartree_bohr2", "alpha_ang3", "density", "gradient_hartree_bohr")
-_REFERENCE_TIMES = ("seconds_scf", "seconds_hessian", "seconds_alpha", "seconds_gradient")
+@dataclass(frozen=True, eq=False)
+class ScfResult:
+    """The SCF stage: the reference quantities (Hessian not yet known) and the orbitals.
+
+    Attributes
+    ----------
+    reference : ReferenceResult
+        With ``hessian_hartree_bohr2`` None and ``seconds_hessian`` 0.
+    mo_coeff, mo_occ, mo_energy : ndarray
+        The converged orbitals, the input of the Hessian stage.
+    """
+
+    reference: ReferenceResult
+    mo_coeff: np.ndarray
+    mo_occ: np.ndarray
+    mo_energy: np.ndarray
 
 
-def reference(
+_SCF_ARRAYS = ("alpha_ang3", "density", "gradient_hartree_bohr")
+_SCF_TIMES = ("seconds_scf", "seconds_alpha", "seconds_gradient")
+_ORBITALS = ("mo_coeff", "mo_occ", "mo_energy")
+
+
+@dataclass(frozen=True, eq=False)
+class ScfJob:
+    """Reference SCF, CPHF α and the zero-field analytic gradient at one geometry."""
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    spec: MethodSpec
+    threads: int | None = None
+
+    kind: ClassVar[str] = "reference-scf"
+    label: ClassVar[str] = "reference SCF, polarizability and gradient"
+
+    def key(self) -> str:
+        """Checkpoint key."""
+        return task_key(
+            "reference-scf", self.atomic_numbers, self.coordinates_ang, self.spec, **_REFERENCE_KEY
+        )
+
+    def run(self) -> ScfResult:
+        """Tight SCF, α (Å³) and gradient, with the wall time of each."""
+        from vibrapol.engine.fieldgrad import field_gradient, tighten_scf
+        from vibrapol.engine.polarizability import cphf_polarizability
+        from vibrapol.engine.scf import run_scf
+        from vibrapol.units import BOHR3_TO_ANG3
+
+        with threads_limited(self.threads):
+            mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
+            t0 = perf_counter()
+            mf = tighten_scf(run_scf(mol, self.spec), self.spec)
+            t1 = perf_counter()
+            alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
+            t2 = perf_counter()
+            gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
+            t3 = perf_counter()
+        reference = ReferenceResult(
+            energy_hartree=float(mf.e_tot),
+            hessian_hartree_bohr2=None,
+            alpha_ang3=alpha,
+            density=np.asarray(mf.make_rdm1()),
+            gradient_hartree_bohr=gradient,
+            seconds_scf=t1 - t0,
+            seconds_alpha=t2 - t1,
+            seconds_gradient=t3 - t2,
+        )
+        return ScfResult(
+            reference, np.asarray(mf.mo_coeff), np.asarray(mf.mo_occ), np.asarray(mf.mo_energy)
+        )
+
+    @staticmethod
+    def pack(result: ScfResult) -> dict[str, Any]:
+        """The arrays stored in the checkpoint."""
+        ref = result.reference
+        arrays: dict[str, Any] = {k: getattr(ref, k) for k in (*_SCF_ARRAYS, *_SCF_TIMES)}
+        arrays["energy_hartree"] = ref.energy_hartree
+        arrays.update({k: getattr(result, k) for k in _ORBITALS})
+        return arrays
+
+    @staticmethod
+    def unpack(stored: dict[str, np.ndarray]) -> ScfResult | None:
+        """The result from a checkpoint row (None when a field is missing)."""
+        if not all(k in stored for k in (*_SCF_ARRAYS, *_SCF_TIMES, *_ORBITALS, "energy_hartree")):
+            return None
+        reference = ReferenceResult(
+            energy_hartree=float(stored["energy_hartree"]),
+            hessian_hartree_bohr2=None,
+            alpha_ang3=stored["alpha_ang3"],
+            density=stored["density"],
+            gradient_hartree_bohr=stored["gradient_hartree_bohr"],
+            **{k: float(stored[k]) for k in _SCF_TIMES},
+        )
+        return ScfResult(reference, *(stored[k] for k in _ORBITALS))
+
+
+@dataclass(frozen=True, eq=False)
+class HessianJob:
+    """The analytic Hessian from the converged orbitals of the SCF stage."""
+
+    atomic_numbers: np.ndarray
+    coordinates_ang: np.ndarray
+    spec: MethodSpec
+    mo_coeff: np.ndarray
+    mo_occ: np.ndarray
+    mo_energy: np.ndarray
+    threads: int | None = None
+
+    kind: ClassVar[str] = "hessian"
+    label: ClassVar[str] = "analytic Hessian"
+
+    @classmethod
+    def after(cls, scf: ScfResult, atomic_numbers, coordinates_ang, spec) -> HessianJob:  # noqa: ANN001
+        """The Hessian job that follows an SCF stage."""
+        return cls(atomic_numbers, coordinates_ang, spec, scf.mo_coeff, scf.mo_occ, scf.mo_energy)
+
+    def key(self) -> str:
+        """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
+        return task_key(
+            "hessian", self.atomic_numbers, self.coordinates_ang, self.spec, **_REFERENCE_KEY
+        )
+
+    def run(self) -> np.ndarray:
+        """The (3N, 3N) Hessian in hartree/bohr² (PySCF analytic second derivatives)."""
+        from vibrapol.engine.hessian import analytic_hessian
+        from vibrapol.engine.scf import build_scf
+
+        with threads_limited(self.threads):
+            mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
+            mf = build_scf(mol, self.spec)
+            mf.mo_coeff, mf.mo_occ, mf.mo_energy = self.mo_coeff, self.mo_occ, self.mo_energy
+            mf.converged = True
+            return analytic_hessian(mf)
+
+    @staticmethod
+    def pack(result: np.ndarray) -> dict[str, Any]:
+        """The arrays stored in the checkpoint."""
+        return {"hessian_hartree_bohr2": result}
+
+    @staticmethod
+    def unpack(stored: dict[str, np.ndarray]) -> np.ndarray | None:
+        """The result from a checkpoint row (None when missing)."""
+        return stored.get("hessian_hartree_bohr2")
+
+
+def with_hessian(
+    reference: ReferenceResult, hessian: np.ndarray, seconds: float
+) -> ReferenceResult:
+    """The reference result completed by the Hessian stage."""
+    from dataclasses import replace
+
+    return replace(reference, hessian_hartree_bohr2=hessian, seconds_hessian=seconds)
+
+
+_LEGACY_FIELDS = ("hessian_hartree_bohr2", *_SCF_ARRAYS, "energy_hartree")
+_LEGACY_TIMES = ("seconds_scf", "seconds_hessian", "seconds_alpha", "seconds_gradient")
+
+
+def legacy_reference(
     atomic_numbers: np.ndarray,
     coordinates_ang: np.ndarray,
     spec: MethodSpec,
     store: CheckpointStore | None,
-) -> tuple[ReferenceResult, bool]:
-    """SCF, Hessian and α at the reference geometry (from the store when present)."""
-    key = task_key(
-        "reference",
-        atomic_numbers,
-        coordinates_ang,
-        spec,
-        reference_conv=[FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
-        grid_response=True,
+) -> ReferenceResult | None:
+    """A reference calculation stored by an earlier vibrapol as one row (SCF, Hessian, α).
+
+    Those versions ran the reference as one stage under the key kind ``reference``; a
+    checkpoint they left is still used, so that upgrading in the middle of a run loses nothing.
+    """
+    if store is None:
+        return None
+    key = task_key("reference", atomic_numbers, coordinates_ang, spec, **_REFERENCE_KEY)
+    stored = store.get(key)
+    if stored is None or not all(k in stored for k in (*_LEGACY_FIELDS, *_LEGACY_TIMES)):
+        return None
+    return ReferenceResult(
+        energy_hartree=float(stored["energy_hartree"]),
+        hessian_hartree_bohr2=stored["hessian_hartree_bohr2"],
+        alpha_ang3=stored["alpha_ang3"],
+        density=stored["density"],
+        gradient_hartree_bohr=stored["gradient_hartree_bohr"],
+        **{k: float(stored[k]) for k in _LEGACY_TIMES},
     )
-    stored = store.get(key) if store is not None else None
-    if stored is not None and all(k in stored for k in _REFERENCE_FIELDS + _REFERENCE_TIMES):
-        return ReferenceResult(
-            energy_hartree=float(stored["energy_hartree"]),
-            hessian_hartree_bohr2=stored["hessian_hartree_bohr2"],
-            alpha_ang3=stored["alpha_ang3"],
-            density=stored["density"],
-            gradient_hartree_bohr=stored["gradient_hartree_bohr"],
-            seconds_scf=float(stored["seconds_scf"]),
-            seconds_hessian=float(stored["seconds_hessian"]),
-            seconds_alpha=float(stored["seconds_alpha"]),
-            seconds_gradient=float(stored["seconds_gradient"]),
-        ), True
-    result = reference_calculation(atomic_numbers, coordinates_ang, spec)
-    if store is not None:
-        arrays = {
-            k: getattr(result, k) for k in (*_REFERENCE_FIELDS, *_REFERENCE_TIMES, "energy_hartree")
-        }
-        seconds = sum(getattr(result, k) for k in _REFERENCE_TIMES)
-        store.put(key, "reference", "reference SCF, Hessian, alpha", arrays, seconds)
-    return result, False

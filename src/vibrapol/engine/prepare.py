@@ -17,7 +17,7 @@ from vibrapol.engine import stages
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.fieldplan import FieldPlan
-from vibrapol.engine.optimize import OptimizationResult
+from vibrapol.engine.optimize import OPTIMIZER_LABELS, OptimizationResult
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
     Plan,
@@ -102,8 +102,9 @@ def prepare(
     z, spec = atomic_numbers, settings.spec
     coords, opt, seconds_opt, reused_opt = coordinates_ang, None, 0.0, False
     if settings.optimize:
-        report.stage(f"optimising the geometry ({spec.label()}, ASE BFGS)")
-        opt, seconds_opt, reused_opt = stages.optimized(z, coords, spec, store)
+        how = OPTIMIZER_LABELS[settings.optimizer].split(" (")[0]
+        report.stage(f"optimising the geometry ({spec.label()}, {how})")
+        opt, seconds_opt, reused_opt = stages.optimized(z, coords, spec, store, settings.optimizer)
         coords = opt.coordinates_ang
     group, shift = None, 0.0
     if settings.symmetry:
@@ -180,10 +181,7 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
     if opt is None:
         notes = ["geometry used as given (not optimised)"]
     else:
-        notes = [
-            f"geometry optimised with ASE BFGS in {opt.n_steps} steps; "
-            f"final max force {opt.max_force_hartree_bohr:.2e} hartree/bohr"
-        ]
+        notes = [opt.describe()]
     if settings.symmetry:
         notes.append(
             f"point group {prep.point_group}"

@@ -14,7 +14,12 @@ from numpy.typing import ArrayLike
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
 from vibrapol.engine.evaluate import ReferenceResult, reference_calculation
 from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
-from vibrapol.engine.optimize import OptimizationResult, optimize_geometry
+from vibrapol.engine.optimize import (
+    DEFAULT_OPTIMIZER,
+    OptimizationResult,
+    optimize_geometry,
+    optimizer_key,
+)
 from vibrapol.engine.scf import MethodSpec
 
 
@@ -23,9 +28,13 @@ def optimized(
     coordinates_ang: np.ndarray,
     spec: MethodSpec,
     store: CheckpointStore | None,
+    optimizer: str = DEFAULT_OPTIMIZER,
 ) -> tuple[OptimizationResult, float, bool]:
-    """Optimised geometry (from the store when present), its wall time, and whether reused."""
-    key = task_key("optimize", atomic_numbers, coordinates_ang, spec)
+    """Optimised geometry (from the store when present), its wall time, and whether reused.
+
+    The optimiser is part of the checkpoint key: results of different optimisers never mix.
+    """
+    key = task_key("optimize", atomic_numbers, coordinates_ang, spec, **optimizer_key(optimizer))
     stored = store.get(key) if store is not None else None
     if stored is not None:
         result = OptimizationResult(
@@ -34,10 +43,12 @@ def optimized(
             max_force_hartree_bohr=float(stored["max_force_hartree_bohr"]),
             n_steps=int(stored["n_steps"]),
             n_gradients=int(stored["n_gradients"]),
+            optimizer=optimizer,
+            n_loose=int(stored.get("n_loose", 0)),
         )
         return result, float(stored["seconds"]), True
     t0 = perf_counter()
-    result = optimize_geometry(atomic_numbers, coordinates_ang, spec)
+    result = optimize_geometry(atomic_numbers, coordinates_ang, spec, optimizer=optimizer)
     seconds = perf_counter() - t0
     if store is not None:
         arrays: dict[str, ArrayLike] = {
@@ -46,6 +57,7 @@ def optimized(
             "max_force_hartree_bohr": result.max_force_hartree_bohr,
             "n_steps": result.n_steps,
             "n_gradients": result.n_gradients,
+            "n_loose": result.n_loose,
             "seconds": seconds,
         }
         store.put(key, "optimize", "optimisation", arrays, seconds)

@@ -159,3 +159,24 @@ def test_checkpoint_key_and_stored_optimisation_differ_by_optimiser(tmp_path):
     finally:
         store.close()
     assert "geomeTRIC" in again.describe() and f"{again.n_gradients} gradients" in again.describe()
+
+
+@pytest.mark.parametrize(
+    ("optimizer", "named"), [("cartesian-bfgs", "ASE BFGS"), (None, "geomeTRIC")]
+)
+def test_command_line_optimizer_reaches_the_provenance(tmp_path, capsys, optimizer, named):
+    # Contract: --optimizer selects the optimiser (default internal), and the written file's
+    # provenance and the command's report name it with its steps, gradients and final force.
+    from vibrapol.cli import main
+    from vibrapol.sources.modes_json import read_modes_json
+
+    xyz = tmp_path / "water.xyz"
+    xyz.write_text("3\nwater (own test input)\nO 0 0 0.10\nH 0 0.80 -0.50\nH 0 -0.74 -0.46\n")
+    extra = [] if optimizer is None else ["--optimizer", optimizer]
+    args = ["compute", str(xyz), "--basis", "sto-3g", "--route", "field", "--workers", "1"]
+    assert main([*args, *extra]) == 0
+    note = read_modes_json(tmp_path / "water.modes.json").provenance.notes[0]
+    assert note.startswith(f"geometry optimised with {named}")
+    assert "gradients" in note and "final max force" in note
+    err = capsys.readouterr().err
+    assert f"geometry optimised ({optimizer or 'internal'}) in" in err

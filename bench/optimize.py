@@ -10,6 +10,9 @@ criterion (largest atomic force ≤ 1e-5 hartree/bohr with tight SCF).  Three ru
 * ``internal-tight``: geomeTRIC with tight SCF at every step (the effect of the loose SCF);
 * ``cartesian-bfgs``: ASE BFGS, the engine's optimiser before.
 
+``cycles`` counts the SCF iterations of the internal optimiser's evaluations (the measure of
+what the loose early steps save, independent of the machine's load).
+
 Also printed: the largest change of the nuclear gradient between loose and tight SCF at the
 start geometry (the cost of the loose steps in accuracy), and, for symmetric molecules
 (water, benzene, CCl4) started from their exact G2 geometry, the shift the engine's
@@ -18,6 +21,7 @@ before and after the symmetrization.
 
     PYTHONPATH=src python bench/optimize.py
     PYTHONPATH=src python bench/optimize.py --molecules water benzene --basis sto-3g
+    PYTHONPATH=src python bench/optimize.py --runs internal internal-tight --no-symmetry
 
 Prints tables and one JSON line.  Wall times depend on the machine and its load.
 """
@@ -78,14 +82,35 @@ def gradient_change(z: np.ndarray, xyz: np.ndarray, spec) -> float:  # noqa: ANN
     return float(np.max(np.abs(g[True] - g[False])))
 
 
-def bench_molecule(name: str, spec, seed: int) -> list[dict]:  # noqa: ANN001
+def _optimize_counting_cycles(z, start, spec, optimizer: str, loose: bool):  # noqa: ANN001, ANN202
+    """optimize_geometry, and the SCF cycles of the internal optimiser's evaluations (else None)."""
+    from vibrapol.engine import optimize_internal
     from vibrapol.engine.optimize import optimize_geometry
 
+    made = []
+    plain = optimize_internal.Evaluator
+
+    class Counting(plain):
+        def __init__(self, *args, **kwargs) -> None:  # noqa: ANN002, ANN003
+            super().__init__(*args, **kwargs)
+            made.append(self)
+
+    optimize_internal.Evaluator = Counting
+    try:
+        r = optimize_geometry(z, start, spec, optimizer=optimizer, loose_scf=loose)
+    finally:
+        optimize_internal.Evaluator = plain
+    return r, (sum(e.n_scf_cycles for e in made) if made else None)
+
+
+def bench_molecule(name: str, spec, seed: int, runs: list[str]) -> list[dict]:  # noqa: ANN001
     z, start = noisy_start(name, seed)
     rows = []
     for label, optimizer, loose in RUNS:
+        if label not in runs:
+            continue
         t0 = perf_counter()
-        r = optimize_geometry(z, start, spec, optimizer=optimizer, loose_scf=loose)
+        r, cycles = _optimize_counting_cycles(z, start, spec, optimizer, loose)
         rows.append(
             {
                 "molecule": name,
@@ -95,12 +120,13 @@ def bench_molecule(name: str, spec, seed: int) -> list[dict]:  # noqa: ANN001
                 "gradients": r.n_gradients,
                 "loose": r.n_loose,
                 "seconds": perf_counter() - t0,
+                "scf_cycles": cycles,
                 "energy": r.energy_hartree,
                 "max_force": r.max_force_hartree_bohr,
                 "coords": r.coordinates_ang,
             }
         )
-    ref = rows[-1]
+    ref = rows[-1]  # cartesian-bfgs when it ran, else the last run
     for row in rows:
         row["dE_vs_bfgs"] = row["energy"] - ref["energy"]
         row["rmsd_vs_bfgs"] = aligned_rmsd(ref["coords"], row["coords"])
@@ -152,18 +178,22 @@ def main() -> None:
     parser.add_argument("--basis", default="3-21g")
     parser.add_argument("--seed", type=int, default=16)
     parser.add_argument("--no-symmetry", action="store_true", help="skip the symmetry table")
+    labels = [label for label, _, _ in RUNS]
+    parser.add_argument("--runs", nargs="+", choices=labels, default=labels)
     args = parser.parse_args()
     spec = MethodSpec(args.method, args.basis)
-    rows = [row for name in args.molecules for row in bench_molecule(name, spec, args.seed)]
+    rows = [r for name in args.molecules for r in bench_molecule(name, spec, args.seed, args.runs)]
     print(f"{spec.label()}, start = G2 geometry + 0.05 Å per atom (seed {args.seed})")
     print(
         f"{'molecule':20s} {'run':15s} {'steps':>5s} {'grads':>5s} {'loose':>5s} "
-        f"{'wall/s':>7s} {'E/Eh':>16s} {'dE vs BFGS':>11s} {'RMSD/Å':>8s} {'fmax':>8s}"
+        f"{'cycles':>6s} {'wall/s':>7s} {'E/Eh':>16s} {'dE vs BFGS':>11s} "
+        f"{'RMSD/Å':>8s} {'fmax':>8s}"
     )
     for r in rows:
         print(
             f"{r['molecule']:20s} {r['run']:15s} {r['steps']:5d} {r['gradients']:5d} "
-            f"{r['loose']:5d} {r['seconds']:7.1f} {r['energy']:16.10f} "
+            f"{r['loose']:5d} {'-' if r['scf_cycles'] is None else r['scf_cycles']:>6} "
+            f"{r['seconds']:7.1f} {r['energy']:16.10f} "
             f"{r['dE_vs_bfgs']:11.2e} {r['rmsd_vs_bfgs']:8.1e} {r['max_force']:8.1e}"
         )
     print("largest gradient change, loose vs tight SCF at the start (hartree/bohr):")

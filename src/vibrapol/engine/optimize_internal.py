@@ -54,7 +54,7 @@ TIGHT_BELOW = 10.0
 REFINE_BELOW = 2.0
 
 
-@dataclass
+@dataclass(frozen=True, eq=False)
 class Evaluation:
     """One energy and gradient: coordinates (bohr), energy (hartree), gradient (hartree/bohr)."""
 

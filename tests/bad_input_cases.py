@@ -461,6 +461,8 @@ OPTIONS = [
      "displacement step must be in (0, 0.1] Å", "displacement step"),
     ("compute-no-workers", lambda t: _compute(t, "--workers", "0"),
      "workers must be 1 or more", "workers"),
+    ("compute-unknown-optimizer", lambda t: _compute(t, "--optimizer", "lbfgs"),
+     "argument --optimizer: invalid choice: 'lbfgs'", "--optimizer"),
     # inputs that are not regular files, or too large: refused before they are opened
     ("table-dev-zero", lambda t: ["table", "/dev/zero", "-o", out(t)],
      "is a device, not a regular file", "/dev/zero"),

@@ -166,7 +166,10 @@ def test_summary_names_scaled_and_harmonic_wavenumbers_as_the_table_does(small):
             rows[int(cells[0])] = (float(cells[1]), cells[2])
     for scaled, irrep, mode, harmonic in quoted:
         freq, species = rows[int(mode)]
-        assert (species, round(freq, 1)) == (irrep, float(harmonic))
+        # The table prints two decimals and the summary one, each rounded from the full value:
+        # the two can differ by 0.05 + 0.005 (3812.3503 prints "3812.35", which rounds to
+        # 3812.3, and "3812.4").
+        assert species == irrep and abs(freq - float(harmonic)) <= 0.0551
         assert int(scaled) == round(factor * freq)
 
 

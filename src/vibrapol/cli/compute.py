@@ -36,6 +36,7 @@ from vibrapol.engine.estimate import (
     format_duration,
 )
 from vibrapol.engine.executors import check_scheduler_address
+from vibrapol.engine.optimize import DEFAULT_OPTIMIZER, OPTIMIZERS
 from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, build_molecule
 from vibrapol.errors import InputFormatError, VibrapolError
@@ -86,6 +87,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         action=argparse.BooleanOptionalAction,
         default=True,
         help="optimise the geometry first (default: yes)",
+    )
+    parser.add_argument(
+        "--optimizer",
+        choices=OPTIMIZERS,
+        default=DEFAULT_OPTIMIZER,
+        help="internal: geomeTRIC in internal coordinates, few steps from rough starts; "
+        "cartesian-bfgs: ASE BFGS in Cartesians, the optimiser of earlier versions "
+        f"(default: {DEFAULT_OPTIMIZER})",
     )
     parser.add_argument(
         "--step-ang",
@@ -300,10 +309,12 @@ def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  #
             "computing again"
         ) from exc
     prefix = f"{item.name}: " if item.name else ""
-    if result.optimization is not None:
+    opt = result.optimization
+    if opt is not None:
         say(
-            f"{prefix}geometry optimised in {result.optimization.n_steps} steps, "
-            f"final max force {result.optimization.max_force_hartree_bohr:.2e} hartree/bohr"
+            f"{prefix}geometry optimised ({opt.optimizer}) in {opt.n_steps} steps, "
+            f"{opt.n_gradients} gradients, final max force "
+            f"{opt.max_force_hartree_bohr:.2e} hartree/bohr"
         )
     t = result.tasks
     say(

@@ -69,7 +69,7 @@ def run_engine(
 
     ``options`` are the other fields of :class:`~vibrapol.engine.settings.EngineSettings`
     (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
-    ``symmetry``, ``cartesian_d``).
+    ``symmetry``, ``cartesian_d``, ``optimizer``).
     """
     settings = EngineSettings(method, basis, **options)
     if masses_da is None and callable(getattr(atoms, "has", None)) and atoms.has("masses"):
@@ -119,7 +119,12 @@ def compute_modes(
     charge, multiplicity : int
         Total charge; multiplicity must be 1.
     optimize : bool
-        Minimise the energy first (ASE BFGS, see :mod:`vibrapol.engine.optimize`).
+        Minimise the energy first (see :mod:`vibrapol.engine.optimize`).
+    optimizer : {"internal", "cartesian-bfgs"}
+        ``internal`` (default): geomeTRIC in internal coordinates, loose SCF on the early
+        steps; ``cartesian-bfgs``: ASE's BFGS, the optimiser of earlier versions.  Both stop at
+        a largest atomic force of 1e-5 hartree/bohr; the optimiser, its steps and gradients are
+        recorded in the provenance.
     step_ang : float
         Central-difference step h in Å.
     route : {"cartesian", "normal-mode", "field", "auto"}

@@ -100,7 +100,12 @@ class Flow:
     def _begin(self, k: int) -> None:
         m = self.molecules[k]
         if self.settings.optimize:
-            job = stages.OptimizeJob(m.atomic_numbers, m.coordinates_ang, self.settings.spec)
+            job = stages.OptimizeJob(
+                m.atomic_numbers,
+                m.coordinates_ang,
+                self.settings.spec,
+                optimizer=self.settings.optimizer,
+            )
             self._stage(k, job, self._optimized)
         else:
             self._reference(k)

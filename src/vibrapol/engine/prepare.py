@@ -219,10 +219,7 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
     if opt is None:
         notes = ["geometry used as given (not optimised)"]
     else:
-        notes = [
-            f"geometry optimised with ASE BFGS in {opt.n_steps} steps; "
-            f"final max force {opt.max_force_hartree_bohr:.2e} hartree/bohr"
-        ]
+        notes = [opt.describe()]
     if settings.symmetry:
         notes.append(
             f"point group {prep.point_group}"

@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 
 from vibrapol.engine.displacements import check_step
 from vibrapol.engine.fieldplan import DEFAULT_FIELD_AU
+from vibrapol.engine.optimize import DEFAULT_OPTIMIZER, normalize_optimizer
 from vibrapol.engine.routes import normalize_route
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, MethodSpec
 from vibrapol.errors import ShapeError
@@ -48,6 +49,9 @@ class EngineSettings:
         Find the point group, impose it on the geometry and use it to cut the tasks.
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
+    optimizer : str
+        ``internal`` (geomeTRIC, the default) or ``cartesian-bfgs`` (ASE BFGS), see
+        :mod:`vibrapol.engine.optimize`.
     spec : MethodSpec
         The method, basis, charge, multiplicity and basis-function type together (derived).
 
@@ -56,7 +60,7 @@ class EngineSettings:
     ShapeError
         A step or field strength out of range.
     EngineInputError
-        An unknown route.
+        An unknown route or optimiser.
     """
 
     method: str = DEFAULT_METHOD
@@ -69,6 +73,7 @@ class EngineSettings:
     field_au: float = DEFAULT_FIELD_AU
     symmetry: bool = True
     cartesian_d: bool = False
+    optimizer: str = DEFAULT_OPTIMIZER
     spec: MethodSpec = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -95,6 +100,7 @@ class EngineSettings:
             "route": route,
             "field_au": float(self.field_au),
             "symmetry": bool(self.symmetry),
+            "optimizer": normalize_optimizer(self.optimizer),
         }
         for name, value in values.items():
             object.__setattr__(self, name, value)

@@ -24,7 +24,12 @@ import numpy as np
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
 from vibrapol.engine.evaluate import ReferenceResult, threads_limited
 from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
-from vibrapol.engine.optimize import OptimizationResult, optimize_geometry
+from vibrapol.engine.optimize import (
+    DEFAULT_OPTIMIZER,
+    OptimizationResult,
+    optimize_geometry,
+    optimizer_key,
+)
 from vibrapol.engine.scf import MethodSpec, build_molecule
 
 #: The convergence settings of the reference SCF enter the keys of both reference stages.
@@ -42,18 +47,27 @@ class OptimizeJob:
     coordinates_ang: np.ndarray
     spec: MethodSpec
     threads: int | None = None
+    optimizer: str = DEFAULT_OPTIMIZER
 
     kind: ClassVar[str] = "optimize"
     label: ClassVar[str] = "optimisation"
 
     def key(self) -> str:
-        """Checkpoint key (the same as vibrapol's earlier versions used)."""
-        return task_key("optimize", self.atomic_numbers, self.coordinates_ang, self.spec)
+        """Checkpoint key; the optimiser is part of it, so results of two never mix."""
+        return task_key(
+            "optimize",
+            self.atomic_numbers,
+            self.coordinates_ang,
+            self.spec,
+            **optimizer_key(self.optimizer),
+        )
 
     def run(self) -> OptimizationResult:
         """The optimised geometry (raises EngineConvergenceError when it does not converge)."""
         with threads_limited(self.threads):
-            return optimize_geometry(self.atomic_numbers, self.coordinates_ang, self.spec)
+            return optimize_geometry(
+                self.atomic_numbers, self.coordinates_ang, self.spec, optimizer=self.optimizer
+            )
 
     @staticmethod
     def pack(result: OptimizationResult) -> dict[str, Any]:
@@ -64,10 +78,10 @@ class OptimizeJob:
             "max_force_hartree_bohr": result.max_force_hartree_bohr,
             "n_steps": result.n_steps,
             "n_gradients": result.n_gradients,
+            "n_loose": result.n_loose,
         }
 
-    @staticmethod
-    def unpack(stored: dict[str, np.ndarray]) -> OptimizationResult | None:
+    def unpack(self, stored: dict[str, np.ndarray]) -> OptimizationResult | None:
         """The result from a checkpoint row (None when a field is missing)."""
         try:
             return OptimizationResult(
@@ -76,6 +90,8 @@ class OptimizeJob:
                 max_force_hartree_bohr=float(stored["max_force_hartree_bohr"]),
                 n_steps=int(stored["n_steps"]),
                 n_gradients=int(stored["n_gradients"]),
+                optimizer=self.optimizer,
+                n_loose=int(stored.get("n_loose", 0)),
             )
         except KeyError:
             return None

@@ -28,7 +28,7 @@ from vibrapol.engine.routes import task_seconds
 from vibrapol.engine.runner import TaskStats, run_tasks
 from vibrapol.engine.scf import EngineInputError, build_molecule, transition_metal_note
 from vibrapol.engine.settings import EngineSettings
-from vibrapol.errors import AccuracyWarning, VibrapolError
+from vibrapol.errors import AccuracyWarning, OpenShellWarning, VibrapolError
 from vibrapol.modeset import ModeSet, default_masses
 from vibrapol.structure import check_structure
 
@@ -208,6 +208,8 @@ def run_batch(
                     report,
                 )
                 router.assign(prep.keys, store)
+                if prep.spin_note is not None:  # open shell: <S^2> of the reference
+                    warnings.warn(f"{item.name}: {prep.spin_note}", OpenShellWarning, stacklevel=2)
             except VibrapolError as exc:
                 if raise_errors:
                     raise

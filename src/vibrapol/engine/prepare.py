@@ -17,6 +17,7 @@ from vibrapol.engine import stages
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.fieldplan import FieldPlan
+from vibrapol.engine.openshell import reference_spin_note
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
@@ -73,6 +74,7 @@ class Prepared:
     jobs: list
     keys: list[str]
     labels: tuple[str, ...]
+    spin_note: str | None = None
 
 
 def _impose_symmetry(z, coords, masses, report: Progress):  # noqa: ANN001, ANN202
@@ -110,6 +112,7 @@ def prepare(
         group, coords, shift = _impose_symmetry(z, coords, masses_da, report)
     report.stage("reference SCF, analytic Hessian, polarizability and gradient")
     ref, reused_ref = stages.reference(z, coords, spec, store)
+    spin = reference_spin_note(z, coords, spec, ref.density)  # open shells: <S^2>
     harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
     wanted = (
         ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
@@ -147,6 +150,7 @@ def prepare(
         jobs=jobs,
         keys=keys,
         labels=labels,
+        spin_note=spin,
     )
 
 
@@ -215,6 +219,8 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")
+    if prep.spin_note is not None:
+        notes.append(prep.spin_note)
     metal = transition_metal_note(prep.atomic_numbers, spec)
     if metal is not None:
         notes.append(f"warning: {metal}")
@@ -223,7 +229,8 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
         source_kind="engine",
         program="PySCF",
         program_version=pyscf.__version__,
-        method="HF" if spec.is_hf else spec.method.upper(),
+        method=("U" if spec.is_unrestricted else "")
+        + ("HF" if spec.is_hf else spec.method.upper()),
         basis=spec.basis,
         masses=DEFAULT_MASSES_NOTE if prep.default_masses else "given by the caller",
         notes=tuple(notes),

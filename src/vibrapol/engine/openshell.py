@@ -194,3 +194,58 @@ def reference_spin_note(
     s2 = spin_square_of_density(density, mol.intor_symmetric("int1e_ovlp"))
     check_spin_contamination(s2, spec, "reference geometry")
     return spin_note(s2, spec)
+
+
+#: Largest relative deviation of the reference Hessian and α from the point group's symmetry
+#: accepted for an open shell (the closed-shell references meet it by far: SCF noise ≈ 1e-9).
+SYMMETRY_TOLERANCE = 1e-5
+
+
+def symmetry_deviation(
+    operations: np.ndarray,
+    permutations: np.ndarray,
+    hessian: np.ndarray,
+    alpha: np.ndarray,
+) -> float:
+    """Largest relative deviation of the Hessian and α from the given operations.
+
+    A solution with the nuclei's symmetry has H_{π(i)π(j)} = R H_ij Rᵀ for every operation R
+    carrying atom i onto π(i), and R α Rᵀ = α.
+    """
+    n = hessian.shape[0] // 3
+    h = np.asarray(hessian).reshape(n, 3, n, 3).transpose(0, 2, 1, 3)
+    a = np.asarray(alpha)
+    worst = 0.0
+    for r, perm in zip(operations, permutations, strict=True):
+        image = np.einsum("ab,ijbc,dc->ijad", r, h, r)
+        moved = np.empty_like(h)
+        moved[np.ix_(perm, perm)] = image
+        worst = max(worst, float(np.abs(moved - h).max() / max(np.abs(h).max(), 1e-300)))
+        worst = max(worst, float(np.abs(r @ a @ r.T - a).max() / max(np.abs(a).max(), 1e-300)))
+    return worst
+
+
+def check_symmetric_solution(
+    operations: np.ndarray,
+    permutations: np.ndarray,
+    hessian: np.ndarray,
+    alpha: np.ndarray,
+    spec: MethodSpec,
+    group_symbol: str,
+) -> None:
+    """Refuse an open-shell reference whose solution breaks the symmetry the tasks will use.
+
+    A UHF/UKS solution can have lower symmetry than the nuclei (symmetry breaking); the
+    symmetry-reduced routes would then rebuild ∂α from the wrong images.
+
+    Raises
+    ------
+    EngineInputError
+        When :func:`symmetry_deviation` exceeds :data:`SYMMETRY_TOLERANCE`.
+    """
+    deviation = symmetry_deviation(operations, permutations, hessian, alpha)
+    if deviation > SYMMETRY_TOLERANCE:
+        raise EngineInputError(
+            f"the {spec.label()} solution breaks the {group_symbol} symmetry of the nuclei "
+            f"(Hessian or alpha off by {deviation:.1e} relative): rerun with --no-use-symmetry"
+        )

@@ -17,7 +17,7 @@ from vibrapol.engine import stages
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.fieldplan import FieldPlan
-from vibrapol.engine.openshell import reference_spin_note
+from vibrapol.engine.openshell import check_symmetric_solution, reference_spin_note
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
@@ -27,6 +27,7 @@ from vibrapol.engine.routes import (
     choose_route,
     derivatives,
     dipole_derivatives,
+    grid_operations,
     make_jobs,
     route_name,
 )
@@ -113,6 +114,13 @@ def prepare(
     report.stage("reference SCF, analytic Hessian, polarizability and gradient")
     ref, reused_ref = stages.reference(z, coords, spec, store)
     spin = reference_spin_note(z, coords, spec, ref.density)  # open shells: <S^2>
+    if spec.is_unrestricted and group is not None and group.order > 1:
+        ops, perms = group.operations, group.permutations
+        if not spec.is_hf:
+            ops, perms = grid_operations(ops, perms)
+        check_symmetric_solution(
+            ops, perms, ref.hessian_hartree_bohr2, ref.alpha_ang3, spec, group.symbol
+        )
     harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
     wanted = (
         ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)

@@ -6,8 +6,9 @@ its expectation value
 
     ⟨S²⟩ = S_z(S_z + 1) + N_β − Σ_ij |⟨φ_iα|φ_jβ⟩|²  = S_z(S_z + 1) + N_β − tr(D_α S D_β S)
 
-(A. Szabo and N. S. Ostlund, *Modern Quantum Chemistry*, 1989, eq. 3.191 (from memory); for
-UKS it is that of the Kohn–Sham determinant, as PySCF's ``spin_square`` reports it) exceeds
+(A. Szabo and N. S. Ostlund, *Modern Quantum Chemistry*, 1989, ch. 3, from memory; checked
+against PySCF's ``spin_square`` in the tests; for UKS it is that of the Kohn–Sham determinant,
+as PySCF reports it) exceeds
 the exact S(S + 1) by the admixture of higher spin states.  Thresholds on the deviation
 Δ = ⟨S²⟩ − S(S + 1):
 
@@ -20,7 +21,8 @@ the exact S(S + 1) by the admixture of higher spin states.  Thresholds on the de
   scale: with that much of another state, the energy surface, its Hessian and α belong to a
   mixture, UHF solutions at displaced geometries or in fields can change character, and the
   finite differences of the routes lose their meaning.  The allyl radical at UHF/STO-3G
-  (⟨S²⟩ ≈ 1.12, Δ ≈ 0.37) is refused; most σ radicals (OH, NO₂, CH₃: Δ < 0.02) pass.
+  (⟨S²⟩ ≈ 1.12, Δ ≈ 0.37) is refused; the small radicals tried here (OH, NO₂, CH₃ at
+UHF/STO-3G: Δ < 0.02) pass.
 
 Every SCF of an open-shell run is checked against the refusal level (the reference, each
 displaced geometry and each field), so that a task that converges onto a more contaminated

@@ -28,6 +28,8 @@ SCF_CONV_TOL = 1e-11
 SCF_CONV_TOL_GRAD = 1e-7
 #: Maximum SCF iterations before the engine gives up.
 SCF_MAX_CYCLE = 200
+#: Iterations of the last attempt for an open shell (UHF/UKS) that has not converged.
+OPEN_SHELL_MAX_CYCLE = 1000
 
 _HF_NAMES = {"hf", "rhf", "scf"}
 
@@ -241,7 +243,7 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         raise EngineInputError(
             f"{n_electrons} electrons (charge {spec.charge}) cannot be closed-shell "
             "with multiplicity 1; "
-            "check --charge"
+            "check --charge, or give --multiplicity 2 for a radical"
         )
     check_functional(spec.method)
     check_basis(spec.basis, z)
@@ -308,8 +310,9 @@ def converge(mf, dm0=None, restart=None):  # noqa: ANN001, ANN201
 
     The second attempt runs on ``restart()`` (a fresh SCF object) when given, else on ``mf``
     itself; it starts from the default guess with a 0.3 hartree level shift, then removes the
-    shift and converges from that density.  Returns the SCF object of the last attempt; the
-    caller checks ``converged``.  A ``dm0`` of the wrong shape is ignored.
+    shift and converges from that density; an open shell that still has not converged gets a
+    third attempt with :data:`OPEN_SHELL_MAX_CYCLE` iterations.  Returns the SCF object of the
+    last attempt; the caller checks ``converged``.  A ``dm0`` of the wrong shape is ignored.
     """
     shape = (mf.mol.nao, mf.mol.nao)
     if getattr(mf, "istype", None) is not None and mf.istype("UHF"):
@@ -324,6 +327,13 @@ def converge(mf, dm0=None, restart=None):  # noqa: ANN001, ANN201
         mf.kernel()
         mf.level_shift = 0.0
         mf.kernel(dm0=mf.make_rdm1())
+    if not mf.converged and shape[0] == 2:
+        # An open shell near a UHF instability (NO2 in a field across its C2 axis) converges,
+        # but slowly: a third attempt goes on from the last density with more cycles.
+        cycles = mf.max_cycle
+        mf.max_cycle = OPEN_SHELL_MAX_CYCLE
+        mf.kernel(dm0=mf.make_rdm1())
+        mf.max_cycle = cycles
     return mf
 
 

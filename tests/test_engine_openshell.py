@@ -41,6 +41,9 @@ CH3_C1_ANG = np.array(
     [[0.02, -0.01, 0.05], [0.05, 0.1, 1.07], [0.93, -0.12, -0.5], [-0.91, 0.2, -0.58]]
 )
 UHF = MethodSpec("hf", "sto-3g", 0, 2)
+#: Triplet methylene, bent (our own model geometry, distorted to C1).
+CH2_Z = np.array([6, 1, 1])
+CH2_C1_ANG = np.array([[0.0, 0.02, 0.1], [0.03, 0.99, -0.45], [-0.05, -0.98, -0.5]])
 
 #: Allyl radical, planar C2v model geometry (our own, C–C 1.42 Å, C–H 1.08 Å).
 ALLYL_Z = np.array([6, 6, 6, 1, 1, 1, 1, 1])
@@ -68,13 +71,21 @@ def _xyz(path, z, coords) -> str:
     return str(path)
 
 
-@pytest.mark.parametrize("method", ["hf", pytest.param("b3lyp", marks=pytest.mark.slow)])
-def test_unrestricted_cphf_alpha_matches_field_energy_differences(method):
+@pytest.mark.parametrize(
+    ("method", "z", "coords", "multiplicity"),
+    [
+        ("hf", CH3_Z, CH3_C1_ANG, 2),
+        ("hf", CH2_Z, CH2_C1_ANG, 3),
+        pytest.param("b3lyp", CH3_Z, CH3_C1_ANG, 2, marks=pytest.mark.slow),
+    ],
+)
+def test_unrestricted_cphf_alpha_matches_field_energy_differences(method, z, coords, multiplicity):
     # Check: α_ab = −∂²E/∂F_a∂F_b, by central differences (F = 1e-3 au) of PySCF's UHF/UKS
-    # energy with +F·r in the core Hamiltonian (fieldgrad.field_energy).  The O(F²) truncation
-    # and SCF noise (1e-12 hartree / F²) stay below 1e-5 relative here.
-    spec = MethodSpec(method, "sto-3g", 0, 2)
-    mol = build_molecule(CH3_Z, CH3_C1_ANG, spec)
+    # energy with +F·r in the core Hamiltonian (fieldgrad.field_energy); a doublet (CH3) and a
+    # triplet (CH2).  The O(F²) truncation and SCF noise (1e-12 hartree / F²) stay below 1e-5
+    # relative here.
+    spec = MethodSpec(method, "sto-3g", 0, multiplicity)
+    mol = build_molecule(z, coords, spec)
     mf = run_scf(mol, spec)
     alpha = cphf_polarizability(mf)  # dispatches to the unrestricted equations
     f = 1e-3
@@ -268,3 +279,22 @@ def test_charge_and_multiplicity_parity_errors(z, charge, multiplicity, message)
     with pytest.raises(EngineInputError) as info:
         build_molecule(z, CH3_D3H_ANG, spec)
     assert message in str(info.value) and "\n" not in str(info.value)
+
+
+def test_resumed_run_reports_the_same_spin_square(tmp_path):
+    # Contract: a rerun that takes the reference from the checkpoint (no SCF) reports the same
+    # <S^2> (from the stored alpha and beta densities) and the same derivatives.
+    runs = []
+    for _ in range(2):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", OpenShellWarning)
+            runs.append(
+                run_engine(
+                    (CH3_Z, CH3_D3H_ANG), "hf", "sto-3g", multiplicity=2, route="field",
+                    optimize=False, checkpoint=tmp_path / "ch3.sqlite",
+                )
+            )  # fmt: skip
+    assert runs[1].reused_reference and runs[1].tasks.n_reused == runs[1].tasks.n_tasks
+    notes = [[n for n in r.modes.provenance.notes if "<S^2>" in n] for r in runs]
+    assert notes[0] == notes[1] and len(notes[0]) == 1
+    np.testing.assert_array_equal(runs[0].modes.dalpha_dx, runs[1].modes.dalpha_dx)

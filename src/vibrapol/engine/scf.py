@@ -351,7 +351,8 @@ def run_scf(
     mf = converge(build_scf(mol, spec), dm0, restart=lambda: build_scf(mol, spec))
     if not mf.converged:
         raise EngineConvergenceError(
-            f"{spec.label()} SCF did not converge at the {where} in {SCF_MAX_CYCLE} cycles; "
+            f"{spec.label()} SCF did not converge at the {where} in "
+            f"{OPEN_SHELL_MAX_CYCLE if spec.is_unrestricted else SCF_MAX_CYCLE} cycles; "
             "check the structure (units, missing atoms) and the charge"
         )
     if spec.is_unrestricted:  # refuse a solution too spin-contaminated to differentiate

@@ -58,8 +58,7 @@ def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | Non
 
     UHF/UKS for an open-shell ``spec`` (the field acts on both spins; the gradient's field
     term takes the total density).  Its ``e_tot`` is the electronic energy plus nuclear
-    repulsion; add
-    :func:`nuclear_field_energy` for E(F).
+    repulsion; add :func:`nuclear_field_energy` for E(F).
 
     Raises
     ------

@@ -220,8 +220,9 @@ def test_open_shell_solution_keeps_the_nuclear_symmetry(ch3_reference):
 def test_field_route_agrees_with_cartesian_route_for_a_doublet():
     # Contract between routes: ∂α/∂x of the field route (UHF gradients in fields) and of the
     # Cartesian route (UHF + unrestricted CPHF at displaced geometries) agree; both use D3h.
+    # The normal-mode route (∂α/∂Q only) gives the same Raman invariants.
     runs = {}
-    for route in ("cartesian", "field"):
+    for route in ("cartesian", "field", "normal-mode"):
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", OpenShellWarning)
             runs[route] = run_engine(
@@ -230,6 +231,9 @@ def test_field_route_agrees_with_cartesian_route_for_a_doublet():
     a, b = runs["cartesian"].modes.dalpha_dx, runs["field"].modes.dalpha_dx
     assert runs["field"].point_group == "D3h"
     assert np.abs(a - b).max() < 2e-4 * np.abs(a).max()
+    ref = np.array(runs["cartesian"].modes.raman_invariants())
+    normal = np.array(runs["normal-mode"].modes.raman_invariants())
+    assert np.abs(normal - ref).max() < 1e-3 * np.abs(ref).max()
     prov = runs["field"].modes.provenance
     assert prov.method == "UHF"
     assert any("multiplicity 2" in n and "<S^2> = 0.765" in n for n in prov.notes)

@@ -122,7 +122,8 @@ def test_resume_after_sigkill_computes_only_the_missing_tasks(water_file, tmp_pa
         (["--method", "nosuchfunctional"], WATER_XYZ, "unknown method 'nosuchfunctional'"),
         (["--basis", "nosuchbasis"], WATER_XYZ, "unknown basis 'nosuchbasis'"),
         (["--charge", "1"], WATER_XYZ, "9 electrons (charge 1) cannot be closed-shell"),
-        (["--multiplicity", "3"], WATER_XYZ, "open-shell molecules are not supported yet"),
+        (["--multiplicity", "2"], WATER_XYZ, "10 electrons (charge 0) cannot have multiplicity 2"),
+        (["--multiplicity", "0"], WATER_XYZ, "multiplicity must be 1 or more"),
         (["--step-ang", "-1"], WATER_XYZ, "displacement step must be in"),
     ],
 )

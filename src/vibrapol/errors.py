@@ -45,3 +45,7 @@ class ChangedValuesWarning(VibrapolWarning):
 
     The message says which numbers changed and how (e.g. ``--symmetrize``).
     """
+
+
+class OpenShellWarning(AccuracyWarning):
+    """An open-shell (spin-unrestricted) reference: its ⟨S²⟩ and spin contamination."""

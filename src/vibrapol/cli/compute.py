@@ -80,7 +80,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="2S+1",
         type=int,
         default=1,
-        help="spin multiplicity; only 1 (closed shell) is supported (default: 1)",
+        help="spin multiplicity: 1 closed shell (RHF/RKS); 2, 3 … open shell (UHF/UKS), "
+        "its <S^2> reported and refused when badly spin-contaminated (default: 1)",
     )
     parser.add_argument(
         "--optimize",

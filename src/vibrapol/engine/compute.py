@@ -101,7 +101,8 @@ def compute_modes(
     atoms : ase.Atoms or (atomic_numbers, coordinates_ang)
         The structure; coordinates in Å.
     method : str
-        ``"hf"`` or a DFT functional name (``"b3lyp"``, ``"pbe0"`` …); closed shell only.
+        ``"hf"`` or a DFT functional name (``"b3lyp"``, ``"pbe0"`` …); spin-unrestricted
+        (UHF/UKS) when ``multiplicity`` is above 1.
     basis : str
         Basis-set name PySCF knows.
     **options
@@ -117,7 +118,9 @@ def compute_modes(
     Other Parameters
     ----------------
     charge, multiplicity : int
-        Total charge; multiplicity must be 1.
+        Total charge and spin multiplicity 2S+1.  Above 1 the references are UHF/UKS; ⟨S²⟩ is
+        reported (provenance, :class:`~vibrapol.errors.OpenShellWarning`) and a badly
+        spin-contaminated reference is refused (:mod:`vibrapol.engine.openshell`).
     optimize : bool
         Minimise the energy first (see :mod:`vibrapol.engine.optimize`).
     optimizer : {"internal", "cartesian-bfgs"}
@@ -166,7 +169,8 @@ def compute_modes(
     Raises
     ------
     EngineInputError
-        Unknown method, basis, element, route, or an electron count that is not closed-shell.
+        Unknown method, basis, element, route, an electron count that does not fit the
+        multiplicity, or a badly spin-contaminated open-shell reference.
     EngineConvergenceError
         An SCF or the optimisation did not converge.
     """

@@ -33,6 +33,9 @@ DFT_SCF_FACTOR = 9.0
 DFT_HESSIAN_FACTOR = 3.4
 #: Field-route tasks without symmetry (12 field gradients, :mod:`vibrapol.engine.fieldplan`).
 FIELD_TASKS = 12
+#: Open shells (UHF/UKS) cost about this many times the closed-shell run of the same atoms
+#: (bench/open_shell.py, 6-31G*: B3LYP 1.7–2.4 for CH3 and H2O+, HF 0.8–1.5, noise-dominated).
+OPEN_SHELL_FACTOR = 2.0
 
 #: ``vibrapol compute`` prints the estimate of a structure above this (seconds: ten minutes).
 ANNOUNCE_ABOVE_S = 600.0
@@ -79,6 +82,9 @@ def estimate_cost(n_atoms: int, n_basis: int, spec: MethodSpec) -> CostEstimate:
     if not spec.is_hf:
         scf *= DFT_SCF_FACTOR
         hessian *= DFT_HESSIAN_FACTOR
+    if spec.is_unrestricted:
+        scf *= OPEN_SHELL_FACTOR
+        hessian *= OPEN_SHELL_FACTOR
     # A field task: tight SCF from the reference density plus a gradient (about one SCF).
     tasks = FIELD_TASKS * FIELD_TASK_FACTOR * 2.0 * scf
     return CostEstimate(int(n_atoms), int(n_basis), scf + hessian, tasks)

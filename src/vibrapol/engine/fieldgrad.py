@@ -56,8 +56,9 @@ def nuclear_field_energy(mol, field_au: np.ndarray) -> float:
 def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | None = None):
     """A converged RHF/RKS object with +F·r added to its core Hamiltonian.
 
-    Its ``e_tot`` is the electronic energy plus nuclear repulsion; add
-    :func:`nuclear_field_energy` for E(F).
+    UHF/UKS for an open-shell ``spec`` (the field acts on both spins; the gradient's field
+    term takes the total density).  Its ``e_tot`` is the electronic energy plus nuclear
+    repulsion; add :func:`nuclear_field_energy` for E(F).
 
     Raises
     ------
@@ -76,6 +77,10 @@ def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | Non
             f"{spec.label()} SCF did not converge in the field {np.round(f, 5).tolist()} au; "
             "try a smaller --field-au or another route"
         )
+    if spec.is_unrestricted:  # refuse a solution too spin-contaminated to differentiate
+        from vibrapol.engine.openshell import check_scf_spin
+
+        check_scf_spin(mf, spec, f"field {np.round(f, 5).tolist()} au")
     return mf
 
 

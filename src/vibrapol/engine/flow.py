@@ -9,6 +9,7 @@ step fails that molecule only (one line) unless the run raises its errors.
 
 from __future__ import annotations
 
+import warnings
 from time import perf_counter
 
 import numpy as np
@@ -16,11 +17,18 @@ import numpy as np
 from vibrapol.engine import stages
 from vibrapol.engine.executors import Backend
 from vibrapol.engine.optimize import OptimizationResult
-from vibrapol.engine.prepare import Molecule, assemble, impose_symmetry, plan_route
+from vibrapol.engine.prepare import (
+    Molecule,
+    assemble,
+    check_open_shell_symmetry,
+    check_spin,
+    impose_symmetry,
+    plan_route,
+)
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.runner import TaskRunner, TaskStats
 from vibrapol.engine.settings import EngineSettings
-from vibrapol.errors import VibrapolError
+from vibrapol.errors import OpenShellWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 
 #: The names of the stages (by their jobs' checkpoint kinds) in EngineRun.reused_stages.
@@ -125,7 +133,9 @@ class Flow:
             m.reused |= {"reference SCF", "Hessian"}
             self._say(k, "reference SCF, Hessian and polarizability: taken from the checkpoint")
             m.reference = old
+            self._spin(k)
             m.add_hessian(old)
+            check_open_shell_symmetry(m, self.settings)
             plan_route(m, self.settings)
             self._tasks(k)
             return
@@ -134,6 +144,7 @@ class Flow:
     def _scf_done(self, k: int, scf: stages.ScfResult, seconds: float, reused: bool) -> None:
         m = self.molecules[k]
         m.reference = scf.reference
+        self._spin(k)
         planned = plan_route(m, self.settings)
         if m.needs_hessian:  # sent first: on a busy pool the longest stage starts first
             job = stages.HessianJob.after(
@@ -147,11 +158,18 @@ class Flow:
         m = self.molecules[k]
         assert m.reference is not None
         m.add_hessian(stages.with_hessian(m.reference, hessian, seconds))
+        check_open_shell_symmetry(m, self.settings)
         if m.plan is None:
             plan_route(m, self.settings)
             self._tasks(k)
         else:
             self._assemble_when_ready(k)
+
+    def _spin(self, k: int) -> None:
+        """⟨S²⟩ of an open-shell reference: refused when meaningless, else announced."""
+        note = check_spin(self.molecules[k], self.settings)
+        if note is not None:
+            warnings.warn(f"{self.molecules[k].name}: {note}", OpenShellWarning, stacklevel=2)
 
     def _tasks(self, k: int) -> None:
         m = self.molecules[k]

@@ -1,4 +1,4 @@
-"""Analytic Hessian of a closed-shell SCF, in the package's (3N, 3N) atom-major layout."""
+"""Analytic Hessian of an SCF (RHF/RKS, or UHF/UKS for open shells), (3N, 3N) atom-major."""
 
 from __future__ import annotations
 
@@ -10,7 +10,8 @@ def analytic_hessian(mf) -> np.ndarray:
 
     Parameters
     ----------
-    mf : converged pyscf RHF or RKS object
+    mf : converged pyscf RHF, RKS, UHF or UKS object (PySCF's ``hessian.uhf``/``uks`` for the
+        unrestricted ones)
 
     Returns
     -------

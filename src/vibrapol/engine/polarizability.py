@@ -40,13 +40,18 @@ def cphf_polarizability(mf) -> np.ndarray:
     Parameters
     ----------
     mf : pyscf.scf.hf.RHF or pyscf.dft.rks.RKS
-        Converged restricted SCF object.
+        Converged restricted SCF object (a UHF/UKS object is passed on to
+        :func:`vibrapol.engine.openshell.ucphf_polarizability`).
 
     Returns
     -------
     ndarray, shape (3, 3)
         Symmetric α in bohr³.
     """
+    if mf.istype("UHF"):  # open shell: the spin-unrestricted equations
+        from vibrapol.engine.openshell import ucphf_polarizability
+
+        return ucphf_polarizability(mf)
     from pyscf.scf import cphf
 
     mol = mf.mol

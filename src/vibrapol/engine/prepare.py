@@ -24,6 +24,7 @@ from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.evaluate import ReferenceResult
 from vibrapol.engine.fieldplan import FieldPlan
+from vibrapol.engine.openshell import check_symmetric_solution, reference_spin_note
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
@@ -33,6 +34,7 @@ from vibrapol.engine.routes import (
     choose_route,
     derivatives,
     dipole_derivatives,
+    grid_operations,
     make_jobs,
     route_name,
 )
@@ -117,6 +119,7 @@ class Molecule:
     jobs: list = field(default_factory=list)
     keys: list[str] = field(default_factory=list)
     labels: tuple[str, ...] = ()
+    spin_note: str | None = None
 
     def add_hessian(self, reference: ReferenceResult) -> None:
         """Take the completed reference and do the harmonic analysis."""
@@ -150,6 +153,35 @@ def impose_symmetry(m: Molecule, report: Progress, prefix: str = "") -> None:
         f"{prefix}point group {group.symbol}; geometry symmetrized (max shift {shift:.1e} Å)"
     )
     m.coordinates_ang = symmetric
+
+
+def check_spin(m: Molecule, settings: EngineSettings) -> str | None:
+    """⟨S²⟩ of an open-shell reference (its sentence, kept in ``m``; None for a closed shell).
+
+    Raises :class:`~vibrapol.engine.scf.EngineInputError` (via
+    :func:`~vibrapol.engine.openshell.reference_spin_note`) when the spin contamination makes
+    the result meaningless.
+    """
+    assert m.reference is not None
+    m.spin_note = reference_spin_note(
+        m.atomic_numbers, m.coordinates_ang, settings.spec, m.reference.density
+    )
+    return m.spin_note
+
+
+def check_open_shell_symmetry(m: Molecule, settings: EngineSettings) -> None:
+    """Refuse an open-shell solution that breaks the symmetry the tasks use (after the Hessian)."""
+    spec, group, ref = settings.spec, m.group, m.reference
+    if not spec.is_unrestricted or group is None or group.order == 1 or ref is None:
+        return
+    if ref.hessian_hartree_bohr2 is None:
+        return
+    ops, perms = group.operations, group.permutations
+    if not spec.is_hf:
+        ops, perms = grid_operations(ops, perms)
+    check_symmetric_solution(
+        ops, perms, ref.hessian_hartree_bohr2, ref.alpha_ang3, spec, group.symbol
+    )
 
 
 def plan_route(m: Molecule, settings: EngineSettings) -> bool:
@@ -251,6 +283,8 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")
+    if prep.spin_note is not None:
+        notes.append(prep.spin_note)
     metal = transition_metal_note(prep.atomic_numbers, spec)
     if metal is not None:
         notes.append(f"warning: {metal}")
@@ -259,7 +293,8 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
         source_kind="engine",
         program="PySCF",
         program_version=pyscf.__version__,
-        method="HF" if spec.is_hf else spec.method.upper(),
+        method=("U" if spec.is_unrestricted else "")
+        + ("HF" if spec.is_hf else spec.method.upper()),
         basis=spec.basis,
         masses=DEFAULT_MASSES_NOTE if prep.default_masses else "given by the caller",
         notes=tuple(notes),

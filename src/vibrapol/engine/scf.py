@@ -2,8 +2,10 @@
 
 The engine supports closed-shell restricted Hartree–Fock (``method="hf"``) and restricted
 Kohn–Sham DFT with any exchange–correlation functional name libxc knows (``"b3lyp"``,
-``"pbe0"``, ``"pbe"`` …).  Bad input (unknown element, basis or functional, an electron count
-that cannot be closed-shell) raises :class:`EngineInputError` with one line saying what to do.
+``"pbe0"``, ``"pbe"`` …); with a multiplicity above 1 their spin-unrestricted forms (UHF, UKS;
+:mod:`vibrapol.engine.openshell`).  Bad input (unknown element, basis or functional, an
+electron count that does not fit the multiplicity) raises :class:`EngineInputError` with one
+line saying what to do.
 """
 
 from __future__ import annotations
@@ -26,6 +28,8 @@ SCF_CONV_TOL = 1e-11
 SCF_CONV_TOL_GRAD = 1e-7
 #: Maximum SCF iterations before the engine gives up.
 SCF_MAX_CYCLE = 200
+#: Iterations of the last attempt for an open shell (UHF/UKS) that has not converged.
+OPEN_SHELL_MAX_CYCLE = 1000
 
 _HF_NAMES = {"hf", "rhf", "scf"}
 
@@ -56,7 +60,8 @@ class MethodSpec:
     charge : int
         Total charge of the molecule.
     multiplicity : int
-        Spin multiplicity 2S+1; only 1 (closed shell) is supported.
+        Spin multiplicity 2S+1; 1 is a closed shell (RHF/RKS), 2, 3 … open shells
+        (UHF/UKS, :mod:`vibrapol.engine.openshell`).
     cartesian_d : bool
         Use Cartesian (6d, 10f) instead of spherical functions; much of the older literature
         used 6d with Pople basis sets, PySCF's default is spherical.
@@ -77,10 +82,38 @@ class MethodSpec:
         """True for Hartree–Fock, False for Kohn–Sham DFT."""
         return self.method in _HF_NAMES
 
+    @property
+    def is_unrestricted(self) -> bool:
+        """True for an open shell (multiplicity > 1): UHF or UKS."""
+        return self.multiplicity > 1
+
     def label(self) -> str:
         """Short text such as ``HF/6-31g*`` for provenance and messages."""
         name = "HF" if self.is_hf else self.method.upper()
+        if self.is_unrestricted:
+            name = f"U{name}"
         return f"{name}/{self.basis}" + (" (6d)" if self.cartesian_d else "")
+
+
+def check_spin_parity(n_electrons: int, spec: MethodSpec) -> None:
+    """Raise :class:`EngineInputError` unless ``n_electrons`` fits ``spec.multiplicity``.
+
+    2S + 1 = M needs 2S = M − 1 unpaired electrons: the electron count and M − 1 must be both
+    even or both odd, and there must be at least M − 1 electrons.
+    """
+    unpaired = spec.multiplicity - 1
+    if (n_electrons - unpaired) % 2:
+        kind, fits = ("odd", "2, 4, 6 …") if n_electrons % 2 else ("even", "1, 3, 5 …")
+        raise EngineInputError(
+            f"{n_electrons} electrons (charge {spec.charge}) cannot have multiplicity "
+            f"{spec.multiplicity}: an {kind} number of electrons needs multiplicity {fits}; "
+            "check --charge and --multiplicity"
+        )
+    if unpaired > n_electrons:
+        raise EngineInputError(
+            f"multiplicity {spec.multiplicity} needs {unpaired} unpaired electrons, but there "
+            f"are only {n_electrons} (charge {spec.charge}); check --multiplicity"
+        )
 
 
 def check_functional(method: str) -> None:
@@ -164,14 +197,14 @@ def transition_metal_note(atomic_numbers: np.ndarray, spec: MethodSpec) -> str |
         return None
     names = ", ".join(ELEMENTS[z] for z in metals)
     return (
-        f"transition metal ({names}) computed as a closed-shell singlet, the only state the "
-        "engine runs; many such molecules have an open-shell ground state: check it with "
-        "another program before trusting these modes"
+        f"transition metal ({names}) computed as a closed-shell singlet (multiplicity 1, the "
+        "default); many such molecules have an open-shell ground state: check it with "
+        "another program and give --multiplicity if it is not a singlet"
     )
 
 
 def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec):
-    """A built :class:`pyscf.gto.Mole` for a closed-shell calculation.
+    """A built :class:`pyscf.gto.Mole` (closed shell, or open shell for multiplicity > 1).
 
     Parameters
     ----------
@@ -182,8 +215,7 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
     Raises
     ------
     EngineInputError
-        Unknown element or basis, an open-shell multiplicity, or an electron count that does
-        not fit the multiplicity.
+        Unknown element or basis, or an electron count that does not fit the multiplicity.
     """
     from pyscf import gto
     from pyscf.lib.exceptions import BasisNotFoundError
@@ -206,15 +238,12 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
     if spec.multiplicity < 1:
         raise EngineInputError(f"multiplicity must be 1 or more, got {spec.multiplicity}")
     if spec.multiplicity != 1:
-        raise EngineInputError(
-            f"multiplicity {spec.multiplicity}: open-shell molecules are not supported yet "
-            "(the engine runs closed-shell RHF/RKS only)"
-        )
-    if n_electrons % 2:
+        check_spin_parity(n_electrons, spec)
+    elif n_electrons % 2:
         raise EngineInputError(
             f"{n_electrons} electrons (charge {spec.charge}) cannot be closed-shell "
             "with multiplicity 1; "
-            "check --charge"
+            "check --charge, or give --multiplicity 2 for a radical"
         )
     check_functional(spec.method)
     check_basis(spec.basis, z)
@@ -242,6 +271,12 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         ) from exc
     if mol.nao == 0:
         raise EngineInputError(f"basis {spec.basis!r} has no functions for these elements")
+    n_alpha = (n_electrons + spec.multiplicity - 1) // 2
+    if spec.multiplicity != 1 and n_alpha > mol.nao:
+        raise EngineInputError(
+            f"multiplicity {spec.multiplicity} needs {n_alpha} alpha electrons, more than the "
+            f"{mol.nao} orbitals of basis {spec.basis!r}; check --multiplicity"
+        )
     if n_electrons > 2 * mol.nao:
         raise EngineInputError(
             f"charge {spec.charge} gives {n_electrons} electrons, more than the {mol.nao} "
@@ -251,10 +286,14 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
 
 
 def build_scf(mol, spec: MethodSpec):
-    """An unconverged RHF or RKS object with the engine's tight convergence settings."""
+    """An unconverged RHF/RKS (open shell: UHF/UKS) object with the engine's tight settings."""
     from pyscf import dft, scf
 
-    if spec.is_hf:
+    if spec.is_unrestricted:
+        mf = scf.UHF(mol) if spec.is_hf else dft.UKS(mol)
+        if not spec.is_hf:
+            mf.xc = spec.method
+    elif spec.is_hf:
         mf = scf.RHF(mol)
     else:
         mf = dft.RKS(mol)
@@ -271,10 +310,14 @@ def converge(mf, dm0=None, restart=None):  # noqa: ANN001, ANN201
 
     The second attempt runs on ``restart()`` (a fresh SCF object) when given, else on ``mf``
     itself; it starts from the default guess with a 0.3 hartree level shift, then removes the
-    shift and converges from that density.  Returns the SCF object of the last attempt; the
-    caller checks ``converged``.  A ``dm0`` of the wrong shape is ignored.
+    shift and converges from that density; an open shell that still has not converged gets a
+    third attempt with :data:`OPEN_SHELL_MAX_CYCLE` iterations.  Returns the SCF object of the
+    last attempt; the caller checks ``converged``.  A ``dm0`` of the wrong shape is ignored.
     """
-    if dm0 is not None and np.shape(dm0) != (mf.mol.nao, mf.mol.nao):
+    shape = (mf.mol.nao, mf.mol.nao)
+    if getattr(mf, "istype", None) is not None and mf.istype("UHF"):
+        shape = (2, *shape)  # UHF/UKS: alpha and beta densities
+    if dm0 is not None and np.shape(dm0) != shape:
         dm0 = None
     mf.kernel(dm0=dm0)
     if not mf.converged:
@@ -284,6 +327,13 @@ def converge(mf, dm0=None, restart=None):  # noqa: ANN001, ANN201
         mf.kernel()
         mf.level_shift = 0.0
         mf.kernel(dm0=mf.make_rdm1())
+    if not mf.converged and shape[0] == 2:
+        # An open shell near a UHF instability (NO2 in a field across its C2 axis) converges,
+        # but slowly: a third attempt goes on from the last density with more cycles.
+        cycles = mf.max_cycle
+        mf.max_cycle = OPEN_SHELL_MAX_CYCLE
+        mf.kernel(dm0=mf.make_rdm1())
+        mf.max_cycle = cycles
     return mf
 
 
@@ -301,7 +351,12 @@ def run_scf(
     mf = converge(build_scf(mol, spec), dm0, restart=lambda: build_scf(mol, spec))
     if not mf.converged:
         raise EngineConvergenceError(
-            f"{spec.label()} SCF did not converge at the {where} in {SCF_MAX_CYCLE} cycles; "
+            f"{spec.label()} SCF did not converge at the {where} in "
+            f"{OPEN_SHELL_MAX_CYCLE if spec.is_unrestricted else SCF_MAX_CYCLE} cycles; "
             "check the structure (units, missing atoms) and the charge"
         )
+    if spec.is_unrestricted:  # refuse a solution too spin-contaminated to differentiate
+        from vibrapol.engine.openshell import check_scf_spin
+
+        check_scf_spin(mf, spec, where)
     return mf

@@ -35,7 +35,7 @@ class EngineSettings:
     method, basis : str
         Electronic-structure method and basis set (stored lower case).
     charge, multiplicity : int
-        Total charge and spin multiplicity (only 1 is supported).
+        Total charge and spin multiplicity (1: RHF/RKS; 2, 3 …: UHF/UKS).
     optimize : bool
         Minimise the energy first.
     step_ang : float

@@ -35,6 +35,7 @@ from vibrapol.engine.scf import (
     transition_metal_note,
 )
 from vibrapol.engine.settings import EngineSettings
+from vibrapol.engine.solvent import allowed_routes
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
 from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
@@ -114,6 +115,7 @@ def prepare(
     wanted = (
         ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
     )
+    wanted = allowed_routes(wanted, spec.solvent)  # no field route in a solvent
     plans = {
         r: build_plan(
             r,
@@ -215,6 +217,7 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")
+    notes.extend(_model_notes(prep, settings))
     metal = transition_metal_note(prep.atomic_numbers, spec)
     if metal is not None:
         notes.append(f"warning: {metal}")
@@ -223,8 +226,26 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
         source_kind="engine",
         program="PySCF",
         program_version=pyscf.__version__,
-        method="HF" if spec.is_hf else spec.method.upper(),
+        method=spec.method_label,
         basis=spec.basis,
         masses=DEFAULT_MASSES_NOTE if prep.default_masses else "given by the caller",
         notes=tuple(notes),
     )
+
+
+def _model_notes(prep: Prepared, settings: EngineSettings) -> list[str]:
+    """Provenance lines of the solvent, the dispersion correction and the ECPs used."""
+    from vibrapol.engine.dispersion import dispersion_note
+    from vibrapol.engine.ecp import ecp_note
+    from vibrapol.engine.solvent import solvent_note
+
+    spec = settings.spec
+    notes = []
+    if spec.solvent is not None:
+        notes.append(solvent_note(spec.solvent))
+        if settings.route == "auto":
+            notes.append("field route not considered by auto: it cannot run with a solvent")
+    for note in (dispersion_note(spec.method), ecp_note(spec.basis, prep.atomic_numbers)):
+        if note is not None:
+            notes.append(note)
+    return notes

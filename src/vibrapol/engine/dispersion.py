@@ -46,7 +46,7 @@ SUFFIXES = {
     "d4": "d4",
 }
 
-_SUFFIX = re.compile(r"^(?P<base>.+?)-(?P<disp>d[34]\w*)$")
+_SUFFIX = re.compile(r"^(?P<base>.+?)-(?P<disp>d\d\w*)$")
 
 
 def split_dispersion(method: str) -> tuple[str, str | None]:
@@ -106,8 +106,7 @@ def check_dispersion(method: str) -> None:
         from pyscf.dispersion import dftd3, dftd4
     except ImportError as exc:
         raise EngineInputError(
-            f"--method {method!r} needs the pyscf-dispersion package (pip install "
-            "pyscf-dispersion)"
+            f"--method {method!r} needs the pyscf-dispersion package (pip install pyscf-dispersion)"
         ) from exc
     xc = "hf" if base in ("hf", "rhf", "scf") else base
     mol = gto.M(atom="H 0 0 0; H 0 0 0.74", basis="sto-3g", verbose=0)

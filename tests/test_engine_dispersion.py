@@ -55,8 +55,9 @@ def test_energy_differs_by_the_library_dispersion_energy(method, version):
 def test_hessian_includes_the_dispersion_correction():
     # Reference: central differences (±1e-3 bohr) of the analytic HF-D3BJ gradient of PySCF
     # (which includes the library's analytic dispersion gradient), SCFs converged to 1e-9 in
-    # the orbital gradient; HF is grid-free, so the differences are good to about 1e-6. The engine's Hessian and its
-    # frequencies must agree, and differ from plain HF by far more than that.
+    # the orbital gradient; HF is grid-free, so the differences are good to about 1e-6.
+    # The engine's Hessian and its frequencies must agree, and differ from plain HF by far
+    # more than that.
     spec = MethodSpec("hf-d3bj", "sto-3g")
     mol = build_molecule(WATER_Z, WATER_ANG, spec)
     mf = tighten_scf(run_scf(mol, spec), spec)

@@ -296,8 +296,10 @@ def build_scf(mol, spec: MethodSpec):
 
 
 def _with_models(mf, spec: MethodSpec):  # noqa: ANN001, ANN202
-    """``mf`` with the dispersion correction of HF-D (DFT: PySCF reads it from ``xc``) and the
-    continuum of ``spec.solvent``."""
+    """``mf`` with the dispersion of HF-D and the continuum of ``spec.solvent``.
+
+    For DFT PySCF reads the dispersion suffix from ``xc`` itself.
+    """
     from vibrapol.engine.dispersion import dispersion_version
 
     if spec.is_hf and dispersion_version(spec.method) is not None:

@@ -115,3 +115,29 @@ def test_solvated_alpha_matches_finite_field_of_the_nonequilibrium_energy():
     gas_spec = MethodSpec("hf", "sto-3g")
     gas = cphf_polarizability(run_scf(build_molecule(WATER_Z, WATER_ANG, gas_spec), gas_spec))
     assert np.abs(np.diag(alpha) - np.diag(gas)).max() > 50 * 2e-4 * np.abs(diag).max()
+
+
+def test_solvent_reaches_the_method_line_of_tables_and_figures():
+    # Contract: the level of theory printed in table headers and spectrum conditions names
+    # the solvent recorded by the engine, and stays "method/basis" without one.
+    from vibrapol.engine.solvent import solvent_note
+    from vibrapol.modeset import Provenance
+
+    note = solvent_note(solvent_model("water"))
+    solvated = Provenance(method="HF", basis="6-31g*", notes=(note,))
+    assert solvated.level_of_theory() == "HF/6-31g* in water (IEF-PCM, ε 78.355, ε∞ 1.7750)"
+    assert Provenance(method="HF", basis="6-31g*").level_of_theory() == "HF/6-31g*"
+
+
+@pytest.mark.slow
+def test_solvated_run_end_to_end_records_the_model():
+    # Contract: compute_modes in a solvent with route auto never takes the field route,
+    # records the model in the provenance, and its modes differ from the vacuum ones.
+    from vibrapol.engine.compute import run_engine
+
+    run = run_engine((WATER_Z, WATER_ANG), "hf", "sto-3g", solvent="water", optimize=False)
+    assert run.route != "field"
+    notes = " | ".join(run.modes.provenance.notes)
+    assert "solvent: water (IEF-PCM" in notes and "field route not considered" in notes
+    gas = run_engine((WATER_Z, WATER_ANG), "hf", "sto-3g", optimize=False, route=run.route)
+    assert np.abs(run.modes.freqs_cm1[-3:] - gas.modes.freqs_cm1[-3:]).max() > 1.0

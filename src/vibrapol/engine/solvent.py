@@ -208,8 +208,10 @@ def response_function(mf):  # noqa: ANN001, ANN201
 
 def solvent_note(model: SolventModel) -> str:
     """The provenance line of a solvated run."""
+    from vibrapol.modeset import SOLVENT_NOTE_PREFIX
+
     return (
-        f"solvent: {model.label()}; constants: {model.source}. Ground state, optimisation and "
+        f"{SOLVENT_NOTE_PREFIX}{model.label()}; constants: {model.source}. Ground state, optimisation and "
         "analytic Hessian in equilibrium with the static ε; polarizability (and its "
         "derivatives) non-equilibrium: slow reaction field frozen at the ground state, fast "
         "surface charges with the optical ε∞ in the coupled-perturbed equations; no "

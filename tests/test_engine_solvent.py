@@ -24,14 +24,14 @@ def test_named_solvent_constants_come_from_the_database():
     assert water.epsilon == solvent_db["water"][5] == 78.355
     assert water.epsilon_optical == pytest.approx(1.3323**2)
     # Fact of the trade (common practice): ε∞ = n² lies between 1 and 3 for these liquids;
-    # polar ones have ε ≫ ε∞, non-polar ones ε ≈ ε∞ (within 3 %, CS2's n² even exceeds ε).
+    # polar ones have ε ≫ ε∞, non-polar ones ε ≈ ε∞ (within 5 %, CS2's n² even exceeds ε).
     for name in ("water", "dmso", "acetonitrile"):
         m = solvent_model(name)
         assert 1.0 < m.epsilon_optical < 3.0 and m.epsilon > 10 * m.epsilon_optical
     for name in ("ccl4", "cs2", "cyclohexane", "benzene"):
         m = solvent_model(name)
         assert 1.0 < m.epsilon_optical < 3.0
-        assert m.epsilon == pytest.approx(m.epsilon_optical, rel=0.03)
+        assert m.epsilon == pytest.approx(m.epsilon_optical, rel=0.05)
 
 
 @pytest.mark.parametrize(

@@ -137,13 +137,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--epsilon",
         metavar="E",
         type=float,
-        help="static dielectric constant of a solvent not named (needs --epsilon-optical)",
+        help="static dielectric constant of a solvent not named (needs --epsilon-optical; "
+        "default: none, vacuum)",
     )
     parser.add_argument(
         "--epsilon-optical",
         metavar="E",
         type=float,
-        help="optical dielectric constant ε∞ = n² of that solvent (with --epsilon)",
+        help="optical dielectric constant ε∞ = n² of that solvent (with --epsilon; default: "
+        "none)",
     )
     parser.add_argument(
         "--workers",

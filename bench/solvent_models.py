@@ -60,6 +60,7 @@ def main(argv: list[str] | None = None) -> int:
         f"{args.method}-{args.dispersion}": {"method": f"{args.method}-{args.dispersion}"},
     }
     results, times = {}, {}
+    _run("hf", "sto-3g", optimize=False)  # warm-up: imports and first-call costs not timed
     for name, extra in runs.items():
         method = extra.pop("method", args.method)
         results[name], times[name] = _run(method, args.basis, **extra)

@@ -68,7 +68,7 @@ def run_engine(
 
     ``options`` are the other fields of :class:`~vibrapol.engine.settings.EngineSettings`
     (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
-    ``symmetry``, ``cartesian_d``).
+    ``symmetry``, ``cartesian_d``, ``solvent``, ``epsilon``, ``epsilon_optical``).
     """
     settings = EngineSettings(method, basis, **options)
     item = BatchItem(atoms, "structure", checkpoint, masses_da)
@@ -98,9 +98,12 @@ def compute_modes(
     atoms : ase.Atoms or (atomic_numbers, coordinates_ang)
         The structure; coordinates in Å.
     method : str
-        ``"hf"`` or a DFT functional name (``"b3lyp"``, ``"pbe0"`` …); closed shell only.
+        ``"hf"`` or a DFT functional name (``"b3lyp"``, ``"pbe0"`` …); closed shell only.  A
+        dispersion suffix adds D3/D4 (``"b3lyp-d3bj"``, ``"b3lyp-d4"``;
+        :mod:`vibrapol.engine.dispersion`).
     basis : str
-        Basis-set name PySCF knows.
+        Basis-set name PySCF knows; the ECP of a def2 (or other ECP) basis set is used for the
+        atoms it covers (:mod:`vibrapol.engine.ecp`).
     **options
         The other fields of :class:`~vibrapol.engine.settings.EngineSettings` and the run's
         options, listed under Other Parameters.
@@ -135,6 +138,11 @@ def compute_modes(
         Atomic masses in Da; default: most abundant isotopes.
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
+    solvent : str, optional
+        Implicit solvent (IEF-PCM) by name, e.g. ``"water"``
+        (:mod:`vibrapol.engine.solvent`); not with ``route="field"``.
+    epsilon, epsilon_optical : float, optional
+        Static and optical dielectric constants of a solvent not named (both together).
     workers : int or None
         Local worker processes for the displaced geometries; 1 (the default here) runs them in
         this process.  None (the command line's default) chooses: one per core, unless the

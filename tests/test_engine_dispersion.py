@@ -8,6 +8,7 @@ import pytest
 from vibrapol.engine.fieldgrad import tighten_scf
 from vibrapol.engine.hessian import analytic_hessian
 from vibrapol.engine.scf import EngineInputError, MethodSpec, build_molecule, run_scf
+from vibrapol.errors import VibrapolWarning
 from vibrapol.vibrations import harmonic_analysis
 
 WATER_Z = np.array([8, 1, 1])
@@ -18,7 +19,8 @@ WATER_ANG = np.array([[0.01, 0.0, 0.1173], [0.0, 0.7772, -0.4592], [0.02, -0.747
 def test_suffixes_are_normalised_and_unknown_ones_refused():
     # Contract: '-d3' is read as D3 with zero damping (the original D3 of 2010, common
     # practice), every accepted suffix reaches PySCF in canonical form, others are refused.
-    assert MethodSpec("B3LYP-D3").method == "b3lyp-d3zero"
+    with pytest.warns(VibrapolWarning, match="'-d3' is read as D3 with zero damping"):
+        assert MethodSpec("B3LYP-D3").method == "b3lyp-d3zero"
     assert MethodSpec("b3lyp-d3bj").method == "b3lyp-d3bj"
     assert MethodSpec("hf-d4").is_hf and MethodSpec("hf-d4").method_label == "HF-D4"
     assert not MethodSpec("pbe0-d3bj").is_hf

@@ -33,7 +33,10 @@ References
 from __future__ import annotations
 
 import re
+import warnings
 from functools import lru_cache
+
+from vibrapol.errors import VibrapolWarning
 
 #: Accepted suffixes and the dispersion version PySCF is given for each.
 SUFFIXES = {
@@ -70,6 +73,11 @@ def normalize_method(method: str) -> str:
     ------
     EngineInputError
         An unknown suffix (``-d5``, ``-d3xyz``).
+
+    Warns
+    -----
+    VibrapolWarning
+        For ``-d3``: it is read as D3 with zero damping, said in one line.
     """
     from vibrapol.engine.scf import EngineInputError
 
@@ -80,6 +88,13 @@ def normalize_method(method: str) -> str:
         raise EngineInputError(
             f"unknown dispersion correction '-{suffix}' in --method {method!r}: use one of "
             + ", ".join(f"-{s}" for s in SUFFIXES)
+        )
+    if suffix == "d3":
+        warnings.warn(
+            f"--method {method!r}: '-d3' is read as D3 with zero damping (the original D3, "
+            f"'{base}-d3zero'); use '{base}-d3bj' for Becke–Johnson damping",
+            VibrapolWarning,
+            stacklevel=3,
         )
     return f"{base}-{SUFFIXES[suffix]}"
 

@@ -213,9 +213,9 @@ def solvent_note(model: SolventModel) -> str:
     return (
         f"{SOLVENT_NOTE_PREFIX}{model.label()}; constants: {model.source}. Ground state, "
         "optimisation and analytic Hessian in equilibrium with the static ε; polarizability "
-        "(and its derivatives) non-equilibrium: slow reaction field frozen at the ground state, fast "
-        "surface charges with the optical ε∞ in the coupled-perturbed equations; no "
-        "local-field (cavity-field) correction of intensities"
+        "(and its derivatives) non-equilibrium: slow reaction field frozen at the ground "
+        "state, fast surface charges with the optical ε∞ in the coupled-perturbed equations; "
+        "no local-field (cavity-field) correction of intensities"
     )
 
 

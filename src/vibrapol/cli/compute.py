@@ -144,8 +144,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--epsilon-optical",
         metavar="E",
         type=float,
-        help="optical dielectric constant ε∞ = n² of that solvent (with --epsilon; default: "
-        "none)",
+        help="optical dielectric constant ε∞ = n² of that solvent (with --epsilon; default: none)",
     )
     parser.add_argument(
         "--workers",

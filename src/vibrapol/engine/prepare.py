@@ -125,7 +125,8 @@ def prepare(
             settings.step_ang,
             settings.field_au,
             group,
-            grid_free=spec.is_hf,
+            # PCM surfaces are Lebedev spheres fixed to the axes, like the DFT grid
+            grid_free=spec.is_hf and spec.solvent is None,
         )
         for r in wanted
     }

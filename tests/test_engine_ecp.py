@@ -77,3 +77,12 @@ def test_hydrogen_iodide_field_and_cartesian_routes_agree(tmp_path):
         cart.ir_intensity_km_mol[stretch], rel=1e-3
     )
     assert any("effective core potential def2-svp on I (28" in n for n in cart.provenance.notes)
+
+
+def test_ecp_core_electrons_do_not_count_against_the_basis_size():
+    # Contract (bug found while adding ECPs): the "more electrons than orbitals" check counts
+    # the electrons the calculation has. LANL2DZ gives iodine a 46-electron core potential
+    # (PySCF's library) and HI 10 basis functions: 8 electrons fit, 54 would not.
+    spec = MethodSpec("hf", "lanl2dz")
+    mol = build_molecule(HI_Z, HI_ANG, spec)
+    assert mol.nelectron == 8 and 2 * mol.nao < 54

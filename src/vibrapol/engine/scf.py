@@ -271,6 +271,7 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         ) from exc
     if mol.nao == 0:
         raise EngineInputError(f"basis {spec.basis!r} has no functions for these elements")
+    n_electrons = mol.nelectron  # without the electrons an ECP replaces
     if n_electrons > 2 * mol.nao:
         raise EngineInputError(
             f"charge {spec.charge} gives {n_electrons} electrons, more than the {mol.nao} "

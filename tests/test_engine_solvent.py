@@ -38,6 +38,7 @@ def test_named_solvent_constants_come_from_the_database():
     ("kwargs", "match"),
     [
         ({"name": "unobtainium"}, "unknown solvent 'unobtainium'"),
+        ({"name": " "}, "--solvent is empty"),
         ({"epsilon": 30.0}, "go together"),
         ({"epsilon_optical": 1.8}, "go together"),
         ({"name": "water", "epsilon": 30.0}, "not both"),

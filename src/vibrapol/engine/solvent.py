@@ -132,7 +132,9 @@ def solvent_model(
         An unknown solvent, a name together with constants, ``--epsilon`` without
         ``--epsilon-optical`` (or the reverse), or constants out of range.
     """
-    if name is not None and name.strip():
+    if name is not None and not name.strip():
+        raise _error("--solvent is empty: give a solvent name such as water, or leave it out")
+    if name is not None:
         if epsilon is not None or epsilon_optical is not None:
             raise _error("give --solvent NAME or --epsilon/--epsilon-optical, not both")
         from pyscf.solvent.smd import solvent_db

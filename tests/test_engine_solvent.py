@@ -136,9 +136,32 @@ def test_solvated_run_end_to_end_records_the_model():
     # records the model in the provenance, and its modes differ from the vacuum ones.
     from vibrapol.engine.compute import run_engine
 
-    run = run_engine((WATER_Z, WATER_ANG), "hf", "sto-3g", solvent="water", optimize=False)
+    run = run_engine(
+        (WATER_Z, WATER_ANG), "hf", "sto-3g", solvent="water", optimize=False, route="auto"
+    )
     assert run.route != "field"
     notes = " | ".join(run.modes.provenance.notes)
     assert "solvent: water (IEF-PCM" in notes and "field route not considered" in notes
     gas = run_engine((WATER_Z, WATER_ANG), "hf", "sto-3g", optimize=False, route=run.route)
     assert np.abs(run.modes.freqs_cm1[-3:] - gas.modes.freqs_cm1[-3:]).max() > 1.0
+
+
+def test_auto_chooses_without_the_field_route():
+    # Contract (bug: auto in a solvent failed with KeyError 'field' while writing its reason):
+    # auto prices only the routes it is given, and with a solvent the field route is not one.
+    from vibrapol.engine.displacements import cartesian_plan, normal_mode_plan
+    from vibrapol.engine.evaluate import ReferenceResult
+    from vibrapol.engine.routes import choose_route
+    from vibrapol.engine.solvent import allowed_routes
+
+    wanted = allowed_routes(("cartesian", "normal-mode", "field"), solvent_model("water"))
+    assert wanted == ("cartesian", "normal-mode")
+    plans = {
+        "cartesian": cartesian_plan(WATER_ANG, 0.005),
+        "normal-mode": normal_mode_plan(WATER_ANG, np.eye(9)[:3], np.ones(3), 0.005),
+    }
+    zeros = np.zeros((9, 9))
+    ref = ReferenceResult(0.0, zeros, np.eye(3), np.eye(2), np.zeros((3, 3)), 1.0, 1.0, 1.0, 1.0)
+    choice, _ = choose_route("auto", plans, ref)
+    assert choice.route == "normal-mode"  # 6 tasks against 18
+    assert "field" not in choice.reason

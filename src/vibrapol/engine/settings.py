@@ -87,7 +87,7 @@ class EngineSettings:
             int(self.charge),
             int(self.multiplicity),
             bool(self.cartesian_d),
-            solvent_model(self.solvent, self.epsilon, self.epsilon_optical),
+            solvent=solvent_model(self.solvent, self.epsilon, self.epsilon_optical),
         )
         check_step(self.step_ang)
         if not 0.0 < float(self.field_au) <= MAX_FIELD_AU:

@@ -75,6 +75,10 @@ def _are_default_masses(atomic_numbers: np.ndarray, masses_da: np.ndarray) -> bo
         return False
 
 
+#: How the engine's provenance note on an implicit solvent begins.
+SOLVENT_NOTE_PREFIX = "solvent: "
+
+
 @dataclass(frozen=True)
 class Provenance:
     """Where a :class:`ModeSet` came from.
@@ -119,6 +123,18 @@ class Provenance:
     def with_note(self, note: str) -> Provenance:
         """Return a copy with one more note."""
         return dataclasses.replace(self, notes=(*self.notes, note))
+
+    def level_of_theory(self) -> str:
+        """``method/basis``, followed by the engine's solvent when it recorded one.
+
+        E.g. ``HF/6-31g* in water (IEF-PCM, ε 78.355, ε∞ 1.7750)``: what tables and figures
+        print as the method.
+        """
+        text = "/".join(x for x in (self.method, self.basis) if x)
+        for note in self.notes:
+            if note.startswith(SOLVENT_NOTE_PREFIX):
+                return f"{text} in {note[len(SOLVENT_NOTE_PREFIX) :].split(';')[0]}"
+        return text
 
 
 def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:

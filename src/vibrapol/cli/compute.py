@@ -64,13 +64,16 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--method",
         metavar="METHOD",
         default=DEFAULT_METHOD,
-        help=f"'hf' or a DFT functional such as b3lyp, pbe0 (default: {DEFAULT_METHOD})",
+        help=f"'hf' or a DFT functional such as b3lyp, pbe0, optionally with a dispersion "
+        f"correction: b3lyp-d3bj, b3lyp-d3 (zero damping), b3lyp-d4 (default: {DEFAULT_METHOD})",
     )
     parser.add_argument(
         "--basis",
         metavar="BASIS",
         default=DEFAULT_BASIS,
-        help=f"basis set name known to PySCF (default: {DEFAULT_BASIS})",
+        help="basis set name known to PySCF, e.g. 6-31g*, aug-cc-pvdz, def2-svp, def2-svpd; "
+        "the ECP of a def2 (or other ECP) basis is used for the atoms it covers "
+        f"(default: {DEFAULT_BASIS})",
     )
     parser.add_argument(
         "--charge", type=int, default=0, metavar="Q", help="total charge (default: 0)"
@@ -132,6 +135,26 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--cartesian-d",
         action="store_true",
         help="Cartesian (6d) instead of spherical basis functions (default: spherical)",
+    )
+    parser.add_argument(
+        "--solvent",
+        metavar="NAME",
+        help="implicit solvent (IEF-PCM) by name, e.g. water, methanol, acetonitrile, dmso, "
+        "chloroform, ccl4, cyclohexane; static ε for the geometry and Hessian, optical ε∞ = n² "
+        "for the polarizability (not with --route field; default: vacuum)",
+    )
+    parser.add_argument(
+        "--epsilon",
+        metavar="E",
+        type=float,
+        help="static dielectric constant of a solvent not named (needs --epsilon-optical; "
+        "default: none, vacuum)",
+    )
+    parser.add_argument(
+        "--epsilon-optical",
+        metavar="E",
+        type=float,
+        help="optical dielectric constant ε∞ = n² of that solvent (with --epsilon; default: none)",
     )
     parser.add_argument(
         "--workers",

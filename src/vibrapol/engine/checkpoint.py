@@ -79,6 +79,15 @@ def task_key(
         "conv": [SCF_CONV_TOL, SCF_CONV_TOL_GRAD, CPHF_TOL, FMAX_HARTREE_BOHR],
         "extra": {k: extra[k] for k in sorted(extra)},
     }
+    # Added only when used, so that the keys of earlier runs in vacuum stay valid.
+    solvent = getattr(spec, "solvent", None)
+    if solvent is not None:
+        head["solvent"] = solvent.key()
+    from vibrapol.engine.ecp import ecp_core_electrons
+
+    ecp = ecp_core_electrons(spec.basis, atomic_numbers)
+    if ecp:
+        head["ecp"] = ecp
     h.update(json.dumps(head, sort_keys=True).encode())
     h.update(np.ascontiguousarray(atomic_numbers, dtype=np.int64).tobytes())
     h.update(np.ascontiguousarray(coordinates_ang, dtype=np.float64).tobytes())

@@ -69,7 +69,8 @@ def run_engine(
 
     ``options`` are the other fields of :class:`~vibrapol.engine.settings.EngineSettings`
     (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
-    ``symmetry``, ``cartesian_d``, ``optimizer``).
+    ``symmetry``, ``cartesian_d``, ``optimizer``, ``solvent``, ``epsilon``,
+    ``epsilon_optical``).
     """
     settings = EngineSettings(method, basis, **options)
     if masses_da is None and callable(getattr(atoms, "has", None)) and atoms.has("masses"):
@@ -102,9 +103,11 @@ def compute_modes(
         The structure; coordinates in Å.
     method : str
         ``"hf"`` or a DFT functional name (``"b3lyp"``, ``"pbe0"`` …); spin-unrestricted
-        (UHF/UKS) when ``multiplicity`` is above 1.
+        (UHF/UKS) when ``multiplicity`` is above 1.  A dispersion suffix adds D3/D4
+        (``"b3lyp-d3bj"``, ``"b3lyp-d4"``; :mod:`vibrapol.engine.dispersion`).
     basis : str
-        Basis-set name PySCF knows.
+        Basis-set name PySCF knows; the ECP of a def2 (or other ECP) basis set is used for the
+        atoms it covers (:mod:`vibrapol.engine.ecp`).
     **options
         The other fields of :class:`~vibrapol.engine.settings.EngineSettings` and the run's
         options, listed under Other Parameters.
@@ -148,6 +151,11 @@ def compute_modes(
         atomic weights).
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
+    solvent : str, optional
+        Implicit solvent (IEF-PCM) by name, e.g. ``"water"``
+        (:mod:`vibrapol.engine.solvent`); not with ``route="field"``.
+    epsilon, epsilon_optical : float, optional
+        Static and optical dielectric constants of a solvent not named (both together).
     workers : int or None
         Local worker processes for every stage and task (optimisation, reference SCF, Hessian,
         displaced geometries or fields); 1 (the default here) runs them in this process.  None

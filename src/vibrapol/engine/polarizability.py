@@ -54,6 +54,8 @@ def cphf_polarizability(mf) -> np.ndarray:
         return ucphf_polarizability(mf)
     from pyscf.scf import cphf
 
+    from vibrapol.engine.solvent import response_function
+
     mol = mf.mol
     mo_coeff, mo_occ, mo_energy = mf.mo_coeff, mf.mo_occ, mf.mo_energy
     orbo = mo_coeff[:, mo_occ > 0]
@@ -62,7 +64,7 @@ def cphf_polarizability(mf) -> np.ndarray:
     with mol.with_common_orig(_charge_center(mol)):
         dipole_ints = mol.intor_symmetric("int1e_r", comp=3)
     h1 = np.einsum("xpq,pa,qi->xai", dipole_ints, orbv, orbo)
-    response = mf.gen_response(hermi=1)
+    response = response_function(mf)  # with a solvent: the optical (ε∞) response
 
     def fvind(x: np.ndarray) -> np.ndarray:
         x = x.reshape(-1, nvir, nocc)

@@ -44,6 +44,7 @@ from vibrapol.engine.scf import (
     transition_metal_note,
 )
 from vibrapol.engine.settings import EngineSettings
+from vibrapol.engine.solvent import allowed_routes
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
 from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
@@ -177,7 +178,7 @@ def check_open_shell_symmetry(m: Molecule, settings: EngineSettings) -> None:
     if ref.hessian_hartree_bohr2 is None:
         return
     ops, perms = group.operations, group.permutations
-    if not spec.is_hf:
+    if not spec.is_hf or spec.solvent is not None:
         ops, perms = grid_operations(ops, perms)
     check_symmetric_solution(
         ops, perms, ref.hessian_hartree_bohr2, ref.alpha_ang3, spec, group.symbol
@@ -191,9 +192,10 @@ def plan_route(m: Molecule, settings: EngineSettings) -> bool:
     :data:`ROUTES_WITHOUT_MODES` can be planned; after it, any route.
     """
     assert m.reference is not None
-    wanted = (
+    wanted: tuple[str, ...] = (
         ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
     )
+    wanted = allowed_routes(wanted, settings.spec.solvent)  # no field route in a solvent
     if m.harmonic is None and not set(wanted) <= ROUTES_WITHOUT_MODES:
         return False
     # Before the Hessian there are no modes; the routes planned then do not use them.
@@ -207,7 +209,8 @@ def plan_route(m: Molecule, settings: EngineSettings) -> bool:
             settings.step_ang,
             settings.field_au,
             m.group if settings.symmetry else None,
-            grid_free=settings.spec.is_hf,
+            # PCM surfaces are Lebedev spheres fixed to the axes, like the DFT grid
+            grid_free=settings.spec.is_hf and settings.spec.solvent is None,
         )
         for r in wanted
     }
@@ -285,6 +288,7 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
         notes.append("Cartesian (6d) basis functions")
     if prep.spin_note is not None:
         notes.append(prep.spin_note)
+    notes.extend(_model_notes(prep, settings))
     metal = transition_metal_note(prep.atomic_numbers, spec)
     if metal is not None:
         notes.append(f"warning: {metal}")
@@ -293,9 +297,26 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
         source_kind="engine",
         program="PySCF",
         program_version=pyscf.__version__,
-        method=("U" if spec.is_unrestricted else "")
-        + ("HF" if spec.is_hf else spec.method.upper()),
+        method=("U" if spec.is_unrestricted else "") + spec.method_label,
         basis=spec.basis,
         masses=DEFAULT_MASSES_NOTE if prep.default_masses else "given by the caller",
         notes=tuple(notes),
     )
+
+
+def _model_notes(prep: Molecule, settings: EngineSettings) -> list[str]:
+    """Provenance lines of the solvent, the dispersion correction and the ECPs used."""
+    from vibrapol.engine.dispersion import dispersion_note
+    from vibrapol.engine.ecp import ecp_note
+    from vibrapol.engine.solvent import solvent_note
+
+    spec = settings.spec
+    notes = []
+    if spec.solvent is not None:
+        notes.append(solvent_note(spec.solvent))
+        if settings.route == "auto":
+            notes.append("field route not considered by auto: it cannot run with a solvent")
+    for note in (dispersion_note(spec.method), ecp_note(spec.basis, prep.atomic_numbers)):
+        if note is not None:
+            notes.append(note)
+    return notes

@@ -219,7 +219,9 @@ def choose_route(
     estimates = {r: p.n_tasks * task_seconds(r, ref) for r, p in plans.items()}
     order = ("cartesian", "field", "normal-mode")
     best = min(estimates, key=lambda r: (round(estimates[r], 6), order.index(r)))
-    costs = ", ".join(f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order)
+    costs = ", ".join(
+        f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order if r in plans
+    )
     reason = (
         f"auto: least estimated serial time ({costs}; from SCF {ref.seconds_scf:.2f} s, "
         f"CPHF {ref.seconds_alpha:.2f} s, gradient {ref.seconds_gradient:.2f} s measured at "

@@ -15,10 +15,14 @@ import io
 import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from vibrapol.errors import VibrapolError
+
+if TYPE_CHECKING:
+    from vibrapol.engine.solvent import SolventModel
 
 #: SCF energy convergence (hartree) used for every calculation.  Finite differences of α divide
 #: the error of each α by 2h (h = 0.005 Å ≈ 0.0094 bohr); converging the orbital gradient to
@@ -65,6 +69,11 @@ class MethodSpec:
     cartesian_d : bool
         Use Cartesian (6d, 10f) instead of spherical functions; much of the older literature
         used 6d with Pople basis sets, PySCF's default is spherical.
+    solvent : SolventModel, optional
+        Implicit solvent (:mod:`vibrapol.engine.solvent`); None for a molecule in vacuum.
+
+    A dispersion suffix of the method (``b3lyp-d3bj``, :mod:`vibrapol.engine.dispersion`) is
+    kept in ``method``, in canonical form (``-d3`` becomes ``-d3zero``).
     """
 
     method: str = "hf"
@@ -72,15 +81,29 @@ class MethodSpec:
     charge: int = 0
     multiplicity: int = 1
     cartesian_d: bool = False
+    solvent: SolventModel | None = None
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "method", self.method.strip().lower())
+        from vibrapol.engine.dispersion import normalize_method
+
+        object.__setattr__(self, "method", normalize_method(self.method))
         object.__setattr__(self, "basis", self.basis.strip().lower())
 
     @property
     def is_hf(self) -> bool:
-        """True for Hartree–Fock, False for Kohn–Sham DFT."""
-        return self.method in _HF_NAMES
+        """True for Hartree–Fock (with or without a dispersion suffix), False for DFT."""
+        from vibrapol.engine.dispersion import split_dispersion
+
+        return split_dispersion(self.method)[0] in _HF_NAMES
+
+    @property
+    def method_label(self) -> str:
+        """The method as provenance shows it: ``HF``, ``HF-D3BJ``, ``B3LYP-D4``."""
+        from vibrapol.engine.dispersion import split_dispersion
+
+        base, disp = split_dispersion(self.method)
+        name = "HF" if base in _HF_NAMES else base.upper()
+        return name + (f"-{disp.upper()}" if disp else "")
 
     @property
     def is_unrestricted(self) -> bool:
@@ -89,10 +112,9 @@ class MethodSpec:
 
     def label(self) -> str:
         """Short text such as ``HF/6-31g*`` for provenance and messages."""
-        name = "HF" if self.is_hf else self.method.upper()
-        if self.is_unrestricted:
-            name = f"U{name}"
-        return f"{name}/{self.basis}" + (" (6d)" if self.cartesian_d else "")
+        name = ("U" if self.is_unrestricted else "") + self.method_label
+        text = f"{name}/{self.basis}" + (" (6d)" if self.cartesian_d else "")
+        return text + (f" in {self.solvent.label()}" if self.solvent is not None else "")
 
 
 def check_spin_parity(n_electrons: int, spec: MethodSpec) -> None:
@@ -122,7 +144,10 @@ def check_functional(method: str) -> None:
         raise EngineInputError(
             "--method is empty: use 'hf' or a DFT functional name such as 'b3lyp', 'pbe0'"
         )
-    if method.lower() in _HF_NAMES:
+    from vibrapol.engine.dispersion import check_dispersion, normalize_method, split_dispersion
+
+    check_dispersion(normalize_method(method))
+    if split_dispersion(method)[0] in _HF_NAMES:
         return
     from pyscf.dft import libxc
 
@@ -254,6 +279,9 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
     mol.charge = spec.charge
     mol.spin = spec.multiplicity - 1
     mol.cart = spec.cartesian_d
+    from vibrapol.engine.ecp import ecp_core_electrons
+
+    mol.ecp = {symbol: spec.basis for symbol in ecp_core_electrons(spec.basis, z)}
     mol.verbose = 0
     mol.output = None
     try:
@@ -271,6 +299,7 @@ def build_molecule(atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec
         ) from exc
     if mol.nao == 0:
         raise EngineInputError(f"basis {spec.basis!r} has no functions for these elements")
+    n_electrons = mol.nelectron  # without the electrons an ECP replaces
     n_alpha = (n_electrons + spec.multiplicity - 1) // 2
     if spec.multiplicity != 1 and n_alpha > mol.nao:
         raise EngineInputError(
@@ -302,6 +331,22 @@ def build_scf(mol, spec: MethodSpec):
     mf.conv_tol_grad = SCF_CONV_TOL_GRAD
     mf.max_cycle = SCF_MAX_CYCLE
     mf.verbose = 0
+    return _with_models(mf, spec)
+
+
+def _with_models(mf, spec: MethodSpec):  # noqa: ANN001, ANN202
+    """``mf`` with the dispersion of HF-D and the continuum of ``spec.solvent``.
+
+    For DFT PySCF reads the dispersion suffix from ``xc`` itself.
+    """
+    from vibrapol.engine.dispersion import dispersion_version
+
+    if spec.is_hf and dispersion_version(spec.method) is not None:
+        mf.disp = dispersion_version(spec.method)
+    if spec.solvent is not None:
+        from vibrapol.engine.solvent import attach_pcm
+
+        mf = attach_pcm(mf, spec.solvent)
     return mf
 
 

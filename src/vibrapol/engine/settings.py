@@ -52,6 +52,10 @@ class EngineSettings:
     optimizer : str
         ``internal`` (geomeTRIC, the default) or ``cartesian-bfgs`` (ASE BFGS), see
         :mod:`vibrapol.engine.optimize`.
+    solvent : str, optional
+        Implicit solvent by name (:mod:`vibrapol.engine.solvent`); None: vacuum.
+    epsilon, epsilon_optical : float, optional
+        Static and optical dielectric constants of a solvent not named (both or neither).
     spec : MethodSpec
         The method, basis, charge, multiplicity and basis-function type together (derived).
 
@@ -74,20 +78,27 @@ class EngineSettings:
     symmetry: bool = True
     cartesian_d: bool = False
     optimizer: str = DEFAULT_OPTIMIZER
+    solvent: str | None = None
+    epsilon: float | None = None
+    epsilon_optical: float | None = None
     spec: MethodSpec = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
+        from vibrapol.engine.solvent import check_solvent_route, solvent_model
+
         spec = MethodSpec(
             self.method,
             self.basis,
             int(self.charge),
             int(self.multiplicity),
             bool(self.cartesian_d),
+            solvent=solvent_model(self.solvent, self.epsilon, self.epsilon_optical),
         )
         check_step(self.step_ang)
         if not 0.0 < float(self.field_au) <= MAX_FIELD_AU:
             raise ShapeError(f"field strength must be in (0, 0.05] au, got {self.field_au}")
         route = normalize_route(self.route)
+        check_solvent_route(route, spec.solvent)
         values = {
             "spec": spec,
             "method": spec.method,

@@ -161,7 +161,7 @@ def header_fields(table: RamanTable) -> dict[str, str]:
     """Source, program, method, point group and species convention of the table."""
     p = table.provenance
     program = " ".join(x for x in (p.program, p.program_version) if x)
-    method = "/".join(x for x in (p.method, p.basis) if x)
+    method = p.level_of_theory()
     return {
         "source": p.source_file or "(in memory)",
         "program": program,

@@ -347,7 +347,7 @@ def stick_spectrum(
     where = modes.provenance.source_file or "this mode set"
     scale.check_belongs(modes.provenance.method, modes.provenance.basis, where)
     desc = "isotropic" if orientation is None else orientation.description
-    method = "/".join(x for x in (modes.provenance.method, modes.provenance.basis) if x)
+    method = modes.provenance.level_of_theory()
     cond = Conditions(
         quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc, detector, method
     )

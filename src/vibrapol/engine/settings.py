@@ -13,7 +13,7 @@ from vibrapol.engine.displacements import check_step
 from vibrapol.engine.fieldplan import DEFAULT_FIELD_AU
 from vibrapol.engine.routes import normalize_route
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, MethodSpec
-from vibrapol.errors import ShapeError
+from vibrapol.errors import OptionError, ShapeError
 
 #: Default displacement (Å): activities change ≤ 3e-4 relative between 0.001 and 0.01 Å with
 #: errors ∝ h², so 0.005 Å is far from both truncation and SCF noise.
@@ -48,6 +48,13 @@ class EngineSettings:
         Find the point group, impose it on the geometry and use it to cut the tasks.
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
+    laser_nm : float or None
+        Laser wavelength in nm: the lowest excitation energies of the reference are computed
+        and a laser near or above the first one is warned about or refused
+        (:mod:`vibrapol.engine.dynamic`).
+    dynamic : bool
+        Use α(−ω; ω) at ``laser_nm`` instead of the static α (Cartesian and normal-mode routes
+        only; closed shell).
     spec : MethodSpec
         The method, basis, charge, multiplicity and basis-function type together (derived).
 
@@ -57,6 +64,9 @@ class EngineSettings:
         A step or field strength out of range.
     EngineInputError
         An unknown route.
+    OptionError
+        ``dynamic`` without ``laser_nm``, with the field route or an open shell; a laser
+        wavelength out of range.
     """
 
     method: str = DEFAULT_METHOD
@@ -69,6 +79,8 @@ class EngineSettings:
     field_au: float = DEFAULT_FIELD_AU
     symmetry: bool = True
     cartesian_d: bool = False
+    laser_nm: float | None = None
+    dynamic: bool = False
     spec: MethodSpec = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -83,6 +95,7 @@ class EngineSettings:
         if not 0.0 < float(self.field_au) <= MAX_FIELD_AU:
             raise ShapeError(f"field strength must be in (0, 0.05] au, got {self.field_au}")
         route = normalize_route(self.route)
+        laser_nm = check_dynamic(self.laser_nm, bool(self.dynamic), route, spec.multiplicity)
         values = {
             "spec": spec,
             "method": spec.method,
@@ -95,6 +108,43 @@ class EngineSettings:
             "route": route,
             "field_au": float(self.field_au),
             "symmetry": bool(self.symmetry),
+            "laser_nm": laser_nm,
+            "dynamic": bool(self.dynamic),
         }
         for name, value in values.items():
             object.__setattr__(self, name, value)
+
+    @property
+    def omega_au(self) -> float | None:
+        """Photon energy of the laser in hartree when α(ω) is wanted, else None (static α)."""
+        if not self.dynamic or self.laser_nm is None:
+            return None
+        from vibrapol.engine.dynamic import laser_omega_au
+
+        return laser_omega_au(self.laser_nm)
+
+
+def check_dynamic(
+    laser_nm: float | None, dynamic: bool, route: str, multiplicity: int
+) -> float | None:
+    """The laser wavelength (nm, or None), checked together with ``dynamic`` and the route."""
+    if laser_nm is not None:
+        from vibrapol.measured.axis import LASER_NM_RANGE  # the range every command accepts
+
+        value = float(laser_nm)
+        lo, hi = LASER_NM_RANGE
+        if not lo <= value <= hi:
+            raise OptionError(f"laser wavelength {laser_nm} nm is outside {lo:g}–{hi:g} nm")
+        laser_nm = value
+    if not dynamic:
+        return laser_nm
+    if laser_nm is None:
+        raise OptionError("--dynamic needs --laser-nm: the wavelength at which α is computed")
+    if route == "field":
+        raise OptionError(
+            "the field route gives the static polarizability only (its fields do not oscillate); "
+            "with --dynamic use --route cartesian, normal or auto"
+        )
+    if multiplicity != 1:
+        raise OptionError("--dynamic is for closed-shell molecules (multiplicity 1) only")
+    return laser_nm

@@ -17,6 +17,7 @@ from vibrapol.engine import stages
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.fieldplan import FieldPlan
+from vibrapol.engine.laser import LaserReference, laser_reference
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
@@ -73,6 +74,7 @@ class Prepared:
     jobs: list
     keys: list[str]
     labels: tuple[str, ...]
+    laser: LaserReference | None = None
 
 
 def _impose_symmetry(z, coords, masses, report: Progress):  # noqa: ANN001, ANN202
@@ -108,12 +110,19 @@ def prepare(
     group, shift = None, 0.0
     if settings.symmetry:
         group, coords, shift = _impose_symmetry(z, coords, masses_da, report)
+    laser = None
+    if settings.laser_nm is not None:  # refuses a resonant laser before the Hessian
+        extra = " and α at the laser line" if settings.dynamic else ""
+        report.stage(f"excitation energies{extra}")
+        laser = laser_reference(z, coords, settings, store)
     report.stage("reference SCF, analytic Hessian, polarizability and gradient")
     ref, reused_ref = stages.reference(z, coords, spec, store)
     harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
     wanted = (
         ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
     )
+    if settings.dynamic:  # the field route gives the static α only
+        wanted = tuple(r for r in wanted if r != "field")
     plans = {
         r: build_plan(
             r,
@@ -128,7 +137,7 @@ def prepare(
         for r in wanted
     }
     choice, plan = choose_route(settings.route, plans, ref)
-    jobs, keys, labels = make_jobs(plan, z, coords, spec, ref)
+    jobs, keys, labels = make_jobs(plan, z, coords, spec, ref, settings.omega_au)
     return Prepared(
         atomic_numbers=z,
         coordinates_ang=coords,
@@ -147,6 +156,7 @@ def prepare(
         jobs=jobs,
         keys=keys,
         labels=labels,
+        laser=laser,
     )
 
 
@@ -166,7 +176,9 @@ def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings
         masses_da=prep.masses_da,
         dalpha_dx=None if normal else deriv,
         dalpha_dq=deriv if normal else None,
-        polarizability_ang3=ref.alpha_ang3,
+        polarizability_ang3=ref.alpha_ang3
+        if prep.laser is None or prep.laser.alpha_ang3 is None
+        else prep.laser.alpha_ang3,
         energy_hartree=ref.energy_hartree,
         ir_intensity_km_mol=ir_intensities_km_mol(dmu),
         provenance=_provenance(prep, settings),
@@ -207,11 +219,16 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
             f"{plan.n_tasks} displaced geometries; dmu from the total dipole (PySCF "
             "dip_moment, frame origin) at the same geometries"
         )
+    alpha = "CPHF static polarizability"
+    if prep.laser is not None and prep.laser.dynamic:
+        alpha = f"dynamic polarizability at {prep.laser.laser_nm:g} nm (linear response)"
     notes.append(
-        f"analytic Hessian; CPHF static polarizability; {how}; "
+        f"analytic Hessian; {alpha}; {how}; "
         f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
     )
     notes.append(IR_NOTE)
+    if prep.laser is not None:
+        notes += prep.laser.notes()
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")

@@ -122,8 +122,12 @@ def make_jobs(
     coordinates_ang: np.ndarray,
     spec: MethodSpec,
     ref: ReferenceResult,
+    omega_au: float | None = None,
 ) -> tuple[list, list[str], tuple[str, ...]]:
-    """Jobs, checkpoint keys and labels of every task of ``plan``."""
+    """Jobs, checkpoint keys and labels of every task of ``plan``.
+
+    ``omega_au`` (hartree) asks for α(−ω; ω) instead of the static α (not on the field route).
+    """
     z = atomic_numbers
     jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob]
     if isinstance(plan, FieldPlan):
@@ -140,6 +144,16 @@ def make_jobs(
             )
             for f in fields
         ]
+        return jobs, keys, plan.labels
+    if omega_au is not None:
+        from vibrapol.engine.dynamic import DynamicPolarizabilityDipoleJob
+
+        points = plan.coordinates_ang
+        jobs = [
+            DynamicPolarizabilityDipoleJob(z, x, spec, ref.density, omega_au=omega_au)
+            for x in points
+        ]
+        keys = [task_key("alpha-omega-dipole", z, x, spec, omega_au=omega_au) for x in points]
         return jobs, keys, plan.labels
     jobs = [PolarizabilityDipoleJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
     keys = [task_key("alpha-dipole", z, x, spec) for x in plan.coordinates_ang]
@@ -219,7 +233,9 @@ def choose_route(
     estimates = {r: p.n_tasks * task_seconds(r, ref) for r, p in plans.items()}
     order = ("cartesian", "field", "normal-mode")
     best = min(estimates, key=lambda r: (round(estimates[r], 6), order.index(r)))
-    costs = ", ".join(f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order)
+    costs = ", ".join(
+        f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order if r in plans
+    )
     reason = (
         f"auto: least estimated serial time ({costs}; from SCF {ref.seconds_scf:.2f} s, "
         f"CPHF {ref.seconds_alpha:.2f} s, gradient {ref.seconds_gradient:.2f} s measured at "

@@ -68,7 +68,7 @@ def run_engine(
 
     ``options`` are the other fields of :class:`~vibrapol.engine.settings.EngineSettings`
     (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
-    ``symmetry``, ``cartesian_d``).
+    ``symmetry``, ``cartesian_d``, ``laser_nm``, ``dynamic``).
     """
     settings = EngineSettings(method, basis, **options)
     item = BatchItem(atoms, "structure", checkpoint, masses_da)
@@ -135,6 +135,15 @@ def compute_modes(
         Atomic masses in Da; default: most abundant isotopes.
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
+    laser_nm : float, optional
+        Laser wavelength in nm: the lowest singlet excitations of the reference are computed
+        (TDHF/TDDFT); a laser within
+        :data:`~vibrapol.engine.dynamic.PRE_RESONANCE_MARGIN_EV` below the first gives a
+        :class:`~vibrapol.engine.dynamic.PreResonanceWarning`, one at or above it is refused.
+    dynamic : bool
+        Use α(−ω; ω) at ``laser_nm`` (linear response) at the reference and every displaced
+        geometry instead of the static α; Cartesian and normal-mode routes only (``auto``
+        leaves out the field route).
     workers : int or None
         Local worker processes for the displaced geometries; 1 (the default here) runs them in
         this process.  None (the command line's default) chooses: one per core, unless the

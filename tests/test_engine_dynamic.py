@@ -250,3 +250,20 @@ def test_checkpoint_keys_hold_the_frequency(tmp_path):
     assert other.tasks.n_computed == other.tasks.n_tasks
     np.testing.assert_allclose(again.modes.dalpha_dq, first.modes.dalpha_dq)
     assert not np.allclose(other.modes.dalpha_dq, first.modes.dalpha_dq, rtol=1e-4)
+
+
+def test_spectrum_names_the_wavelength_of_alpha(water_static_and_dynamic):
+    # Contract: a spectrum of a dynamic ModeSet carries α's wavelength in its conditions and
+    # warns when drawn for another laser line; a static ModeSet is unchanged.
+    from vibrapol.errors import AccuracyWarning
+    from vibrapol.spectrum.sticks import stick_spectrum
+
+    static, dynamic = water_static_and_dynamic
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", AccuracyWarning)
+        same = stick_spectrum(dynamic, laser_nm=532.0)
+        plain = stick_spectrum(static, laser_nm=785.0)
+    assert same.conditions.method == "HF/sto-3g, alpha at 532 nm"
+    assert plain.conditions.method == "HF/sto-3g"
+    with pytest.warns(AccuracyWarning, match="computed at 532 nm, this spectrum is for a 785 nm"):
+        stick_spectrum(dynamic, laser_nm=785.0)

@@ -131,7 +131,10 @@ def check_dynamic(
     if laser_nm is not None:
         from vibrapol.measured.axis import LASER_NM_RANGE  # the range every command accepts
 
-        value = float(laser_nm)
+        try:
+            value = float(laser_nm)
+        except (TypeError, ValueError) as exc:
+            raise OptionError(f"laser wavelength {laser_nm!r} is not a number (nm)") from exc
         lo, hi = LASER_NM_RANGE
         if not lo <= value <= hi:
             raise OptionError(f"laser wavelength {laser_nm} nm is outside {lo:g}–{hi:g} nm")

@@ -164,14 +164,16 @@ def test_laser_stage_warns_in_pre_resonance(formaldehyde_excitations):
 
 
 def test_option_contracts():
-    # Contract: --dynamic needs a wavelength, is refused on the field route, and a
-    # wavelength outside the range every command accepts is refused.
+    # Contract: --dynamic needs a wavelength, is refused on the field route; a wavelength
+    # outside the range every command accepts, or for an open shell, is refused.
     with pytest.raises(OptionError, match="needs --laser-nm"):
         EngineSettings(dynamic=True)
     with pytest.raises(OptionError, match="field route gives the static polarizability"):
         EngineSettings(route="field", laser_nm=532.0, dynamic=True)
     with pytest.raises(OptionError, match="outside"):
         EngineSettings(laser_nm=5.0)
+    with pytest.raises(OptionError, match="closed-shell"):  # the response here is closed-shell
+        EngineSettings(multiplicity=2, laser_nm=532.0)
     assert EngineSettings(route="field", laser_nm=532.0).omega_au is None  # static: allowed
     assert EngineSettings(laser_nm=532.0, dynamic=True).omega_au == pytest.approx(
         0.0856454, rel=1e-5

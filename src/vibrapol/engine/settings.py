@@ -65,8 +65,8 @@ class EngineSettings:
     EngineInputError
         An unknown route.
     OptionError
-        ``dynamic`` without ``laser_nm``, with the field route or an open shell; a laser
-        wavelength out of range.
+        ``dynamic`` without ``laser_nm`` or with the field route; ``laser_nm`` out of range
+        or for an open shell.
     """
 
     method: str = DEFAULT_METHOD
@@ -139,6 +139,11 @@ def check_dynamic(
         if not lo <= value <= hi:
             raise OptionError(f"laser wavelength {laser_nm} nm is outside {lo:g}–{hi:g} nm")
         laser_nm = value
+        if multiplicity != 1:
+            raise OptionError(
+                "--laser-nm (excitation energies, dynamic α) is for closed-shell molecules "
+                "(multiplicity 1) only"
+            )
     if not dynamic:
         return laser_nm
     if laser_nm is None:
@@ -148,6 +153,4 @@ def check_dynamic(
             "the field route gives the static polarizability only (its fields do not oscillate); "
             "with --dynamic use --route cartesian, normal or auto"
         )
-    if multiplicity != 1:
-        raise OptionError("--dynamic is for closed-shell molecules (multiplicity 1) only")
     return laser_nm

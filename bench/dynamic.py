@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
 from time import perf_counter
 
 import numpy as np
@@ -65,12 +66,12 @@ def main() -> None:
     parser.add_argument("--basis", default="6-31g*")
     parser.add_argument("--laser-nm", nargs="+", type=float, default=[532.0])
     args = parser.parse_args()
-    rows = [
-        study(system, method, args.basis, nm)
-        for system in args.systems
-        for method in args.methods
-        for nm in args.laser_nm
-    ]
+    rows = []
+    for system in args.systems:
+        for method in args.methods:
+            for nm in args.laser_nm:
+                rows.append(study(system, method, args.basis, nm))
+                print(json.dumps(rows[-1]), file=sys.stderr, flush=True)  # progress
     head = "| molecule | method | laser/nm | first excitation | static/s | dynamic/s | ratio "
     head += "| ΔS/S min | ΔS/S max | max |Δρ| |"
     print(head)

@@ -73,7 +73,7 @@ def main() -> None:
                 rows.append(study(system, method, args.basis, nm))
                 print(json.dumps(rows[-1]), file=sys.stderr, flush=True)  # progress
     head = "| molecule | method | laser/nm | first excitation | static/s | dynamic/s | ratio "
-    head += "| ΔS/S min | ΔS/S max | max |Δρ| |"
+    head += "| ΔS/S min | ΔS/S max | max Δρ |"
     print(head)
     print("|---|---|---:|---|---:|---:|---:|---:|---:|---:|")
     for r in rows:

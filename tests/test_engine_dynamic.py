@@ -269,3 +269,22 @@ def test_spectrum_names_the_wavelength_of_alpha(water_static_and_dynamic):
     assert plain.conditions.method == "HF/sto-3g"
     with pytest.warns(AccuracyWarning, match="computed at 532 nm, this spectrum is for a 785 nm"):
         stick_spectrum(dynamic, laser_nm=785.0)
+
+
+def test_cli_dynamic_end_to_end_records_it_in_file_and_table(tmp_path, capsys):
+    # `vibrapol compute … --laser-nm 532 --dynamic` writes a modes file whose provenance and
+    # table conditions say that α is the dynamic one, at which wavelength, and the excitations.
+    from vibrapol.cli import main
+    from vibrapol.sources.modes_json import read_modes_json
+
+    xyz, out = tmp_path / "w.xyz", tmp_path / "w.modes.json"
+    WATER.write(str(xyz))
+    args = ["compute", str(xyz), "--basis", "sto-3g", "--no-optimize", "--workers", "1"]
+    assert main([*args, "--laser-nm", "532", "--dynamic", "-o", str(out)]) == 0
+    err = capsys.readouterr().err
+    assert "normal-mode route" in err or "cartesian route" in err
+    notes = " | ".join(read_modes_json(out).provenance.notes)
+    assert "dynamic alpha(-omega; omega) at the laser line 532 nm" in notes
+    assert "lowest singlet excitations (TDHF (RPA))" in notes
+    assert main(["table", str(out)]) == 0
+    assert "at the laser line 532 nm" in capsys.readouterr().out

@@ -29,6 +29,7 @@ from vibrapol.engine.compute import (
     as_structure,
     run_batch,
 )
+from vibrapol.engine.dynamic import PRE_RESONANCE_MARGIN_EV
 from vibrapol.engine.estimate import (
     ANNOUNCE_ABOVE_S,
     CONFIRM_ABOVE_S,
@@ -155,6 +156,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         metavar="E",
         type=float,
         help="optical dielectric constant ε∞ = n² of that solvent (with --epsilon; default: none)",
+    )
+    parser.add_argument(
+        "--laser-nm",
+        metavar="NM",
+        type=float,
+        help="laser wavelength in nm: compute the lowest excitation energies, warn within "
+        f"{PRE_RESONANCE_MARGIN_EV:g} eV below the first and refuse at or above it (default: no "
+        "check)",
+    )
+    parser.add_argument(
+        "--dynamic",
+        action="store_true",
+        help="use the frequency-dependent polarizability at --laser-nm instead of the static "
+        "one (cartesian and normal routes; auto leaves out the field route) (default: static)",
     )
     parser.add_argument(
         "--workers",

@@ -71,6 +71,7 @@ def run_engine(
     (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
     ``symmetry``, ``cartesian_d``, ``optimizer``, ``solvent``, ``epsilon``,
     ``epsilon_optical``).
+    ``symmetry``, ``cartesian_d``, ``laser_nm``, ``dynamic``).
     """
     settings = EngineSettings(method, basis, **options)
     if masses_da is None and callable(getattr(atoms, "has", None)) and atoms.has("masses"):
@@ -156,6 +157,15 @@ def compute_modes(
         (:mod:`vibrapol.engine.solvent`); not with ``route="field"``.
     epsilon, epsilon_optical : float, optional
         Static and optical dielectric constants of a solvent not named (both together).
+    laser_nm : float, optional
+        Laser wavelength in nm: the lowest singlet excitations of the reference are computed
+        (TDHF/TDDFT); a laser within
+        :data:`~vibrapol.engine.dynamic.PRE_RESONANCE_MARGIN_EV` below the first gives a
+        :class:`~vibrapol.engine.dynamic.PreResonanceWarning`, one at or above it is refused.
+    dynamic : bool
+        Use α(−ω; ω) at ``laser_nm`` (linear response) at the reference and every displaced
+        geometry instead of the static α; Cartesian and normal-mode routes only (``auto``
+        leaves out the field route).
     workers : int or None
         Local worker processes for every stage and task (optimisation, reference SCF, Hessian,
         displaced geometries or fields); 1 (the default here) runs them in this process.  None

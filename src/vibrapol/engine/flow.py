@@ -15,7 +15,9 @@ from time import perf_counter
 import numpy as np
 
 from vibrapol.engine import stages
+from vibrapol.engine.dynamic import PreResonanceWarning
 from vibrapol.engine.executors import Backend
+from vibrapol.engine.laser import LaserJob, LaserReference
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.prepare import (
     Molecule,
@@ -32,7 +34,12 @@ from vibrapol.errors import OpenShellWarning, VibrapolError
 from vibrapol.modeset import ModeSet
 
 #: The names of the stages (by their jobs' checkpoint kinds) in EngineRun.reused_stages.
-STAGE_NAMES = {"optimize": "optimisation", "reference-scf": "reference SCF", "hessian": "Hessian"}
+STAGE_NAMES = {
+    "optimize": "optimisation",
+    "laser-reference": "excitation energies",
+    "reference-scf": "reference SCF",
+    "hessian": "Hessian",
+}
 
 
 class Flow:
@@ -125,9 +132,28 @@ class Flow:
         self._reference(k)
 
     def _reference(self, k: int) -> None:
-        m, spec = self.molecules[k], self.settings.spec
-        if self.settings.symmetry:
+        m, settings = self.molecules[k], self.settings
+        if settings.symmetry:
             impose_symmetry(m, self.report, f"{m.name}: " if self.named else "")
+        if settings.laser_nm is None:
+            self._scf(k)
+            return
+        # The laser stage first: a laser in resonance is refused before the expensive stages.
+        job = LaserJob(
+            m.atomic_numbers, m.coordinates_ang, settings.spec, settings.laser_nm, settings.dynamic
+        )
+        self._stage(k, job, self._laser_done)
+
+    def _laser_done(self, k: int, laser: LaserReference, seconds: float, reused: bool) -> None:
+        m = self.molecules[k]
+        m.laser = laser
+        if laser.warning is not None:  # said on every run, reused or not
+            prefix = f"{m.name}: " if self.named else ""
+            warnings.warn(prefix + laser.warning, PreResonanceWarning, stacklevel=2)
+        self._scf(k)
+
+    def _scf(self, k: int) -> None:
+        m, spec = self.molecules[k], self.settings.spec
         old = stages.legacy_reference(m.atomic_numbers, m.coordinates_ang, spec, m.store)
         if old is not None:  # one row of an earlier vibrapol: SCF and Hessian together
             m.reused |= {"reference SCF", "Hessian"}

@@ -24,6 +24,7 @@ from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.evaluate import ReferenceResult
 from vibrapol.engine.fieldplan import FieldPlan
+from vibrapol.engine.laser import LaserReference
 from vibrapol.engine.openshell import check_symmetric_solution, reference_spin_note
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
@@ -121,6 +122,7 @@ class Molecule:
     keys: list[str] = field(default_factory=list)
     labels: tuple[str, ...] = ()
     spin_note: str | None = None
+    laser: LaserReference | None = None
 
     def add_hessian(self, reference: ReferenceResult) -> None:
         """Take the completed reference and do the harmonic analysis."""
@@ -200,6 +202,8 @@ def plan_route(m: Molecule, settings: EngineSettings) -> bool:
         return False
     # Before the Hessian there are no modes; the routes planned then do not use them.
     modes = m.harmonic.modes if m.harmonic is not None else np.zeros((0, m.masses_da.size * 3))
+    if settings.dynamic:  # the field route gives the static α only
+        wanted = tuple(r for r in wanted if r != "field")
     plans = {
         r: build_plan(
             r,
@@ -216,7 +220,12 @@ def plan_route(m: Molecule, settings: EngineSettings) -> bool:
     }
     m.choice, m.plan = choose_route(settings.route, plans, m.reference)
     m.jobs, m.keys, m.labels = make_jobs(
-        m.plan, m.atomic_numbers, m.coordinates_ang, settings.spec, m.reference
+        m.plan,
+        m.atomic_numbers,
+        m.coordinates_ang,
+        settings.spec,
+        m.reference,
+        settings.omega_au,
     )
     return True
 
@@ -238,7 +247,9 @@ def assemble(prep: Molecule, results: list[np.ndarray], settings: EngineSettings
         masses_da=prep.masses_da,
         dalpha_dx=None if normal else deriv,
         dalpha_dq=deriv if normal else None,
-        polarizability_ang3=ref.alpha_ang3,
+        polarizability_ang3=ref.alpha_ang3
+        if prep.laser is None or prep.laser.alpha_ang3 is None
+        else prep.laser.alpha_ang3,
         energy_hartree=ref.energy_hartree,
         ir_intensity_km_mol=ir_intensities_km_mol(dmu),
         provenance=_provenance(prep, settings),
@@ -278,11 +289,16 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
             f"{plan.n_tasks} displaced geometries; dmu from the total dipole (PySCF "
             "dip_moment, frame origin) at the same geometries"
         )
+    alpha = "CPHF static polarizability"
+    if prep.laser is not None and prep.laser.dynamic:
+        alpha = f"dynamic polarizability at {prep.laser.laser_nm:g} nm (linear response)"
     notes.append(
-        f"analytic Hessian; CPHF static polarizability; {how}; "
+        f"analytic Hessian; {alpha}; {how}; "
         f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
     )
     notes.append(IR_NOTE)
+    if prep.laser is not None:
+        notes += prep.laser.notes()
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")

@@ -16,6 +16,7 @@ molecule itself (times the factors below), and takes the cheapest.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -122,10 +123,14 @@ def make_jobs(
     coordinates_ang: np.ndarray,
     spec: MethodSpec,
     ref: ReferenceResult,
+    omega_au: float | None = None,
 ) -> tuple[list, list[str], tuple[str, ...]]:
-    """Jobs, checkpoint keys and labels of every task of ``plan``."""
+    """Jobs, checkpoint keys and labels of every task of ``plan``.
+
+    ``omega_au`` (hartree) asks for α(−ω; ω) instead of the static α (not on the field route).
+    """
     z = atomic_numbers
-    jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob]
+    jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob] | list[Any]
     if isinstance(plan, FieldPlan):
         fields = plan.task_fields_au
         jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in fields]
@@ -140,6 +145,16 @@ def make_jobs(
             )
             for f in fields
         ]
+        return jobs, keys, plan.labels
+    if omega_au is not None:
+        from vibrapol.engine.dynamic import DynamicPolarizabilityDipoleJob
+
+        points = plan.coordinates_ang
+        jobs = [
+            DynamicPolarizabilityDipoleJob(z, x, spec, ref.density, omega_au=omega_au)
+            for x in points
+        ]
+        keys = [task_key("alpha-omega-dipole", z, x, spec, omega_au=omega_au) for x in points]
         return jobs, keys, plan.labels
     jobs = [PolarizabilityDipoleJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
     keys = [task_key("alpha-dipole", z, x, spec) for x in plan.coordinates_ang]

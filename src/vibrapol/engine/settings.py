@@ -14,7 +14,7 @@ from vibrapol.engine.fieldplan import DEFAULT_FIELD_AU
 from vibrapol.engine.optimize import DEFAULT_OPTIMIZER, normalize_optimizer
 from vibrapol.engine.routes import normalize_route
 from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, MethodSpec
-from vibrapol.errors import ShapeError
+from vibrapol.errors import OptionError, ShapeError
 
 #: Default displacement (Å): activities change ≤ 3e-4 relative between 0.001 and 0.01 Å with
 #: errors ∝ h², so 0.005 Å is far from both truncation and SCF noise.
@@ -56,6 +56,13 @@ class EngineSettings:
         Implicit solvent by name (:mod:`vibrapol.engine.solvent`); None: vacuum.
     epsilon, epsilon_optical : float, optional
         Static and optical dielectric constants of a solvent not named (both or neither).
+    laser_nm : float or None
+        Laser wavelength in nm: the lowest excitation energies of the reference are computed
+        and a laser near or above the first one is warned about or refused
+        (:mod:`vibrapol.engine.dynamic`).
+    dynamic : bool
+        Use α(−ω; ω) at ``laser_nm`` instead of the static α (Cartesian and normal-mode routes
+        only; closed shell).
     spec : MethodSpec
         The method, basis, charge, multiplicity and basis-function type together (derived).
 
@@ -65,6 +72,9 @@ class EngineSettings:
         A step or field strength out of range.
     EngineInputError
         An unknown route or optimiser.
+    OptionError
+        ``dynamic`` without ``laser_nm`` or with the field route; ``laser_nm`` out of range
+        or for an open shell.
     """
 
     method: str = DEFAULT_METHOD
@@ -81,6 +91,8 @@ class EngineSettings:
     solvent: str | None = None
     epsilon: float | None = None
     epsilon_optical: float | None = None
+    laser_nm: float | None = None
+    dynamic: bool = False
     spec: MethodSpec = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -99,6 +111,15 @@ class EngineSettings:
             raise ShapeError(f"field strength must be in (0, 0.05] au, got {self.field_au}")
         route = normalize_route(self.route)
         check_solvent_route(route, spec.solvent)
+        laser_nm = check_dynamic(self.laser_nm, bool(self.dynamic), route, spec.multiplicity)
+        if laser_nm is not None and spec.solvent is not None:
+            # PySCF's time-dependent response of a PCM uses a fixed optical dielectric constant
+            # (1.78), not the solvent's: the excitations and α(ω) would be silently wrong.
+            raise OptionError(
+                "--laser-nm/--dynamic cannot be combined with a solvent yet (the excitation "
+                "energies and dynamic polarizability in PCM are not implemented); use the static "
+                "polarizability in solution, or --laser-nm without --solvent"
+            )
         values = {
             "spec": spec,
             "method": spec.method,
@@ -112,6 +133,49 @@ class EngineSettings:
             "field_au": float(self.field_au),
             "symmetry": bool(self.symmetry),
             "optimizer": normalize_optimizer(self.optimizer),
+            "laser_nm": laser_nm,
+            "dynamic": bool(self.dynamic),
         }
         for name, value in values.items():
             object.__setattr__(self, name, value)
+
+    @property
+    def omega_au(self) -> float | None:
+        """Photon energy of the laser in hartree when α(ω) is wanted, else None (static α)."""
+        if not self.dynamic or self.laser_nm is None:
+            return None
+        from vibrapol.engine.dynamic import laser_omega_au
+
+        return laser_omega_au(self.laser_nm)
+
+
+def check_dynamic(
+    laser_nm: float | None, dynamic: bool, route: str, multiplicity: int
+) -> float | None:
+    """The laser wavelength (nm, or None), checked together with ``dynamic`` and the route."""
+    if laser_nm is not None:
+        from vibrapol.measured.axis import LASER_NM_RANGE  # the range every command accepts
+
+        try:
+            value = float(laser_nm)
+        except (TypeError, ValueError) as exc:
+            raise OptionError(f"laser wavelength {laser_nm!r} is not a number (nm)") from exc
+        lo, hi = LASER_NM_RANGE
+        if not lo <= value <= hi:
+            raise OptionError(f"laser wavelength {laser_nm} nm is outside {lo:g}–{hi:g} nm")
+        laser_nm = value
+        if multiplicity != 1:
+            raise OptionError(
+                "--laser-nm (excitation energies, dynamic α) is for closed-shell molecules "
+                "(multiplicity 1) only"
+            )
+    if not dynamic:
+        return laser_nm
+    if laser_nm is None:
+        raise OptionError("--dynamic needs --laser-nm: the wavelength at which α is computed")
+    if route == "field":
+        raise OptionError(
+            "the field route gives the static polarizability only (its fields do not oscillate); "
+            "with --dynamic use --route cartesian, normal or auto"
+        )
+    return laser_nm

@@ -18,6 +18,7 @@ every factor.
 from __future__ import annotations
 
 import math
+import re
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -261,6 +262,21 @@ class StickSpectrum:
         return int(np.argmin(np.abs(self.positions_cm1 - position_cm1)))
 
 
+#: The provenance note of an engine ModeSet computed with α(ω) (:mod:`vibrapol.engine.laser`).
+_DYNAMIC_NOTE = re.compile(
+    r"^polarizability: dynamic alpha\(-omega; omega\) at the laser line ([0-9.]+(?:e[+-]?\d+)?) nm"
+)
+
+
+def dynamic_alpha_nm(modes: ModeSet) -> float | None:
+    """The laser wavelength (nm) at which the engine computed α(ω) for ``modes``, else None."""
+    for note in modes.provenance.notes:
+        found = _DYNAMIC_NOTE.match(note)
+        if found:
+            return float(found.group(1))
+    return None
+
+
 def _band_irrep(irreps: Sequence[str], members: Sequence[int]) -> str:
     labels = [irreps[i] for i in members if irreps[i]]
     return "/".join(dict.fromkeys(labels))
@@ -348,6 +364,17 @@ def stick_spectrum(
     scale.check_belongs(modes.provenance.method, modes.provenance.basis, where)
     desc = "isotropic" if orientation is None else orientation.description
     method = modes.provenance.level_of_theory()
+    alpha_nm = dynamic_alpha_nm(modes)
+    if alpha_nm is not None:
+        method += f", alpha at {alpha_nm:g} nm"
+        if abs(alpha_nm - laser_nm) > 0.5:
+            warnings.warn(
+                f"{where}: its polarizability derivatives were computed at {alpha_nm:g} nm, "
+                f"this spectrum is for a {laser_nm:g} nm laser (only the frequency factor "
+                "follows the new line)",
+                AccuracyWarning,
+                stacklevel=2,
+            )
     cond = Conditions(
         quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc, detector, method
     )

@@ -79,6 +79,8 @@ def task_key(
         "conv": [SCF_CONV_TOL, SCF_CONV_TOL_GRAD, CPHF_TOL, FMAX_HARTREE_BOHR],
         "extra": {k: extra[k] for k in sorted(extra)},
     }
+    if spec.density_fit:  # absent when off, so that exact runs keep their earlier keys
+        head["density_fit"] = spec.auxbasis or "pyscf-default"
     h.update(json.dumps(head, sort_keys=True).encode())
     h.update(np.ascontiguousarray(atomic_numbers, dtype=np.int64).tobytes())
     h.update(np.ascontiguousarray(coordinates_ang, dtype=np.float64).tobytes())

@@ -32,6 +32,8 @@ from vibrapol.engine.routes import (
 from vibrapol.engine.scf import (
     SCF_CONV_TOL,
     SCF_CONV_TOL_GRAD,
+    build_molecule,
+    integral_notes,
     transition_metal_note,
 )
 from vibrapol.engine.settings import EngineSettings
@@ -215,6 +217,9 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
     notes.append(f"route {route}, {prep.choice.n_tasks} tasks; reason: {prep.choice.reason}")
     if spec.cartesian_d:
         notes.append("Cartesian (6d) basis functions")
+    notes.extend(
+        integral_notes(build_molecule(prep.atomic_numbers, prep.coordinates_ang, spec), spec)
+    )
     metal = transition_metal_note(prep.atomic_numbers, spec)
     if metal is not None:
         notes.append(f"warning: {metal}")

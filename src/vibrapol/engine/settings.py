@@ -48,8 +48,13 @@ class EngineSettings:
         Find the point group, impose it on the geometry and use it to cut the tasks.
     cartesian_d : bool
         Cartesian (6d) instead of spherical basis functions.
+    density_fit : bool
+        Density-fitted integrals in every SCF, gradient, Hessian and CPHF of the run.
+    auxbasis : str or None
+        Auxiliary basis of the fit (None: PySCF's choice); only with ``density_fit``.
     spec : MethodSpec
-        The method, basis, charge, multiplicity and basis-function type together (derived).
+        The method, basis, charge, multiplicity, basis-function type and density fitting
+        together (derived).
 
     Raises
     ------
@@ -69,6 +74,8 @@ class EngineSettings:
     field_au: float = DEFAULT_FIELD_AU
     symmetry: bool = True
     cartesian_d: bool = False
+    density_fit: bool = False
+    auxbasis: str | None = None
     spec: MethodSpec = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -78,6 +85,8 @@ class EngineSettings:
             int(self.charge),
             int(self.multiplicity),
             bool(self.cartesian_d),
+            bool(self.density_fit),
+            self.auxbasis,
         )
         check_step(self.step_ang)
         if not 0.0 < float(self.field_au) <= MAX_FIELD_AU:
@@ -90,6 +99,8 @@ class EngineSettings:
             "charge": spec.charge,
             "multiplicity": spec.multiplicity,
             "cartesian_d": spec.cartesian_d,
+            "density_fit": spec.density_fit,
+            "auxbasis": spec.auxbasis,
             "optimize": bool(self.optimize),
             "step_ang": float(self.step_ang),
             "route": route,

@@ -83,12 +83,15 @@ def reference(
             seconds_hessian=float(stored["seconds_hessian"]),
             seconds_alpha=float(stored["seconds_alpha"]),
             seconds_gradient=float(stored["seconds_gradient"]),
+            density_response=stored.get("density_response"),
         ), True
     result = reference_calculation(atomic_numbers, coordinates_ang, spec)
     if store is not None:
         arrays = {
             k: getattr(result, k) for k in (*_REFERENCE_FIELDS, *_REFERENCE_TIMES, "energy_hartree")
         }
+        if result.density_response is not None:
+            arrays["density_response"] = result.density_response
         seconds = sum(getattr(result, k) for k in _REFERENCE_TIMES)
         store.put(key, "reference", "reference SCF, Hessian, alpha", arrays, seconds)
     return result, False

@@ -66,11 +66,11 @@ def compare(ref, other) -> dict:
     }
 
 
-def run_variant(atoms, method: str, basis: str, options: dict) -> dict:
+def run_variant(atoms, method: str, basis: str, options: dict, optimize: bool = True) -> dict:
     from vibrapol.engine.compute import run_engine
 
     c0 = time.process_time()
-    run = run_engine(atoms, method, basis, route="field", workers=1, **options)
+    run = run_engine(atoms, method, basis, route="field", workers=1, optimize=optimize, **options)
     return {
         "run": run,
         "seconds": {
@@ -98,6 +98,12 @@ def main() -> None:
     parser.add_argument("--methods", default="hf")
     parser.add_argument("--basis", default="6-31g*")
     parser.add_argument("--variants", default=",".join(VARIANTS))
+    parser.add_argument(
+        "--optimize",
+        action=argparse.BooleanOptionalAction,
+        default=True,
+        help="optimise each run with its own integrals (--no-optimize: all at ASE's geometry)",
+    )
     args = parser.parse_args()
     rows = []
     for system in args.systems.split(","):
@@ -105,8 +111,9 @@ def main() -> None:
             runs = {}
             for name in args.variants.split(","):
                 atoms = molecule(SYSTEMS.get(system, system))
-                runs[name] = run_variant(atoms, method, args.basis, VARIANTS[name])
+                runs[name] = run_variant(atoms, method, args.basis, VARIANTS[name], args.optimize)
                 row = {"system": system, "method": method, "basis": args.basis, "variant": name}
+                row["optimized"] = args.optimize
                 row.update({f"s_{k}": round(v, 2) for k, v in runs[name]["seconds"].items()})
                 row["n_field_tasks"] = runs[name]["n_field_tasks"]
                 row["opt_gradients"] = runs[name]["opt_gradients"]

@@ -37,7 +37,7 @@ def main() -> None:
 
     from vibrapol.engine.compute import run_engine
     from vibrapol.engine.optimize import optimize_geometry
-    from vibrapol.engine.scf import MethodSpec
+    from vibrapol.engine.scf import EngineConvergenceError, MethodSpec
 
     time.perf_counter = time.process_time  # stage timers count CPU (see the module notes)
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
@@ -71,17 +71,22 @@ def main() -> None:
 
     ref, _ = engine(start.positions, True, args.ref_level)
     opt3, _ = optimised(ENGINE_LEVEL)
-    rows = []
+    rows, failed = [], []
     for series in args.series.split(","):
         for level in (int(v) for v in args.levels.split(",")):
-            if series == "all":
-                run, cpu = engine(start.positions, True, level)
-            elif series == "opt":
-                opt, cpu_opt = optimised(level)
-                run, cpu = engine(opt.coordinates_ang, False, ENGINE_LEVEL)
-                cpu += cpu_opt
-            else:
-                run, cpu = engine(opt3.coordinates_ang, False, level)
+            try:
+                if series == "all":
+                    run, cpu = engine(start.positions, True, level)
+                elif series == "opt":
+                    opt, cpu_opt = optimised(level)
+                    run, cpu = engine(opt.coordinates_ang, False, ENGINE_LEVEL)
+                    cpu += cpu_opt
+                else:
+                    run, cpu = engine(opt3.coordinates_ang, False, level)
+            except EngineConvergenceError as exc:
+                print(json.dumps({"series": series, "level": level, "failed": str(exc)}))
+                failed.append(f"{series} level {level}: {exc}")
+                continue
             row = {"series": series, "level": level, "cpu_s": round(cpu, 2)}
             row.update(
                 {
@@ -110,7 +115,13 @@ def main() -> None:
             f"{r['dE_hartree']:>10.1e}{r['max_dnu_cm1']:>9.3f}{r['max_rel_activity']:>9.1e}"
             f"{r['max_drho']:>9.1e}"
         )
-    print(json.dumps({"machine": platform.node(), "spec": spec.label(), "rows": rows}))
+    for line in failed:
+        print("failed:", line)
+    print(
+        json.dumps(
+            {"machine": platform.node(), "spec": spec.label(), "rows": rows, "failed": failed}
+        )
+    )
 
 
 if __name__ == "__main__":

@@ -132,7 +132,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--density-fit",
         action="store_true",
         help="density-fitted integrals in every SCF, gradient, Hessian and polarizability of "
-        f"the run; {DENSITY_FIT_ACCURACY} (default: exact integrals)",
+        f"the run; {DENSITY_FIT_ACCURACY.replace('%', '%%')} (default: exact integrals)",
     )
     parser.add_argument(
         "--auxbasis",

@@ -294,7 +294,10 @@ def build_scf(mol, spec: MethodSpec):
 
 #: Accuracy of density fitting against exact integrals, measured (docs/engine-routes.md,
 #: "Cheaper field tasks and integrals"); quoted in the provenance and the option's help.
-DENSITY_FIT_ACCURACY = "DF_ACCURACY_PLACEHOLDER"
+DENSITY_FIT_ACCURACY = (
+    "measured error against exact integrals at most about 1 cm-1 in frequencies, 0.5 % in "
+    "activities and 0.005 in depolarization ratios"
+)
 
 
 def integral_notes(mol, spec: MethodSpec) -> list[str]:

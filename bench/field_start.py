@@ -1,4 +1,4 @@
-"""Start density of the field tasks: D(0) against D(0) + Σ F_a ∂D/∂F_a (and the wrong sign).
+"""Field SCFs: start density D(0) or D(0) + Σ F_a ∂D/∂F_a, PySCF's DIIS or the scaled one.
 
 For one molecule (ASE's geometry, not optimised: the start matters, not the minimum) the
 reference SCF is converged to the field route's tolerance, its CPHF gives α and ∂D/∂F, and
@@ -7,7 +7,10 @@ one thread from three starts:
 
 * ``D0``: the reference density (the engine's start before the response was kept);
 * ``D0+F·dD``: the density extrapolated with the CPHF response (the engine's start now);
-* ``D0-F·dD``: the same with the opposite sign (the sign check: it should be slower).
+* ``D0-F·dD``: the same with the opposite sign (the sign check: it should be slower);
+
+each with PySCF's DIIS (``pyscf``) and with the scale-invariant one the engine uses now
+(``scaled``, :func:`vibrapol.engine.fieldgrad.scaled_cdiis_class`).
 
 It reports SCF cycles (to convergence, and to an orbital gradient of 3e-9, below which the
 SCFs wander at their noise floor), task CPU seconds (SCF + gradient, ``time.process_time``)
@@ -29,12 +32,15 @@ import time
 import numpy as np
 
 STARTS = ("D0", "D0+F·dD", "D0-F·dD")
+VARIANTS = [(d, s) for d in ("pyscf", "scaled") for s in STARTS]
 
 
 def main() -> None:
     from ase.build import molecule
     from pyscf import lib
+    from pyscf.scf.diis import CDIIS
 
+    from vibrapol.engine import fieldgrad
     from vibrapol.engine.fieldgrad import (
         field_gradient,
         field_scf,
@@ -58,6 +64,7 @@ def main() -> None:
     z, xyz = atoms.get_atomic_numbers(), atoms.get_positions()
     mol = build_molecule(z, xyz, spec)
     lib.num_threads(1)
+    scaled = fieldgrad.scaled_cdiis_class
     mf = tighten_scf(run_scf(mol, spec), spec)
     d0 = np.asarray(mf.make_rdm1())
     _, response = cphf_polarizability_response(mf)
@@ -65,8 +72,9 @@ def main() -> None:
     fields = plan.task_fields_au[: args.fields]
     rows = []
     for k, f in enumerate(fields):
-        grads = {}
-        for start in STARTS:
+        reference_gradient = None
+        for diis, start in VARIANTS:
+            fieldgrad.scaled_cdiis_class = (lambda: CDIIS) if diis == "pyscf" else scaled
             sign = {"D0": 0.0, "D0+F·dD": 1.0, "D0-F·dD": -1.0}[start]
             dm0 = field_start_density(d0, sign * response, f) if sign else d0
             c0 = time.process_time()
@@ -76,38 +84,43 @@ def main() -> None:
             )
             g = field_gradient(fmf, f)
             cpu = time.process_time() - c0
-            grads[start] = g
+            if reference_gradient is None:
+                reference_gradient = g  # PySCF's DIIS from D0: the engine's earlier setting
             rows.append(
                 {
                     "field": k,
                     "field_au": np.round(f, 6).tolist(),
+                    "diis": diis,
                     "start": start,
                     "cycles": int(fmf.cycles),
-                    "cycles_3e-9": next((i + 1 for i, g in enumerate(norms) if g < 3e-9), -1),
+                    "cycles_3e-9": next((i + 1 for i, n in enumerate(norms) if n < 3e-9), -1),
                     "cpu_s": round(cpu, 3),
-                    "max_dgrad": float(np.abs(g - grads["D0"]).max()),
+                    "max_dgrad": float(np.abs(g - reference_gradient).max()),
                 }
             )
+    fieldgrad.scaled_cdiis_class = scaled
     print(f"{spec.label()} {name}, {len(fields)} fields, 1 thread, {platform.node()}")
-    print(f"{'field':>5} {'start':>9} {'cycles':>6} {'to 3e-9':>7} {'CPU/s':>7} {'max|Δg|':>9}")
+    print(
+        f"{'field':>5} {'DIIS':>6} {'start':>9} {'cycles':>6} {'to 3e-9':>7} {'CPU/s':>7} "
+        f"{'max|Δg|':>9}"
+    )
     for r in rows:
         print(
-            f"{r['field']:>5} {r['start']:>9} {r['cycles']:>6} {r['cycles_3e-9']:>7} "
-            f"{r['cpu_s']:>7.2f} {r['max_dgrad']:>9.1e}"
+            f"{r['field']:>5} {r['diis']:>6} {r['start']:>9} {r['cycles']:>6} "
+            f"{r['cycles_3e-9']:>7} {r['cpu_s']:>7.2f} {r['max_dgrad']:>9.1e}"
         )
     summary = {}
-    for start in STARTS:
-        sel = [r for r in rows if r["start"] == start]
-        summary[start] = {
+    for diis, start in VARIANTS:
+        sel = [r for r in rows if r["start"] == start and r["diis"] == diis]
+        summary[f"{diis} {start}"] = s = {
             "mean_cycles": float(np.mean([r["cycles"] for r in sel])),
             "mean_cycles_3e-9": float(np.mean([r["cycles_3e-9"] for r in sel])),
             "cpu_s": float(sum(r["cpu_s"] for r in sel)),
             "max_dgrad": float(max(r["max_dgrad"] for r in sel)),
         }
-        s = summary[start]
         print(
-            f"{start:>9}: mean cycles {s['mean_cycles']:.1f} (to 3e-9: "
-            f"{s['mean_cycles_3e-9']:.1f}), CPU {s['cpu_s']:.1f} s, "
+            f"{diis:>6} {start:>9}: mean cycles {s['mean_cycles']:.1f} (to 3e-9: "
+            f"{s['mean_cycles_3e-9']:.1f}), CPU {s['cpu_s']:.2f} s, "
             f"max |Δg| {s['max_dgrad']:.1e} hartree/bohr"
         )
     print(json.dumps({"system": name, "spec": spec.label(), "rows": rows, "summary": summary}))

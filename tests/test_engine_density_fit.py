@@ -232,3 +232,16 @@ def test_field_scf_reaches_the_tight_tolerance_without_wandering(water_reference
     finally:
         fieldgrad.scaled_cdiis_class = original
     assert np.abs(field_gradient(fast, field) - field_gradient(slow, field)).max() < 1e-9
+
+
+def test_provenance_notes_name_the_dft_grid_and_the_fit():
+    # Contract: every integral choice of a run is written in its provenance; level 3 is
+    # PySCF's default grids.level (pyscf.dft.gen_grid.Grids).
+    from vibrapol.engine.scf import integral_notes
+
+    z, x = WATER_CS
+    b3lyp = MethodSpec("b3lyp", "sto-3g", density_fit=True, auxbasis="def2-universal-jkfit")
+    notes = integral_notes(build_molecule(z, x, b3lyp), b3lyp)
+    assert any("grids.level 3" in n for n in notes)
+    assert any("def2-universal-jkfit" in n and "0.5 %" in n for n in notes)
+    assert integral_notes(build_molecule(z, x, HF_STO), HF_STO) == []

@@ -39,7 +39,12 @@ from vibrapol.engine.estimate import (
 from vibrapol.engine.executors import check_scheduler_address
 from vibrapol.engine.optimize import DEFAULT_OPTIMIZER, OPTIMIZERS
 from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
-from vibrapol.engine.scf import DEFAULT_BASIS, DEFAULT_METHOD, build_molecule
+from vibrapol.engine.scf import (
+    DEFAULT_BASIS,
+    DEFAULT_METHOD,
+    DENSITY_FIT_ACCURACY,
+    build_molecule,
+)
 from vibrapol.errors import InputFormatError, VibrapolError
 from vibrapol.fileio import check_outputs, check_writable
 from vibrapol.sources.modes_json import write_modes_json
@@ -170,6 +175,18 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         action="store_true",
         help="use the frequency-dependent polarizability at --laser-nm instead of the static "
         "one (cartesian and normal routes; auto leaves out the field route) (default: static)",
+    )
+    parser.add_argument(
+        "--density-fit",
+        action="store_true",
+        help="density-fitted integrals in every SCF, gradient, Hessian and polarizability of "
+        f"the run; {DENSITY_FIT_ACCURACY.replace('%', '%%')} (default: exact integrals)",
+    )
+    parser.add_argument(
+        "--auxbasis",
+        metavar="NAME",
+        help="auxiliary basis of --density-fit, e.g. def2-universal-jkfit (default: PySCF's "
+        "choice for the basis, cc-pvdz-jkfit for 6-31G*)",
     )
     parser.add_argument(
         "--workers",

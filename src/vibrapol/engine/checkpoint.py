@@ -88,6 +88,8 @@ def task_key(
     ecp = ecp_core_electrons(spec.basis, atomic_numbers)
     if ecp:
         head["ecp"] = ecp
+    if spec.density_fit:  # absent when off, so that exact runs keep their earlier keys
+        head["density_fit"] = spec.auxbasis or "pyscf-default"
     h.update(json.dumps(head, sort_keys=True).encode())
     h.update(np.ascontiguousarray(atomic_numbers, dtype=np.int64).tobytes())
     h.update(np.ascontiguousarray(coordinates_ang, dtype=np.float64).tobytes())

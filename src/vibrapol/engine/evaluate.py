@@ -15,7 +15,7 @@ from typing import Any, ClassVar
 import numpy as np
 
 from vibrapol.engine.hessian import analytic_hessian
-from vibrapol.engine.polarizability import cphf_polarizability
+from vibrapol.engine.polarizability import cphf_polarizability, cphf_polarizability_response
 from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
 from vibrapol.units import BOHR3_TO_ANG3, BOHR_ANG
 
@@ -87,7 +87,9 @@ class FieldGradientJob:
     field_au : ndarray (3,)
         Field vector in atomic units (input frame).
     dm0 : ndarray (nao, nao), optional
-        Starting density (the zero-field reference).
+        Starting density: the zero-field reference extrapolated to the field with its CPHF
+        density response (:func:`~vibrapol.engine.fieldgrad.field_start_density`), or the
+        reference density itself.
     threads : int, optional
     """
 
@@ -132,6 +134,9 @@ class ReferenceResult:
         route's tolerance: the zero-field point of that route; its time feeds the cost model.
     seconds_scf, seconds_hessian, seconds_alpha, seconds_gradient : float
         Wall time of each step.
+    density_response : ndarray (3, nao, nao), optional
+        ∂D/∂F from the CPHF of α: the field tasks start from D + Σ_a F_a ∂D/∂F_a (None in
+        checkpoints written before it was kept: they start from D).
     """
 
     energy_hartree: float
@@ -143,6 +148,7 @@ class ReferenceResult:
     seconds_hessian: float = 0.0
     seconds_alpha: float = 0.0
     seconds_gradient: float = 0.0
+    density_response: np.ndarray | None = None
 
 
 def limit_threads(threads: int | None) -> None:
@@ -215,7 +221,8 @@ def reference_calculation(
     t1 = perf_counter()
     hessian = analytic_hessian(mf)
     t2 = perf_counter()
-    alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
+    alpha_bohr3, density_response = cphf_polarizability_response(mf)
+    alpha = alpha_bohr3 * BOHR3_TO_ANG3
     t3 = perf_counter()
     gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
     t4 = perf_counter()
@@ -229,6 +236,7 @@ def reference_calculation(
         seconds_hessian=t2 - t1,
         seconds_alpha=t3 - t2,
         seconds_gradient=t4 - t3,
+        density_response=density_response,
     )
 
 

@@ -30,6 +30,8 @@ Checked against central differences of E(F) in the tests.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 from vibrapol.engine.scf import EngineConvergenceError, MethodSpec, build_scf, converge
@@ -40,6 +42,39 @@ from vibrapol.engine.scf import EngineConvergenceError, MethodSpec, build_scf, c
 FIELD_SCF_CONV_TOL = 1e-12
 #: Orbital-gradient convergence of the field SCFs.
 FIELD_SCF_CONV_TOL_GRAD = 1e-9
+
+
+@functools.cache
+def scaled_cdiis_class():  # noqa: ANN201
+    """PySCF's commutator DIIS with its linear-dependence test made scale-invariant.
+
+    PySCF drops the directions of the DIIS matrix B (overlaps of the error vectors FDS − SDF,
+    bordered by ones) whose eigenvalues are below an absolute 1e-14.  Near 1e-9 the error
+    vectors have norms of ≈ 1e-8, their overlaps ≈ 1e-16, and every direction is dropped: the
+    extrapolation then averages old Fock matrices and the SCF wanders at an orbital gradient
+    of 3e-9 for ten or more cycles before it crosses 1e-9.  Dividing the error block by its
+    largest diagonal element leaves the DIIS coefficients unchanged (they solve
+    B c = −λ 1, Σ c = 1, and scaling B scales only λ) and makes the test relative.  Measured
+    (docs/engine-routes.md): water HF/6-31G* field SCFs 21 → 10–11 cycles from D₀, 6–7 from
+    the extrapolated start, gradients changed by ≤ 1.3e-10 hartree/bohr.
+    """
+    from pyscf.scf import diis
+
+    class ScaledCDIIS(diis.CDIIS):
+        def extrapolate(self, nd=None):  # noqa: ANN001, ANN202
+            nd = self.get_num_vec() if nd is None else nd
+            unscaled = self._H
+            h = unscaled[: nd + 1, : nd + 1].copy()
+            largest = np.abs(np.diag(h)[1:]).max()
+            if largest > 0:
+                h[1:, 1:] /= largest
+            self._H = h  # PySCF's extrapolate reads the matrix from this attribute
+            try:
+                return super().extrapolate(nd)
+            finally:
+                self._H = unscaled
+
+    return ScaledCDIIS
 
 
 def dipole_integrals(mol) -> np.ndarray:
@@ -53,12 +88,15 @@ def nuclear_field_energy(mol, field_au: np.ndarray) -> float:
     return -float(np.asarray(field_au) @ (mol.atom_charges() @ mol.atom_coords()))
 
 
-def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | None = None):
+def field_scf(
+    mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | None = None, callback=None
+):
     """A converged RHF/RKS object with +F·r added to its core Hamiltonian.
 
     UHF/UKS for an open-shell ``spec`` (the field acts on both spins; the gradient's field
     term takes the total density).  Its ``e_tot`` is the electronic energy plus nuclear
-    repulsion; add :func:`nuclear_field_energy` for E(F).
+    repulsion; add :func:`nuclear_field_energy` for E(F).  ``callback`` is PySCF's per-cycle
+    SCF callback (the benchmark records the orbital gradient with it).
 
     Raises
     ------
@@ -69,8 +107,10 @@ def field_scf(mol, spec: MethodSpec, field_au: np.ndarray, dm0: np.ndarray | Non
     mf = build_scf(mol, spec)
     mf.conv_tol = FIELD_SCF_CONV_TOL
     mf.conv_tol_grad = FIELD_SCF_CONV_TOL_GRAD
+    mf.DIIS = scaled_cdiis_class()
     hcore = mf.get_hcore() + np.einsum("a,apq->pq", f, dipole_integrals(mol))
     mf.get_hcore = lambda *args, h=hcore: h
+    mf.callback = callback
     mf = converge(mf, dm0)
     if not mf.converged:
         raise EngineConvergenceError(
@@ -92,12 +132,29 @@ def tighten_scf(mf, spec: MethodSpec):
     """
     mf.conv_tol = FIELD_SCF_CONV_TOL
     mf.conv_tol_grad = FIELD_SCF_CONV_TOL_GRAD
+    mf.DIIS = scaled_cdiis_class()
     mf.kernel(dm0=mf.make_rdm1())
     if not mf.converged:
         raise EngineConvergenceError(
             f"{spec.label()} SCF did not reach the tight convergence at the reference geometry"
         )
     return mf
+
+
+def field_start_density(
+    density: np.ndarray, density_response: np.ndarray | None, field_au: np.ndarray
+) -> np.ndarray:
+    """The start of a field SCF: D(0) + Σ_a F_a ∂D/∂F_a, or D(0) without the response.
+
+    ``density_response`` is the CPHF response to +F_a r_a
+    (:func:`~vibrapol.engine.polarizability.cphf_polarizability_response`), the same sign as
+    the field term of :func:`field_scf`.  Measured with the scaled DIIS (6-31G*): field SCFs
+    from 11 to 7 cycles (water HF), 8 to 5.3 (water B3LYP), 12 to 9 (benzene HF), gradients
+    changed by ≤ 1.4e-10 hartree/bohr (docs/engine-routes.md, "Cheaper field tasks").
+    """
+    if density_response is None:
+        return density
+    return density + np.einsum("a,apq->pq", np.asarray(field_au, dtype=float), density_response)
 
 
 def field_energy(mol, spec: MethodSpec, field_au: np.ndarray, dm0=None) -> float:

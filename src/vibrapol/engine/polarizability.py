@@ -28,6 +28,14 @@ def _charge_center(mol) -> np.ndarray:
 def cphf_polarizability(mf) -> np.ndarray:
     """Static polarizability tensor α of a converged closed-shell SCF, in bohr³ (a.u.).
 
+    See :func:`cphf_polarizability_response`, which also returns the density response.
+    """
+    return cphf_polarizability_response(mf)[0]
+
+
+def cphf_polarizability_response(mf) -> tuple[np.ndarray, np.ndarray | None]:
+    """Static polarizability α (bohr³) and first-order density response ∂D/∂F (AO basis).
+
     Solves the static coupled-perturbed equations for the three components of the dipole
     perturbation h¹ = r (origin at the centre of nuclear charge) [1]_, with the SCF object's
     own response function, so that for Kohn–Sham the exchange–correlation kernel is included
@@ -45,13 +53,19 @@ def cphf_polarizability(mf) -> np.ndarray:
 
     Returns
     -------
-    ndarray, shape (3, 3)
+    alpha : ndarray, shape (3, 3)
         Symmetric α in bohr³.
+    density_response : ndarray, shape (3, nao, nao), or None
+        None for an open shell (the field tasks then start from the reference density).
+        ∂D/∂F_a of the AO density for the perturbation +F_a r_a, the field term of
+        :mod:`vibrapol.engine.fieldgrad`: D(F) = D(0) + Σ_a F_a ∂D/∂F_a + O(F²).  It does not
+        depend on the dipole origin (a shift adds a multiple of the overlap to h¹, which
+        leaves the density unchanged).
     """
     if mf.istype("UHF"):  # open shell: the spin-unrestricted equations
         from vibrapol.engine.openshell import ucphf_polarizability
 
-        return ucphf_polarizability(mf)
+        return ucphf_polarizability(mf), None
     from pyscf.scf import cphf
 
     from vibrapol.engine.solvent import response_function
@@ -76,8 +90,10 @@ def cphf_polarizability(mf) -> np.ndarray:
     mo1, _ = cphf.solve(
         fvind, mo_energy, mo_occ, h1, None, max_cycle=CPHF_MAX_CYCLE, tol=CPHF_TOL, verbose=0
     )
-    alpha = -4.0 * np.einsum("xai,yai->xy", h1, mo1.reshape(3, nvir, nocc))
-    return 0.5 * (alpha + alpha.T)
+    mo1 = mo1.reshape(3, nvir, nocc)
+    alpha = -4.0 * np.einsum("xai,yai->xy", h1, mo1)
+    response = np.einsum("xai,pa,qi->xpq", mo1, orbv, 2.0 * orbo)
+    return 0.5 * (alpha + alpha.T), response + response.transpose(0, 2, 1)
 
 
 def finite_field_polarizability(mf, field_au: float = 1e-3) -> np.ndarray:

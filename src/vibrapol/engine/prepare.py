@@ -42,6 +42,8 @@ from vibrapol.engine.routes import (
 from vibrapol.engine.scf import (
     SCF_CONV_TOL,
     SCF_CONV_TOL_GRAD,
+    build_molecule,
+    integral_notes,
     transition_metal_note,
 )
 from vibrapol.engine.settings import EngineSettings
@@ -305,6 +307,9 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
     if prep.spin_note is not None:
         notes.append(prep.spin_note)
     notes.extend(_model_notes(prep, settings))
+    notes.extend(
+        integral_notes(build_molecule(prep.atomic_numbers, prep.coordinates_ang, spec), spec)
+    )
     metal = transition_metal_note(prep.atomic_numbers, spec)
     if metal is not None:
         notes.append(f"warning: {metal}")

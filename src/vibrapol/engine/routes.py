@@ -29,7 +29,11 @@ from vibrapol.engine.displacements import (
     normal_mode_plan,
 )
 from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityDipoleJob, ReferenceResult
-from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
+from vibrapol.engine.fieldgrad import (
+    FIELD_SCF_CONV_TOL,
+    FIELD_SCF_CONV_TOL_GRAD,
+    field_start_density,
+)
 from vibrapol.engine.fieldplan import FieldPlan, dalpha_dx_from_gradients, field_plan
 from vibrapol.engine.scf import EngineInputError, MethodSpec
 from vibrapol.engine.symdisplace import SymmetricPlan, rebuild_dalpha_dx, symmetric_cartesian_plan
@@ -133,7 +137,16 @@ def make_jobs(
     jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob] | list[Any]
     if isinstance(plan, FieldPlan):
         fields = plan.task_fields_au
-        jobs = [FieldGradientJob(z, coordinates_ang, spec, f, ref.density) for f in fields]
+        jobs = [
+            FieldGradientJob(
+                z,
+                coordinates_ang,
+                spec,
+                f,
+                field_start_density(ref.density, ref.density_response, f),
+            )
+            for f in fields
+        ]
         keys = [
             task_key(
                 "field-gradient",

@@ -63,8 +63,13 @@ class EngineSettings:
     dynamic : bool
         Use α(−ω; ω) at ``laser_nm`` instead of the static α (Cartesian and normal-mode routes
         only; closed shell).
+    density_fit : bool
+        Density-fitted integrals in every SCF, gradient, Hessian and CPHF of the run.
+    auxbasis : str or None
+        Auxiliary basis of the fit (None: PySCF's choice); only with ``density_fit``.
     spec : MethodSpec
-        The method, basis, charge, multiplicity and basis-function type together (derived).
+        The method, basis, charge, multiplicity, basis-function type and density fitting
+        together (derived).
 
     Raises
     ------
@@ -93,6 +98,8 @@ class EngineSettings:
     epsilon_optical: float | None = None
     laser_nm: float | None = None
     dynamic: bool = False
+    density_fit: bool = False
+    auxbasis: str | None = None
     spec: MethodSpec = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -105,6 +112,8 @@ class EngineSettings:
             int(self.multiplicity),
             bool(self.cartesian_d),
             solvent=solvent_model(self.solvent, self.epsilon, self.epsilon_optical),
+            density_fit=bool(self.density_fit),
+            auxbasis=self.auxbasis,
         )
         check_step(self.step_ang)
         if not 0.0 < float(self.field_au) <= MAX_FIELD_AU:
@@ -127,6 +136,8 @@ class EngineSettings:
             "charge": spec.charge,
             "multiplicity": spec.multiplicity,
             "cartesian_d": spec.cartesian_d,
+            "density_fit": spec.density_fit,
+            "auxbasis": spec.auxbasis,
             "optimize": bool(self.optimize),
             "step_ang": float(self.step_ang),
             "route": route,

@@ -141,7 +141,7 @@ class ScfJob:
     def run(self) -> ScfResult:
         """Tight SCF, α (Å³) and gradient, with the wall time of each."""
         from vibrapol.engine.fieldgrad import field_gradient, tighten_scf
-        from vibrapol.engine.polarizability import cphf_polarizability
+        from vibrapol.engine.polarizability import cphf_polarizability_response
         from vibrapol.engine.scf import run_scf
         from vibrapol.units import BOHR3_TO_ANG3
 
@@ -150,7 +150,8 @@ class ScfJob:
             t0 = perf_counter()
             mf = tighten_scf(run_scf(mol, self.spec), self.spec)
             t1 = perf_counter()
-            alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
+            alpha_bohr3, density_response = cphf_polarizability_response(mf)
+            alpha = alpha_bohr3 * BOHR3_TO_ANG3
             t2 = perf_counter()
             gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
             t3 = perf_counter()
@@ -163,6 +164,7 @@ class ScfJob:
             seconds_scf=t1 - t0,
             seconds_alpha=t2 - t1,
             seconds_gradient=t3 - t2,
+            density_response=density_response,
         )
         return ScfResult(
             reference, np.asarray(mf.mo_coeff), np.asarray(mf.mo_occ), np.asarray(mf.mo_energy)
@@ -175,6 +177,8 @@ class ScfJob:
         arrays: dict[str, Any] = {k: getattr(ref, k) for k in (*_SCF_ARRAYS, *_SCF_TIMES)}
         arrays["energy_hartree"] = ref.energy_hartree
         arrays.update({k: getattr(result, k) for k in _ORBITALS})
+        if ref.density_response is not None:  # ∂D/∂F: the start of the field tasks
+            arrays["density_response"] = ref.density_response
         return arrays
 
     @staticmethod
@@ -189,6 +193,7 @@ class ScfJob:
             density=stored["density"],
             gradient_hartree_bohr=stored["gradient_hartree_bohr"],
             **{k: float(stored[k]) for k in _SCF_TIMES},
+            density_response=stored.get("density_response"),
         )
         return ScfResult(reference, *(stored[k] for k in _ORBITALS))
 

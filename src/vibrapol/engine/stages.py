@@ -192,7 +192,9 @@ class ScfJob:
             alpha_ang3=stored["alpha_ang3"],
             density=stored["density"],
             gradient_hartree_bohr=stored["gradient_hartree_bohr"],
-            **{k: float(stored[k]) for k in _SCF_TIMES},
+            seconds_scf=float(stored["seconds_scf"]),
+            seconds_alpha=float(stored["seconds_alpha"]),
+            seconds_gradient=float(stored["seconds_gradient"]),
             density_response=stored.get("density_response"),
         )
         return ScfResult(reference, *(stored[k] for k in _ORBITALS))
@@ -283,5 +285,9 @@ def legacy_reference(
         alpha_ang3=stored["alpha_ang3"],
         density=stored["density"],
         gradient_hartree_bohr=stored["gradient_hartree_bohr"],
-        **{k: float(stored[k]) for k in _LEGACY_TIMES},
+        seconds_scf=float(stored["seconds_scf"]),
+        seconds_hessian=float(stored["seconds_hessian"]),
+        seconds_alpha=float(stored["seconds_alpha"]),
+        seconds_gradient=float(stored["seconds_gradient"]),
+        density_response=stored.get("density_response"),
     )

@@ -35,8 +35,8 @@ def modes_with_masses(modes: ModeSet, masses_da: np.ndarray | list[float]) -> Mo
         f"{modes.symbols[i]}{i + 1} {old[i]:.6g} → {new[i]:.6g}"
         for i in np.flatnonzero(~np.isclose(new, old, rtol=1e-9, atol=0.0))
     ]
-    note = "masses changed (ModeSet.with_masses): frequencies and modes from the Hessian "
-    note += "rebuilt from the source's modes"
+    note = f"masses changed (ModeSet.with_masses: {'; '.join(changed) or 'none'}): "
+    note += "frequencies and modes from the Hessian rebuilt from the source's modes"
     dropped = [
         name
         for name, value in (

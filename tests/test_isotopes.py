@@ -17,13 +17,13 @@ import warnings
 import numpy as np
 import pytest
 
-from _paths import QC_OUTPUTS
+from _paths import PROJECT_ROOT, QC_OUTPUTS
 from vibrapol.cli import main
 from vibrapol.errors import ChangedValuesWarning, OptionError, VibrapolError
 from vibrapol.isotopes import frequencies_only, isotope_shifts, isotopologue, parse_isotopes
 from vibrapol.sources import read_modes
 
-WATER = "examples/water.modes.json"
+WATER = str(PROJECT_ROOT / "examples" / "water.modes.json")
 #: Mass of ²H in Da (AME2016, from memory).
 D = 2.01410177812
 

@@ -83,7 +83,11 @@ def figure_width(text: str) -> str | float:
         ) from None
 
 
-def add_isotopes_argument(parser: argparse.ArgumentParser, what: str) -> None:
+def add_isotopes_argument(
+    parser: argparse.ArgumentParser | argparse._ArgumentGroup,
+    what: str,
+    default: str = "the source's masses",
+) -> None:
     """``--isotopes SPEC``: other isotopes on the same molecule (``vibrapol.isotopes``)."""
     parser.add_argument(
         "--isotopes",
@@ -92,5 +96,5 @@ def add_isotopes_argument(parser: argparse.ArgumentParser, what: str) -> None:
         "(atom number from 1 in the source's order; wins over its element), masses in Da, e.g. "
         "H=2.01410178 for the fully deuterated molecule; frequencies and modes from the "
         "Hessian rebuilt from the source's modes, Raman numbers from its ∂α/∂x (refused "
-        "without them)",
+        f"without them; default: {default})",
     )

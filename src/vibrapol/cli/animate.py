@@ -28,7 +28,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_kind_argument(parser)
     parser.add_argument(
         "--mode", type=int, required=True, metavar="N",
-        help="mode number, from 1 in order of wavenumber (the 'mode' column of vibrapol table)",
+        help="mode number, from 1 in order of wavenumber (the 'mode' column of vibrapol "
+        "table; required, no default)",
     )  # fmt: skip
     parser.add_argument(
         "-o", "--output", metavar="FILE", required=True,
@@ -45,7 +46,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )  # fmt: skip
     parser.add_argument(
         "--arrows", metavar="FILE",
-        help="also draw the mode's displacement arrows (.png, .svg or .pdf)",
+        help="also draw the mode's displacement arrows (.png, .svg or .pdf; default: none)",
     )  # fmt: skip
     add_isotopes_argument(parser, "animate this isotopologue's mode N")
     parser.add_argument("--force", action="store_true", help="overwrite existing output files")

@@ -111,10 +111,14 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
     add_isotopes_argument(iso, "the masses of the isotopologue measured with --iso-vv")
     iso.add_argument(
         "--iso-vv", metavar="VV_FILE",
-        help="parallel (VV) spectrum of the isotopologue (same forms as --vv; needs --isotopes)",
+        help="parallel (VV) spectrum of the isotopologue (same forms as --vv; needs --isotopes; "
+        "default: none)",
     )  # fmt: skip
     iso.add_argument(
-        "--iso-vh", metavar="VH_FILE", help="crossed (VH) spectrum of the isotopologue"
+        "--iso-vh",
+        metavar="VH_FILE",
+        help="crossed (VH) spectrum of the isotopologue (default: none, or the second "
+        "intensity column of --iso-vv)",
     )
     parser.add_argument("--force", action="store_true", help="overwrite existing output files")
 

@@ -23,7 +23,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol shifts``."""
     parser.add_argument("source", help="quantum-chemistry output file or vibrapol *.modes.json")
     add_kind_argument(parser)
-    add_isotopes_argument(parser, "the isotopologue (required)")
+    add_isotopes_argument(parser, "the isotopologue", "none, required")
     parser.add_argument(
         "--format",
         choices=("text", "csv", "json"),

@@ -60,7 +60,9 @@ def test_arrows_figure_and_isotopologue(tmp_path):
             "--isotopes", "H=2.01410178"]  # fmt: skip
     assert main(argv) == 0
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert "mode 2 29" in out.read_text().splitlines()[1]  # the D2O wavenumber, 2924.7 cm-1
+    comment = out.read_text().splitlines()[1]
+    assert "mode 2 29" in comment  # the D2O wavenumber, 2924.7 cm-1
+    assert "masses given: H2 1.00783 -> 2.0141" in comment  # which isotopes, in ASCII
 
 
 def test_comment_line_says_the_frames_are_for_display():

@@ -82,9 +82,11 @@ def mode_frames(
 def _comment(modes: ModeSet, index: int, k: int, frames: int, amplitude_ang: float) -> str:
     nu = float(modes.freqs_cm1[index])
     kind = f"{nu:.1f} cm-1" if nu >= 0 else f"{-nu:.1f}i cm-1 (imaginary)"
+    masses = modes.provenance.masses
+    isotopes = f"; masses {masses}".replace("→", "->") if masses.startswith("given") else ""
     return (
         f"mode {index + 1} {kind} frame {k + 1}/{frames} largest displacement "
-        f"{amplitude_ang:g} A (vibrapol; displaced for display, not a geometry)"
+        f"{amplitude_ang:g} A (vibrapol; displaced for display, not a geometry{isotopes})"
     )
 
 
@@ -97,7 +99,8 @@ def frames_xyz(
     """The frames of :func:`mode_frames` as a multi-frame XYZ text (Å, element symbols).
 
     Each frame is the usual XYZ block: the number of atoms, a comment line (mode number,
-    wavenumber, frame number, amplitude), then one ``symbol x y z`` line per atom.
+    wavenumber, frame number, amplitude, and the masses when they are not the source's), then
+    one ``symbol x y z`` line per atom.
     """
     xyz = mode_frames(modes, index, amplitude_ang, frames)
     out = io.StringIO()

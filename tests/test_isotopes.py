@@ -168,3 +168,21 @@ def test_cli_refusals_are_one_line(argv, message, capsys):
     assert main(argv) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and message in err[0]
+
+
+def test_shift_dataframe_equals_the_csv(tmp_path):
+    # contract: the DataFrame has the CSV's columns and numbers (to the CSV's digits)
+    import pandas as pd
+
+    water = read_modes(WATER)
+    shifts = isotope_shifts(water, quiet_isotopologue(water, f"H={D}"))
+    out = tmp_path / "s.csv"
+    with pytest.warns(ChangedValuesWarning):
+        assert (
+            main(["shifts", WATER, "--isotopes", f"H={D}", "--format", "csv", "-o", str(out)]) == 0
+        )
+    from_csv = pd.read_csv(out, comment="#")
+    df = shifts.to_dataframe()
+    assert list(df.columns) == list(from_csv.columns)
+    np.testing.assert_allclose(df.to_numpy(float), from_csv.to_numpy(float), atol=1e-4)
+    assert df.attrs["isotopologue_masses"].startswith("given: H2")

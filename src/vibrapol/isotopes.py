@@ -4,12 +4,16 @@ from __future__ import annotations
 
 import dataclasses
 import warnings
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from vibrapol.errors import ChangedValuesWarning, ShapeError, VibrapolError
 from vibrapol.modeset import ModeSet, _array
 from vibrapol.vibrations import harmonic_analysis, hessian_from_modes
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 
 def modes_with_masses(modes: ModeSet, masses_da: np.ndarray | list[float]) -> ModeSet:
@@ -167,6 +171,16 @@ class IsotopeShifts:
     heavy: ModeSet
     partner: np.ndarray
     overlap: np.ndarray
+
+    def to_dataframe(self) -> pd.DataFrame:
+        """The shift table as a pandas DataFrame.
+
+        The columns are those of ``vibrapol shifts --format csv``; ``df.attrs`` holds its
+        header.  Needs pandas (imported here).
+        """
+        from vibrapol.output.isotopes import shifts_dataframe
+
+        return shifts_dataframe(self)
 
     @property
     def parent_cm1(self) -> np.ndarray:

@@ -105,4 +105,13 @@ def shifts_text(shifts: IsotopeShifts, warnings: list[str] | tuple[str, ...] = (
     return "\n".join(lines) + "\n"
 
 
+def shifts_dataframe(shifts: IsotopeShifts):  # noqa: ANN201 (pandas is imported here)
+    """The shift table as a pandas DataFrame: :data:`SHIFT_COLUMNS`, ``attrs`` the header."""
+    import pandas as pd
+
+    df = pd.DataFrame(shift_rows(shifts), columns=list(SHIFT_COLUMNS))
+    df.attrs.update(shift_header(shifts))
+    return df
+
+
 SHIFT_FORMATTERS = {"text": shifts_text, "csv": shifts_csv, "json": shifts_json}

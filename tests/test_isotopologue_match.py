@@ -114,6 +114,7 @@ def test_match_cli_with_an_isotopologue(spectra, tmp_path, capsys):
     assert "isotopologue agreement:" in capsys.readouterr().out
     text = out.read_text()
     assert f"isotopologue {spectra['d']}: given: H2 1.00783" in text  # the CSV says so
+    assert "isotopologue agreement" in text
     body = "".join(x for x in text.splitlines(True) if not x.startswith("#"))
     modes = {round(float(r["band_cm1"])): r["mode"] for r in csv.DictReader(io.StringIO(body))}
     assert modes[3034] == "9" and modes[680] == "4"

@@ -63,7 +63,12 @@ def assignment_conditions(
         (
             "scores",
             f"{s.n_assigned}/{s.n_bands} bands assigned, rms {s.rms_cm1:.1f} cm-1, "
-            f"overall {s.overall:.3f}",
+            f"overall {s.overall:.3f}"
+            + (
+                f" (isotopologue agreement {s.isotopologue_agreement:.3f} included)"
+                if math.isfinite(s.isotopologue_agreement)
+                else ""
+            ),
         )
     )
     items.append(

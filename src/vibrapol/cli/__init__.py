@@ -58,6 +58,14 @@ SUBCOMMANDS: dict[str, Subcommand] = {
         "vibrapol.cli.sweep",
         "band intensities versus polarizer angle for isotropic or oriented samples",
     ),
+    "shifts": Subcommand(
+        "vibrapol.cli.shifts",
+        "isotope shifts: each mode beside the same mode of an isotopologue (--isotopes)",
+    ),
+    "animate": Subcommand(
+        "vibrapol.cli.animate",
+        "frames of one mode for a molecular viewer (multi-frame XYZ, ASE trajectory), arrows",
+    ),
     "match": Subcommand(
         "vibrapol.cli.match", "assign computed modes to the bands of a measured VV/VH spectrum"
     ),

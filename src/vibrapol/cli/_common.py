@@ -17,7 +17,7 @@ from vibrapol.errors import VibrapolError
 from vibrapol.fileio import check_outputs, write_all
 
 #: Argument names (dest) that hold input files, in every subcommand.
-_INPUT_DESTS = ("source", "sources", "structures", "vv", "vh")
+_INPUT_DESTS = ("source", "sources", "structures", "vv", "vh", "iso_vv", "iso_vh")
 
 
 def add_output_arguments(parser: argparse.ArgumentParser, what: str = "output") -> None:

@@ -81,3 +81,20 @@ def figure_width(text: str) -> str | float:
         raise VibrapolError(
             f"--width must be single, double or a number of inches, got {text!r}"
         ) from None
+
+
+def add_isotopes_argument(
+    parser: argparse.ArgumentParser | argparse._ArgumentGroup,
+    what: str,
+    default: str = "the source's masses",
+) -> None:
+    """``--isotopes SPEC``: other isotopes on the same molecule (``vibrapol.isotopes``)."""
+    parser.add_argument(
+        "--isotopes",
+        metavar="SPEC",
+        help=f"{what}: comma-separated ELEMENT=MASS (every atom of that element) or ATOM=MASS "
+        "(atom number from 1 in the source's order; wins over its element), masses in Da, e.g. "
+        "H=2.01410178 for the fully deuterated molecule; frequencies and modes from the "
+        "Hessian rebuilt from the source's modes, Raman numbers from its ∂α/∂x (refused "
+        f"without them; default: {default})",
+    )

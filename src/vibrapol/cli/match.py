@@ -25,6 +25,7 @@ import numpy as np
 from vibrapol import fileio
 from vibrapol.cli._common import input_paths, print_stdout, write_outputs
 from vibrapol.cli._options import (
+    add_isotopes_argument,
     add_kind_argument,
     add_no_symmetry_argument,
     add_temperature_argument,
@@ -101,6 +102,24 @@ def add_measurement_arguments(parser: argparse.ArgumentParser) -> None:
         "STO-3G and 3-21G results)",
     )  # fmt: skip
     add_no_symmetry_argument(parser)
+    iso = parser.add_argument_group(
+        "isotopologue",
+        "a measured isotopologue beside the parent: the computed isotope ratio of each mode "
+        "predicts where its band moves, and the cost of each pair gains a term for how well "
+        "the isotopologue's measured bands agree (see docs/assignment.md)",
+    )
+    add_isotopes_argument(iso, "the masses of the isotopologue measured with --iso-vv")
+    iso.add_argument(
+        "--iso-vv", metavar="VV_FILE",
+        help="parallel (VV) spectrum of the isotopologue (same forms as --vv; needs --isotopes; "
+        "default: none)",
+    )  # fmt: skip
+    iso.add_argument(
+        "--iso-vh",
+        metavar="VH_FILE",
+        help="crossed (VH) spectrum of the isotopologue (default: none, or the second "
+        "intensity column of --iso-vv)",
+    )
     parser.add_argument("--force", action="store_true", help="overwrite existing output files")
 
 
@@ -135,29 +154,59 @@ def table_writer(path: str):  # noqa: ANN201
     return PAPER_TABLES[suffix]
 
 
-def measure(args: argparse.Namespace):  # noqa: ANN201
-    """Read, crop, clean and fit the measured pair: (cleaned pair, MeasuredBands)."""
+def measure(args: argparse.Namespace, vv: str | None = None, vh: str | None = None):  # noqa: ANN201
+    """Read, crop, clean and fit a measured pair: (cleaned pair, MeasuredBands).
+
+    Default: the parent's ``--vv``/``--vh``; the isotopologue's files are passed explicitly.
+    """
     from vibrapol import measured
 
+    if vv is None:
+        vv, vh = args.vv, args.vh
     options: dict[str, Any] = {"axis": args.axis}
     if args.laser_nm is not None:
         options["laser_nm"] = args.laser_nm
-    if args.vh is not None:
-        check_distinct_channels(args.vv, args.vh)
-    pair = measured.read_pair(args.vv, args.vh, **options)
+    if vh is not None:
+        check_distinct_channels(vv, vh)
+    pair = measured.read_pair(vv, vh, **options)
     if args.range_cm1:
         lo, hi = parse_range(args.range_cm1)
         pair = measured.PolarizedPair(
             pair.vv.crop(lo, hi), None if pair.vh is None else pair.vh.crop(lo, hi)
         )
-    check_stokes(pair.vv.shift_cm1, args.vv)
+    check_stokes(pair.vv.shift_cm1, vv)
     pair, _, _ = measured.clean_pair(pair, **({"baseline": None} if args.no_baseline else {}))
     starts = measured.find_bands(pair.vv, min_snr=args.min_snr)
     if not starts:
         raise VibrapolError(
-            f"{args.vv}: no bands found above {args.min_snr:g} noise units; lower --min-snr"
+            f"{vv}: no bands found above {args.min_snr:g} noise units; lower --min-snr"
         )
     return pair, measured.measure_bands(pair, starts)
+
+
+def check_isotopologue_options(args: argparse.Namespace) -> None:
+    """--iso-vv needs --isotopes and the other way round; --iso-vh needs --iso-vv."""
+    if args.iso_vh is not None and args.iso_vv is None:
+        raise VibrapolError("--iso-vh needs --iso-vv (the isotopologue's parallel spectrum)")
+    if (args.iso_vv is None) != (args.isotopes is None):
+        raise VibrapolError(
+            "--iso-vv and --isotopes go together: the isotopologue's spectrum and its masses"
+        )
+    if args.iso_vv is not None and args.iso_vv in (args.vv, args.vh):
+        raise VibrapolError(f"--iso-vv {args.iso_vv} is a parent spectrum; give the isotopologue's")
+
+
+def with_measured_isotopologue(args: argparse.Namespace, cand, modes: ModeSet):  # noqa: ANN001, ANN201
+    """The candidate with its computed isotope ratios (when --iso-vv is given), and a note."""
+    if args.iso_vv is None:
+        return cand, ""
+    from vibrapol.compare.isotopologue import with_isotopologue
+    from vibrapol.isotopes import frequencies_only, isotopologue
+
+    parent = frequencies_only(modes)  # the isotopologue term uses wavenumbers only
+    heavy = isotopologue(parent, args.isotopes)
+    note = f"isotopologue {args.iso_vv}: {heavy.provenance.masses} (isotope-shift cost term)"
+    return with_isotopologue(cand, parent, heavy), note
 
 
 def check_distinct_channels(vv: str, vh: str) -> None:
@@ -251,20 +300,24 @@ def run(args: argparse.Namespace) -> int:
     formats = [fileio.figure_format(p) for p in args.figure]
     writers = [table_writer(p) for p in args.table]
     opts = assign_options(args)
+    check_isotopologue_options(args)
     modes = read_modes(args.source, kind=args.kind)
     check_scale_for(args, modes, args.source)
     pair, bands = measure(args)
+    if args.iso_vv is not None:
+        opts["isotopologue_bands"] = measure(args, args.iso_vv, args.iso_vh)[1]
     cand = candidate_from_modes(
         modes, laser_nm=laser_nm(args), temperature_k=args.temperature_k,
         symmetry=not args.no_symmetry, detector=args.detector,
     )  # fmt: skip
+    cand, iso_note = with_measured_isotopologue(args, cand, modes)
     level_note = ""
     if "model" not in opts:
         from vibrapol.compare.costs import model_for_basis
 
         opts["model"], level_note = model_for_basis(modes.provenance.basis)
     result = assign(cand, bands, pair=pair, **opts)
-    notes = [level_note] if level_note else []
+    notes = [n for n in (level_note, iso_note) if n]
     if args.laser_nm is None:
         notes.append(f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm")
     files: list[tuple[str, str | bytes]] = []

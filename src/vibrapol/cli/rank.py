@@ -19,10 +19,12 @@ from vibrapol.cli._common import print_stdout, write_outputs
 from vibrapol.cli.match import (
     add_measurement_arguments,
     assign_options,
+    check_isotopologue_options,
     check_outputs,
     check_scale_for,
     laser_nm,
     measure,
+    with_measured_isotopologue,
 )
 from vibrapol.errors import VibrapolError
 from vibrapol.sources import read_modes
@@ -78,6 +80,9 @@ def run(args: argparse.Namespace) -> int:
         raise VibrapolError("give at least one SOURCE or --mixture")
     check_outputs(args, [args.output] if args.output else [])
     opts = assign_options(args)
+    check_isotopologue_options(args)
+    if args.iso_vv is not None and args.mixture:
+        raise VibrapolError("--iso-vv applies to single structures; it cannot go with --mixture")
     degeneracy = _degeneracies(args.degeneracy)
     common = dict(
         laser_nm=laser_nm(args),
@@ -89,7 +94,8 @@ def run(args: argparse.Namespace) -> int:
     for s in args.sources:
         modes = read_modes(s, kind=args.kind)
         check_scale_for(args, modes, s)
-        candidates.append(candidate_from_modes(modes, label=Path(s).name, **common))
+        cand = candidate_from_modes(modes, label=Path(s).name, **common)
+        candidates.append(with_measured_isotopologue(args, cand, modes)[0])
     members = {f.strip() for group in args.mixture for f in group.split(",")}
     unused = sorted(set(degeneracy) - members)
     if unused:
@@ -114,6 +120,8 @@ def run(args: argparse.Namespace) -> int:
             )
         )
     pair, bands = measure(args)
+    if args.iso_vv is not None:
+        opts["isotopologue_bands"] = measure(args, args.iso_vv, args.iso_vh)[1]
     ranking = rank(candidates, bands, pair=pair, **opts)
     text = ranking_text(ranking)
     text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"

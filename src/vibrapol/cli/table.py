@@ -7,6 +7,7 @@ import argparse
 from vibrapol.cli._common import add_output_arguments, check_output, emit
 from vibrapol.cli._options import (
     add_degeneracy_argument,
+    add_isotopes_argument,
     add_kind_argument,
     add_no_symmetry_argument,
 )
@@ -22,6 +23,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     """Arguments of ``vibrapol table``."""
     parser.add_argument("source", help="quantum-chemistry output file or vibrapol *.modes.json")
     add_kind_argument(parser)
+    add_isotopes_argument(parser, "tabulate this isotopologue instead of the source's masses")
     parser.add_argument(
         "--format", choices=sorted(FORMATTERS), default="text", help="output format (default text)"
     )
@@ -53,6 +55,10 @@ def run(args: argparse.Namespace) -> int:
         raise OptionError("--symmetrize needs the point group; it cannot go with --no-symmetry")
     with recorded_warnings() as texts:
         modes = read_modes(args.source, kind=args.kind)
+        if args.isotopes is not None:
+            from vibrapol.isotopes import isotopologue
+
+            modes = isotopologue(modes, args.isotopes)
         if scale is not None:  # a published factor must belong to the source's method and basis
             scale.check_belongs(modes.provenance.method, modes.provenance.basis, args.source)
         if args.no_symmetry:

@@ -100,11 +100,13 @@ class _Setup:
     offset: float
     range_cm1: tuple[float, float]
     prior: tuple[float, float] | None  # (f0, sigma_f)
+    isotopologue: np.ndarray | None = None  # weighted isotopologue term of every pair
 
 
 def _with_offset(setup: _Setup, offset: float) -> _Setup:
     _, inten, pol = pair_costs(setup.model, setup.bands, setup.modes, 1.0, offset)
-    return dataclasses.replace(setup, fixed=inten + pol, offset=offset)
+    fixed = inten + pol if setup.isotopologue is None else inten + pol + setup.isotopologue
+    return dataclasses.replace(setup, fixed=fixed, offset=offset)
 
 
 def _problem(setup: _Setup, factor: float) -> matching.Problem:
@@ -198,6 +200,7 @@ def assign(
     confidence: bool = True,
     similarity: bool = True,
     label: str = "",
+    isotopologue_bands: MeasuredBands | None = None,
 ) -> Assignment:
     """Assign the candidate's computed bands to the measured bands.
 
@@ -228,6 +231,10 @@ def assign(
         Compute the spectral similarity.
     label : str
         Name of the candidate (default: the candidate's).
+    isotopologue_bands : MeasuredBands, optional
+        Fitted bands of the measured isotopologue; adds the isotope-shift term of
+        :mod:`vibrapol.compare.isotopologue` to every pair cost (the candidate must carry
+        ``isotope_ratios``).
 
     Returns
     -------
@@ -257,7 +264,19 @@ def assign(
     calc_total = float(np.sum(np.exp(md.ln_intensity[inside]))) if inside.any() else 1.0
     offset0 = float(np.log(np.sum(np.exp(bd.ln_area))) - np.log(calc_total))
     prior = (f0, SCALE_PRIOR_REL * f0) if known_start else None
-    setup = _with_offset(_Setup(model, bd, md, np.zeros(0), 0.0, lo_hi, prior), offset0)
+    iso_term = None
+    if isotopologue_bands is not None:
+        if cand.isotope_ratios is None:
+            raise VibrapolError(
+                "an isotopologue measurement needs the candidate's computed isotope ratios "
+                "(vibrapol.compare.isotopologue.with_isotopologue)"
+            )
+        from vibrapol.compare.isotopologue import isotopologue_z2
+
+        iso_term = model.weight_isotopologue * isotopologue_z2(
+            model, bd.position_cm1, isotopologue_bands.positions_cm1, cand.isotope_ratios
+        )
+    setup = _with_offset(_Setup(model, bd, md, np.zeros(0), 0.0, lo_hi, prior, iso_term), offset0)
     if fitted:
         factor, partner, setup = _search(setup, search)
     else:
@@ -332,9 +351,12 @@ def _build(
     used = set(partner[partner >= 0].tolist())
     unassigned = tuple(int(j) for j in np.flatnonzero(in_range) if int(j) not in used)
     sim = spectral_similarity(sticks, factor, bands, pair) if similarity else float("nan")
+    iso_z2 = None
+    if setup.isotopologue is not None and model.weight_isotopologue > 0:
+        iso_z2 = setup.isotopologue / model.weight_isotopologue
     scores = assignment_scores(
         setup.bands, setup.modes, partner, factor, pos / model.weight_position,
-        bands.vv_area, sticks.channel("vv"), in_range, total, sim,
+        bands.vv_area, sticks.channel("vv"), in_range, total, sim, iso_z2,
     )  # fmt: skip
     return Assignment(
         cand.label, tuple(out), unassigned, fit, scores, model, setup.range_cm1, sticks, bands

@@ -38,6 +38,9 @@ class Candidate:
         Point group of each component ('' when not found).
     notes : tuple of str
         What was done to build the candidate.
+    isotope_ratios : ndarray or None
+        Computed ν̃′/ν̃ of each band for an isotopologue
+        (:func:`vibrapol.compare.isotopologue.with_isotopologue`); None without one.
     """
 
     label: str
@@ -45,6 +48,7 @@ class Candidate:
     start_scale: FrequencyScale | None = None
     point_groups: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
+    isotope_ratios: np.ndarray | None = None
 
 
 def published_scale(modes: ModeSet) -> FrequencyScale | None:

@@ -80,6 +80,10 @@ class CostModel:
     unassigned_mode : float
         Cost of leaving the strongest computed band in range unassigned (others: in proportion
         to their computed intensity).
+    weight_isotopologue, sigma_isotope_rel : float
+        Weight of the isotopologue term and the relative part of its tolerance
+        (:mod:`vibrapol.compare.isotopologue`; the term is zero without an isotopologue
+        measurement).
     """
 
     sigma_cm1: float = 5.0
@@ -93,6 +97,8 @@ class CostModel:
     cap: float = 25.0
     unassigned_band: float = 9.0
     unassigned_mode: float = 9.0
+    weight_isotopologue: float = 1.0
+    sigma_isotope_rel: float = 0.01
 
     def __post_init__(self) -> None:
         for name in (
@@ -112,7 +118,13 @@ class CostModel:
                 "cost model: sigma_cm1 and sigma_rel must be ≥ 0 and not both zero, got "
                 f"{self.sigma_cm1}, {self.sigma_rel}"
             )
-        for name in ("weight_intensity", "weight_polarization", "unassigned_mode"):
+        for name in (
+            "weight_intensity",
+            "weight_polarization",
+            "unassigned_mode",
+            "weight_isotopologue",
+            "sigma_isotope_rel",
+        ):
             value = getattr(self, name)
             if not (math.isfinite(value) and value >= 0):
                 raise VibrapolError(f"cost model: {name} must be ≥ 0, got {value}")

@@ -159,10 +159,14 @@ class AssignmentScores:
         the measured bands) with the measured one on the measured axis; NaN when not computed.
     overall : float
         Geometric mean of ``explained_fraction``, ``predicted_found_fraction``,
-        ``position_agreement``, ``polarization_agreement`` and ``similarity`` over those that
-        are defined; in [0, 1], 1 for a perfect and complete match.
+        ``position_agreement``, ``polarization_agreement``, ``similarity`` and
+        ``isotopologue_agreement`` over those that are defined; in [0, 1], 1 for a perfect
+        and complete match.
     total_cost : float
         The minimised cost (sum of pair and unassigned costs).
+    isotopologue_agreement : float
+        Mean of exp(−z²/2) of the isotopologue term over the assigned pairs
+        (:mod:`vibrapol.compare.isotopologue`); NaN without an isotopologue measurement.
     """
 
     n_bands: int
@@ -177,6 +181,7 @@ class AssignmentScores:
     similarity: float
     overall: float
     total_cost: float
+    isotopologue_agreement: float = float("nan")
 
 
 @dataclass(frozen=True, eq=False)

@@ -94,6 +94,7 @@ def assignment_scores(
     in_range: np.ndarray,
     total_cost: float,
     similarity: float,
+    isotopologue_z2: np.ndarray | None = None,
 ) -> AssignmentScores:
     """The scores of :class:`~vibrapol.compare.results.AssignmentScores` for one matching.
 
@@ -112,6 +113,8 @@ def assignment_scores(
     in_range : ndarray of bool (n_modes,)
         Computed bands inside the measured range.
     total_cost, similarity : float
+    isotopologue_z2 : ndarray (n_bands, n_modes), optional
+        Uncapped-or-capped z² of the isotopologue term (None: no isotopologue measured).
     """
     rows = np.flatnonzero(partner >= 0)
     cols = partner[rows]
@@ -130,7 +133,10 @@ def assignment_scores(
     if np.any(known):
         meas = measured_polarized(bands.rho[rows], bands.rho_err[rows])
         pol = float(np.mean((meas == modes.polarized[cols])[known]))
-    overall = geometric_mean([explained, found, agreement, pol, similarity])
+    iso = nan
+    if isotopologue_z2 is not None and rows.size:
+        iso = float(np.mean(np.exp(-0.5 * isotopologue_z2[rows, cols])))
+    overall = geometric_mean([explained, found, agreement, pol, similarity, iso])
     return AssignmentScores(
         n_bands=int(partner.size),
         n_assigned=int(rows.size),
@@ -144,4 +150,5 @@ def assignment_scores(
         similarity=similarity,
         overall=overall if math.isfinite(overall) else 0.0,
         total_cost=float(total_cost),
+        isotopologue_agreement=iso,
     )

@@ -63,7 +63,12 @@ def assignment_conditions(
         (
             "scores",
             f"{s.n_assigned}/{s.n_bands} bands assigned, rms {s.rms_cm1:.1f} cm-1, "
-            f"overall {s.overall:.3f}",
+            f"overall {s.overall:.3f}"
+            + (
+                f" (isotopologue agreement {s.isotopologue_agreement:.3f} included)"
+                if math.isfinite(s.isotopologue_agreement)
+                else ""
+            ),
         )
     )
     items.append(
@@ -249,6 +254,10 @@ def assignment_summary(assignment: Assignment) -> str:
         f"overall score: {s.overall:.3f} (geometric mean of the shares, the position and "
         "polarization agreements and the similarity; 1 = perfect)",
     ]
+    if math.isfinite(s.isotopologue_agreement):
+        lines.insert(
+            -1, f"isotopologue agreement: {s.isotopologue_agreement:.2f} (in the overall score)"
+        )
     if s.n_bands and s.n_assigned < 0.5 * s.n_bands:
         lines.append(
             "note: fewer than half of the bands were assigned; for a low level of theory widen "

@@ -1,0 +1,466 @@
+"""What each normal mode does: internal coordinates and the potential energy distribution.
+
+Every mode is described by the internal coordinates of the molecule (bond stretches, angle
+bends, out-of-plane wags and torsions, built from the connectivity), as the percentage of the
+mode's potential energy each one carries, and summed over chemically equivalent coordinates
+into a few words of our own: ``"O–H stretch, in phase (99%)"``.
+
+Method (potential energy distribution, diagonal terms)
+-------------------------------------------------------
+With the Wilson B matrix, ``S = B x`` for small Cartesian displacements ``x`` (Å), the
+internal force constants are ``F = (B⁺)ᵀ H B⁺`` (``B⁺`` the Moore–Penrose inverse, so a
+redundant set of coordinates is allowed), H the Cartesian Hessian rebuilt from the modes
+(:func:`vibrapol.vibrations.hessian_from_modes`).  Mode k moves the internal coordinates by
+``S_k = B L_k / √m``; the energy its coordinate j carries is ``F_jj S_jk²`` and the share
+reported is ``F_jj S_jk² / Σ_i F_ii S_ik²`` (the diagonal terms of the potential energy
+distribution, normalised to 100 %).  The potential energy is used rather than the kinetic
+energy because it is independent of the units and the scale of each coordinate (a stretch in Å
+and a bend in radians are compared as energies) and because it says which force constants
+govern the frequency, which is what an assignment asks.  The off-diagonal (coupling) terms are
+left out, so the shares describe and do not decompose the energy exactly; with a redundant set
+(the six angles around a tetrahedral carbon) the share is spread over the redundant
+coordinates.  Imaginary modes are described with |ν| (the description of a shape, not of a
+stable vibration).
+
+Equivalent coordinates are grouped by the chemical equivalence of their atoms (the element,
+refined by the classes of the neighbours until stable: the graph's own symmetry, which a point
+group of the structure also respects).  The phase words compare the signs of the equivalent
+stretches or bends a mode moves: all the same sign "in phase", both signs "out of phase".
+Wags and torsions carry no phase word: their sign depends on how the atoms are ordered.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from ase.data import chemical_symbols, covalent_radii
+
+from vibrapol.errors import VibrapolError
+from vibrapol.modeset import ModeSet
+
+#: Atoms closer than this multiple of the sum of their covalent radii (ASE's table) are bonded;
+#: the usual margin over the tabulated radii (common practice; ASE's ``natural_cutoffs``
+#: scales the same radii).
+BOND_FACTOR = 1.2
+
+#: Angles above this (degrees) are treated as linear: bent in two perpendicular planes.
+LINEAR_ANGLE_DEG = 170.0
+
+#: Shares below this (percent) are left out of the words.
+MIN_PERCENT = 10.0
+
+#: Largest number of groups named in one description.
+MAX_TERMS = 3
+
+#: A member of a group whose displacement is below this fraction of the largest in the group
+#: does not take part in the phase words.
+PHASE_MIN_FRACTION = 0.25
+
+#: Fraction of a mode that must lie in the space the internal coordinates span for the
+#: description to be given (below it the connectivity misses part of the motion).
+MIN_COVERAGE = 0.9
+
+#: Step of the numerical B matrix, Å.
+B_STEP_ANG = 1.0e-4
+
+_DASH = "–"
+
+
+@dataclass(frozen=True)
+class InternalCoordinate:
+    """One internal coordinate of a molecule.
+
+    Attributes
+    ----------
+    kind : {"stretch", "bend", "linear bend", "out-of-plane", "torsion"}
+    atoms : tuple of int
+        0-based atom indices: (i, j) bond; (i, j, k) angle at j; (i, j, k, l) out-of-plane of
+        bond j–i from the plane of j, k, l; (j, k) torsion about the bond j–k (the mean of
+        every dihedral about it).
+    group : str
+        Words naming the equivalence class, e.g. ``"C–H stretch"``.
+    signed : bool
+        Whether the sign of a displacement compares across equivalent coordinates (stretches
+        and bends).
+    equivalence : tuple
+        Equal for chemically equivalent coordinates (kind and atom classes).
+    """
+
+    kind: str
+    atoms: tuple[int, ...]
+    group: str
+    signed: bool
+    equivalence: tuple = ()
+
+
+@dataclass(frozen=True)
+class ModeDescription:
+    """The description of one mode.
+
+    Attributes
+    ----------
+    terms : tuple of (str, float)
+        Words of each group and its share of the potential energy in percent, largest first
+        (groups below :data:`MIN_PERCENT` left out, at most :data:`MAX_TERMS`).
+    coverage : float
+        Fraction of the mode's mass-weighted vector in the space of the internal coordinates.
+    """
+
+    terms: tuple[tuple[str, float], ...]
+    coverage: float
+
+    @property
+    def text(self) -> str:
+        """The words with their shares, ``"O–H stretch, in phase (99%); H–O–H bend (1%)"``."""
+        if self.coverage < MIN_COVERAGE:
+            return ""
+        return "; ".join(f"{words} ({pct:.0f}%)" for words, pct in self.terms)
+
+    @property
+    def short(self) -> str:
+        """The words of the largest group only (figure labels)."""
+        return self.terms[0][0] if self.terms and self.coverage >= MIN_COVERAGE else ""
+
+
+def bonds(atomic_numbers: Sequence[int], coordinates_ang: np.ndarray) -> list[tuple[int, int]]:
+    """Bonded pairs (i < j): distance below :data:`BOND_FACTOR` × the sum of covalent radii."""
+    z = np.asarray(atomic_numbers, dtype=int)
+    x = np.asarray(coordinates_ang, dtype=float)
+    r = covalent_radii[z]
+    d = np.linalg.norm(x[:, None, :] - x[None, :, :], axis=-1)
+    limit = BOND_FACTOR * (r[:, None] + r[None, :])
+    return [(i, j) for i in range(len(z)) for j in range(i + 1, len(z)) if d[i, j] < limit[i, j]]
+
+
+def atom_classes(atomic_numbers: Sequence[int], pairs: Sequence[tuple[int, int]]) -> list[int]:
+    """Chemically equivalent atoms share a class: elements refined by neighbour classes."""
+    z = [int(v) for v in atomic_numbers]
+    neighbours: list[list[int]] = [[] for _ in z]
+    for i, j in pairs:
+        neighbours[i].append(j)
+        neighbours[j].append(i)
+    classes = z[:]
+    for _ in range(len(z)):
+        keys = [
+            (classes[i], tuple(sorted(classes[k] for k in neighbours[i]))) for i in range(len(z))
+        ]
+        order = {key: n for n, key in enumerate(sorted(set(keys)))}
+        new = [order[k] for k in keys]
+        if len(set(new)) == len(set(classes)):
+            return new
+        classes = new
+    return classes
+
+
+def _unit(v: np.ndarray) -> np.ndarray:
+    return v / np.linalg.norm(v)
+
+
+def _angle(x: np.ndarray, i: int, j: int, k: int) -> float:
+    a, b = _unit(x[i] - x[j]), _unit(x[k] - x[j])
+    return float(np.arctan2(np.linalg.norm(np.cross(a, b)), a @ b))
+
+
+def _dihedral(x: np.ndarray, i: int, j: int, k: int, l: int) -> float:  # noqa: E741
+    b0, b1, b2 = x[j] - x[i], x[k] - x[j], x[l] - x[k]
+    n1, n2 = np.cross(b0, b1), np.cross(b1, b2)
+    m = np.cross(n1, _unit(b1))
+    return float(np.arctan2(m @ n2, n1 @ n2))
+
+
+def _out_of_plane(x: np.ndarray, i: int, j: int, k: int, l: int) -> float:  # noqa: E741
+    normal = _unit(np.cross(x[k] - x[j], x[l] - x[j]))
+    return float(np.arcsin(np.clip(normal @ _unit(x[i] - x[j]), -1.0, 1.0)))
+
+
+def _perpendiculars(axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    trial = np.eye(3)[int(np.argmin(np.abs(axis)))]
+    u = _unit(np.cross(axis, trial))
+    return u, np.cross(axis, u)
+
+
+def _symbol(z: int) -> str:
+    return chemical_symbols[z]
+
+
+def _hydride(z: Sequence[int], neighbours: list[list[int]], j: int) -> str:
+    """'CH2' for a heavy atom j with two or more H neighbours, else ''."""
+    n_h = sum(1 for k in neighbours[j] if z[k] == 1)
+    return f"{_symbol(z[j])}H{n_h}" if z[j] != 1 and n_h >= 2 else ""
+
+
+class _Builder:
+    """Collects coordinates with their value functions and names them."""
+
+    def __init__(self, z: list[int], x0: np.ndarray) -> None:
+        self.z, self.x0 = z, x0
+        pairs = bonds(z, x0)
+        self.pairs = pairs
+        self.cls = atom_classes(z, pairs)
+        self.neighbours: list[list[int]] = [[] for _ in z]
+        for i, j in pairs:
+            self.neighbours[i].append(j)
+            self.neighbours[j].append(i)
+        self.items: list[tuple[str, tuple[int, ...], str, str, bool, tuple]] = []
+        self.funcs: list[Callable[[np.ndarray], float]] = []
+
+    def key(self, *atoms: int) -> tuple[int, ...]:
+        c = tuple(self.cls[a] for a in atoms)
+        return min(c, c[::-1])
+
+    def bond_name(self, i: int, j: int) -> str:
+        """'C–H', 'O–H', 'C–Cl': the atom with more bonds first, then the heavier."""
+        z, nb = self.z, self.neighbours
+        a, b = sorted((i, j), key=lambda n: (-len(nb[n]), -z[n]))
+        return f"{_symbol(z[a])}{_DASH}{_symbol(z[b])}"
+
+    def angle_name(self, i: int, j: int, k: int) -> str:
+        """'H–C–Cl': the outer atoms lighter first."""
+        a, b = sorted((i, k), key=lambda n: self.z[n])
+        return _DASH.join(_symbol(self.z[n]) for n in (a, j, b))
+
+    def add(self, kind, atoms, words, tag, signed, key, func) -> None:  # noqa: ANN001
+        self.items.append((kind, atoms, words, tag, signed, (kind, *key)))
+        self.funcs.append(func)
+
+    def coordinates(self) -> list[InternalCoordinate]:
+        """The coordinates, words tagged ('(CH2)') only where inequivalent classes share them."""
+        classes: dict[str, set[tuple]] = {}
+        for _, _, words, _, _, eq in self.items:
+            classes.setdefault(words, set()).add(eq)
+        out = []
+        for kind, atoms, words, tag, signed, eq in self.items:
+            shared = len(classes[words]) > 1 and tag
+            out.append(
+                InternalCoordinate(kind, atoms, f"{words} ({tag})" if shared else words, signed, eq)
+            )
+        return out
+
+
+def internal_coordinates(
+    atomic_numbers: Sequence[int], coordinates_ang: np.ndarray
+) -> tuple[list[InternalCoordinate], list[Callable[[np.ndarray], float]]]:
+    """The internal coordinates of a molecule and the function giving each one's value.
+
+    Stretches of every bond; bends of every angle between two bonds at one atom (two
+    perpendicular linear bends above :data:`LINEAR_ANGLE_DEG`); for an atom with exactly three
+    bonds, one out-of-plane wag (the bond to a terminal atom, or the first bond, from the plane
+    of the other two: the three wags of one atom measure nearly the same motion, so one is
+    kept); one torsion per bond between two atoms that have other neighbours (the mean of the
+    dihedrals about it).
+
+    Returns
+    -------
+    (list of InternalCoordinate, list of callable)
+        The coordinates, and for each a function of the (N, 3) coordinates in Å.
+    """
+    z = [int(v) for v in atomic_numbers]
+    x0 = np.asarray(coordinates_ang, dtype=float)
+    build = _Builder(z, x0)
+    nbs = build.neighbours
+    for i, j in build.pairs:
+        tag = _hydride(z, nbs, i if z[j] == 1 else j) if 1 in (z[i], z[j]) else ""
+        build.add(
+            "stretch",
+            (i, j),
+            f"{build.bond_name(i, j)} stretch",
+            tag,
+            True,
+            build.key(i, j),
+            lambda x, i=i, j=j: float(np.linalg.norm(x[i] - x[j])),
+        )
+    for j in range(len(z)):
+        nb = sorted(nbs[j])
+        for a in range(len(nb)):
+            for b in range(a + 1, len(nb)):
+                i, k = nb[a], nb[b]
+                tag = _hydride(z, nbs, j) if 1 in (z[i], z[k]) else ""
+                words = f"{build.angle_name(i, j, k)} bend"
+                key = build.key(i, j, k)
+                if np.degrees(_angle(x0, i, j, k)) < LINEAR_ANGLE_DEG:
+                    build.add(
+                        "bend",
+                        (i, j, k),
+                        words,
+                        tag,
+                        True,
+                        key,
+                        lambda x, i=i, j=j, k=k: _angle(x, i, j, k),
+                    )
+                    continue
+                for n, u in enumerate(_perpendiculars(_unit(x0[k] - x0[i]))):
+                    build.add(
+                        "linear bend",
+                        (i, j, k),
+                        words,
+                        tag,
+                        False,
+                        (*key, n),
+                        lambda x, i=i, j=j, k=k, u=u: float(
+                            (_unit(x[i] - x[j]) + _unit(x[k] - x[j])) @ u
+                        ),
+                    )
+        if len(nb) == 3:
+            terminal = [n for n in nb if len(nbs[n]) == 1]
+            i = min(terminal, key=lambda n: z[n]) if terminal else nb[0]
+            k, m = (n for n in nb if n != i)
+            words = f"{build.bond_name(j, i)} out-of-plane"
+            tag = _hydride(z, nbs, j) if z[i] == 1 else ""
+            build.add(
+                "out-of-plane",
+                (i, j, k, m),
+                words,
+                tag,
+                False,
+                (build.cls[j], build.cls[i]),
+                lambda x, i=i, j=j, k=k, m=m: _out_of_plane(x, i, j, k, m),
+            )
+    for j, k in build.pairs:
+        dihedrals = [
+            (i, l)
+            for i in nbs[j]
+            if i != k
+            for l in nbs[k]  # noqa: E741
+            if l not in (j, i)
+            and np.degrees(_angle(x0, i, j, k)) < LINEAR_ANGLE_DEG
+            and np.degrees(_angle(x0, j, k, l)) < LINEAR_ANGLE_DEG
+        ]
+        if not dihedrals:
+            continue
+        ref = [_dihedral(x0, i, j, k, m) for i, m in dihedrals]
+
+        def torsion(x, j=j, k=k, dihedrals=dihedrals, ref=ref) -> float:  # noqa: ANN001
+            # mean change of every dihedral about j–k, unwrapped around the reference values
+            d = [_dihedral(x, i, j, k, m) - r for (i, m), r in zip(dihedrals, ref, strict=True)]
+            return float(np.mean(np.angle(np.exp(1j * np.array(d)))))
+
+        build.add(
+            "torsion",
+            (j, k),
+            f"{build.bond_name(j, k)} torsion",
+            "",
+            False,
+            build.key(j, k),
+            torsion,
+        )
+    return build.coordinates(), build.funcs
+
+
+def b_matrix(
+    funcs: Sequence[Callable[[np.ndarray], float]], coordinates_ang: np.ndarray
+) -> np.ndarray:
+    """Wilson B matrix ∂S/∂x (rows: coordinates; columns: 3N Cartesians), central differences."""
+    x0 = np.asarray(coordinates_ang, dtype=float)
+    out = np.zeros((len(funcs), x0.size))
+    for c in range(x0.size):
+        plus, minus = x0.copy(), x0.copy()
+        plus.flat[c] += B_STEP_ANG
+        minus.flat[c] -= B_STEP_ANG
+        for r, f in enumerate(funcs):
+            out[r, c] = (f(plus) - f(minus)) / (2 * B_STEP_ANG)
+    return out
+
+
+@dataclass(frozen=True)
+class EnergyDistribution:
+    """Potential energy distribution of every mode over the internal coordinates.
+
+    Attributes
+    ----------
+    coordinates : tuple of InternalCoordinate
+    percent : ndarray (n_modes, n_coordinates)
+        Share of each mode's potential energy carried by each coordinate (rows sum to 100).
+    displacement : ndarray (n_modes, n_coordinates)
+        Change of each coordinate along each mode (Å or rad per unit normal coordinate).
+    coverage : ndarray (n_modes,)
+        Fraction of each mode in the space the coordinates span.
+    """
+
+    coordinates: tuple[InternalCoordinate, ...]
+    percent: np.ndarray
+    displacement: np.ndarray
+    coverage: np.ndarray
+
+
+def energy_distribution(modes: ModeSet) -> EnergyDistribution:
+    """The potential energy distribution of every mode of ``modes`` (module notes).
+
+    Raises
+    ------
+    VibrapolError
+        When the mode set is not complete (3N − 6, 3N − 5 linear): the Hessian cannot be
+        rebuilt from the modes, so the force constants are unknown.
+    """
+    from vibrapol.vibrations import hessian_from_modes, is_linear
+
+    masses = modes._masses()
+    want = 3 * modes.n_atoms - (5 if is_linear(modes.coordinates_ang, masses) else 6)
+    if modes.n_modes != want:
+        where = modes.provenance.source_file or "this mode set"
+        raise VibrapolError(
+            f"{where}: {modes.n_modes} modes of {want}; describing modes needs all of them "
+            "(the force constants are rebuilt from the complete set)"
+        )
+    coords, funcs = internal_coordinates(modes.atomic_numbers, modes.coordinates_ang)
+    b = b_matrix(funcs, modes.coordinates_ang)
+    hessian = hessian_from_modes(np.abs(modes.freqs_cm1), modes.modes, masses)
+    b_plus = np.linalg.pinv(b, rcond=1e-8)
+    force = b_plus.T @ hessian @ b_plus
+    disp = modes.modes / np.repeat(np.sqrt(masses), 3)[None, :]
+    s = disp @ b.T
+    energy = s * s * np.diag(force)[None, :]
+    total = energy.sum(axis=1, keepdims=True)
+    percent = 100.0 * energy / np.where(total > 0, total, 1.0)
+    # part of each (mass-weighted) mode the coordinates see: B⁺B projects on B's row space
+    projected = (disp @ (b_plus @ b).T) * np.repeat(np.sqrt(masses), 3)[None, :]
+    coverage = np.einsum("ij,ij->i", projected, modes.modes)
+    return EnergyDistribution(tuple(coords), percent, s, np.clip(coverage, 0.0, 1.0))
+
+
+def _phase(
+    members: list[int], s: np.ndarray, percent: np.ndarray, coords: Sequence[InternalCoordinate]
+) -> str:
+    """'in phase', 'out of phase' or '' for the equivalent class carrying most of the share."""
+    classes: dict[tuple, list[int]] = {}
+    for n in members:
+        classes.setdefault(coords[n].equivalence, []).append(n)
+    members = max(classes.values(), key=lambda m: float(percent[m].sum()))
+    if len(members) < 2 or not coords[members[0]].signed:
+        return ""
+    values = s[members]
+    big = values[np.abs(values) >= PHASE_MIN_FRACTION * np.max(np.abs(values))]
+    if len(big) < 2:
+        return ""
+    return "in phase" if np.all(big > 0) or np.all(big < 0) else "out of phase"
+
+
+def describe(ped: EnergyDistribution) -> list[ModeDescription]:
+    """Words for every mode: the groups with the largest shares (see the module notes)."""
+    groups: dict[str, list[int]] = {}
+    for n, c in enumerate(ped.coordinates):
+        groups.setdefault(c.group, []).append(n)
+    out = []
+    for k in range(ped.percent.shape[0]):
+        shares = []
+        for words, members in groups.items():
+            pct = float(ped.percent[k, members].sum())
+            if pct >= MIN_PERCENT:
+                phase = _phase(members, ped.displacement[k], ped.percent[k], ped.coordinates)
+                shares.append((f"{words}, {phase}" if phase else words, pct))
+        shares.sort(key=lambda t: -t[1])
+        out.append(ModeDescription(tuple(shares[:MAX_TERMS]), float(ped.coverage[k])))
+    return out
+
+
+def describe_modes(modes: ModeSet) -> list[ModeDescription]:
+    """The description of every mode of ``modes`` (:func:`energy_distribution`, :func:`describe`).
+
+    Examples
+    --------
+    >>> from vibrapol.sources import read_modes  # doctest: +SKIP
+    >>> [d.text for d in describe_modes(read_modes("water.out"))]  # doctest: +SKIP
+    ['H–O–H bend (100%)', 'O–H stretch, in phase (99%)', 'O–H stretch, out of phase (100%)']
+    """
+    return describe(energy_distribution(modes))

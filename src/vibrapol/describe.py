@@ -62,6 +62,13 @@ PHASE_MIN_FRACTION = 0.25
 #: description to be given (below it the connectivity misses part of the motion).
 MIN_COVERAGE = 0.9
 
+#: The note a table with descriptions carries in its header.
+NOTE = (
+    "description: share of each mode's potential energy in internal coordinates (diagonal "
+    "terms of the potential energy distribution, grouped over equivalent coordinates; shares "
+    f"below {MIN_PERCENT:g}% left out)"
+)
+
 #: Step of the numerical B matrix, Å.
 B_STEP_ANG = 1.0e-4
 

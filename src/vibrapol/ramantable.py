@@ -68,6 +68,9 @@ class RamanTable:
         stderr) and notes.
     symmetrized : bool
         Whether the modes were averaged over the point group (only on request).
+    descriptions : tuple of str
+        What each mode does, in words with shares of the potential energy
+        (:mod:`vibrapol.describe`); empty when not asked for, '' for a mode not described.
 
     Notes
     -----
@@ -98,6 +101,7 @@ class RamanTable:
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     symmetrized: bool = False
+    descriptions: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         n = _column(self, "freqs_cm1", None, "f").shape[0]
@@ -117,6 +121,7 @@ class RamanTable:
                 _column(self, name, n, kind)
         _labels(self, "irreps", (n,))
         _labels(self, "polarization", (0, n))
+        _labels(self, "descriptions", (0, n))
         _labels(self, "warnings", None)
         _labels(self, "notes", None)
 
@@ -178,6 +183,7 @@ def raman_table(
     irreps: tuple[str, ...] | None = None,
     point_group: str = "",
     symmetry: ModeSymmetry | None = None,
+    describe: bool = False,
 ) -> RamanTable:
     """Compute the per-mode Raman table of ``modes``.
 
@@ -197,6 +203,10 @@ def raman_table(
         ``symmetry.modes`` as ``modes`` when it was symmetrized).  Its degenerate sets, species,
         point group, purity, selection rules and warnings are used and ``sets``, ``irreps`` and
         ``point_group`` must not be given.
+    describe : bool
+        Describe every mode by internal coordinates (:func:`vibrapol.describe.describe_modes`)
+        into :attr:`RamanTable.descriptions`; when it cannot (an incomplete set of modes, part
+        of a motion the connectivity misses) a note in :attr:`RamanTable.notes` says why.
 
     Warns
     -----
@@ -278,6 +288,10 @@ def raman_table(
     for text in filter(None, own):
         warnings.warn(text, AccuracyWarning, stacklevel=2)
         found.append(text)
+    descriptions: tuple[str, ...] = ()
+    if describe:
+        descriptions, why = _descriptions(modes)
+        notes += why
     ir = modes.ir_intensity_km_mol
     return RamanTable(
         freqs_cm1=modes.freqs_cm1.copy(),
@@ -296,8 +310,29 @@ def raman_table(
         shown_zero=shown_zero,
         warnings=tuple(found),
         notes=tuple(notes),
+        descriptions=descriptions,
         **extra,
     )
+
+
+def _descriptions(modes: ModeSet) -> tuple[tuple[str, ...], list[str]]:
+    """(description of every mode, notes on what could not be described)."""
+    from vibrapol.describe import MIN_COVERAGE, NOTE, describe_modes
+    from vibrapol.errors import VibrapolError
+
+    try:
+        found = describe_modes(modes)
+    except VibrapolError as exc:
+        return (), [f"modes not described: {exc}"]
+    texts = tuple(d.text for d in found)
+    notes = [NOTE]
+    missed = [str(k + 1) for k, d in enumerate(found) if d.coverage < MIN_COVERAGE]
+    if missed:
+        notes.append(
+            f"mode{'s' if len(missed) > 1 else ''} {', '.join(missed)} not described: the "
+            f"bonds found leave more than {1 - MIN_COVERAGE:.0%} of the motion undescribed"
+        )
+    return texts, notes
 
 
 def with_warnings(table: RamanTable, texts: list[str] | tuple[str, ...]) -> RamanTable:
@@ -312,6 +347,7 @@ def symmetry_table(
     tolerance_ang: float | None = None,
     symmetrize: bool = False,
     degeneracy_tol_cm1: float = inv.DEGENERACY_TOL_CM1,
+    describe: bool = False,
 ) -> tuple[ModeSet, RamanTable]:
     """Raman table with species and degenerate sets from the point group of the structure.
 
@@ -320,7 +356,7 @@ def symmetry_table(
     averaged over the group first (refused for sources with only a², γ² or activities), so
     that the modes returned differ slightly from those given (announced on stderr and in the
     table's provenance and warnings).  A single atom gets the table without symmetry, sets from
-    ``degeneracy_tol_cm1``.
+    ``degeneracy_tol_cm1``.  ``describe``: as for :func:`raman_table`.
 
     Returns
     -------
@@ -331,7 +367,7 @@ def symmetry_table(
 
     inv.check_degeneracy_tol(degeneracy_tol_cm1)  # refused even when symmetry makes the sets
     if modes.n_atoms < 2:
-        return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
+        return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1, describe=describe)
     tol = DEFAULT_TOLERANCE_ANG if tolerance_ang is None else tolerance_ang
     sym = mode_symmetry(modes, tolerance_ang=tol, symmetrize=symmetrize)
-    return sym.modes, raman_table(sym.modes, symmetry=sym)
+    return sym.modes, raman_table(sym.modes, symmetry=sym, describe=describe)

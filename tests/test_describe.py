@@ -1,0 +1,173 @@
+"""What each mode does (vibrapol.describe): internal coordinates and potential energy shares.
+
+The molecules are checked against the textbook descriptions of their fundamentals (from memory):
+G. Herzberg, *Infrared and Raman Spectra of Polyatomic Molecules* (1945) for water and benzene
+(Wilson's numbering of benzene's modes), and T. Shimanouchi, *Tables of Molecular Vibrational
+Frequencies, Consolidated Volume I* (NSRDS-NBS 39, 1972) for CH2Cl2.  The modes are vibrapol
+engine runs at HF/STO-3G (tests/fixtures/describe/make_describe_fixtures.py): the description
+follows the shape of the modes, which this level already gets right; the species come from
+vibrapol's own symmetry analysis, so each check names a mode by species and rank, not by the
+(unscaled, level-dependent) wavenumber.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from vibrapol.cli import main
+from vibrapol.describe import describe_modes, energy_distribution, internal_coordinates
+from vibrapol.errors import VibrapolError
+from vibrapol.output.tables import TABLE_COLUMNS
+from vibrapol.ramantable import symmetry_table
+from vibrapol.sources.modes_json import read_modes_json
+
+FIXTURES = Path(__file__).resolve().parent / "fixtures" / "describe"
+QC = Path(__file__).resolve().parents[1].parent / "shared" / "qc-outputs"
+
+
+def _described(name):
+    """(species, description) of every mode of a fixture, ascending wavenumber."""
+    modes = read_modes_json(FIXTURES / f"{name}.modes.json")
+    _, table = symmetry_table(modes)
+    return list(zip(table.irreps, describe_modes(modes), strict=True))
+
+
+def _of(described, species):
+    """Descriptions of the modes of one species, ascending wavenumber."""
+    return [d for s, d in described if s == species]
+
+
+def _top(description):
+    """Words of the group with the largest share."""
+    return description.terms[0][0]
+
+
+def test_water_bend_and_the_two_stretches():
+    # Herzberg (1945), from memory: ν2 (a1) bend, ν1 (a1) symmetric stretch,
+    # ν3 (b2) antisymmetric stretch
+    described = _described("water_hf_sto3g")
+    bend, sym = _of(described, "A1")
+    (anti,) = _of(described, "B2")
+    assert _top(bend) == "H–O–H bend" and bend.terms[0][1] > 90
+    assert _top(sym) == "O–H stretch, in phase" and sym.terms[0][1] > 90
+    assert _top(anti) == "O–H stretch, out of phase" and anti.terms[0][1] > 90
+    assert anti.text == "O–H stretch, out of phase (100%)"
+
+
+def test_dichloromethane_fundamentals():
+    # Shimanouchi (1972), from memory: a1: ν1 CH2 s-stretch, ν2 CH2 scissors, ν3 CCl2 s-stretch,
+    # ν4 CCl2 scissors; b1: ν6 CH2 a-stretch; b2: ν9 CCl2 a-stretch (lowest b2)
+    described = _described("ch2cl2_hf_sto3g")
+    ccl2_scissors, ccl_sym, ch2_scissors, ch_sym = _of(described, "A1")
+    assert _top(ch_sym) == "C–H stretch, in phase"
+    assert _top(ch2_scissors) == "H–C–H bend"
+    assert _top(ccl_sym) == "C–Cl stretch, in phase"
+    assert _top(ccl2_scissors) == "Cl–C–Cl bend"
+    assert _top(_of(described, "B1")[-1]) == "C–H stretch, out of phase"
+    assert _top(_of(described, "B2")[0]) == "C–Cl stretch, out of phase"
+
+
+def test_benzene_fundamentals():
+    # Herzberg (1945), Wilson's numbering, from memory: a1g ν2 ring breathing (C–C stretch in
+    # phase) and ν1 C–H stretch; a2g ν3 C–H in-plane bend; a2u ν11 C–H out-of-plane;
+    # b2u ν14 (Kekulé) C–C stretch; e2g ν6 ring (C–C–C) in-plane bend, ν7 C–H stretch;
+    # e2u ν16 ring out-of-plane (torsion), ν17 C–H out-of-plane; b1u ν13 C–H stretch
+    described = _described("benzene_hf_sto3g")
+    breathing, ch_a1g = _of(described, "A1g")
+    assert _top(breathing) == "C–C stretch, in phase" and breathing.terms[0][1] > 90
+    assert _top(ch_a1g) == "C–H stretch, in phase"
+    assert _top(_of(described, "A2g")[0]) == "H–C–C bend, out of phase"
+    assert _top(_of(described, "A2u")[0]) == "C–H out-of-plane"
+    assert _top(_of(described, "B2u")[0]) == "C–C stretch, out of phase"
+    e2g = _of(described, "E2g")
+    assert _top(e2g[0]) == "C–C–C bend, out of phase"
+    assert _top(e2g[-1]) == "C–H stretch, out of phase"
+    e2u = _of(described, "E2u")
+    assert _top(e2u[0]) == "C–C torsion"
+    assert _top(e2u[-1]) == "C–H out-of-plane"
+    assert _top(_of(described, "B1u")[-1]) == "C–H stretch, out of phase"
+
+
+def test_real_output_ch_stretches_on_top():
+    # divinylbenzene from ORCA 6.0.1 (a real output): the ten highest modes are C–H
+    # stretches (common practice: C–H stretches lie near 3000 cm⁻¹, above every other mode)
+    path = QC / "ORCA6.0.1_dvb_raman.out"
+    if not path.exists():
+        pytest.skip(f"{path} not available")
+    from vibrapol.sources import read_modes
+
+    found = describe_modes(read_modes(path))
+    assert all(_top(d).startswith("C–H stretch") for d in found[-10:])
+    assert not any(_top(d).startswith("C–H stretch") for d in found[:-10])
+
+
+def test_shares_sum_to_100_and_cover_every_mode():
+    # contract: the shares of each mode are a distribution over the coordinates
+    modes = read_modes_json(FIXTURES / "benzene_hf_sto3g.modes.json")
+    ped = energy_distribution(modes)
+    assert np.allclose(ped.percent.sum(axis=1), 100.0)
+    assert np.all(ped.percent >= 0.0)
+    assert np.all(ped.coverage > 0.99)
+
+
+def test_description_does_not_depend_on_the_frame():
+    # contract: a rotated and shifted molecule (with its modes rotated alike) reads the same
+    import dataclasses
+
+    modes = read_modes_json(FIXTURES / "ch2cl2_hf_sto3g.modes.json")
+    angle = 0.7
+    rot = np.array(
+        [[np.cos(angle), -np.sin(angle), 0], [np.sin(angle), np.cos(angle), 0], [0, 0, 1]]
+    ) @ np.array([[1, 0, 0], [0, np.cos(0.3), -np.sin(0.3)], [0, np.sin(0.3), np.cos(0.3)]])
+    n = modes.n_atoms
+    turned = dataclasses.replace(
+        modes,
+        coordinates_ang=modes.coordinates_ang @ rot.T + [1.0, -2.0, 0.5],
+        modes=(modes.modes.reshape(-1, n, 3) @ rot.T).reshape(modes.n_modes, 3 * n),
+        dalpha_dx=None,
+        dalpha_dq=None,
+    )
+    before = energy_distribution(modes).percent
+    after = energy_distribution(turned).percent
+    assert np.allclose(before, after, atol=1e-4)
+
+
+def test_water_has_two_stretches_and_one_bend():
+    # common practice: water's three internal coordinates, the valence set
+    modes = read_modes_json(FIXTURES / "water_hf_sto3g.modes.json")
+    coords, _ = internal_coordinates(modes.atomic_numbers, modes.coordinates_ang)
+    assert sorted(c.kind for c in coords) == ["bend", "stretch", "stretch"]
+
+
+def test_incomplete_mode_set_is_refused_in_one_line():
+    # contract: the force constants need every mode; refused with a line naming the count
+    modes = read_modes_json(FIXTURES / "water_hf_sto3g.modes.json").subset([0, 1])
+    with pytest.raises(VibrapolError, match="2 modes of 3"):
+        describe_modes(modes)
+
+
+def test_table_column_and_no_describe(capsys, tmp_path):
+    # contract: the CSV and JSON carry a last column 'description'; --no-describe empties it
+    src = str(FIXTURES / "water_hf_sto3g.modes.json")
+    assert main(["table", src, "--format", "csv"]) == 0
+    text = capsys.readouterr().out
+    rows = list(csv.reader(line for line in text.splitlines() if not line.startswith("#")))
+    assert tuple(rows[0]) == TABLE_COLUMNS and rows[0][-1] == "description"
+    assert rows[3][-1] == "O–H stretch, out of phase (100%)"
+    assert "# note: description: share of each mode's potential energy" in text
+    out = tmp_path / "t.json"
+    assert main(["table", src, "--format", "json", "-o", str(out)]) == 0
+    doc = json.loads(out.read_text(encoding="utf-8"))
+    assert doc["modes"][0]["description"].startswith("H–O–H bend")
+    assert main(["table", src, "--format", "csv", "--no-describe"]) == 0
+    rows = list(csv.reader(_body(capsys.readouterr().out)))
+    assert [r[-1] for r in rows[1:]] == ["", "", ""]
+
+
+def _body(text):
+    return [line for line in text.splitlines() if not line.startswith("#")]

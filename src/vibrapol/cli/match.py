@@ -123,6 +123,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="assignment table for a paper: .md (Markdown) or .tex (LaTeX, booktabs); repeat "
         "for both",
     )  # fmt: skip
+    parser.add_argument(
+        "--no-describe", action="store_true",
+        help="leave out what each assigned mode does (default: a description column from the "
+        "bond stretches, bends, wags and torsions carrying its potential energy)",
+    )  # fmt: skip
 
 
 def table_writer(path: str):  # noqa: ANN201
@@ -133,6 +138,22 @@ def table_writer(path: str):  # noqa: ANN201
     if suffix not in PAPER_TABLES:
         raise VibrapolError(f"{path}: table files must end in .md or .tex")
     return PAPER_TABLES[suffix]
+
+
+def mode_descriptions(modes: Any, notes: list[str]) -> list[str] | None:
+    """What each mode does (:mod:`vibrapol.describe`), with its note added to ``notes``.
+
+    None, with a note saying why, when the modes cannot be described.
+    """
+    from vibrapol.describe import NOTE, describe_modes
+
+    try:
+        found = describe_modes(modes)
+    except VibrapolError as exc:
+        notes.append(f"modes not described: {exc}")
+        return None
+    notes.append(NOTE)
+    return [d.text for d in found]
 
 
 def measure(args: argparse.Namespace):  # noqa: ANN201
@@ -265,12 +286,13 @@ def run(args: argparse.Namespace) -> int:
         opts["model"], level_note = model_for_basis(modes.provenance.basis)
     result = assign(cand, bands, pair=pair, **opts)
     notes = [level_note] if level_note else []
+    described = None if args.no_describe else mode_descriptions(modes, notes)
     if args.laser_nm is None:
         notes.append(f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm")
     files: list[tuple[str, str | bytes]] = []
     if args.output:
-        files.append((args.output, assignment_csv(result, pair, notes)))
-    files += [(p, write(result)) for p, write in zip(args.table, writers, strict=True)]
+        files.append((args.output, assignment_csv(result, pair, notes, described)))
+    files += [(p, write(result, described)) for p, write in zip(args.table, writers, strict=True)]
     if args.figure:
         from vibrapol.plotting.match import match_figure
         from vibrapol.plotting.style import figure_bytes
@@ -285,6 +307,6 @@ def run(args: argparse.Namespace) -> int:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
     text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     if not args.output:
-        text += "\n" + assignment_csv(result, pair, notes)
+        text += "\n" + assignment_csv(result, pair, notes, described)
     print_stdout(text)
     return 0

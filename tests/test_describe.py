@@ -171,3 +171,36 @@ def test_table_column_and_no_describe(capsys, tmp_path):
 
 def _body(text):
     return [line for line in text.splitlines() if not line.startswith("#")]
+
+
+def test_figure_labels_carry_the_words(tmp_path):
+    # contract: with mode_words each placed band label ends with the words of its mode (the
+    # mode at the label's wavenumber); the strongest CH2Cl2 band in Raman activity at HF/STO-3G
+    # is ν1, the CH2 symmetric stretch (Shimanouchi 1972, from memory)
+    from matplotlib.text import Annotation
+
+    from vibrapol import plotting
+    from vibrapol.spectrum import broaden, stick_spectrum
+    from vibrapol.spectrum.lineshapes import LineShape
+
+    modes = read_modes_json(FIXTURES / "ch2cl2_hf_sto3g.modes.json")
+    words = [d.short for d in describe_modes(modes)]
+    grid = broaden(stick_spectrum(modes), LineShape("lorentzian", 8.0), range_cm1=(200, 3900))
+    fig = plotting.spectrum_figure(grid, mode_words=words)
+    labels = [t.get_text() for t in fig.axes[0].texts if isinstance(t, Annotation)]
+    assert labels and labels[0].startswith("3603") and labels[0].endswith("\nC–H stretch, in phase")
+    for text in labels:
+        k = int(np.argmin(np.abs(modes.freqs_cm1 - float(text.split()[0]))))
+        assert text.endswith("\n" + words[k])
+    plain = plotting.spectrum_figure(grid)
+    assert not any("stretch" in t.get_text() for t in plain.axes[0].texts)
+
+
+def test_spectrum_cli_label_descriptions_needs_one_source(tmp_path, capsys):
+    # contract: refused in one line for a mixture (the words belong to one source's modes)
+    src = str(FIXTURES / "water_hf_sto3g.modes.json")
+    code = main(["spectrum", src, src, "--figure", str(tmp_path / "f.png"),
+                 "--label-descriptions"])  # fmt: skip
+    assert code == 2
+    assert "--label-descriptions needs one source" in capsys.readouterr().err
+    assert not (tmp_path / "f.png").exists()

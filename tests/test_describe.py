@@ -61,11 +61,16 @@ def test_water_bend_and_the_two_stretches():
 
 def test_dichloromethane_fundamentals():
     # Shimanouchi (1972), from memory: a1: ν1 CH2 s-stretch, ν2 CH2 scissors, ν3 CCl2 s-stretch,
-    # ν4 CCl2 scissors; b1: ν6 CH2 a-stretch; b2: ν9 CCl2 a-stretch (lowest b2)
+    # ν4 CCl2 scissors; a2: ν5 CH2 twist; ν6 CH2 a-stretch; ν7 CH2 wag (1268) above ν8 CH2 rock
+    # (899); ν9 CCl2 a-stretch.  The b1/b2 names depend on the axes, so the wag and the rock
+    # are told by their order and the stretches by their rank in vibrapol's species.
     described = _described("ch2cl2_hf_sto3g")
     ccl2_scissors, ccl_sym, ch2_scissors, ch_sym = _of(described, "A1")
     assert _top(ch_sym) == "C–H stretch, in phase"
-    assert _top(ch2_scissors) == "H–C–H bend"
+    assert _top(ch2_scissors) == "CH2 scissors"
+    assert _top(_of(described, "A2")[0]) == "CH2 twist"
+    rock_wag = [_top(d) for _, d in described if _top(d) in ("CH2 rock", "CH2 wag")]
+    assert rock_wag == ["CH2 rock", "CH2 wag"]
     assert _top(ccl_sym) == "C–Cl stretch, in phase"
     assert _top(ccl2_scissors) == "Cl–C–Cl bend"
     assert _top(_of(described, "B1")[-1]) == "C–H stretch, out of phase"

@@ -100,6 +100,17 @@ class InternalCoordinate:
     group: str
     signed: bool
     equivalence: tuple = ()
+    pattern: tuple[int, ...] = ()
+
+
+#: Motions of an XH2 group with two other neighbours (Y, Z), by the signs of its four H–X–Y/Z
+#: bends (Ha–Y, Ha–Z, Hb–Y, Hb–Z): the H atoms tilting together towards Y (wag), turning in
+#: their own plane (rock) or in opposite senses about the bisector (twist); all four together
+#: go with the H–X–H bend (scissors).
+GROUP_MOTIONS = ("wag", "rock", "twist")
+
+#: Share of the four-bend motion a pattern must reach to be named.
+MOTION_MIN_FRACTION = 0.6
 
 
 @dataclass(frozen=True)
@@ -210,7 +221,7 @@ class _Builder:
         for i, j in pairs:
             self.neighbours[i].append(j)
             self.neighbours[j].append(i)
-        self.items: list[tuple[str, tuple[int, ...], str, str, bool, tuple]] = []
+        self.items: list[tuple] = []
         self.funcs: list[Callable[[np.ndarray], float]] = []
 
     def key(self, *atoms: int) -> tuple[int, ...]:
@@ -228,21 +239,38 @@ class _Builder:
         a, b = sorted((i, k), key=lambda n: self.z[n])
         return _DASH.join(_symbol(self.z[n]) for n in (a, j, b))
 
-    def add(self, kind, atoms, words, tag, signed, key, func) -> None:  # noqa: ANN001
-        self.items.append((kind, atoms, words, tag, signed, (kind, *key)))
+    def add(self, kind, atoms, words, tag, signed, key, func, pattern=()) -> None:  # noqa: ANN001
+        self.items.append((kind, atoms, words, tag, signed, (kind, *key), pattern))
         self.funcs.append(func)
+
+    def is_xh2(self, j: int) -> bool:
+        """Whether atom j carries exactly two terminal H atoms and has other neighbours."""
+        nbs = self.neighbours
+        hs = [n for n in nbs[j] if self.z[n] == 1 and len(nbs[n]) == 1]
+        return len(hs) == 2 and len(nbs[j]) >= 3
+
+    def xh2_pattern(self, i: int, j: int, k: int) -> tuple[int, ...]:
+        """Signs (wag, rock, twist) of the bend i–j–k in an XH2 group at j, else ()."""
+        z, nbs = self.z, self.neighbours
+        hs = sorted(n for n in nbs[j] if z[n] == 1 and len(nbs[n]) == 1)
+        others = sorted(n for n in nbs[j] if n not in hs)
+        if len(nbs[j]) != 4 or len(hs) != 2 or (i in hs) == (k in hs):
+            return ()
+        h, other = (i, k) if i in hs else (k, i)
+        wag = 1 if other == others[0] else -1
+        rock = 1 if h == hs[0] else -1
+        return (wag, rock, wag * rock)
 
     def coordinates(self) -> list[InternalCoordinate]:
         """The coordinates, words tagged ('(CH2)') only where inequivalent classes share them."""
         classes: dict[str, set[tuple]] = {}
-        for _, _, words, _, _, eq in self.items:
+        for _, _, words, _, _, eq, _ in self.items:
             classes.setdefault(words, set()).add(eq)
         out = []
-        for kind, atoms, words, tag, signed, eq in self.items:
+        for kind, atoms, words, tag, signed, eq, pattern in self.items:
             shared = len(classes[words]) > 1 and tag
-            out.append(
-                InternalCoordinate(kind, atoms, f"{words} ({tag})" if shared else words, signed, eq)
-            )
+            name = f"{words} ({tag})" if shared else words
+            out.append(InternalCoordinate(kind, atoms, name, signed, eq, pattern))
         return out
 
 
@@ -286,6 +314,11 @@ def internal_coordinates(
                 tag = _hydride(z, nbs, j) if 1 in (z[i], z[k]) else ""
                 words = f"{build.angle_name(i, j, k)} bend"
                 key = build.key(i, j, k)
+                pattern = build.xh2_pattern(i, j, k)
+                if pattern:  # one group of the four bends, named by their motion
+                    words, tag = f"{_hydride(z, nbs, j)} deformation", ""
+                elif build.is_xh2(j) and z[i] == z[k] == 1:
+                    words, tag = f"{_hydride(z, nbs, j)} scissors", ""
                 if np.degrees(_angle(x0, i, j, k)) < LINEAR_ANGLE_DEG:
                     build.add(
                         "bend",
@@ -295,6 +328,7 @@ def internal_coordinates(
                         True,
                         key,
                         lambda x, i=i, j=j, k=k: _angle(x, i, j, k),
+                        pattern,
                     )
                     continue
                 for n, u in enumerate(_perpendiculars(_unit(x0[k] - x0[i]))):
@@ -443,6 +477,21 @@ def _phase(
     return "in phase" if np.all(big > 0) or np.all(big < 0) else "out of phase"
 
 
+def _group_motion(members: list[int], s: np.ndarray, coords: Sequence[InternalCoordinate]) -> str:
+    """'wag', 'rock', 'twist' of XH2 bends when one pattern carries most of their motion."""
+    centres: dict[int, list[int]] = {}
+    for n in members:
+        centres.setdefault(coords[n].atoms[1], []).append(n)
+    amplitude = np.zeros(len(GROUP_MOTIONS) + 1)
+    for bends in centres.values():
+        signs = np.array([(1, *coords[n].pattern) for n in bends], dtype=float)
+        amplitude += (signs.T @ s[bends]) ** 2
+    best = int(np.argmax(amplitude))
+    if best == 0 or amplitude[best] < MOTION_MIN_FRACTION * amplitude.sum():
+        return ""
+    return GROUP_MOTIONS[best - 1]
+
+
 def describe(ped: EnergyDistribution) -> list[ModeDescription]:
     """Words for every mode: the groups with the largest shares (see the module notes)."""
     groups: dict[str, list[int]] = {}
@@ -453,7 +502,12 @@ def describe(ped: EnergyDistribution) -> list[ModeDescription]:
         shares = []
         for words, members in groups.items():
             pct = float(ped.percent[k, members].sum())
-            if pct >= MIN_PERCENT:
+            if pct < MIN_PERCENT:
+                continue
+            if ped.coordinates[members[0]].pattern:
+                motion = _group_motion(members, ped.displacement[k], ped.coordinates)
+                shares.append((words.replace("deformation", motion) if motion else words, pct))
+            else:
                 phase = _phase(members, ped.displacement[k], ped.percent[k], ped.coordinates)
                 shares.append((f"{words}, {phase}" if phase else words, pct))
         shares.sort(key=lambda t: -t[1])

@@ -93,6 +93,10 @@ class InternalCoordinate:
         and bends).
     equivalence : tuple
         Equal for chemically equivalent coordinates (kind and atom classes).
+    pattern : tuple of int
+        For a bend H–X–Y of an XH2 group, its sign in the wag, rock and twist (else empty).
+    depends : tuple of int
+        Every atom whose motion changes the value (the torsion's outer atoms too).
     """
 
     kind: str
@@ -101,6 +105,7 @@ class InternalCoordinate:
     signed: bool
     equivalence: tuple = ()
     pattern: tuple[int, ...] = ()
+    depends: tuple[int, ...] = ()
 
 
 #: Motions of an XH2 group with two other neighbours (Y, Z), by the signs of its four H–X–Y/Z
@@ -172,31 +177,38 @@ def atom_classes(atomic_numbers: Sequence[int], pairs: Sequence[tuple[int, int]]
     return classes
 
 
+def _cross(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Cross product of two 3-vectors (numpy's general ``cross`` is slow for single vectors)."""
+    return np.array(
+        [a[1] * b[2] - a[2] * b[1], a[2] * b[0] - a[0] * b[2], a[0] * b[1] - a[1] * b[0]]
+    )
+
+
 def _unit(v: np.ndarray) -> np.ndarray:
     return v / np.linalg.norm(v)
 
 
 def _angle(x: np.ndarray, i: int, j: int, k: int) -> float:
     a, b = _unit(x[i] - x[j]), _unit(x[k] - x[j])
-    return float(np.arctan2(np.linalg.norm(np.cross(a, b)), a @ b))
+    return float(np.arctan2(np.linalg.norm(_cross(a, b)), a @ b))
 
 
 def _dihedral(x: np.ndarray, i: int, j: int, k: int, l: int) -> float:  # noqa: E741
     b0, b1, b2 = x[j] - x[i], x[k] - x[j], x[l] - x[k]
-    n1, n2 = np.cross(b0, b1), np.cross(b1, b2)
-    m = np.cross(n1, _unit(b1))
+    n1, n2 = _cross(b0, b1), _cross(b1, b2)
+    m = _cross(n1, _unit(b1))
     return float(np.arctan2(m @ n2, n1 @ n2))
 
 
 def _out_of_plane(x: np.ndarray, i: int, j: int, k: int, l: int) -> float:  # noqa: E741
-    normal = _unit(np.cross(x[k] - x[j], x[l] - x[j]))
+    normal = _unit(_cross(x[k] - x[j], x[l] - x[j]))
     return float(np.arcsin(np.clip(normal @ _unit(x[i] - x[j]), -1.0, 1.0)))
 
 
 def _perpendiculars(axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     trial = np.eye(3)[int(np.argmin(np.abs(axis)))]
-    u = _unit(np.cross(axis, trial))
-    return u, np.cross(axis, u)
+    u = _unit(_cross(axis, trial))
+    return u, _cross(axis, u)
 
 
 def _symbol(z: int) -> str:
@@ -239,8 +251,10 @@ class _Builder:
         a, b = sorted((i, k), key=lambda n: self.z[n])
         return _DASH.join(_symbol(self.z[n]) for n in (a, j, b))
 
-    def add(self, kind, atoms, words, tag, signed, key, func, pattern=()) -> None:  # noqa: ANN001
-        self.items.append((kind, atoms, words, tag, signed, (kind, *key), pattern))
+    def add(self, kind, atoms, words, tag, signed, key, func, pattern=(), depends=()) -> None:  # noqa: ANN001
+        self.items.append(
+            (kind, atoms, words, tag, signed, (kind, *key), pattern, tuple(depends) or atoms)
+        )
         self.funcs.append(func)
 
     def is_xh2(self, j: int) -> bool:
@@ -264,13 +278,13 @@ class _Builder:
     def coordinates(self) -> list[InternalCoordinate]:
         """The coordinates, words tagged ('(CH2)') only where inequivalent classes share them."""
         classes: dict[str, set[tuple]] = {}
-        for _, _, words, _, _, eq, _ in self.items:
+        for _, _, words, _, _, eq, _, _ in self.items:
             classes.setdefault(words, set()).add(eq)
         out = []
-        for kind, atoms, words, tag, signed, eq, pattern in self.items:
+        for kind, atoms, words, tag, signed, eq, pattern, depends in self.items:
             shared = len(classes[words]) > 1 and tag
             name = f"{words} ({tag})" if shared else words
-            out.append(InternalCoordinate(kind, atoms, name, signed, eq, pattern))
+            out.append(InternalCoordinate(kind, atoms, name, signed, eq, pattern, depends))
         return out
 
 
@@ -385,22 +399,31 @@ def internal_coordinates(
             False,
             build.key(j, k),
             torsion,
+            depends=sorted({j, k, *(a for pair in dihedrals for a in pair)}),
         )
     return build.coordinates(), build.funcs
 
 
 def b_matrix(
-    funcs: Sequence[Callable[[np.ndarray], float]], coordinates_ang: np.ndarray
+    funcs: Sequence[Callable[[np.ndarray], float]],
+    coordinates_ang: np.ndarray,
+    depends: Sequence[Sequence[int]] | None = None,
 ) -> np.ndarray:
-    """Wilson B matrix ∂S/∂x (rows: coordinates; columns: 3N Cartesians), central differences."""
+    """Wilson B matrix ∂S/∂x (rows: coordinates; columns: 3N Cartesians), central differences.
+
+    ``depends``: the atoms each coordinate depends on (the other columns are zero); default
+    every atom.
+    """
     x0 = np.asarray(coordinates_ang, dtype=float)
     out = np.zeros((len(funcs), x0.size))
-    for c in range(x0.size):
-        plus, minus = x0.copy(), x0.copy()
-        plus.flat[c] += B_STEP_ANG
-        minus.flat[c] -= B_STEP_ANG
-        for r, f in enumerate(funcs):
-            out[r, c] = (f(plus) - f(minus)) / (2 * B_STEP_ANG)
+    every = range(x0.shape[0])
+    for r, f in enumerate(funcs):
+        for atom in every if depends is None else depends[r]:
+            for axis in range(3):
+                plus, minus = x0.copy(), x0.copy()
+                plus[atom, axis] += B_STEP_ANG
+                minus[atom, axis] -= B_STEP_ANG
+                out[r, 3 * atom + axis] = (f(plus) - f(minus)) / (2 * B_STEP_ANG)
     return out
 
 
@@ -445,7 +468,7 @@ def energy_distribution(modes: ModeSet) -> EnergyDistribution:
             "(the force constants are rebuilt from the complete set)"
         )
     coords, funcs = internal_coordinates(modes.atomic_numbers, modes.coordinates_ang)
-    b = b_matrix(funcs, modes.coordinates_ang)
+    b = b_matrix(funcs, modes.coordinates_ang, [c.depends for c in coords])
     hessian = hessian_from_modes(np.abs(modes.freqs_cm1), modes.modes, masses)
     b_plus = np.linalg.pinv(b, rcond=1e-8)
     force = b_plus.T @ hessian @ b_plus

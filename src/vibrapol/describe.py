@@ -500,6 +500,30 @@ def _phase(
     return "in phase" if np.all(big > 0) or np.all(big < 0) else "out of phase"
 
 
+def _is_ring(members: list[int], coords: Sequence[InternalCoordinate]) -> bool:
+    """Whether the bonds of the stretches ``members`` close one ring (every atom in two)."""
+    if len(members) < 3 or any(coords[n].kind != "stretch" for n in members):
+        return False
+    count: dict[int, int] = {}
+    for n in members:
+        for a in coords[n].atoms:
+            count[a] = count.get(a, 0) + 1
+    if any(c != 2 for c in count.values()) or len(count) != len(members):
+        return False
+    start = coords[members[0]].atoms[0]
+    seen, todo = {start}, [start]
+    while todo:
+        a = todo.pop()
+        for n in members:
+            pair = coords[n].atoms
+            if a in pair:
+                b = pair[1] if pair[0] == a else pair[0]
+                if b not in seen:
+                    seen.add(b)
+                    todo.append(b)
+    return len(seen) == len(count)
+
+
 def _group_motion(members: list[int], s: np.ndarray, coords: Sequence[InternalCoordinate]) -> str:
     """'wag', 'rock', 'twist' of XH2 bends when one pattern carries most of their motion."""
     centres: dict[int, list[int]] = {}
@@ -532,6 +556,8 @@ def describe(ped: EnergyDistribution) -> list[ModeDescription]:
                 shares.append((words.replace("deformation", motion) if motion else words, pct))
             else:
                 phase = _phase(members, ped.displacement[k], ped.percent[k], ped.coordinates)
+                if phase == "in phase" and _is_ring(members, ped.coordinates):
+                    words, phase = "ring breathing", ""
                 shares.append((f"{words}, {phase}" if phase else words, pct))
         shares.sort(key=lambda t: -t[1])
         out.append(ModeDescription(tuple(shares[:MAX_TERMS]), float(ped.coverage[k])))

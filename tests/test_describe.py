@@ -209,3 +209,14 @@ def test_spectrum_cli_label_descriptions_needs_one_source(tmp_path, capsys):
     assert code == 2
     assert "--label-descriptions needs one source" in capsys.readouterr().err
     assert not (tmp_path / "f.png").exists()
+
+
+def test_deuterium_is_named_and_not_equivalent_to_hydrogen():
+    # HOD has two local stretches, O–D below O–H, not in- and out-of-phase pairs (common
+    # practice: the isotopic mass difference uncouples them); D2O keeps the pair, named O–D
+    water = read_modes_json(FIXTURES / "water_hf_sto3g.modes.json")
+    o, h, d = 15.99491462, 1.00782503, 2.01410178  # isotope masses (ase.data)
+    hod = [x.text for x in describe_modes(water.with_masses([o, h, d]))]
+    assert [t.split(" (")[0] for t in hod] == ["H–O–D bend", "O–D stretch", "O–H stretch"]
+    d2o = [_top(x) for x in describe_modes(water.with_masses([o, d, d]))]
+    assert d2o == ["D–O–D bend", "O–D stretch, in phase", "O–D stretch, out of phase"]

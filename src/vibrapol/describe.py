@@ -157,14 +157,18 @@ def bonds(atomic_numbers: Sequence[int], coordinates_ang: np.ndarray) -> list[tu
     return [(i, j) for i in range(len(z)) for j in range(i + 1, len(z)) if d[i, j] < limit[i, j]]
 
 
-def atom_classes(atomic_numbers: Sequence[int], pairs: Sequence[tuple[int, int]]) -> list[int]:
-    """Chemically equivalent atoms share a class: elements refined by neighbour classes."""
-    z = [int(v) for v in atomic_numbers]
+def atom_classes(labels: Sequence, pairs: Sequence[tuple[int, int]]) -> list[int]:
+    """Classes of chemically equivalent atoms.
+
+    The labels (elements, isotopes) refined by the classes of the neighbours until stable.
+    """
+    z = list(labels)
     neighbours: list[list[int]] = [[] for _ in z]
     for i, j in pairs:
         neighbours[i].append(j)
         neighbours[j].append(i)
-    classes = z[:]
+    first = {label: n for n, label in enumerate(sorted(set(z)))}
+    classes = [first[label] for label in z]
     for _ in range(len(z)):
         keys = [
             (classes[i], tuple(sorted(classes[k] for k in neighbours[i]))) for i in range(len(z))
@@ -211,24 +215,41 @@ def _perpendiculars(axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return u, _cross(axis, u)
 
 
-def _symbol(z: int) -> str:
-    return chemical_symbols[z]
+#: Names of the heavy hydrogen isotopes, by mass in Da (most abundant isotope masses, common
+#: practice), told apart within 0.1 Da.
+HYDROGEN_ISOTOPES = {"D": 2.014, "T": 3.016}
 
 
-def _hydride(z: Sequence[int], neighbours: list[list[int]], j: int) -> str:
-    """'CH2' for a heavy atom j with two or more H neighbours, else ''."""
-    n_h = sum(1 for k in neighbours[j] if z[k] == 1)
-    return f"{_symbol(z[j])}H{n_h}" if z[j] != 1 and n_h >= 2 else ""
+def atom_labels(atomic_numbers: Sequence[int], masses_da: Sequence[float] | None) -> list[str]:
+    """Element symbol of every atom; 'D' and 'T' for heavy hydrogen when the masses say so."""
+    out = []
+    for n, z in enumerate(atomic_numbers):
+        label = chemical_symbols[int(z)]
+        if int(z) == 1 and masses_da is not None:
+            for name, mass in HYDROGEN_ISOTOPES.items():
+                if abs(float(masses_da[n]) - mass) < 0.1:
+                    label = name
+        out.append(label)
+    return out
+
+
+def _hydride(z: Sequence[int], labels: list[str], neighbours: list[list[int]], j: int) -> str:
+    """'CH2' ('CD2') for a heavy atom j with two or more H neighbours, else ''."""
+    hs = [k for k in neighbours[j] if z[k] == 1]
+    if z[j] == 1 or len(hs) < 2:
+        return ""
+    h = labels[hs[0]] if len({labels[k] for k in hs}) == 1 else "H"
+    return f"{labels[j]}{h}{len(hs)}"
 
 
 class _Builder:
     """Collects coordinates with their value functions and names them."""
 
-    def __init__(self, z: list[int], x0: np.ndarray) -> None:
-        self.z, self.x0 = z, x0
+    def __init__(self, z: list[int], x0: np.ndarray, labels: list[str]) -> None:
+        self.z, self.x0, self.labels = z, x0, labels
         pairs = bonds(z, x0)
         self.pairs = pairs
-        self.cls = atom_classes(z, pairs)
+        self.cls = atom_classes(labels, pairs)
         self.neighbours: list[list[int]] = [[] for _ in z]
         for i, j in pairs:
             self.neighbours[i].append(j)
@@ -244,12 +265,12 @@ class _Builder:
         """'C–H', 'O–H', 'C–Cl': the atom with more bonds first, then the heavier."""
         z, nb = self.z, self.neighbours
         a, b = sorted((i, j), key=lambda n: (-len(nb[n]), -z[n]))
-        return f"{_symbol(z[a])}{_DASH}{_symbol(z[b])}"
+        return f"{self.labels[a]}{_DASH}{self.labels[b]}"
 
     def angle_name(self, i: int, j: int, k: int) -> str:
         """'H–C–Cl': the outer atoms lighter first."""
         a, b = sorted((i, k), key=lambda n: self.z[n])
-        return _DASH.join(_symbol(self.z[n]) for n in (a, j, b))
+        return _DASH.join(self.labels[n] for n in (a, j, b))
 
     def add(self, kind, atoms, words, tag, signed, key, func, pattern=(), depends=()) -> None:  # noqa: ANN001
         self.items.append(
@@ -289,7 +310,9 @@ class _Builder:
 
 
 def internal_coordinates(
-    atomic_numbers: Sequence[int], coordinates_ang: np.ndarray
+    atomic_numbers: Sequence[int],
+    coordinates_ang: np.ndarray,
+    masses_da: Sequence[float] | None = None,
 ) -> tuple[list[InternalCoordinate], list[Callable[[np.ndarray], float]]]:
     """The internal coordinates of a molecule and the function giving each one's value.
 
@@ -300,6 +323,8 @@ def internal_coordinates(
     kept); one torsion per bond between two atoms that have other neighbours (the mean of the
     dihedrals about it).
 
+    With ``masses_da``, deuterium and tritium are named D and T (and are not equivalent to H).
+
     Returns
     -------
     (list of InternalCoordinate, list of callable)
@@ -307,10 +332,11 @@ def internal_coordinates(
     """
     z = [int(v) for v in atomic_numbers]
     x0 = np.asarray(coordinates_ang, dtype=float)
-    build = _Builder(z, x0)
+    labels = atom_labels(z, masses_da)
+    build = _Builder(z, x0, labels)
     nbs = build.neighbours
     for i, j in build.pairs:
-        tag = _hydride(z, nbs, i if z[j] == 1 else j) if 1 in (z[i], z[j]) else ""
+        tag = _hydride(z, labels, nbs, i if z[j] == 1 else j) if 1 in (z[i], z[j]) else ""
         build.add(
             "stretch",
             (i, j),
@@ -325,14 +351,14 @@ def internal_coordinates(
         for a in range(len(nb)):
             for b in range(a + 1, len(nb)):
                 i, k = nb[a], nb[b]
-                tag = _hydride(z, nbs, j) if 1 in (z[i], z[k]) else ""
+                tag = _hydride(z, labels, nbs, j) if 1 in (z[i], z[k]) else ""
                 words = f"{build.angle_name(i, j, k)} bend"
                 key = build.key(i, j, k)
                 pattern = build.xh2_pattern(i, j, k)
                 if pattern:  # one group of the four bends, named by their motion
-                    words, tag = f"{_hydride(z, nbs, j)} deformation", ""
+                    words, tag = f"{_hydride(z, labels, nbs, j)} deformation", ""
                 elif build.is_xh2(j) and z[i] == z[k] == 1:
-                    words, tag = f"{_hydride(z, nbs, j)} scissors", ""
+                    words, tag = f"{_hydride(z, labels, nbs, j)} scissors", ""
                 if np.degrees(_angle(x0, i, j, k)) < LINEAR_ANGLE_DEG:
                     build.add(
                         "bend",
@@ -362,7 +388,7 @@ def internal_coordinates(
             i = min(terminal, key=lambda n: z[n]) if terminal else nb[0]
             k, m = (n for n in nb if n != i)
             words = f"{build.bond_name(j, i)} out-of-plane"
-            tag = _hydride(z, nbs, j) if z[i] == 1 else ""
+            tag = _hydride(z, labels, nbs, j) if z[i] == 1 else ""
             build.add(
                 "out-of-plane",
                 (i, j, k, m),
@@ -467,7 +493,7 @@ def energy_distribution(modes: ModeSet) -> EnergyDistribution:
             f"{where}: {modes.n_modes} modes of {want}; describing modes needs all of them "
             "(the force constants are rebuilt from the complete set)"
         )
-    coords, funcs = internal_coordinates(modes.atomic_numbers, modes.coordinates_ang)
+    coords, funcs = internal_coordinates(modes.atomic_numbers, modes.coordinates_ang, masses)
     b = b_matrix(funcs, modes.coordinates_ang, [c.depends for c in coords])
     hessian = hessian_from_modes(np.abs(modes.freqs_cm1), modes.modes, masses)
     b_plus = np.linalg.pinv(b, rcond=1e-8)

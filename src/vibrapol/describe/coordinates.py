@@ -67,7 +67,9 @@ class InternalCoordinate:
 GROUP_MOTIONS = ("wag", "rock", "twist")
 
 
-def bonds(atomic_numbers: Sequence[int], coordinates_ang: np.ndarray) -> list[tuple[int, int]]:
+def bonds(
+    atomic_numbers: Sequence[int] | np.ndarray, coordinates_ang: np.ndarray
+) -> list[tuple[int, int]]:
     """Bonded pairs (i < j): distance below :data:`BOND_FACTOR` × the sum of covalent radii."""
     z = np.asarray(atomic_numbers, dtype=int)
     x = np.asarray(coordinates_ang, dtype=float)
@@ -140,7 +142,9 @@ def _perpendiculars(axis: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 HYDROGEN_ISOTOPES = {"D": 2.014, "T": 3.016}
 
 
-def atom_labels(atomic_numbers: Sequence[int], masses_da: Sequence[float] | None) -> list[str]:
+def atom_labels(
+    atomic_numbers: Sequence[int] | np.ndarray, masses_da: Sequence[float] | np.ndarray | None
+) -> list[str]:
     """Element symbol of every atom; 'D' and 'T' for heavy hydrogen when the masses say so."""
     out = []
     for n, z in enumerate(atomic_numbers):
@@ -230,9 +234,9 @@ class _Builder:
 
 
 def internal_coordinates(
-    atomic_numbers: Sequence[int],
+    atomic_numbers: Sequence[int] | np.ndarray,
     coordinates_ang: np.ndarray,
-    masses_da: Sequence[float] | None = None,
+    masses_da: Sequence[float] | np.ndarray | None = None,
 ) -> tuple[list[InternalCoordinate], list[Callable[[np.ndarray], float]]]:
     """The internal coordinates of a molecule and the function giving each one's value.
 

@@ -222,3 +222,22 @@ def test_deuterium_is_named_and_not_equivalent_to_hydrogen():
     assert [t.split(" (")[0] for t in hod] == ["H–O–D bend", "O–D stretch", "O–H stretch"]
     d2o = [_top(x) for x in describe_modes(d2o_modes)]
     assert d2o == ["D–O–D bend", "O–D stretch, in phase", "O–D stretch, out of phase"]
+
+
+def test_motion_the_bonds_miss_is_not_described_and_said_so():
+    # contract: two H atoms 5 Å apart (invented, no bond by the covalent radii) have no
+    # coordinate for their one mode: the text is empty, a warning and a note say which mode
+    from vibrapol.errors import VibrapolWarning
+    from vibrapol.modeset import ModeSet
+    from vibrapol.ramantable import raman_table
+
+    apart = ModeSet(
+        atomic_numbers=[1, 1],
+        coordinates_ang=[[0, 0, 0], [0, 0, 5.0]],
+        freqs_cm1=[100.0],
+        modes=[[0, 0, -(0.5**0.5), 0, 0, 0.5**0.5]],
+    )
+    with pytest.warns(VibrapolWarning, match="mode 1 not described"):
+        table = raman_table(apart, describe=True)
+    assert table.descriptions == ("",)
+    assert any(n.startswith("mode 1 not described: the bonds found") for n in table.notes)

@@ -290,7 +290,10 @@ def raman_table(
         found.append(text)
     descriptions: tuple[str, ...] = ()
     if describe:
-        descriptions, why = _descriptions(modes)
+        from vibrapol.describe import descriptions_with_notes
+
+        described, why = descriptions_with_notes(modes)
+        descriptions = tuple(described)
         notes += why
     ir = modes.ir_intensity_km_mol
     return RamanTable(
@@ -313,26 +316,6 @@ def raman_table(
         descriptions=descriptions,
         **extra,
     )
-
-
-def _descriptions(modes: ModeSet) -> tuple[tuple[str, ...], list[str]]:
-    """(description of every mode, notes on what could not be described)."""
-    from vibrapol.describe import MIN_COVERAGE, NOTE, describe_modes
-    from vibrapol.errors import VibrapolError
-
-    try:
-        found = describe_modes(modes)
-    except VibrapolError as exc:
-        return (), [f"modes not described: {exc}"]
-    texts = tuple(d.text for d in found)
-    notes = [NOTE]
-    missed = [str(k + 1) for k, d in enumerate(found) if d.coverage < MIN_COVERAGE]
-    if missed:
-        notes.append(
-            f"mode{'s' if len(missed) > 1 else ''} {', '.join(missed)} not described: the "
-            f"bonds found leave more than {1 - MIN_COVERAGE:.0%} of the motion undescribed"
-        )
-    return texts, notes
 
 
 def with_warnings(table: RamanTable, texts: list[str] | tuple[str, ...]) -> RamanTable:

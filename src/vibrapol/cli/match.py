@@ -141,19 +141,15 @@ def table_writer(path: str):  # noqa: ANN201
 
 
 def mode_descriptions(modes: Any, notes: list[str]) -> list[str] | None:
-    """What each mode does (:mod:`vibrapol.describe`), with its note added to ``notes``.
+    """What each mode does (:mod:`vibrapol.describe`), its notes added to ``notes``.
 
-    None, with a note saying why, when the modes cannot be described.
+    None when the modes cannot be described (the note says why).
     """
-    from vibrapol.describe import NOTE, describe_modes
+    from vibrapol.describe import descriptions_with_notes
 
-    try:
-        found = describe_modes(modes)
-    except VibrapolError as exc:
-        notes.append(f"modes not described: {exc}")
-        return None
-    notes.append(NOTE)
-    return [d.text for d in found]
+    texts, found = descriptions_with_notes(modes)
+    notes += found
+    return texts or None
 
 
 def measure(args: argparse.Namespace):  # noqa: ANN201

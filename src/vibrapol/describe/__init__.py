@@ -31,6 +31,7 @@ Wags and torsions carry no phase word: their sign depends on how the atoms are o
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -44,7 +45,7 @@ from vibrapol.describe.coordinates import (
     bonds,
     internal_coordinates,
 )
-from vibrapol.errors import VibrapolError
+from vibrapol.errors import VibrapolError, VibrapolWarning
 from vibrapol.modeset import ModeSet
 
 __all__ = [
@@ -56,6 +57,7 @@ __all__ = [
     "bonds",
     "describe",
     "describe_modes",
+    "descriptions_with_notes",
     "energy_distribution",
     "internal_coordinates",
 ]
@@ -261,3 +263,36 @@ def describe_modes(modes: ModeSet) -> list[ModeDescription]:
     ['H–O–H bend (100%)', 'O–H stretch, in phase (99%)', 'O–H stretch, out of phase (100%)']
     """
     return describe(energy_distribution(modes))
+
+
+def descriptions_with_notes(modes: ModeSet) -> tuple[list[str], list[str]]:
+    """The text of every mode and the notes a file with them must carry in its header.
+
+    Returns
+    -------
+    (list of str, list of str)
+        One text per mode ('' for a mode the coordinates do not cover; none at all when the
+        modes cannot be described), and the notes: how the shares are computed, or why there
+        are no descriptions, and which modes were left undescribed.
+
+    Warns
+    -----
+    VibrapolWarning
+        When some modes are left undescribed (the text is also a note).  An incomplete set of
+        modes gives only the note: the table already warns of the missing modes.
+    """
+    try:
+        found = describe_modes(modes)
+    except VibrapolError as exc:
+        return [], [f"modes not described: {exc}"]
+    notes = [NOTE]
+    missed = [str(k + 1) for k, d in enumerate(found) if d.coverage < MIN_COVERAGE]
+    if missed:
+        where = modes.provenance.source_file or "mode set"
+        text = (
+            f"mode{'s' if len(missed) > 1 else ''} {', '.join(missed)} not described: the "
+            f"bonds found leave more than {1 - MIN_COVERAGE:.0%} of the motion undescribed"
+        )
+        warnings.warn(f"{where}: {text}", VibrapolWarning, stacklevel=2)
+        notes.append(text)
+    return [d.text for d in found], notes

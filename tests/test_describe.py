@@ -241,3 +241,25 @@ def test_motion_the_bonds_miss_is_not_described_and_said_so():
         table = raman_table(apart, describe=True)
     assert table.descriptions == ("",)
     assert any(n.startswith("mode 1 not described: the bonds found") for n in table.notes)
+
+
+def test_degenerate_partners_read_the_same_in_any_basis():
+    # contract: a rotation within each degenerate pair of benzene's E modes (any basis of the
+    # pair is as good) changes no description: shares summed over symmetry-equivalent
+    # coordinates do not depend on the basis
+    import dataclasses
+
+    modes = read_modes_json(FIXTURES / "benzene_hf_sto3g.modes.json")
+    turned = modes.modes.copy()
+    f = modes.freqs_cm1
+    pairs = [a for a in range(modes.n_modes - 1) if abs(f[a + 1] - f[a]) < 0.5]
+    assert len(pairs) == 10  # benzene's ten E species fundamentals (Herzberg 1945, from memory)
+    c, s = np.cos(0.5), np.sin(0.5)
+    for a in pairs:
+        turned[a], turned[a + 1] = (
+            c * modes.modes[a] + s * modes.modes[a + 1],
+            -s * modes.modes[a] + c * modes.modes[a + 1],
+        )
+    other = dataclasses.replace(modes, modes=turned, dalpha_dx=None, dalpha_dq=None)
+    before = [d.text for d in describe_modes(modes)]
+    assert [d.text for d in describe_modes(other)] == before

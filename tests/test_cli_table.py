@@ -27,7 +27,8 @@ def test_csv_has_exactly_the_documented_columns(capsys):
     # water's asymmetric stretch (B2, highest mode) is depolarized: ρ_l = 3/4 (common practice)
     assert float(rows[3][6]) == pytest.approx(0.75, abs=1e-6)
     assert rows[3][8] == "false" and rows[2][8] == "true"
-    assert [r[-1] for r in rows[1:]] == ["polarized", "polarized", "depolarized"]
+    pol = TABLE_COLUMNS.index("polarization")
+    assert [r[pol] for r in rows[1:]] == ["polarized", "polarized", "depolarized"]
 
 
 def test_text_and_json_outputs(capsys, tmp_path):

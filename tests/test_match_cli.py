@@ -230,3 +230,24 @@ def test_match_figure_draws_one_line_per_assigned_band():
     assert starts == sorted(round(f.position_cm1) for f in CHCL3)
     open_marks = [ln for ln in ax.lines if ln.get_marker() == "o"]
     assert len(open_marks) == 1  # the overtone
+
+
+def test_match_describes_the_assigned_modes(chcl3_files, tmp_path, capsys):
+    # what each assigned CHCl3 fundamental does (Shimanouchi 1972, from memory): ν1 C–H
+    # stretch, ν2 (A1) C–Cl symmetric stretch, ν5 (E) C–Cl degenerate stretch, ν4 (E) C–H bend;
+    # the overtone, unassigned, has no description; --no-describe leaves the column empty
+    vv, vh = chcl3_files
+    out, md = tmp_path / "assignment.csv", tmp_path / "assignment.md"
+    args = ["match", str(CHCL3_MODES), "--vv", str(vv), "--vh", str(vh), "--laser-nm", "532"]
+    assert main([*args, "-o", str(out), "--table", str(md)]) == 0
+    capsys.readouterr()
+    by_pos = {round(float(r["band_cm1"])): r["description"] for r in rows(out.read_text())}
+    assert by_pos[3034].startswith("C–H stretch")
+    assert by_pos[680].startswith("C–Cl stretch, in phase")
+    assert by_pos[774].startswith("C–Cl stretch, out of phase")
+    assert by_pos[1220].startswith("Cl–C–H bend") or by_pos[1220].startswith("H–C–Cl bend")
+    assert by_pos[round(CHCL3_OVERTONE.position_cm1)] == ""
+    assert "# note: description: share of each mode's potential energy" in out.read_text()
+    assert "| description |" in md.read_text().splitlines()[2]
+    assert main([*args, "-o", str(out), "--force", "--no-describe"]) == 0
+    assert {r["description"] for r in rows(out.read_text())} == {""}

@@ -70,6 +70,9 @@ class RamanTable:
         stderr) and notes.
     symmetrized : bool
         Whether the modes were averaged over the point group (only on request).
+    descriptions : tuple of str
+        What each mode does, in words with shares of the potential energy
+        (:mod:`vibrapol.describe`); empty when not asked for, '' for a mode not described.
 
     Notes
     -----
@@ -100,6 +103,7 @@ class RamanTable:
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     symmetrized: bool = False
+    descriptions: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         n = _column(self, "freqs_cm1", None, "f").shape[0]
@@ -119,6 +123,7 @@ class RamanTable:
                 _column(self, name, n, kind)
         _labels(self, "irreps", (n,))
         _labels(self, "polarization", (0, n))
+        _labels(self, "descriptions", (0, n))
         _labels(self, "warnings", None)
         _labels(self, "notes", None)
 
@@ -201,6 +206,7 @@ def raman_table(
     irreps: tuple[str, ...] | None = None,
     point_group: str = "",
     symmetry: ModeSymmetry | None = None,
+    describe: bool = False,
 ) -> RamanTable:
     """Compute the per-mode Raman table of ``modes``.
 
@@ -220,6 +226,10 @@ def raman_table(
         ``symmetry.modes`` as ``modes`` when it was symmetrized).  Its degenerate sets, species,
         point group, purity, selection rules and warnings are used and ``sets``, ``irreps`` and
         ``point_group`` must not be given.
+    describe : bool
+        Describe every mode by internal coordinates (:func:`vibrapol.describe.describe_modes`)
+        into :attr:`RamanTable.descriptions`; when it cannot (an incomplete set of modes, part
+        of a motion the connectivity misses) a note in :attr:`RamanTable.notes` says why.
 
     Warns
     -----
@@ -301,6 +311,13 @@ def raman_table(
     for text in filter(None, own):
         warnings.warn(text, AccuracyWarning, stacklevel=2)
         found.append(text)
+    descriptions: tuple[str, ...] = ()
+    if describe:
+        from vibrapol.describe import descriptions_with_notes
+
+        described, why = descriptions_with_notes(modes)
+        descriptions = tuple(described)
+        notes += why
     ir = modes.ir_intensity_km_mol
     return RamanTable(
         freqs_cm1=modes.freqs_cm1.copy(),
@@ -319,6 +336,7 @@ def raman_table(
         shown_zero=shown_zero,
         warnings=tuple(found),
         notes=tuple(notes),
+        descriptions=descriptions,
         **extra,
     )
 
@@ -335,6 +353,7 @@ def symmetry_table(
     tolerance_ang: float | None = None,
     symmetrize: bool = False,
     degeneracy_tol_cm1: float = inv.DEGENERACY_TOL_CM1,
+    describe: bool = False,
 ) -> tuple[ModeSet, RamanTable]:
     """Raman table with species and degenerate sets from the point group of the structure.
 
@@ -343,7 +362,7 @@ def symmetry_table(
     averaged over the group first (refused for sources with only a², γ² or activities), so
     that the modes returned differ slightly from those given (announced on stderr and in the
     table's provenance and warnings).  A single atom gets the table without symmetry, sets from
-    ``degeneracy_tol_cm1``.
+    ``degeneracy_tol_cm1``.  ``describe``: as for :func:`raman_table`.
 
     Returns
     -------
@@ -354,7 +373,7 @@ def symmetry_table(
 
     inv.check_degeneracy_tol(degeneracy_tol_cm1)  # refused even when symmetry makes the sets
     if modes.n_atoms < 2:
-        return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1)
+        return modes, raman_table(modes, degeneracy_tol_cm1=degeneracy_tol_cm1, describe=describe)
     tol = DEFAULT_TOLERANCE_ANG if tolerance_ang is None else tolerance_ang
     sym = mode_symmetry(modes, tolerance_ang=tol, symmetrize=symmetrize)
-    return sym.modes, raman_table(sym.modes, symmetry=sym)
+    return sym.modes, raman_table(sym.modes, symmetry=sym, describe=describe)

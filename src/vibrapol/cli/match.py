@@ -142,6 +142,11 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="assignment table for a paper: .md (Markdown) or .tex (LaTeX, booktabs); repeat "
         "for both",
     )  # fmt: skip
+    parser.add_argument(
+        "--no-describe", action="store_true",
+        help="leave out what each assigned mode does (default: a description column from the "
+        "bond stretches, bends, wags and torsions carrying its potential energy)",
+    )  # fmt: skip
 
 
 def table_writer(path: str):  # noqa: ANN201
@@ -152,6 +157,18 @@ def table_writer(path: str):  # noqa: ANN201
     if suffix not in PAPER_TABLES:
         raise VibrapolError(f"{path}: table files must end in .md or .tex")
     return PAPER_TABLES[suffix]
+
+
+def mode_descriptions(modes: Any, notes: list[str]) -> list[str] | None:
+    """What each mode does (:mod:`vibrapol.describe`), its notes added to ``notes``.
+
+    None when the modes cannot be described (the note says why).
+    """
+    from vibrapol.describe import descriptions_with_notes
+
+    texts, found = descriptions_with_notes(modes)
+    notes += found
+    return texts or None
 
 
 def measure(args: argparse.Namespace, vv: str | None = None, vh: str | None = None):  # noqa: ANN201
@@ -318,12 +335,13 @@ def run(args: argparse.Namespace) -> int:
         opts["model"], level_note = model_for_basis(modes.provenance.basis)
     result = assign(cand, bands, pair=pair, **opts)
     notes = [n for n in (level_note, iso_note) if n]
+    described = None if args.no_describe else mode_descriptions(modes, notes)
     if args.laser_nm is None:
         notes.append(f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm")
     files: list[tuple[str, str | bytes]] = []
     if args.output:
-        files.append((args.output, assignment_csv(result, pair, notes)))
-    files += [(p, write(result)) for p, write in zip(args.table, writers, strict=True)]
+        files.append((args.output, assignment_csv(result, pair, notes, described)))
+    files += [(p, write(result, described)) for p, write in zip(args.table, writers, strict=True)]
     if args.figure:
         from vibrapol.plotting.match import match_figure
         from vibrapol.plotting.style import figure_bytes
@@ -338,6 +356,6 @@ def run(args: argparse.Namespace) -> int:
         text += f"laser line not given: computed intensities for {DEFAULT_LASER_NM:g} nm\n"
     text += f"computed intensities for a {DETECTOR_NOTES[args.detector]}\n"
     if not args.output:
-        text += "\n" + assignment_csv(result, pair, notes)
+        text += "\n" + assignment_csv(result, pair, notes, described)
     print_stdout(text)
     return 0

@@ -251,12 +251,25 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         help="the N strongest bands are labelled in the figure (default 6)",
     )
     add_renamed(parser, "--labels", "--top", "top", type=int)
+    parser.add_argument(
+        "--label-descriptions",
+        action="store_true",
+        help="add what each labelled band's mode does (the bond stretch, bend, wag or torsion "
+        "carrying most of its potential energy) under its label; one source only",
+    )
 
 
 def build_sticks(
-    args: argparse.Namespace, channels: list[str], geometry: int, **extra: Any
+    args: argparse.Namespace,
+    channels: list[str],
+    geometry: int,
+    read: list[Any] | None = None,
+    **extra: Any,
 ) -> StickSpectrum:
-    """Read the sources and compute their (mixture) stick spectrum."""
+    """Read the sources and compute their (mixture) stick spectrum.
+
+    ``read``, when given, receives the ModeSets read.
+    """
     if len(args.sources) == 1:
         for option, given in (
             ("--energies-kjmol", getattr(args, "energies_kjmol", None)),
@@ -272,6 +285,8 @@ def build_sticks(
             "--overlay draws sources at weight 1: drop --energies-kjmol/--zero-point"
         )
     modesets = [read_modes(s, kind=args.kind) for s in args.sources]
+    if read is not None:
+        read.extend(modesets)
     options = dict(
         channels=channels,
         quantity=args.quantity,
@@ -314,9 +329,17 @@ def run(args: argparse.Namespace) -> int:
     lineshape = LineShape(args.shape, args.fwhm_cm1, args.fwhm_slope, args.lorentzian_share)
     span = parse_range(args.range_cm1) if args.range_cm1 else None
     channels = [c for c in args.channels.split(",") if c.strip()]
+    if args.label_descriptions and len(args.sources) > 1:
+        raise VibrapolError("--label-descriptions needs one source, not a mixture or overlay")
+    read: list[Any] = []
     sticks = build_sticks(
-        args, channels, args.geometry, side="both" if args.anti_stokes else "stokes"
+        args, channels, args.geometry, read, side="both" if args.anti_stokes else "stokes"
     )
+    words = None
+    if args.label_descriptions and args.figure:
+        from vibrapol.describe import describe_modes
+
+        words = [d.short for d in describe_modes(read[0])]
     if span is None:
         from vibrapol.spectrum import default_range
 
@@ -345,6 +368,7 @@ def run(args: argparse.Namespace) -> int:
                 width=figure_width(args.width),
                 label_count=0 if overlaid else args.top,
                 sticks=not overlaid,
+                mode_words=words,
             )
             outputs += [(p, plotting.figure_bytes(fig, figure_format(p))) for p in args.figure]
         if args.rho_figure:

@@ -30,6 +30,12 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     add_degeneracy_argument(parser, " when the point group is not used (--no-symmetry)")
     add_no_symmetry_argument(parser)
     add_symmetry_arguments(parser)
+    parser.add_argument(
+        "--no-describe",
+        action="store_true",
+        help="leave the description column empty (default: describe every mode by the bond "
+        "stretches, bends, wags and torsions carrying its potential energy)",
+    )
     add_scale_arguments(parser)
     add_output_arguments(parser, "table")
 
@@ -53,6 +59,7 @@ def run(args: argparse.Namespace) -> int:
     scale = scale_from_args(args) if scaled else None
     if args.no_symmetry and args.symmetrize:
         raise OptionError("--symmetrize needs the point group; it cannot go with --no-symmetry")
+    describe = not args.no_describe and args.format not in BAND_FORMATS
     with recorded_warnings() as texts:
         modes = read_modes(args.source, kind=args.kind)
         if args.isotopes is not None:
@@ -62,13 +69,16 @@ def run(args: argparse.Namespace) -> int:
         if scale is not None:  # a published factor must belong to the source's method and basis
             scale.check_belongs(modes.provenance.method, modes.provenance.basis, args.source)
         if args.no_symmetry:
-            table = raman_table(modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1)
+            table = raman_table(
+                modes, degeneracy_tol_cm1=args.degeneracy_tol_cm1, describe=describe
+            )
         else:
             _, table = symmetry_table(
                 modes,
                 tolerance_ang=args.symmetry_tolerance_ang,
                 symmetrize=args.symmetrize,
                 degeneracy_tol_cm1=args.degeneracy_tol_cm1,
+                describe=describe,
             )
     table = with_warnings(table, texts)
     if args.format in BAND_FORMATS:

@@ -14,7 +14,8 @@ from vibrapol.output.tables import csv_document
 #: Columns of the assignment CSV, one row per measured band.  ``mode`` holds the 1-based mode
 #: numbers of the assigned computed band (a degenerate set as "4 5") and is empty for a band
 #: left unassigned; ``delta_cm1`` = band_cm1 − mode_cm1_scaled; ``confidence`` see
-#: :class:`~vibrapol.compare.results.AssignedBand`.
+#: :class:`~vibrapol.compare.results.AssignedBand`; ``description`` says what the assigned mode
+#: does (:mod:`vibrapol.describe`; empty when unassigned or not described).
 ASSIGNMENT_COLUMNS = (
     "band_cm1",
     "band_rho",
@@ -30,7 +31,16 @@ ASSIGNMENT_COLUMNS = (
     "component",
     "cost",
     "alternative",
+    "description",
 )
+
+
+def band_description(mode: str, descriptions: Sequence[str] | None) -> str:
+    """The description of an assigned band: that of its first mode ('4 5' → mode 4)."""
+    if not mode or not descriptions:
+        return ""
+    first = int(mode.split()[0]) - 1
+    return descriptions[first] if 0 <= first < len(descriptions) else ""
 
 
 def _num(value: float, fmt: str) -> str:
@@ -81,8 +91,12 @@ def assignment_conditions(
     return items
 
 
-def assignment_rows(assignment: Assignment) -> list[dict[str, object]]:
+def assignment_rows(
+    assignment: Assignment, descriptions: Sequence[str] | None = None
+) -> list[dict[str, object]]:
     """One dictionary per measured band keyed by :data:`ASSIGNMENT_COLUMNS` (NaN → None).
+
+    ``descriptions`` (one per computed mode) fill the ``description`` column ("" without).
 
     The rows of :func:`assignment_csv` and of :meth:`Assignment.to_dataframe`; ``mode`` and
     ``alternative`` are text ("4 5" for a degenerate set, "" when unassigned).
@@ -103,6 +117,7 @@ def assignment_rows(assignment: Assignment) -> list[dict[str, object]]:
             "component": b.component,
             "cost": float(b.cost),
             "alternative": b.alternative,
+            "description": band_description(b.mode, descriptions),
         }
         for b in assignment.bands
     ]
@@ -129,9 +144,15 @@ def _or_none(value: float) -> float | None:
 
 
 def assignment_csv(
-    assignment: Assignment, pair: PolarizedPair | None = None, notes: Sequence[str] = ()
+    assignment: Assignment,
+    pair: PolarizedPair | None = None,
+    notes: Sequence[str] = (),
+    descriptions: Sequence[str] | None = None,
 ) -> str:
     """``#`` lines with the conditions, then one row per measured band.
+
+    ``descriptions``: what each computed mode does, one text per mode of the candidate's
+    ModeSet (:func:`vibrapol.describe.describe_modes`), for the ``description`` column.
 
     The columns are :data:`ASSIGNMENT_COLUMNS`; the ``#`` lines
     (:func:`assignment_conditions`: candidate, measured files and the cleaning applied, scale
@@ -141,7 +162,7 @@ def assignment_csv(
     return csv_document(
         assignment_conditions(assignment, pair, notes),
         ASSIGNMENT_COLUMNS,
-        assignment_rows(assignment),
+        assignment_rows(assignment, descriptions),
         ASSIGNMENT_CSV_FORMATS,
     )
 
@@ -266,8 +287,14 @@ def assignment_summary(assignment: Assignment) -> str:
     return "\n".join(lines) + "\n"
 
 
-def _paper_rows(assignment: Assignment) -> list[tuple[str, str, str, str, str, str]]:
-    """(measured ν, measured ρ ± err, species, scaled computed ν, computed ρ, Δ) per band."""
+def _paper_rows(
+    assignment: Assignment, descriptions: Sequence[str] | None = None
+) -> list[tuple[str, ...]]:
+    """Cells of each band for the paper tables.
+
+    (measured ν, measured ρ ± err, species, scaled computed ν, computed ρ, Δ), and the
+    description of the assigned mode when ``descriptions`` are given.
+    """
     rows = []
     for b in assignment.bands:
         rho = _fmt(b.band_rho)
@@ -283,6 +310,7 @@ def _paper_rows(assignment: Assignment) -> list[tuple[str, str, str, str, str, s
                 _fmt(b.mode_rho) if assigned else "",
                 _fmt(b.delta_cm1, "+.0f") if assigned else "",
             )
+            + ((band_description(b.mode, descriptions),) if descriptions else ())
         )
     return rows
 
@@ -297,20 +325,27 @@ def _paper_caption(assignment: Assignment) -> str:
     )
 
 
-def assignment_markdown(assignment: Assignment) -> str:
-    """The assignment as a Markdown (pipe) table for a paper or a lab notebook."""
+def assignment_markdown(assignment: Assignment, descriptions: Sequence[str] | None = None) -> str:
+    """The assignment as a Markdown (pipe) table for a paper or a lab notebook.
+
+    With ``descriptions`` (one per computed mode) a last column says what each mode does.
+    """
+    extra = " description |" if descriptions else ""
     lines = [
         _paper_caption(assignment),
         "",
-        "| ν̃ meas. / cm⁻¹ | ρ meas. | species | ν̃ calc. / cm⁻¹ | ρ calc. | Δ / cm⁻¹ |",
-        "|---:|---:|:---|---:|---:|---:|",
+        "| ν̃ meas. / cm⁻¹ | ρ meas. | species | ν̃ calc. / cm⁻¹ | ρ calc. | Δ / cm⁻¹ |" + extra,
+        "|---:|---:|:---|---:|---:|---:|" + (":---|" if descriptions else ""),
     ]
-    lines += ["| " + " | ".join(row) + " |" for row in _paper_rows(assignment)]
+    lines += ["| " + " | ".join(row) + " |" for row in _paper_rows(assignment, descriptions)]
     return "\n".join(lines) + "\n"
 
 
-def assignment_latex(assignment: Assignment) -> str:
-    r"""The assignment as a booktabs LaTeX table (needs ``\usepackage{booktabs}``)."""
+def assignment_latex(assignment: Assignment, descriptions: Sequence[str] | None = None) -> str:
+    r"""The assignment as a booktabs LaTeX table (needs ``\usepackage{booktabs}``).
+
+    With ``descriptions`` (one per computed mode) a last column says what each mode does.
+    """
     from vibrapol.output.tables import latex_species, tex_escape
 
     caption = (
@@ -322,20 +357,21 @@ def assignment_latex(assignment: Assignment) -> str:
         .replace("−", "$-$")
     )
     body = []
-    for meas, rho, species, calc, rho_calc, delta in _paper_rows(assignment):
+    for meas, rho, species, calc, rho_calc, delta, *words in _paper_rows(assignment, descriptions):
         tex_species = species if species in ("?", "–") else latex_species(species)
         cells = [meas, rho.replace("±", r"$\pm$"), tex_species.replace("–", "--"), calc]
         delta = delta.replace("+", "$+$").replace("-", "$-$")
-        body.append("  " + " & ".join([*cells, rho_calc, delta]) + r" \\")
+        said = [tex_escape(w).replace("–", "--") for w in words]
+        body.append("  " + " & ".join([*cells, rho_calc, delta, *said]) + r" \\")
     return "\n".join(
         [
             r"\begin{table}",
             rf"\caption{{{caption}}}",
-            r"\begin{tabular}{rrlrrr}",
+            r"\begin{tabular}{rrlrrr" + ("l" if descriptions else "") + "}",
             r"\toprule",
             r"$\tilde\nu_\mathrm{meas}$ / cm$^{-1}$ & $\rho_\mathrm{meas}$ & species & "
             r"$\tilde\nu_\mathrm{calc}$ / cm$^{-1}$ & $\rho_\mathrm{calc}$ & "
-            r"$\Delta$ / cm$^{-1}$ \\",
+            r"$\Delta$ / cm$^{-1}$" + (" & description" if descriptions else "") + r" \\",
             r"\midrule",
             *body,
             r"\bottomrule",

@@ -23,9 +23,11 @@ from vibrapol.tablechecks import FORBIDDEN_NOISE_FRACTION
 from vibrapol.units import CODATA_VERSION
 
 #: Columns of the per-mode CSV, in order (units: cm⁻¹, –, Å⁴/amu ×3, –, –, –, –, –, –,
-#: km/mol, –, –).  ``ir_active`` and ``raman_active`` are the selection rules of the mode's
+#: km/mol, –, –, –).  ``ir_active`` and ``raman_active`` are the selection rules of the mode's
 #: species and ``purity`` the quality of its label (empty when the symmetry is not known);
-#: ``polarization`` is the outcome of the rule of :mod:`vibrapol.polarization`.
+#: ``polarization`` is the outcome of the rule of :mod:`vibrapol.polarization`;
+#: ``description`` says what the mode does (:mod:`vibrapol.describe`; empty when the modes
+#: were not described).
 TABLE_COLUMNS = (
     "mode",
     "frequency_cm1",
@@ -42,6 +44,7 @@ TABLE_COLUMNS = (
     "ir_intensity_km_mol",
     "purity",
     "polarization",
+    "description",
 )
 
 
@@ -88,6 +91,7 @@ class TableRow(TypedDict):
     ir_intensity_km_mol: float | None
     purity: float | None
     polarization: str
+    description: str
 
 
 def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[TableRow]:
@@ -121,6 +125,7 @@ def table_rows(table: RamanTable, *, show_zero: bool = False) -> list[TableRow]:
             "ir_intensity_km_mol": _at(table.ir_intensity_km_mol, i),
             "purity": _at(table.purity, i),
             "polarization": table.polarization[i] if table.polarization else "",
+            "description": table.descriptions[i] if table.descriptions else "",
         }
         if zero:
             row.update(
@@ -316,7 +321,7 @@ def table_text(table: RamanTable) -> str:
         "",
         f"{'mode':>4} {'freq/cm-1':>10} {'irrep':>6} {'a2':>11} {'gamma2':>11} {'activity':>11}"
         f" {'rho_lin':>7} {'rho_nat':>7} {'pol':>7} {'set':>4} {'IR':>3} {'Ra':>3}"
-        f" {'purity':>6} {'IR/km/mol':>10}",
+        f" {'purity':>6} {'IR/km/mol':>10}" + ("  description" if table.descriptions else ""),
     ]
     for row in table_rows(table, show_zero=True):
         lines.append(
@@ -325,7 +330,8 @@ def table_text(table: RamanTable) -> str:
             f" {_fmt(row['rho_linear'], 4):>7} {_fmt(row['rho_natural'], 4):>7}"
             f" {MARKS[str(row['polarization'])]:>7} {row['degenerate_set']:>4}"
             f" {_text_flag(row['ir_active']):>3} {_text_flag(row['raman_active']):>3}"
-            f" {_fmt(row['purity'], 3):>6} {_fmt_g(row['ir_intensity_km_mol']):>10}".rstrip()
+            f" {_fmt(row['purity'], 3):>6} {_fmt_g(row['ir_intensity_km_mol']):>10}"
+            f"  {row['description']}".rstrip()
         )
     lines.append("")
     counts = {k: table.polarization.count(k) for k in set(table.polarization)}

@@ -71,14 +71,22 @@ def _colour(channel: str, k: int) -> str:
     return PALETTE.get(channel, OTHER_COLOURS[k % len(OTHER_COLOURS)])
 
 
-def _band_label(sticks: StickSpectrum, i: int, show_rho: bool) -> str:
-    """Wavenumber and irrep on the first line, ρ of polarized bands on the second."""
+def _band_label(
+    sticks: StickSpectrum, i: int, show_rho: bool, mode_words: Sequence[str] | None = None
+) -> str:
+    """The label of band i: wavenumber and irrep, ρ of a polarized band, what it does.
+
+    ρ goes on the second line, and the words of the band's (first) mode on the last when
+    ``mode_words`` are given.
+    """
     text = f"{sticks.positions_cm1[i]:.0f}"
     if sticks.irreps[i]:
         text += f" {format_irrep(sticks.irreps[i])}"
     rho = sticks.rho_linear[i]
     if show_rho and sticks.polarized[i] and math.isfinite(rho):
         text += f"\nρ {rho:.2f}"
+    if mode_words and sticks.mode_sets[i] and mode_words[sticks.mode_sets[i][0]]:
+        text += f"\n{mode_words[sticks.mode_sets[i][0]]}"
     return text
 
 
@@ -118,6 +126,7 @@ def spectrum_figure(
     xlim_cm1: tuple[float, float] | None = None,
     title: str | None = None,
     caption: bool = True,
+    mode_words: Sequence[str] | None = None,
 ) -> Figure:
     """Polarized spectra (VV and VH by default) with sticks and labels of the strongest bands.
 
@@ -144,7 +153,14 @@ def spectrum_figure(
     caption : bool
         Write the conditions (laser, temperature, geometry, sample, detector, scale factor
         and its source, line shape, method) under the axes (default True).
+    mode_words : sequence of str, optional
+        Words saying what each mode of the (single) source does, one per mode
+        (:attr:`vibrapol.describe.ModeDescription.short`), added under each band label.
     """
+    if mode_words is not None and len(grid.sticks.components) > 1:
+        raise VibrapolError(
+            "mode descriptions on the labels need a spectrum of one source, not a mixture"
+        )
     if layout not in ("shared", "stacked"):
         raise VibrapolError(f"layout must be shared or stacked, got {layout!r}")
     chans = [c.lower() for c in channels]
@@ -222,7 +238,7 @@ def spectrum_figure(
                 else [data[label_channel] / norm]
             )
             cands = [
-                (float(st.positions_cm1[i]), _band_label(st, i, show_rho))
+                (float(st.positions_cm1[i]), _band_label(st, i, show_rho, mode_words))
                 for i in order[: 6 * label_count]
             ]
             place_labels(

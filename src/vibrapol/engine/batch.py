@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 
 from vibrapol.engine.checkpoint import CheckpointStore, StoreRouter
-from vibrapol.engine.executors import choose_workers, open_backend
+from vibrapol.engine.executors import available_cores, choose_workers, open_backend
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.prepare import Prepared, assemble, prepare
 from vibrapol.engine.progress import Progress, want_progress
@@ -190,6 +190,9 @@ def run_batch(
     with ExitStack() as stack:
         # A Dask scheduler is contacted at once so that a bad address fails before any work.
         backend = stack.enter_context(open_backend(scheduler=scheduler)) if scheduler else None
+        # The tasks that will run at once, for --route auto's cost model (workers=None: a long
+        # job gets one worker per core, choose_workers).
+        route_workers = backend.workers if backend else (workers or available_cores())
         for k, item in enumerate(items):
             try:
                 structure, masses, default = _check_item(item, settings)
@@ -206,6 +209,7 @@ def run_batch(
                     settings,
                     store,
                     report,
+                    workers=route_workers,
                 )
                 router.assign(prep.keys, store)
             except VibrapolError as exc:

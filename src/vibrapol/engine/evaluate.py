@@ -122,7 +122,9 @@ class ReferenceResult:
     Attributes
     ----------
     energy_hartree : float
-    hessian_hartree_bohr2 : ndarray (3N, 3N)
+    hessian_hartree_bohr2 : ndarray (3N, 3N) or None
+        None until the Hessian stage has run (and on the displacement route, which builds the
+        Hessian from its tasks instead).
     alpha_ang3 : ndarray (3, 3)
     density : ndarray (nao, nao)
         Converged AO density matrix, used as the start of every displaced SCF.
@@ -134,7 +136,7 @@ class ReferenceResult:
     """
 
     energy_hartree: float
-    hessian_hartree_bohr2: np.ndarray
+    hessian_hartree_bohr2: np.ndarray | None
     alpha_ang3: np.ndarray
     density: np.ndarray
     gradient_hartree_bohr: np.ndarray
@@ -201,9 +203,17 @@ def evaluate_polarizability_dipole(job: PolarizabilityJob) -> np.ndarray:
 
 
 def reference_calculation(
-    atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    with_hessian: bool = True,
 ) -> ReferenceResult:
-    """SCF, analytic Hessian and CPHF α at the reference geometry (all threads of the process)."""
+    """SCF, analytic Hessian and CPHF α at the reference geometry (all threads of the process).
+
+    With ``with_hessian`` False the Hessian is skipped (``hessian_hartree_bohr2`` is None):
+    the displacement route builds it from its tasks, and ``auto`` decides whether it is needed
+    from the other timings (:func:`reference_hessian` computes it afterwards).
+    """
     from time import perf_counter
 
     mol = build_molecule(atomic_numbers, coordinates_ang, spec)
@@ -212,7 +222,7 @@ def reference_calculation(
 
     mf = tighten_scf(run_scf(mol, spec), spec)
     t1 = perf_counter()
-    hessian = analytic_hessian(mf)
+    hessian = analytic_hessian(mf) if with_hessian else None
     t2 = perf_counter()
     alpha = cphf_polarizability(mf) * BOHR3_TO_ANG3
     t3 = perf_counter()
@@ -229,6 +239,24 @@ def reference_calculation(
         seconds_alpha=t3 - t2,
         seconds_gradient=t4 - t3,
     )
+
+
+def reference_hessian(
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    density: np.ndarray | None = None,
+) -> np.ndarray:
+    """Analytic Hessian (3N, 3N) in hartree/bohr² at the reference geometry, on its own.
+
+    The SCF is converged again (as tightly as in :func:`reference_calculation`) from the
+    reference ``density``, which takes a cycle or two.
+    """
+    from vibrapol.engine.fieldgrad import tighten_scf
+
+    mol = build_molecule(atomic_numbers, coordinates_ang, spec)
+    mf = tighten_scf(run_scf(mol, spec, dm0=density), spec)
+    return analytic_hessian(mf)
 
 
 def peak_memory_mb() -> float:

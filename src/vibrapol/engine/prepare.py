@@ -14,18 +14,19 @@ from dataclasses import dataclass
 import numpy as np
 
 from vibrapol.engine import stages
+from vibrapol.engine.autoroute import hessian_needed, pick_route
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
+from vibrapol.engine.disproute import HESSIAN_NOTE, DisplacementRoutePlan
 from vibrapol.engine.fieldplan import FieldPlan
 from vibrapol.engine.optimize import OptimizationResult
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
     Plan,
     RouteChoice,
-    build_plan,
-    choose_route,
     derivatives,
     dipole_derivatives,
+    hessian_from_tasks,
     make_jobs,
     route_name,
 )
@@ -65,7 +66,7 @@ class Prepared:
     seconds_optimize: float
     reference: stages.ReferenceResult
     reused_reference: bool
-    harmonic: HarmonicModes
+    harmonic: HarmonicModes | None  # None on the displacement route (built in assemble)
     point_group: str
     symmetry_shift_ang: float
     choice: RouteChoice
@@ -97,8 +98,13 @@ def prepare(
     settings: EngineSettings,
     store: CheckpointStore | None,
     report: Progress,
+    workers: int = 1,
 ) -> Prepared:
-    """Optimisation, symmetry, reference calculation, route choice and task list."""
+    """Optimisation, symmetry, reference calculation, route choice and task list.
+
+    ``workers`` is the number of tasks that will run at once (``auto`` weighs the analytic
+    Hessian against the displacement route with it).
+    """
     z, spec = atomic_numbers, settings.spec
     coords, opt, seconds_opt, reused_opt = coordinates_ang, None, 0.0, False
     if settings.optimize:
@@ -108,26 +114,17 @@ def prepare(
     group, shift = None, 0.0
     if settings.symmetry:
         group, coords, shift = _impose_symmetry(z, coords, masses_da, report)
-    report.stage("reference SCF, analytic Hessian, polarizability and gradient")
-    ref, reused_ref = stages.reference(z, coords, spec, store)
-    harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
-    wanted = (
-        ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
-    )
-    plans = {
-        r: build_plan(
-            r,
-            coords,
-            harmonic.modes,
-            masses_da,
-            settings.step_ang,
-            settings.field_au,
-            group,
-            grid_free=spec.is_hf,
-        )
-        for r in wanted
-    }
-    choice, plan = choose_route(settings.route, plans, ref)
+    report.stage("reference SCF, polarizability and gradient")
+    ref, reused_ref = stages.reference(z, coords, spec, store, with_hessian=False)
+    family = hessian_needed(settings, coords, masses_da, group, ref, workers)
+    harmonic = None
+    if family.hessian:
+        report.stage("analytic Hessian")
+        ref, reused_hessian = stages.add_hessian(z, coords, spec, store, ref)
+        reused_ref = reused_ref and reused_hessian
+        harmonic = harmonic_analysis(ref.hessian_hartree_bohr2, masses_da, coords)
+    modes = None if harmonic is None else harmonic.modes
+    choice, plan = pick_route(settings, family, coords, masses_da, group, modes, ref, workers)
     jobs, keys, labels = make_jobs(plan, z, coords, spec, ref)
     return Prepared(
         atomic_numbers=z,
@@ -155,25 +152,31 @@ def assemble(prep: Prepared, results: list[np.ndarray], settings: EngineSettings
     deriv = derivatives(prep.plan, results, prep.reference)
     normal = route_name(prep.plan) == "normal-mode"
     ref = prep.reference
+    harmonic, asymmetry = prep.harmonic, None
+    if harmonic is None:  # displacement route: the Hessian from the tasks' gradients
+        hessian, asymmetry = hessian_from_tasks(prep.plan, results)
+        harmonic = harmonic_analysis(hessian, prep.masses_da, prep.coordinates_ang)
     dmu = dipole_derivatives(prep.plan, results, ref, settings.spec.charge)
     if not normal:
-        dmu = project_dmu(dmu, prep.harmonic.modes, prep.masses_da)
+        dmu = project_dmu(dmu, harmonic.modes, prep.masses_da)
     return ModeSet(
         atomic_numbers=prep.atomic_numbers,
         coordinates_ang=prep.coordinates_ang,
-        freqs_cm1=prep.harmonic.freqs_cm1,
-        modes=prep.harmonic.modes,
+        freqs_cm1=harmonic.freqs_cm1,
+        modes=harmonic.modes,
         masses_da=prep.masses_da,
         dalpha_dx=None if normal else deriv,
         dalpha_dq=deriv if normal else None,
         polarizability_ang3=ref.alpha_ang3,
         energy_hartree=ref.energy_hartree,
         ir_intensity_km_mol=ir_intensities_km_mol(dmu),
-        provenance=_provenance(prep, settings),
+        provenance=_provenance(prep, settings, asymmetry),
     )
 
 
-def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
+def _provenance(
+    prep: Prepared, settings: EngineSettings, asymmetry: float | None = None
+) -> Provenance:
     import pyscf
 
     spec, plan, opt = settings.spec, prep.plan, prep.optimization
@@ -195,7 +198,17 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
             )
         )
     route = route_name(plan)
-    if isinstance(plan, FieldPlan):
+    hessian = "analytic Hessian"
+    if isinstance(plan, DisplacementRoutePlan):
+        hessian = (
+            f"{HESSIAN_NOTE}, step {plan.step_ang} Å (largest |H - H^T|/2 before: "
+            f"{asymmetry:.1e} hartree/bohr²)"
+        )
+        how = (
+            f"dalpha and dmu by central differences of CPHF alpha and the total dipole (PySCF "
+            f"dip_moment, frame origin) at the same {plan.n_tasks} displaced geometries"
+        )
+    elif isinstance(plan, FieldPlan):
         how = (
             f"dalpha/dx from analytic gradients in uniform fields (field route), "
             f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients; dmu/dx from their "
@@ -208,7 +221,7 @@ def _provenance(prep: Prepared, settings: EngineSettings) -> Provenance:
             "dip_moment, frame origin) at the same geometries"
         )
     notes.append(
-        f"analytic Hessian; CPHF static polarizability; {how}; "
+        f"{hessian}; CPHF static polarizability; {how}; "
         f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
     )
     notes.append(IR_NOTE)

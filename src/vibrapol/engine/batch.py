@@ -76,7 +76,7 @@ class EngineRun:
     tasks : TaskStats
         Counts and times of this molecule's tasks (in a batch: the batch's wall time).
     route : str
-        Route taken: ``cartesian``, ``normal-mode`` or ``field``.
+        Route taken: ``cartesian``, ``normal-mode``, ``field`` or ``displacement``.
     route_reason : str
         Why (``requested``, or the cost estimates of ``auto``).
     point_group : str

@@ -38,10 +38,10 @@ class EngineSettings:
     optimize : bool
         Minimise the energy first.
     step_ang : float
-        Displacement of the Cartesian and normal-mode routes, in (0, 0.1] Å.
+        Displacement of the Cartesian, normal-mode and displacement routes, in (0, 0.1] Å.
     route : str
-        ``auto``, ``cartesian``, ``normal-mode`` or ``field`` (``normal`` is accepted for
-        ``normal-mode``).
+        ``auto``, ``cartesian``, ``normal-mode``, ``field`` or ``displacement`` (``normal``
+        is accepted for ``normal-mode``).
     field_au : float
         Field strength of the field route, in (0, 0.05] au.
     symmetry : bool

@@ -209,3 +209,19 @@ def test_auto_skips_the_analytic_hessian_on_many_workers():
     assert serial.choice.route in ("cartesian", "field", "normal-mode")
     assert serial.reference.hessian_hartree_bohr2 is not None
     assert "the Hessian routes are not slower" in serial.choice.reason
+
+
+def test_displacement_route_resumes_from_its_checkpoint(tmp_path):
+    # Contract (checkpoint): a second run finds the reference stage and every task stored and
+    # computes nothing; the route's results are the same bytes.
+    from vibrapol.engine.compute import run_engine
+
+    ck = tmp_path / "w.checkpoint.sqlite"
+    opts = {"route": "displacement", "optimize": False, "checkpoint": ck, "progress": False}
+    first = run_engine(molecule("H2O"), "hf", "sto-3g", **opts)
+    again = run_engine(molecule("H2O"), "hf", "sto-3g", **opts)
+    assert first.route == again.route == "displacement"
+    assert again.reused_reference and again.tasks.n_computed == 0
+    assert again.tasks.n_reused == first.tasks.n_tasks == 9
+    assert first.seconds_hessian == 0.0  # no analytic Hessian ran
+    np.testing.assert_array_equal(again.modes.freqs_cm1, first.modes.freqs_cm1)

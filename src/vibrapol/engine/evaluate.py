@@ -235,7 +235,7 @@ def reference_calculation(
         density=np.asarray(mf.make_rdm1()),
         gradient_hartree_bohr=gradient,
         seconds_scf=t1 - t0,
-        seconds_hessian=t2 - t1,
+        seconds_hessian=t2 - t1 if with_hessian else 0.0,
         seconds_alpha=t3 - t2,
         seconds_gradient=t4 - t3,
     )

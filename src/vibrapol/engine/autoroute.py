@@ -13,11 +13,12 @@ with t_task from the reference stage's measured SCF, CPHF and gradient times
 (else choosing the displacement route would save nothing), so it is estimated from the same
 measured times:
 
-    T_hessian ≈ a · N^p · (T_scf + T_cphf + T_gradient),
+    T_hessian ≈ a · n^p · (T_scf + T_cphf + T_gradient),
 
-N the number of atoms: the analytic Hessian solves 3N coupled-perturbed equations where the
-polarizability solves 3, and its derivative integrals grow with N as well.  The factors come
-from ``bench/hessian_cost.py`` (see :data:`HESSIAN_RATIO`).  When the Hessian is already at
+n the number of basis functions (the analytic Hessian solves 3N coupled-perturbed equations
+where the polarizability solves 3, and its second-derivative integrals weigh more with larger
+and heavier atoms: the number of atoms alone missed CCl4 by 2.4×).  The factors come from
+``bench/hessian_cost.py`` (see :data:`HESSIAN_RATIO`).  When the Hessian is already at
 hand (from a checkpoint) its cost is taken as zero.  Ties go to the Hessian routes.
 """
 
@@ -43,19 +44,24 @@ if TYPE_CHECKING:
     from vibrapol.engine.settings import EngineSettings
     from vibrapol.symmetry import PointGroup
 
-#: (a, p) of T_hessian / (T_scf + T_cphf + T_gradient) ≈ a · N^p, for HF and for DFT.
-#: Measured with ``bench/hessian_cost.py`` (PySCF 2.14, 6-31G*, 2 threads on the project's
-#: shared 2-core machine, 2026-12-05; ASE geometries of H2O, CH3OH, CH3CH2OH, C6H6): see
-#: docs/engine-routes.md for the table.  The fit goes through the larger ratios, so the
-#: Hessian is rather over- than underestimated.
-HESSIAN_RATIO = {"hf": (0.25, 1.6), "dft": (0.25, 1.6)}
+#: (a, p) of T_hessian / (T_scf + T_cphf + T_gradient) ≈ a · n^p, n basis functions, for HF
+#: and for DFT: least-squares fits in log–log to our own measurements with
+#: ``bench/hessian_cost.py`` (PySCF 2.14, 6-31G*, 2 threads on the project's shared, heavily
+#: loaded 2-core machine, 2026-12-05; ASE geometries): HF ratios 1.2 (H2O, 18 functions),
+#: 5.0 (CH3OH, 36), 8.8 (CH3CH2OH, 54), 16.8 (C6H6, 96), 10.1 (CCl4, 86), fit within
+#: 0.79–1.36 of each; B3LYP 3.0 (H2O), 2.8 (CH3OH), 4.3 (CH3CH2OH), fit within 0.89–1.21.
+#: Table in docs/engine-routes.md.
+HESSIAN_RATIO = {"hf": (0.0231, 1.43), "dft": (1.24, 0.28)}
 
 
-def estimated_hessian_seconds(ref: ReferenceResult, n_atoms: int, is_hf: bool) -> float:
-    """Estimated wall time of the analytic Hessian from the reference stage's measured times."""
+def estimated_hessian_seconds(ref: ReferenceResult, is_hf: bool) -> float:
+    """Estimated wall time of the analytic Hessian from the reference stage's measured times.
+
+    The number of basis functions is that of the reference density.
+    """
     a, p = HESSIAN_RATIO["hf" if is_hf else "dft"]
     point = ref.seconds_scf + ref.seconds_alpha + ref.seconds_gradient
-    return a * float(n_atoms) ** p * point
+    return a * float(np.shape(ref.density)[0]) ** p * point
 
 
 def normal_mode_tasks(coordinates_ang: np.ndarray) -> int:
@@ -89,7 +95,6 @@ def choose_family(
     plans: dict[str, Plan],
     n_normal_tasks: int,
     ref: ReferenceResult,
-    n_atoms: int,
     is_hf: bool,
     workers: int,
 ) -> FamilyChoice:
@@ -100,7 +105,7 @@ def choose_family(
     """
     w = max(int(workers), 1)
     have = ref.hessian_hartree_bohr2 is not None
-    t_hess = 0.0 if have else estimated_hessian_seconds(ref, n_atoms, is_hf)
+    t_hess = 0.0 if have else estimated_hessian_seconds(ref, is_hf)
     counts = {r: plans[r].n_tasks for r in ("cartesian", "field")}
     counts["normal-mode"] = n_normal_tasks
     walls = {r: t_hess + parallel_seconds(n, w, task_seconds(r, ref)) for r, n in counts.items()}
@@ -113,8 +118,8 @@ def choose_family(
     else:
         a, p = HESSIAN_RATIO["hf" if is_hf else "dft"]
         hess_text = (
-            f"analytic Hessian estimated {t_hess:.1f} s = {a:g} × N^{p:g} × (SCF + CPHF + "
-            f"gradient), N = {n_atoms}"
+            f"analytic Hessian estimated {t_hess:.1f} s = {a:g} × n^{p:g} × (SCF + CPHF + "
+            f"gradient), n = {np.shape(ref.density)[0]} basis functions"
         )
     reason = (
         f"auto on {w} worker(s): wall ≈ T_hessian + ceil(tasks/W)·t_task for the Hessian "
@@ -152,9 +157,8 @@ def hessian_needed(
         r: _plan(r, settings, coordinates_ang, masses_da, group, None)
         for r in ("cartesian", "field", "displacement")
     }
-    n_atoms = len(coordinates_ang)
     n_normal = normal_mode_tasks(coordinates_ang)
-    return choose_family(plans, n_normal, ref, n_atoms, settings.spec.is_hf, workers)
+    return choose_family(plans, n_normal, ref, settings.spec.is_hf, workers)
 
 
 def pick_route(

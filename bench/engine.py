@@ -44,6 +44,8 @@ ROUTE_VARIANTS = {
     "normal-mode": ("normal-mode", True),
     "field": ("field", True),
     "field-c1": ("field", False),
+    "displacement": ("displacement", True),
+    "displacement-c1": ("displacement", False),
     "auto": ("auto", True),
 }
 

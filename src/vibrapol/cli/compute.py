@@ -115,11 +115,13 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--route",
-        choices=("auto", "cartesian", "normal", "field"),
+        choices=("auto", "cartesian", "normal", "field", "displacement"),
         default="auto",
         help="how to get the polarizability derivatives: displaced Cartesians, displaced normal "
-        "modes, analytic gradients in electric fields, or auto: the cheapest by a cost model "
-        "measured on the molecule (default: auto)",
+        "modes, analytic gradients in electric fields (these three after an analytic Hessian), "
+        "displacement: gradient, dipole and polarizability at displaced Cartesians, the Hessian "
+        "from their gradients (no analytic Hessian; scales with the workers), or auto: the "
+        "fastest on the run's workers by a cost model measured on the molecule (default: auto)",
     )
     parser.add_argument(
         "--field-au",

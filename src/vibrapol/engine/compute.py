@@ -134,13 +134,16 @@ def compute_modes(
         recorded in the provenance.
     step_ang : float
         Central-difference step h in Å.
-    route : {"cartesian", "normal-mode", "field", "auto"}
+    route : {"cartesian", "normal-mode", "field", "displacement", "auto"}
         ``cartesian``: α at displaced Cartesian coordinates (6N tasks, fewer with symmetry;
         gives ∂α/∂x); ``normal-mode`` (or ``normal``): α along each normal mode (2·n_modes
         tasks; gives ∂α/∂Q only); ``field``: analytic gradients in uniform fields (12 tasks
-        or fewer with symmetry, for any molecule size; gives ∂α/∂x); ``auto``: the route with
-        the least estimated time (:mod:`vibrapol.engine.routes`).  The route taken, its task
-        count and the reason are recorded in the provenance.
+        or fewer with symmetry, for any molecule size; gives ∂α/∂x); ``displacement``:
+        gradient, dipole and α at the Cartesian displaced geometries, the Hessian from the
+        gradients instead of the analytic Hessian (:mod:`vibrapol.engine.disproute`);
+        ``auto``: the route with the least estimated time on the run's workers
+        (:mod:`vibrapol.engine.autoroute`, :mod:`vibrapol.engine.routes`).  The route taken,
+        its task count and the reason are recorded in the provenance.
     field_au : float
         Field strength of the field route, atomic units.
     symmetry : bool

@@ -125,7 +125,8 @@ class ReferenceResult:
     ----------
     energy_hartree : float
     hessian_hartree_bohr2 : ndarray (3N, 3N) or None
-        None until the Hessian stage has run (:mod:`vibrapol.engine.stages`).
+        None until the Hessian stage has run (and on the displacement route, which builds the
+        Hessian from its tasks instead).
     alpha_ang3 : ndarray (3, 3)
     density : ndarray (nao, nao)
         Converged AO density matrix, used as the start of every displaced SCF.
@@ -208,9 +209,17 @@ def evaluate_polarizability_dipole(job: PolarizabilityJob) -> np.ndarray:
 
 
 def reference_calculation(
-    atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    with_hessian: bool = True,
 ) -> ReferenceResult:
-    """SCF, analytic Hessian and CPHF α at the reference geometry (all threads of the process)."""
+    """SCF, analytic Hessian and CPHF α at the reference geometry (all threads of the process).
+
+    With ``with_hessian`` False the Hessian is skipped (``hessian_hartree_bohr2`` is None):
+    the displacement route builds it from its tasks, and ``auto`` decides whether it is needed
+    from the other timings (:func:`reference_hessian` computes it afterwards).
+    """
     from time import perf_counter
 
     mol = build_molecule(atomic_numbers, coordinates_ang, spec)
@@ -219,7 +228,7 @@ def reference_calculation(
 
     mf = tighten_scf(run_scf(mol, spec), spec)
     t1 = perf_counter()
-    hessian = analytic_hessian(mf)
+    hessian = analytic_hessian(mf) if with_hessian else None
     t2 = perf_counter()
     alpha_bohr3, density_response = cphf_polarizability_response(mf)
     alpha = alpha_bohr3 * BOHR3_TO_ANG3
@@ -233,11 +242,29 @@ def reference_calculation(
         density=np.asarray(mf.make_rdm1()),
         gradient_hartree_bohr=gradient,
         seconds_scf=t1 - t0,
-        seconds_hessian=t2 - t1,
+        seconds_hessian=t2 - t1 if with_hessian else 0.0,
         seconds_alpha=t3 - t2,
         seconds_gradient=t4 - t3,
         density_response=density_response,
     )
+
+
+def reference_hessian(
+    atomic_numbers: np.ndarray,
+    coordinates_ang: np.ndarray,
+    spec: MethodSpec,
+    density: np.ndarray | None = None,
+) -> np.ndarray:
+    """Analytic Hessian (3N, 3N) in hartree/bohr² at the reference geometry, on its own.
+
+    The SCF is converged again (as tightly as in :func:`reference_calculation`) from the
+    reference ``density``, which takes a cycle or two.
+    """
+    from vibrapol.engine.fieldgrad import tighten_scf
+
+    mol = build_molecule(atomic_numbers, coordinates_ang, spec)
+    mf = tighten_scf(run_scf(mol, spec, dm0=density), spec)
+    return analytic_hessian(mf)
 
 
 def peak_memory_mb() -> float:

@@ -162,7 +162,7 @@ class Flow:
             self._spin(k)
             m.add_hessian(old)
             check_open_shell_symmetry(m, self.settings)
-            plan_route(m, self.settings)
+            plan_route(m, self.settings, self.runner.backend.workers)
             self._tasks(k)
             return
         self._stage(k, stages.ScfJob(m.atomic_numbers, m.coordinates_ang, spec), self._scf_done)
@@ -171,7 +171,7 @@ class Flow:
         m = self.molecules[k]
         m.reference = scf.reference
         self._spin(k)
-        planned = plan_route(m, self.settings)
+        planned = plan_route(m, self.settings, self.runner.backend.workers)
         if m.needs_hessian:  # sent first: on a busy pool the longest stage starts first
             job = stages.HessianJob.after(
                 scf, m.atomic_numbers, m.coordinates_ang, self.settings.spec
@@ -186,7 +186,7 @@ class Flow:
         m.add_hessian(stages.with_hessian(m.reference, hessian, seconds))
         check_open_shell_symmetry(m, self.settings)
         if m.plan is None:
-            plan_route(m, self.settings)
+            plan_route(m, self.settings, self.runner.backend.workers)
             self._tasks(k)
         else:
             self._assemble_when_ready(k)

@@ -20,8 +20,10 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from vibrapol.engine.autoroute import FamilyChoice, hessian_needed, pick_route
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
+from vibrapol.engine.disproute import HESSIAN_NOTE, DisplacementRoutePlan
 from vibrapol.engine.evaluate import ReferenceResult
 from vibrapol.engine.fieldplan import FieldPlan
 from vibrapol.engine.laser import LaserReference
@@ -31,11 +33,10 @@ from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
     Plan,
     RouteChoice,
-    build_plan,
-    choose_route,
     derivatives,
     dipole_derivatives,
     grid_operations,
+    hessian_from_tasks,
     make_jobs,
     route_name,
 )
@@ -47,7 +48,6 @@ from vibrapol.engine.scf import (
     transition_metal_note,
 )
 from vibrapol.engine.settings import EngineSettings
-from vibrapol.engine.solvent import allowed_routes
 from vibrapol.modeset import DEFAULT_MASSES_NOTE, ModeSet, Provenance
 from vibrapol.units import DEBYE2_PER_AMU_ANG2_TO_KM_MOL
 from vibrapol.vibrations import SIGN_CONVENTION_NOTE, HarmonicModes, harmonic_analysis
@@ -70,8 +70,8 @@ SAME_GEOMETRY_ANG = 1e-10
 #: Requested routes whose task list needs no normal modes: chosen after the reference SCF.
 ROUTES_WITHOUT_MODES = frozenset({"cartesian", "field"})
 
-#: Routes whose own tasks give the Hessian: their molecules skip the Hessian stage (none yet).
-HESSIAN_FREE_ROUTES: frozenset[str] = frozenset()
+#: Routes whose own tasks give the Hessian: their molecules skip the Hessian stage.
+HESSIAN_FREE_ROUTES: frozenset[str] = frozenset({"displacement"})
 
 
 @dataclass(eq=False)
@@ -125,6 +125,7 @@ class Molecule:
     labels: tuple[str, ...] = ()
     spin_note: str | None = None
     laser: LaserReference | None = None
+    family: FamilyChoice | None = None
 
     def add_hessian(self, reference: ReferenceResult) -> None:
         """Take the completed reference and do the harmonic analysis."""
@@ -189,38 +190,27 @@ def check_open_shell_symmetry(m: Molecule, settings: EngineSettings) -> None:
     )
 
 
-def plan_route(m: Molecule, settings: EngineSettings) -> bool:
+def plan_route(m: Molecule, settings: EngineSettings, workers: int = 1) -> bool:
     """Choose ``m``'s route and list its tasks if that can be done now; True when done.
 
-    Before the Hessian (``m.harmonic`` None) only a requested route of
-    :data:`ROUTES_WITHOUT_MODES` can be planned; after it, any route.
+    Right after the reference SCF, ``auto`` first weighs the analytic Hessian against the
+    displacement route on ``workers`` workers (:func:`~vibrapol.engine.autoroute.hessian_needed`,
+    kept in ``m.family``); the displacement route is planned at once (it needs no Hessian).
+    Of the Hessian routes, a requested one of :data:`ROUTES_WITHOUT_MODES` is planned before
+    the Hessian (its tasks run beside it); ``auto`` and the normal-mode route wait for it.
     """
     assert m.reference is not None
-    wanted: tuple[str, ...] = (
-        ("cartesian", "normal-mode", "field") if settings.route == "auto" else (settings.route,)
-    )
-    wanted = allowed_routes(wanted, settings.spec.solvent)  # no field route in a solvent
-    if m.harmonic is None and not set(wanted) <= ROUTES_WITHOUT_MODES:
-        return False
-    # Before the Hessian there are no modes; the routes planned then do not use them.
-    modes = m.harmonic.modes if m.harmonic is not None else np.zeros((0, m.masses_da.size * 3))
-    if settings.dynamic:  # the field route gives the static α only
-        wanted = tuple(r for r in wanted if r != "field")
-    plans = {
-        r: build_plan(
-            r,
-            m.coordinates_ang,
-            modes,
-            m.masses_da,
-            settings.step_ang,
-            settings.field_au,
-            m.group if settings.symmetry else None,
-            # PCM surfaces are Lebedev spheres fixed to the axes, like the DFT grid
-            grid_free=settings.spec.is_hf and settings.spec.solvent is None,
+    group = m.group if settings.symmetry else None
+    if m.family is None:
+        m.family = hessian_needed(
+            settings, m.coordinates_ang, m.masses_da, group, m.reference, workers
         )
-        for r in wanted
-    }
-    m.choice, m.plan = choose_route(settings.route, plans, m.reference)
+    if m.family.hessian and m.harmonic is None and settings.route not in ROUTES_WITHOUT_MODES:
+        return False
+    modes = None if m.harmonic is None else m.harmonic.modes
+    m.choice, m.plan = pick_route(
+        settings, m.family, m.coordinates_ang, m.masses_da, group, modes, m.reference, workers
+    )
     m.jobs, m.keys, m.labels = make_jobs(
         m.plan,
         m.atomic_numbers,
@@ -234,18 +224,22 @@ def plan_route(m: Molecule, settings: EngineSettings) -> bool:
 
 def assemble(prep: Molecule, results: list[np.ndarray], settings: EngineSettings) -> ModeSet:
     """The ModeSet of a molecule whose stages and tasks have all finished."""
-    assert prep.plan is not None and prep.reference is not None and prep.harmonic is not None
+    assert prep.plan is not None and prep.reference is not None
     deriv = derivatives(prep.plan, results, prep.reference)
     normal = route_name(prep.plan) == "normal-mode"
     ref = prep.reference
+    harmonic, asymmetry = prep.harmonic, None
+    if harmonic is None:  # displacement route: the Hessian from the tasks' gradients
+        hessian, asymmetry = hessian_from_tasks(prep.plan, results)
+        harmonic = harmonic_analysis(hessian, prep.masses_da, prep.coordinates_ang)
     dmu = dipole_derivatives(prep.plan, results, ref, settings.spec.charge)
     if not normal:
-        dmu = project_dmu(dmu, prep.harmonic.modes, prep.masses_da)
+        dmu = project_dmu(dmu, harmonic.modes, prep.masses_da)
     return ModeSet(
         atomic_numbers=prep.atomic_numbers,
         coordinates_ang=prep.coordinates_ang,
-        freqs_cm1=prep.harmonic.freqs_cm1,
-        modes=prep.harmonic.modes,
+        freqs_cm1=harmonic.freqs_cm1,
+        modes=harmonic.modes,
         masses_da=prep.masses_da,
         dalpha_dx=None if normal else deriv,
         dalpha_dq=deriv if normal else None,
@@ -254,11 +248,13 @@ def assemble(prep: Molecule, results: list[np.ndarray], settings: EngineSettings
         else prep.laser.alpha_ang3,
         energy_hartree=ref.energy_hartree,
         ir_intensity_km_mol=ir_intensities_km_mol(dmu),
-        provenance=_provenance(prep, settings),
+        provenance=_provenance(prep, settings, asymmetry),
     )
 
 
-def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
+def _provenance(
+    prep: Molecule, settings: EngineSettings, asymmetry: float | None = None
+) -> Provenance:
     import pyscf
 
     assert prep.plan is not None and prep.choice is not None
@@ -279,7 +275,17 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
             )
         )
     route = route_name(plan)
-    if isinstance(plan, FieldPlan):
+    hessian = "analytic Hessian"
+    if isinstance(plan, DisplacementRoutePlan):
+        hessian = (
+            f"{HESSIAN_NOTE}, step {plan.step_ang} Å (largest |H - H^T|/2 before: "
+            f"{asymmetry:.1e} hartree/bohr²)"
+        )
+        how = (
+            f"dalpha and dmu by central differences of CPHF alpha and the total dipole (PySCF "
+            f"dip_moment, frame origin) at the same {plan.n_tasks} displaced geometries"
+        )
+    elif isinstance(plan, FieldPlan):
         how = (
             f"dalpha/dx from analytic gradients in uniform fields (field route), "
             f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients; dmu/dx from their "
@@ -295,7 +301,7 @@ def _provenance(prep: Molecule, settings: EngineSettings) -> Provenance:
     if prep.laser is not None and prep.laser.dynamic:
         alpha = f"dynamic polarizability at {prep.laser.laser_nm:g} nm (linear response)"
     notes.append(
-        f"analytic Hessian; {alpha}; {how}; "
+        f"{hessian}; {alpha}; {how}; "
         f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
     )
     notes.append(IR_NOTE)

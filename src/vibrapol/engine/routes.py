@@ -1,4 +1,4 @@
-"""The three ways to ∂α, their task lists, and the automatic choice by a measured cost model.
+"""The four ways to ∂α, their task lists, and the automatic choice by a measured cost model.
 
 * ``cartesian``: α at ±h along Cartesian displacements (symmetry-reduced when the molecule has
   symmetry, :mod:`vibrapol.engine.symdisplace`); one SCF + one CPHF per task.
@@ -7,14 +7,20 @@
 * ``field``: analytic gradients in a few uniform fields (:mod:`vibrapol.engine.fieldplan`);
   one tight SCF + one gradient per task; gives the full ∂α/∂x with a number of tasks that does
   not grow with the molecule.
+* ``displacement``: SCF, analytic gradient, dipole and CPHF α at the Cartesian displaced
+  geometries (:mod:`vibrapol.engine.disproute`); the Hessian comes from the gradients, so the
+  route needs no analytic Hessian.
 
-``auto`` estimates the serial cost of each route as (number of tasks) × (cost of one task),
-with the costs of an SCF, a CPHF α and a gradient measured at the reference geometry of the
-molecule itself (times the factors below), and takes the cheapest.
+The first three need the analytic Hessian (the "Hessian routes").  Among them ``auto``
+estimates the cost of each as ceil(tasks / workers) × (cost of one task), with the costs of an
+SCF, a CPHF α and a gradient measured at the reference geometry of the molecule itself (times
+the factors below), and takes the cheapest; whether to compute the Hessian at all (against the
+displacement route) is decided before, by :func:`vibrapol.engine.autoroute.choose_family`.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -28,6 +34,12 @@ from vibrapol.engine.displacements import (
     central_differences,
     normal_mode_plan,
 )
+from vibrapol.engine.disproute import (
+    DisplacementRoutePlan,
+    GradientDipoleAlphaJob,
+    hessian_from_gradients,
+    split_results,
+)
 from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityDipoleJob, ReferenceResult
 from vibrapol.engine.fieldgrad import (
     FIELD_SCF_CONV_TOL,
@@ -40,7 +52,10 @@ from vibrapol.engine.symdisplace import SymmetricPlan, rebuild_dalpha_dx, symmet
 from vibrapol.symmetry import PointGroup
 
 #: Route names; ``normal`` is accepted for ``normal-mode``.
-ROUTES = ("auto", "cartesian", "normal-mode", "field")
+ROUTES = ("auto", "cartesian", "normal-mode", "field", "displacement")
+
+#: The routes that need the analytic Hessian at the reference geometry.
+HESSIAN_ROUTES = ("cartesian", "normal-mode", "field")
 
 #: A field task (tight SCF from the reference density + gradient, one thread) costs this many
 #: times the reference SCF + gradient (all threads).  Measured here, HF/6-31G* on 2 shared
@@ -51,18 +66,24 @@ FIELD_TASK_FACTOR = 1.5
 #: times the reference SCF + CPHF.  Measured as above: CCl4 0.65–1.1, benzene 0.73–1.14.
 DISPLACED_TASK_FACTOR = 1.0
 
+#: A displacement-route task (SCF from the reference density + gradient + dipole + CPHF, one
+#: thread) costs this many times the reference SCF + CPHF + gradient (all threads).  Measured
+#: here, HF/6-31G*, 2 workers on 2 loaded cores (2026-12-05): CH3OH 2.3, CH3CH2OH 1.6 (the
+#: Cartesian route's tasks 0.8 and 1.1 in the same runs, the field route's 1.8 and 1.8).
+DISPLACEMENT_TASK_FACTOR = 2.0
+
 
 def normalize_route(route: str) -> str:
     """The canonical route name; raises :class:`EngineInputError` for an unknown one."""
     name = "normal-mode" if route == "normal" else route
     if name not in ROUTES:
         raise EngineInputError(
-            f"unknown route {route!r}; choose one of auto, cartesian, normal, field"
+            f"unknown route {route!r}; choose one of auto, cartesian, normal, field, displacement"
         )
     return name
 
 
-Plan = DisplacementPlan | SymmetricPlan | FieldPlan
+Plan = DisplacementPlan | SymmetricPlan | FieldPlan | DisplacementRoutePlan
 
 
 def build_plan(
@@ -77,11 +98,20 @@ def build_plan(
 ) -> Plan:
     """The task plan of a concrete route (not ``auto``); ``group`` None means no symmetry.
 
+    ``modes`` (the Hessian's normal modes) is used by the normal-mode route only; the others
+    accept None.
+
     ``grid_free`` is False for DFT: the symmetry-using routes then use only the operations
     that map the integration grid onto itself (:func:`grid_operations`).
     """
     if route == "normal-mode":
         return normal_mode_plan(coordinates_ang, modes, masses_da, step_ang)
+    if route == "displacement":
+        geometries = build_plan(
+            "cartesian", coordinates_ang, modes, masses_da, step_ang, field_au, group, grid_free
+        )
+        assert isinstance(geometries, DisplacementPlan | SymmetricPlan)
+        return DisplacementRoutePlan(geometries)
     if route not in ("cartesian", "field"):
         raise EngineInputError(f"no plan for route {route!r}")
     if group is None or group.order == 1:
@@ -135,6 +165,10 @@ def make_jobs(
     """
     z = atomic_numbers
     jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob] | list[Any]
+    if isinstance(plan, DisplacementRoutePlan):
+        jobs = [GradientDipoleAlphaJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
+        keys = [task_key("gradient-dipole-alpha", z, x, spec) for x in plan.coordinates_ang]
+        return jobs, keys, plan.labels
     if isinstance(plan, FieldPlan):
         fields = plan.task_fields_au
         jobs = [
@@ -179,6 +213,8 @@ def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> 
     if isinstance(plan, FieldPlan):
         gradients = np.array([ref.gradient_hartree_bohr, *results])
         return dalpha_dx_from_gradients(plan, gradients)
+    if isinstance(plan, DisplacementRoutePlan):
+        return derivatives(plan.geometries, [r[:4] for r in results], ref)
     stacked = np.array(results)[:, :3]  # α over the dipole (PolarizabilityDipoleJob)
     if isinstance(plan, SymmetricPlan):
         return rebuild_dalpha_dx(plan, stacked)
@@ -195,14 +231,26 @@ def dipole_derivatives(
     """
     if isinstance(plan, FieldPlan):
         return dmu_dx_from_gradients(plan, np.array([ref.gradient_hartree_bohr, *results]))
+    if isinstance(plan, DisplacementRoutePlan):
+        return dipole_derivatives(plan.geometries, [r[:4] for r in results], ref, charge)
     dipoles = np.array(results)[:, 3]
     if isinstance(plan, SymmetricPlan):
         return rebuild_dmu_dx(plan, dipoles, charge)
     return dmu_from_displacements(plan, dipoles)
 
 
+def hessian_from_tasks(plan: Plan, results: list[np.ndarray]) -> tuple[np.ndarray, float]:
+    """The displacement route's Hessian (3N, 3N) in hartree/bohr² and its largest asymmetry.
+
+    See :func:`vibrapol.engine.disproute.hessian_from_gradients`.
+    """
+    if not isinstance(plan, DisplacementRoutePlan):
+        raise EngineInputError(f"the {route_name(plan)} route does not build a Hessian")
+    return hessian_from_gradients(plan, split_results(results)[2])
+
+
 def route_name(plan: Plan) -> str:
-    """``cartesian``, ``normal-mode`` or ``field``."""
+    """``cartesian``, ``normal-mode``, ``field`` or ``displacement``."""
     return "field" if isinstance(plan, FieldPlan) else plan.route
 
 
@@ -217,7 +265,9 @@ class RouteChoice:
     reason : str
         One sentence for the provenance: requested, or the cost estimate of every route.
     estimates_s : dict
-        Estimated serial seconds of each route (empty when the route was requested).
+        Estimated seconds of each route on the run's workers (empty when the route was
+        requested); for ``auto`` with the displacement route in the running, the Hessian
+        routes' estimates include the estimated analytic Hessian.
     """
 
     route: str
@@ -230,28 +280,41 @@ def task_seconds(route: str, ref: ReferenceResult) -> float:
     """Estimated serial seconds of one task of ``route`` from the reference timings."""
     if route == "field":
         return FIELD_TASK_FACTOR * (ref.seconds_scf + ref.seconds_gradient)
+    if route == "displacement":
+        return DISPLACEMENT_TASK_FACTOR * (
+            ref.seconds_scf + ref.seconds_alpha + ref.seconds_gradient
+        )
     return DISPLACED_TASK_FACTOR * (ref.seconds_scf + ref.seconds_alpha)
 
 
+def parallel_seconds(n_tasks: int, workers: int, seconds_task: float) -> float:
+    """Wall time of ``n_tasks`` equal tasks on ``workers`` workers: ceil(n/W) × t."""
+    return math.ceil(n_tasks / max(int(workers), 1)) * seconds_task
+
+
 def choose_route(
-    requested: str, plans: dict[str, Plan], ref: ReferenceResult
+    requested: str, plans: dict[str, Plan], ref: ReferenceResult, workers: int = 1
 ) -> tuple[RouteChoice, Plan]:
     """The requested route, or for ``auto`` the one of ``plans`` with the least estimated time.
 
-    Ties go to the Cartesian route (it needs no field-strength choice), then to the field route
-    (it gives ∂α/∂x, the normal-mode route only ∂α/∂Q).
+    The estimate of a route is ceil(tasks / ``workers``) × (one task's estimated time).  Ties
+    go to the Cartesian route (it needs no field-strength choice), then to the field route (it
+    gives ∂α/∂x, the normal-mode route only ∂α/∂Q).
     """
     if requested != "auto":
         plan = plans[requested]
         return RouteChoice(requested, plan.n_tasks, "requested", {}), plan
-    estimates = {r: p.n_tasks * task_seconds(r, ref) for r, p in plans.items()}
-    order = ("cartesian", "field", "normal-mode")
+    estimates = {
+        r: parallel_seconds(p.n_tasks, workers, task_seconds(r, ref)) for r, p in plans.items()
+    }
+    order = tuple(r for r in ("cartesian", "field", "normal-mode") if r in plans)
     best = min(estimates, key=lambda r: (round(estimates[r], 6), order.index(r)))
     costs = ", ".join(
         f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order if r in plans
     )
+    when = "serial time" if workers <= 1 else f"time on {workers} workers"
     reason = (
-        f"auto: least estimated serial time ({costs}; from SCF {ref.seconds_scf:.2f} s, "
+        f"auto: least estimated {when} ({costs}; from SCF {ref.seconds_scf:.2f} s, "
         f"CPHF {ref.seconds_alpha:.2f} s, gradient {ref.seconds_gradient:.2f} s measured at "
         "the reference geometry)"
     )

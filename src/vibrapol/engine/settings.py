@@ -39,10 +39,10 @@ class EngineSettings:
     optimize : bool
         Minimise the energy first.
     step_ang : float
-        Displacement of the Cartesian and normal-mode routes, in (0, 0.1] Å.
+        Displacement of the Cartesian, normal-mode and displacement routes, in (0, 0.1] Å.
     route : str
-        ``auto``, ``cartesian``, ``normal-mode`` or ``field`` (``normal`` is accepted for
-        ``normal-mode``).
+        ``auto``, ``cartesian``, ``normal-mode``, ``field`` or ``displacement`` (``normal``
+        is accepted for ``normal-mode``).
     field_au : float
         Field strength of the field route, in (0, 0.05] au.
     symmetry : bool
@@ -121,6 +121,11 @@ class EngineSettings:
         route = normalize_route(self.route)
         check_solvent_route(route, spec.solvent)
         laser_nm = check_dynamic(self.laser_nm, bool(self.dynamic), route, spec.multiplicity)
+        if route == "displacement" and (self.dynamic or spec.solvent is not None):
+            raise OptionError(
+                "the displacement route computes the static polarizability in vacuum only; "
+                "with --dynamic or --solvent use --route cartesian, normal or auto"
+            )
         if laser_nm is not None and spec.solvent is not None:
             # PySCF's time-dependent response of a PCM uses a fixed optical dielectric constant
             # (1.78), not the solvent's: the excitations and α(ω) would be silently wrong.

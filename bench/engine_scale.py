@@ -1,0 +1,296 @@
+"""Benchmark of the engine at real size: the Raman job against the frequency-only job,
+density fitting, workers, and a model of large conformer batches checked on a local cluster.
+
+Three parts (each prints a table; the last line of the run is one JSON line with every figure):
+
+``--targets``
+    For each molecule and basis (B3LYP by default): one whole ``run_engine`` (optimisation from
+    the given start, reference SCF, Hessian, derivative tasks; route ``auto``) and, in the same
+    process right after it, the frequency-only job at the same start (optimisation + SCF +
+    analytic Hessian, nothing else).  The ratio whole / frequency-only is the issue's target
+    (≤ 1.15).  With ``--density-fit`` a third run repeats the Raman job with density fitting
+    at the optimised geometry and reports its time and its error against the exact run.
+``--batch-check``
+    A batch of small molecules on a Dask ``LocalCluster`` of 2 single-thread workers: the
+    measured wall time against the wall time the list-scheduling model
+    (``bench/batch_model.py``) predicts from the stage and task times the same run measured.
+``--predict``
+    The predicted wall time of a batch of 50 conformers on 8, 32 and 128 workers, from the
+    stage and task costs measured by ``--targets`` for one molecule, for the Hessian + field
+    route and for the displacement route (both measured in that run).
+
+    PYTHONPATH=src python bench/engine_scale.py --targets --systems benzene --bases 6-31g*
+    PYTHONPATH=src python bench/engine_scale.py --batch-check
+    PYTHONPATH=src python bench/engine_scale.py --targets --predict --systems benzene
+
+Times are wall-clock seconds on this machine; on shared cores they are contended.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import platform
+import sys
+import tempfile
+from pathlib import Path
+from time import perf_counter
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from batch_model import displacement_route, hessian_route, makespan  # noqa: E402
+
+
+def _atoms(system: str):  # noqa: ANN202
+    """Starting structures: ASE's G2 geometries, our own naphthalene model, and biphenyl."""
+    from ase.build import molecule
+
+    if system == "biphenyl":
+        import numpy as np
+        from ase import Atoms
+
+        # Two ideal hexagons (C–C 1.40 Å, C–H 1.09 Å) joined by a 1.49 Å bond, rings twisted
+        # by 40°: our own drawn start (22 atoms, D2 after optimisation), not a minimum.
+        ring, hyd = [], []
+        for k in range(6):
+            a = np.pi / 3 * k
+            ring.append((1.40 * np.cos(a), 1.40 * np.sin(a), 0.0))
+            hyd.append((2.49 * np.cos(a), 2.49 * np.sin(a), 0.0))
+        ring, hyd = np.array(ring), np.array(hyd)
+        shift = np.array([1.40 + 1.49 / 2, 0.0, 0.0])
+        left = np.vstack([ring, hyd[1:]]) - shift  # the C atom at +x bonds to the other ring
+        t = np.radians(40.0)
+        rot = np.array([[1, 0, 0], [0, np.cos(t), -np.sin(t)], [0, np.sin(t), np.cos(t)]])
+        right = (-(np.vstack([ring, hyd[1:]]) - shift)) @ rot.T
+        pos = np.vstack([left[:6], right[:6], left[6:], right[6:]])
+        return Atoms("C12H10", positions=pos)
+    if system == "naphthalene":
+        sys.path.insert(0, str(Path(__file__).resolve().parent))
+        from engine import _atoms as model
+
+        return model("naphthalene")
+    return molecule({"benzene": "C6H6", "water": "H2O", "ethanol": "CH3CH2OH"}.get(system, system))
+
+
+def _frequency_only(atoms, method: str, basis: str, **options) -> dict:  # noqa: ANN001
+    """Optimisation + reference SCF + analytic Hessian, timed like the whole job's stages."""
+    from vibrapol.engine.compute import engine_settings
+    from vibrapol.engine.hessian import analytic_hessian
+    from vibrapol.engine.optimize import optimize_geometry
+    from vibrapol.engine.scf import build_molecule, run_scf
+
+    settings = engine_settings(method, basis, **options)
+    z = atoms.get_atomic_numbers()
+    t0 = perf_counter()
+    opt = optimize_geometry(z, atoms.get_positions(), settings.spec, optimizer=settings.optimizer)
+    t1 = perf_counter()
+    mf = run_scf(build_molecule(z, opt.coordinates_ang, settings.spec), settings.spec)
+    t2 = perf_counter()
+    analytic_hessian(mf)
+    t3 = perf_counter()
+    return {"seconds_optimize": t1 - t0, "seconds_scf": t2 - t1, "seconds_hessian": t3 - t2}
+
+
+def _accuracy(ref_modes, modes) -> dict:  # noqa: ANN001
+    import numpy as np
+
+    from vibrapol.ramantable import raman_table
+
+    t_ref, t = raman_table(ref_modes), raman_table(modes)
+    seen = t_ref.activity > 1e-3 * t_ref.activity.max()
+    return {
+        "max_dnu_cm1": float(np.abs(t.freqs_cm1 - t_ref.freqs_cm1).max()),
+        "max_rel_activity": float(np.abs(t.activity[seen] / t_ref.activity[seen] - 1).max()),
+        "max_abs_rho": float(np.abs(t.rho_linear[seen] - t_ref.rho_linear[seen]).max()),
+    }
+
+
+def targets(system: str, method: str, basis: str, workers: int, route: str, df: bool) -> dict:
+    from vibrapol.engine.compute import run_engine
+
+    atoms = _atoms(system)
+    with tempfile.TemporaryDirectory() as tmp:
+        t0 = perf_counter()
+        run = run_engine(
+            atoms, method, basis, workers=workers, route=route, progress=False,
+            checkpoint=Path(tmp) / "whole.sqlite",
+        )  # fmt: skip
+        whole = perf_counter() - t0
+    t0 = perf_counter()
+    freq = _frequency_only(atoms, method, basis)
+    freq_wall = perf_counter() - t0
+    row = {
+        "system": system,
+        "n_atoms": int(run.modes.n_atoms),
+        "method": method,
+        "basis": basis,
+        "workers": run.workers,
+        "route": run.route,
+        "route_reason": run.route_reason,
+        "point_group": run.point_group,
+        "n_tasks": run.tasks.n_tasks,
+        "seconds_whole": round(whole, 1),
+        "seconds_frequency_only": round(freq_wall, 1),
+        "ratio": round(whole / freq_wall, 3),
+        "whole_stages": {
+            "optimize": round(run.seconds_optimize, 1),
+            "scf": round(run.seconds_scf, 1),
+            "alpha": round(run.seconds_alpha, 1),
+            "gradient": round(run.seconds_gradient, 1),
+            "hessian": round(run.seconds_hessian, 1),
+            "tasks_wall": round(run.tasks.seconds_wall, 1),
+            "tasks_sum": round(run.tasks.seconds_tasks, 1),
+            "task_seconds": [round(s, 2) for s in run.tasks.task_seconds],
+        },
+        "frequency_only_stages": {k: round(v, 1) for k, v in freq.items()},
+        "optimizer_gradients": None if run.optimization is None else run.optimization.n_gradients,
+    }
+    if df:
+        geometry = (run.modes.atomic_numbers, run.modes.coordinates_ang)
+        t0 = perf_counter()
+        fitted = run_engine(
+            geometry, method, basis, workers=workers, route=run.route, optimize=False,
+            density_fit=True, progress=False,
+        )  # fmt: skip
+        t_fit = perf_counter() - t0
+        t0 = perf_counter()
+        exact = run_engine(
+            geometry, method, basis, workers=workers, route=run.route, optimize=False,
+            progress=False,
+        )  # fmt: skip
+        t_exact = perf_counter() - t0
+        row["density_fit"] = {
+            "seconds_exact": round(t_exact, 1),
+            "seconds_fitted": round(t_fit, 1),
+            "speedup": round(t_exact / t_fit, 2),
+            **_accuracy(exact.modes, fitted.modes),
+        }
+    return row
+
+
+def batch_check(workers: int = 2) -> dict:
+    """A batch on a LocalCluster: measured wall time against the model's prediction."""
+    from ase.build import molecule
+    from distributed import LocalCluster
+
+    from vibrapol.engine.compute import BatchItem, engine_settings, run_batch
+
+    names = ["H2O", "NH3", "CH4", "H2CO", "CH3OH", "HCN"]
+    settings = engine_settings("hf", "6-31g*", route="field")
+    items = [BatchItem(molecule(n), n) for n in names]
+    with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True) as cluster:
+        address = cluster.scheduler_address
+        t0 = perf_counter()
+        outcomes = run_batch(items, settings, scheduler=address, progress=False)
+        wall = perf_counter() - t0
+    molecules = []
+    for o in outcomes:
+        r = o.run
+        assert r is not None, o.error
+        ref = r.seconds_scf + r.seconds_alpha + r.seconds_gradient
+        molecules.append(
+            hessian_route(r.seconds_optimize, ref, r.seconds_hessian, r.tasks.task_seconds)
+        )
+    predicted = makespan(molecules, workers)
+    serial = sum(sum(sum(stage) for stage in m) for m in molecules)
+    return {
+        "molecules": names,
+        "method": "HF/6-31G*",
+        "route": "field",
+        "workers": workers,
+        "seconds_measured": round(wall, 2),
+        "seconds_predicted": round(predicted, 2),
+        "seconds_serial_sum": round(serial, 2),
+        "ratio_measured_to_predicted": round(wall / predicted, 3),
+    }
+
+
+def predict(row_field: dict, row_disp: dict, conformers: int = 50) -> list[dict]:
+    """Predicted batch wall time for the two routes on 8, 32 and 128 workers."""
+    out = []
+    for name, row in (("hessian+field", row_field), ("displacement", row_disp)):
+        s = row["whole_stages"]
+        ref = s["scf"] + s["alpha"] + s["gradient"]
+        if name == "displacement":
+            mol = displacement_route(s["optimize"], ref, s["task_seconds"])
+        else:
+            mol = hessian_route(s["optimize"], ref, s["hessian"], s["task_seconds"])
+        for w in (8, 32, 128):
+            out.append(
+                {
+                    "route": name,
+                    "workers": w,
+                    "conformers": conformers,
+                    "seconds_predicted": round(makespan([mol] * conformers, w), 1),
+                }
+            )
+    return out
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--targets", action="store_true")
+    parser.add_argument("--batch-check", action="store_true")
+    parser.add_argument("--predict", action="store_true")
+    parser.add_argument("--systems", default="benzene,naphthalene,biphenyl")
+    parser.add_argument("--bases", default="6-31g*,def2-svp")
+    parser.add_argument("--method", default="b3lyp")
+    parser.add_argument("--workers", default="2")
+    parser.add_argument("--density-fit", action="store_true")
+    args = parser.parse_args()
+    figures: dict = {"bench": "engine-scale"}
+    if args.targets or args.predict:
+        rows = []
+        print(
+            f"{'system':<12} {'basis':<8} {'wk':>2} {'route':<13} {'tasks':>5} {'opt':>6} "
+            f"{'scf+a+g':>7} {'hess':>6} {'tasks':>6} {'whole':>7} {'freq':>7} {'ratio':>6}"
+        )
+        routes = ["auto"] + (["field", "displacement"] if args.predict else [])
+        for system in args.systems.split(","):
+            for basis in args.bases.split(","):
+                for w in (int(x) for x in args.workers.split(",")):
+                    for route in routes:
+                        r = targets(system, args.method, basis, w, route, args.density_fit)
+                        rows.append(r)
+                        s = r["whole_stages"]
+                        print(
+                            f"{system:<12} {basis:<8} {w:>2} {r['route']:<13} {r['n_tasks']:>5} "
+                            f"{s['optimize']:>6.1f} {s['scf'] + s['alpha'] + s['gradient']:>7.1f} "
+                            f"{s['hessian']:>6.1f} {s['tasks_wall']:>6.1f} "
+                            f"{r['seconds_whole']:>7.1f} {r['seconds_frequency_only']:>7.1f} "
+                            f"{r['ratio']:>6.2f}",
+                            flush=True,
+                        )
+                        if "density_fit" in r:
+                            print(f"    density fitting: {r['density_fit']}", flush=True)
+        figures["targets"] = rows
+        if args.predict:
+            by_route = {r["route"]: r for r in rows}
+            if "field" in by_route and "displacement" in by_route:
+                figures["predict"] = predict(by_route["field"], by_route["displacement"])
+                for p in figures["predict"]:
+                    print(
+                        f"50 conformers, {p['route']:<14} {p['workers']:>4} workers: "
+                        f"{p['seconds_predicted']:>9.1f} s",
+                        flush=True,
+                    )
+    if args.batch_check:
+        check = batch_check()
+        figures["batch_check"] = check
+        print(
+            f"batch of {len(check['molecules'])} on a LocalCluster of {check['workers']}: measured "
+            f"{check['seconds_measured']} s, model {check['seconds_predicted']} s "
+            f"(serial sum {check['seconds_serial_sum']} s)",
+            flush=True,
+        )
+    figures["machine"] = {
+        "cores": os.cpu_count(),
+        "python": platform.python_version(),
+        "load_average_1min": round(os.getloadavg()[0], 2),
+    }
+    print(json.dumps(figures))
+
+
+if __name__ == "__main__":
+    main()

@@ -169,8 +169,14 @@ def solvent_model(
 
 
 def attach_pcm(mf, model: SolventModel):  # noqa: ANN001, ANN201
-    """``mf`` wrapped in PySCF's IEF-PCM with the static ε (the optical ε∞ kept beside it)."""
-    smf = mf.PCM()
+    """``mf`` wrapped in PySCF's IEF-PCM with the static ε (the optical ε∞ kept beside it).
+
+    The continuum object is :class:`vibrapol.engine.pcm_cached.CachedPCM`: PySCF's model
+    with the surface equations factorised once per geometry and the integrals kept.
+    """
+    from vibrapol.engine.pcm_cached import CachedPCM
+
+    smf = mf.PCM(CachedPCM(mf.mol))
     smf.with_solvent.method = PCM_METHOD
     smf.with_solvent.eps = model.epsilon
     smf.with_solvent.verbose = 0
@@ -180,9 +186,12 @@ def attach_pcm(mf, model: SolventModel):  # noqa: ANN001, ANN201
 
 def optical_solvent(mf):  # noqa: ANN001, ANN201
     """A copy of ``mf``'s PCM with ε∞ in place of ε, on the same surface."""
-    fast = mf.with_solvent.copy()
+    slow = mf.with_solvent
+    if hasattr(slow, "optical_copy"):  # CachedPCM: shares the surface and its integrals
+        return slow.optical_copy(slow._vibrapol_eps_optical)
+    fast = slow.copy()
     fast.reset()
-    fast.eps = mf.with_solvent._vibrapol_eps_optical
+    fast.eps = slow._vibrapol_eps_optical
     fast.build()
     return fast
 

@@ -1,0 +1,135 @@
+"""The cached continuum (CachedPCM): PySCF's numbers at a fraction of the cost.
+
+Reference: PySCF's own IEF-PCM (``pyscf.solvent.pcm.PCM`` as it ships, attached with
+``mf.PCM()``), set up as the engine sets up its model; the cached object must reproduce its
+energy, gradient, Hessian and the engine's non-equilibrium α to rounding (1e-10 relative).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from vibrapol.engine.polarizability import cphf_polarizability
+from vibrapol.engine.scf import MethodSpec, build_molecule, build_scf, converge
+from vibrapol.engine.solvent import PCM_METHOD, optical_solvent, solvent_model
+
+pytest.importorskip("pyscf")
+
+# Water bent off its symmetry (our own geometry, Å), so that no error cancels by symmetry.
+WATER_Z = np.array([8, 1, 1])
+WATER_ANG = np.array([[0.0, 0.05, 0.1173], [0.0, 0.7572, -0.4692], [0.02, -0.7372, -0.4692]])
+# The OH radical (our own geometry, Å), a doublet.
+OH_Z = np.array([8, 1])
+OH_ANG = np.array([[0.0, 0.0, 0.0], [0.0, 0.0, 0.97]])
+WATER = solvent_model("water")
+TOL = 1e-10
+
+
+def _pyscf_pcm(mol, spec: MethodSpec):  # noqa: ANN202
+    """The same model with PySCF's PCM object as it ships."""
+    gas = MethodSpec(spec.method, spec.basis, spec.charge, spec.multiplicity)
+    mf = build_scf(mol, gas).PCM()
+    mf.with_solvent.method = PCM_METHOD
+    mf.with_solvent.eps = spec.solvent.epsilon
+    mf.with_solvent.verbose = 0
+    mf.with_solvent._vibrapol_eps_optical = spec.solvent.epsilon_optical
+    return mf
+
+
+def _close(a, b) -> bool:  # noqa: ANN001
+    a, b = np.asarray(a), np.asarray(b)
+    return float(np.max(np.abs(a - b))) <= TOL * max(1.0, float(np.max(np.abs(b))))
+
+
+def test_cached_pcm_reproduces_pyscfs_energy_gradient_hessian_and_alpha():
+    import pyscf.grad  # noqa: F401
+    import pyscf.hessian  # noqa: F401
+
+    spec = MethodSpec("hf", "sto-3g", solvent=WATER)
+    mol = build_molecule(WATER_Z, WATER_ANG, spec)
+    ours = converge(build_scf(mol, spec))
+    ref = converge(_pyscf_pcm(mol, spec))
+    assert type(ours.with_solvent).__name__ == "CachedPCM"
+    assert type(ref.with_solvent).__name__ == "PCM"
+    assert _close(ours.e_tot, ref.e_tot)
+    assert _close(ours.Gradients().kernel(), ref.Gradients().kernel())
+    assert _close(ours.Hessian().kernel(), ref.Hessian().kernel())
+    alpha = cphf_polarizability(ours)
+    assert _close(alpha, cphf_polarizability(ref))
+    # Not a test that cannot fail: the continuum changes these numbers by far more.
+    gas = converge(build_scf(mol, MethodSpec("hf", "sto-3g")))
+    assert abs(gas.e_tot - ours.e_tot) > 1e-3
+    assert np.max(np.abs(cphf_polarizability(gas) - alpha)) > 1e-2
+
+
+def test_cached_pcm_without_the_integral_cache_gives_the_same_numbers(monkeypatch):
+    # Contract: above INT3C_CACHE_MB the integrals are recomputed (PySCF's code), same numbers.
+    from vibrapol.engine import pcm_cached
+
+    spec = MethodSpec("hf", "sto-3g", solvent=WATER)
+    mol = build_molecule(WATER_Z, WATER_ANG, spec)
+    kept = converge(build_scf(mol, spec))
+    monkeypatch.setattr(pcm_cached, "INT3C_CACHE_MB", 0.0)
+    recomputed = converge(build_scf(mol, spec))
+    assert recomputed.with_solvent._intermediates["vibrapol_int3c"] is None
+    assert kept.with_solvent._intermediates["vibrapol_int3c"] is not None
+    assert _close(recomputed.e_tot, kept.e_tot)
+    assert _close(cphf_polarizability(recomputed), cphf_polarizability(kept))
+
+
+def test_optical_copy_has_pyscfs_matrices_for_the_optical_constant():
+    # Reference: PySCF's PCM.build with ε∞ on the same molecule builds K and R itself.
+    from pyscf.solvent import pcm
+
+    spec = MethodSpec("hf", "sto-3g", solvent=WATER)
+    mol = build_molecule(WATER_Z, WATER_ANG, spec)
+    mf = converge(build_scf(mol, spec))
+    fast = optical_solvent(mf)
+    ref = pcm.PCM(mol)
+    ref.method, ref.eps, ref.verbose = PCM_METHOD, WATER.epsilon_optical, 0
+    ref.build()
+    for name in ("K", "R"):
+        assert _close(fast._intermediates[name], ref._intermediates[name])
+    assert fast.eps == WATER.epsilon_optical and mf.with_solvent.eps == WATER.epsilon
+
+
+def test_open_shell_cached_pcm_reproduces_pyscf():
+    import pyscf.grad  # noqa: F401
+
+    spec = MethodSpec("hf", "sto-3g", multiplicity=2, solvent=WATER)
+    mol = build_molecule(OH_Z, OH_ANG, spec)
+    ours = converge(build_scf(mol, spec))
+    ref = converge(_pyscf_pcm(mol, spec))
+    assert _close(ours.e_tot, ref.e_tot)
+    assert _close(ours.Gradients().kernel(), ref.Gradients().kernel())
+
+
+def test_surface_equations_are_factorised_once_per_geometry(monkeypatch):
+    # Contract (the reason for CachedPCM): an SCF and its α factorise K once per dielectric
+    # constant (ε for the ground state, ε∞ for the response) and never call a dense solve;
+    # PySCF's PCM calls numpy.linalg.solve twice per SCF iteration and per response product.
+    import scipy.linalg
+
+    calls = {"solve": 0, "lu_factor": 0}  # solves of a matrix of the surface's size
+    solve, lu_factor = np.linalg.solve, scipy.linalg.lu_factor
+
+    def counted_solve(a, *args, **kwargs):  # noqa: ANN001, ANN002, ANN003, ANN202
+        calls["solve"] += np.shape(a)[0] == n_surface  # DIIS and CPHF solve small systems
+        return solve(a, *args, **kwargs)
+
+    def counted_lu_factor(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
+        calls["lu_factor"] += 1
+        return lu_factor(*args, **kwargs)
+
+    spec = MethodSpec("hf", "sto-3g", solvent=WATER)
+    mf = build_scf(build_molecule(WATER_Z, WATER_ANG, spec), spec)
+    mf.with_solvent.build()
+    n_surface = mf.with_solvent.surface["grid_coords"].shape[0]
+    assert n_surface > 100
+    monkeypatch.setattr(np.linalg, "solve", counted_solve)
+    monkeypatch.setattr(scipy.linalg, "lu_factor", counted_lu_factor)
+    mf = converge(mf)
+    cphf_polarizability(mf)
+    assert mf.converged and mf.cycles > 3
+    assert calls == {"solve": 0, "lu_factor": 2}

@@ -164,3 +164,26 @@ def test_the_estimate_counts_the_solvent(z, xyz, measured_s):
     assert measured_s / 4 <= cost.seconds <= measured_s * 4
     assert cost.seconds_reference > 5 * vacuum.seconds_reference
     assert cost.seconds > vacuum.seconds
+
+
+def test_open_shell_alpha_in_a_solvent_has_the_optical_response():
+    # Contract: the unrestricted equations of a closed shell give the restricted α; in a
+    # solvent both include the fast (ε∞) response.  The restricted α in water is checked
+    # against finite fields of the non-equilibrium energy in tests/test_engine_solvent.py.
+    # Before the fix the unrestricted α left the solvent's response out (0.19 bohr³ lower).
+    from pyscf import scf
+
+    from vibrapol.engine.openshell import ucphf_polarizability
+    from vibrapol.engine.scf import SCF_CONV_TOL
+    from vibrapol.engine.solvent import attach_pcm
+
+    spec = MethodSpec("hf", "sto-3g", solvent=WATER)
+    mol = build_molecule(WATER_Z, WATER_ANG, spec)
+    restricted = converge(build_scf(mol, spec))
+    unrestricted = scf.UHF(mol)
+    unrestricted.conv_tol, unrestricted.verbose = SCF_CONV_TOL, 0
+    unrestricted = converge(attach_pcm(unrestricted, WATER))
+    assert abs(unrestricted.e_tot - restricted.e_tot) < 1e-9
+    alpha_u = ucphf_polarizability(unrestricted)
+    alpha_r = cphf_polarizability(restricted)
+    assert np.max(np.abs(alpha_u - alpha_r)) < 1e-6 * np.max(np.abs(alpha_r))

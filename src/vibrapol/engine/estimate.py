@@ -12,13 +12,20 @@ water (18 basis functions) SCF 0.11 s, analytic Hessian 0.5 s; benzene (96) SCF 
 below; B3LYP took 4–9× the HF SCF time and 1.3–3.4× the HF Hessian time on the same molecules.
 The estimate is the reference stage plus the field route's tasks (at most 12, whatever the
 size: the route ``auto`` never picks a dearer one), serial, on one such machine.
+
+In a continuum solvent (IEF-PCM) the field route is refused, so the tasks are those of the
+normal-mode route (two displaced geometries per vibration, each an SCF and a CPHF α), and
+every SCF and the Hessian cost more by the factors measured with bench/solvent_cost.py
+(HF/6-31G*, water and ethylene in water, one thread, the engine's cached PCM):
+SCF 3.6–4.0× and CPHF α 3.8–7.8× the vacuum SCF and α, analytic Hessian 7.0× (ethylene) to
+9–17× (water: the smaller the molecule, the larger the surface's share).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-from vibrapol.engine.routes import FIELD_TASK_FACTOR
+from vibrapol.engine.routes import DISPLACED_TASK_FACTOR, FIELD_TASK_FACTOR
 from vibrapol.engine.scf import MethodSpec
 
 #: Basis functions of the calibration point (water, 6-31G*, spherical d).
@@ -36,6 +43,14 @@ FIELD_TASKS = 12
 #: Open shells (UHF/UKS) cost about this many times the closed-shell run of the same atoms
 #: (bench/open_shell.py, 6-31G*: B3LYP 1.7–2.4 for CH3 and H2O+, HF 0.8–1.5, noise-dominated).
 OPEN_SHELL_FACTOR = 2.0
+#: A continuum solvent (IEF-PCM) over vacuum, HF/6-31G* (bench/solvent_cost.py, cached PCM):
+#: SCF 3.6 (ethylene) – 4.0 (water); analytic Hessian 7.0 (ethylene), 9–17 (water).
+SOLVENT_SCF_FACTOR = 4.0
+SOLVENT_HESSIAN_FACTOR = 7.0
+#: A solvated displaced-geometry task (SCF from the reference density + CPHF α with the
+#: optical response) in units of the solvated SCF (measured: α 0.4–0.6 of the SCF, plus the
+#: SCF itself).
+SOLVENT_TASK_SCFS = 1.6
 
 #: ``vibrapol compute`` prints the estimate of a structure above this (seconds: ten minutes).
 ANNOUNCE_ABOVE_S = 600.0
@@ -85,6 +100,13 @@ def estimate_cost(n_atoms: int, n_basis: int, spec: MethodSpec) -> CostEstimate:
     if spec.is_unrestricted:
         scf *= OPEN_SHELL_FACTOR
         hessian *= OPEN_SHELL_FACTOR
+    if spec.solvent is not None:
+        # No field route in a solvent: the normal-mode route's displaced geometries.
+        scf *= SOLVENT_SCF_FACTOR
+        hessian *= SOLVENT_HESSIAN_FACTOR
+        n_tasks = 2 * max(3 * int(n_atoms) - 6, 1)
+        tasks = n_tasks * DISPLACED_TASK_FACTOR * SOLVENT_TASK_SCFS * scf
+        return CostEstimate(int(n_atoms), int(n_basis), scf + hessian, tasks)
     # A field task: tight SCF from the reference density plus a gradient (about one SCF).
     tasks = FIELD_TASKS * FIELD_TASK_FACTOR * 2.0 * scf
     return CostEstimate(int(n_atoms), int(n_basis), scf + hessian, tasks)

@@ -142,7 +142,9 @@ def ucphf_polarizability(mf) -> np.ndarray:  # noqa: ANN001
         orbs.append((c[:, occ > 0], c[:, occ == 0]))
     h1 = [np.einsum("xpq,pa,qi->xai", dipole_ints, v, o) for o, v in orbs]
     sizes = [v.shape[1] * o.shape[1] for o, v in orbs]
-    response = mf.gen_response(hermi=1)
+    from vibrapol.engine.solvent import response_function
+
+    response = response_function(mf)  # with a solvent: the optical (ε∞) response
 
     def fvind(x: np.ndarray) -> np.ndarray:
         x = x.reshape(-1, sizes[0] + sizes[1])

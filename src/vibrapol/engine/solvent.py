@@ -169,8 +169,14 @@ def solvent_model(
 
 
 def attach_pcm(mf, model: SolventModel):  # noqa: ANN001, ANN201
-    """``mf`` wrapped in PySCF's IEF-PCM with the static ε (the optical ε∞ kept beside it)."""
-    smf = mf.PCM()
+    """``mf`` wrapped in PySCF's IEF-PCM with the static ε (the optical ε∞ kept beside it).
+
+    The continuum object is :class:`vibrapol.engine.pcm_cached.CachedPCM`: PySCF's model
+    with the surface equations factorised once per geometry and the integrals kept.
+    """
+    from vibrapol.engine.pcm_cached import CachedPCM
+
+    smf = mf.PCM(CachedPCM(mf.mol))
     smf.with_solvent.method = PCM_METHOD
     smf.with_solvent.eps = model.epsilon
     smf.with_solvent.verbose = 0
@@ -180,9 +186,12 @@ def attach_pcm(mf, model: SolventModel):  # noqa: ANN001, ANN201
 
 def optical_solvent(mf):  # noqa: ANN001, ANN201
     """A copy of ``mf``'s PCM with ε∞ in place of ε, on the same surface."""
-    fast = mf.with_solvent.copy()
+    slow = mf.with_solvent
+    if hasattr(slow, "optical_copy"):  # CachedPCM: shares the surface and its integrals
+        return slow.optical_copy(slow._vibrapol_eps_optical)
+    fast = slow.copy()
     fast.reset()
-    fast.eps = mf.with_solvent._vibrapol_eps_optical
+    fast.eps = slow._vibrapol_eps_optical
     fast.build()
     return fast
 
@@ -190,7 +199,8 @@ def optical_solvent(mf):  # noqa: ANN001, ANN201
 def response_function(mf):  # noqa: ANN001, ANN201
     """The response function of the polarizability's coupled-perturbed equations.
 
-    For a molecule in vacuum, ``mf.gen_response(hermi=1)``.  With a continuum (see the module
+    For a molecule in vacuum, ``mf.gen_response(hermi=1)``.  Restricted and unrestricted
+    (UHF/UKS: densities of shape (2, …)) alike.  With a continuum (see the module
     notes): the gas-phase response plus the response of the fast surface charges computed
     with ε∞; PySCF's own ``gen_response`` of a PCM object leaves the solvent out (its default
     ``equilibrium_solvation=False``) or, switched on, would use the static ε.
@@ -201,6 +211,12 @@ def response_function(mf):  # noqa: ANN001, ANN201
         raise _error("a solvated SCF without an optical dielectric constant (internal error)")
     gas = mf.undo_solvent().gen_response(hermi=1)
     fast = optical_solvent(mf)
+    if mf.istype("UHF"):  # the surface charges answer the total density, the same for α and β
+
+        def vind_u(dm1):  # noqa: ANN001, ANN202
+            return gas(dm1) + fast._B_dot_x(dm1[0] + dm1[1])
+
+        return vind_u
 
     def vind(dm1):  # noqa: ANN001, ANN202
         return gas(dm1) + fast._B_dot_x(dm1)

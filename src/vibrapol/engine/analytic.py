@@ -1,0 +1,352 @@
+"""Analytic Cartesian polarizability derivatives ∂α/∂x of a closed-shell RHF wavefunction.
+
+In a uniform field F the analytic nuclear gradient of a closed-shell SCF energy is, with the
+field-dependent density D(F) and energy-weighted density W(F) (the basis does not depend on F),
+
+    g_x(F) = Tr[D hˣ] + B_x(D, D) − Tr[W Sˣ] + Σ_c F_c Tr[D r_cˣ] + V_nnˣ − Z_A F_κ,
+
+where hˣ, Sˣ and r_cˣ are the derivatives of the core-Hamiltonian, overlap and dipole integrals
+with respect to the nuclear coordinate x = R_Aκ, and B_x(D, D′) is the symmetric bilinear form of
+the two-electron derivative integrals whose diagonal B_x(D, D) is the gradient's two-electron
+term.  Differentiating g_x twice with respect to the field, at F = 0,
+
+    ∂³E/∂x∂F_a∂F_b = Tr[Dᵃᵇ hˣ] + 2 B_x(Dᵃᵇ, D)            (core and relaxed two-electron)
+                    + 2 B_x(Dᵃ, Dᵇ)                          (response two-electron)
+                    − Tr[Wᵃᵇ Sˣ]                             (overlap)
+                    + Tr[Dᵇ r_aˣ] + Tr[Dᵃ r_bˣ]              (dipole integrals),
+
+and ∂α_ab/∂x = −∂³E/∂x∂F_a∂F_b; likewise ∂μ_a/∂x = −∂²E/∂x∂F_a.  Dᵃ, Wᵃ come from the three
+first-order coupled-perturbed HF solutions (those of the polarizability), Dᵃᵇ, Wᵃᵇ from six
+second-order ones (:func:`field_density_derivatives`).  No response to the 3N nuclear
+perturbations is solved: the cost is 9 field responses plus gradient-like contractions, nearly
+independent of the number of atoms.  The derivation, its references and the checks are in
+``docs/analytic-raman.md``.
+
+Scope: closed-shell restricted Hartree–Fock, all-electron, no solvent model.  Kohn–Sham needs
+the exchange–correlation kernel and its derivative, which are not implemented here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol.engine.fieldgrad import dipole_integrals
+from vibrapol.engine.polarizability import CPHF_MAX_CYCLE, CPHF_TOL
+from vibrapol.engine.scf import EngineInputError
+from vibrapol.units import BOHR2_TO_ANG2
+
+#: Field component pairs (a, b), a ≤ b, of the second-order responses.
+PAIRS = ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2))
+
+
+@dataclass(frozen=True)
+class FieldDensityDerivatives:
+    """Field derivatives of the AO density and energy-weighted density at F = 0.
+
+    All matrices are total (both spins) closed-shell quantities in the AO basis, symmetric.
+
+    Attributes
+    ----------
+    density : ndarray (nao, nao)
+        D = 2 C_occ C_occᵀ.
+    energy_weighted : ndarray (nao, nao)
+        W = 2 Σ_i ε_i c_i c_iᵀ.
+    d1, w1 : ndarray (3, nao, nao)
+        ∂D/∂F_a, ∂W/∂F_a.
+    d2, w2 : ndarray (3, 3, nao, nao)
+        ∂²D/∂F_a∂F_b, ∂²W/∂F_a∂F_b.
+    """
+
+    density: np.ndarray
+    energy_weighted: np.ndarray
+    d1: np.ndarray
+    w1: np.ndarray
+    d2: np.ndarray
+    w2: np.ndarray
+
+
+@dataclass(frozen=True)
+class AlphaDerivativeTerms:
+    """The named contributions to ∂³E/∂x∂F_a∂F_b, each (N, 3, 3, 3) [atom, κ, a, b], au.
+
+    Their sum is ∂³E/∂x∂F_a∂F_b (hartree bohr⁻¹ (au field)⁻²); ∂α/∂x is minus the sum.
+    """
+
+    core_hamiltonian: np.ndarray
+    two_electron_relaxed: np.ndarray
+    two_electron_response: np.ndarray
+    overlap: np.ndarray
+    dipole_integrals: np.ndarray
+
+    def total(self) -> np.ndarray:
+        """∂³E/∂x∂F_a∂F_b, shape (N, 3, 3, 3)."""
+        return (
+            self.core_hamiltonian
+            + self.two_electron_relaxed
+            + self.two_electron_response
+            + self.overlap
+            + self.dipole_integrals
+        )
+
+
+@dataclass(frozen=True)
+class AnalyticDerivatives:
+    """Result of :func:`analytic_polarizability_derivatives`.
+
+    Attributes
+    ----------
+    dalpha_dx_ang2 : ndarray (3N, 3, 3)
+        ∂α/∂x in Å² (α in Å³, x in Å), coordinates atom-major as in the other routes.
+    dmu_dx_e : ndarray (3N, 3)
+        ∂μ/∂x in units of the elementary charge (electrons and nuclei).
+    terms : AlphaDerivativeTerms
+        The contributions to ∂³E/∂x∂F∂F in atomic units.
+    alpha_bohr3 : ndarray (3, 3)
+        The polarizability from the same first-order responses, bohr³.
+    """
+
+    dalpha_dx_ang2: np.ndarray
+    dmu_dx_e: np.ndarray
+    terms: AlphaDerivativeTerms
+    alpha_bohr3: np.ndarray
+
+
+def check_supported(mf) -> None:
+    """Raise :class:`EngineInputError` unless ``mf`` is a converged closed-shell RHF object."""
+    from pyscf import dft, scf
+
+    if isinstance(mf, dft.rks.KohnShamDFT):
+        raise EngineInputError(
+            "the analytic polarizability derivatives are implemented for Hartree–Fock only; "
+            "use the field or cartesian route for DFT"
+        )
+    if not isinstance(mf, scf.hf.RHF) or isinstance(mf, scf.rohf.ROHF):
+        raise EngineInputError(
+            "the analytic polarizability derivatives need a closed-shell restricted "
+            "Hartree–Fock calculation; use the field or cartesian route"
+        )
+    if getattr(mf, "with_solvent", None) is not None or mf.mol.has_ecp() or mf.mol._pseudo:
+        raise EngineInputError(
+            "the analytic polarizability derivatives do not handle solvent models or "
+            "pseudopotentials; use the field or cartesian route"
+        )
+    if not mf.converged:
+        raise EngineInputError("the SCF is not converged; analytic derivatives need it")
+
+
+def field_density_derivatives(mf) -> FieldDensityDerivatives:
+    """First and second field derivatives of D and W by coupled-perturbed HF.
+
+    In the orthonormal MO basis of the unperturbed SCF the occupied projector P(F) obeys
+    P² = P and [f(P), P] = 0 with f = f⁰ + Σ F_c r_c + G[P].  Order by order (Pᵃ = ∂P/∂F_a,
+    Pᵃᵇ = ∂²P/∂F_a∂F_b, o occupied, v virtual):
+
+    * first order: Pᵃ_vo = Uᵃ with (ε_v − ε_o) Uᵃ + G[Pᵃ]_vo = −r_a,vo;
+    * second order: idempotency fixes Pᵃᵇ_oo = −(Uᵃᵀ Uᵇ + Uᵇᵀ Uᵃ) and
+      Pᵃᵇ_vv = Uᵃ Uᵇᵀ + Uᵇ Uᵃᵀ; the commutator gives for X = Pᵃᵇ_vo
+      (ε_v − ε_o) X + G[X]_vo = −{fᵃ_vv Uᵇ − Uᵇ fᵃ_oo + fᵇ_vv Uᵃ − Uᵃ fᵇ_oo + G[Pᵃᵇ_oo+vv]_vo},
+      fᵃ = r_a + G[Pᵃ].
+
+    Then D = 2 C P Cᵀ and W = 2 C (P f P) Cᵀ (the Lagrangian of the orbital orthonormality,
+    field included) are differentiated as products.
+
+    References
+    ----------
+    J. Gerratt and I. M. Mills, J. Chem. Phys. 49, 1719 (1968) (coupled-perturbed HF);
+    R. McWeeny, Rev. Mod. Phys. 32, 335 (1960) (density-matrix formulation).  The second-order
+    equations are derived in ``docs/analytic-raman.md``.
+    """
+    from pyscf.scf import cphf
+
+    check_supported(mf)
+    c = mf.mo_coeff
+    occ = mf.mo_occ > 0
+    vir = ~occ
+    eps = mf.mo_energy
+    nocc, nvir = int(occ.sum()), int(vir.sum())
+    nmo = c.shape[1]
+    co, cv = c[:, occ], c[:, vir]
+    response = mf.gen_response(hermi=1)  # AO total density → J − K/2
+
+    def g_mo(p_mo: np.ndarray) -> np.ndarray:
+        """G[P] in the MO basis for symmetric MO matrices P (…, nmo, nmo)."""
+        p_mo = np.asarray(p_mo).reshape(-1, nmo, nmo)
+        dm = 2.0 * np.einsum("pi,xij,qj->xpq", c, p_mo, c)
+        return np.einsum("pi,xpq,qj->xij", c, np.asarray(response(dm)), c)
+
+    def fvind(x: np.ndarray) -> np.ndarray:
+        x = x.reshape(-1, nvir, nocc)
+        dm = 2.0 * np.einsum("xai,pa,qi->xpq", x, cv, co)
+        v = np.asarray(response(dm + dm.transpose(0, 2, 1)))
+        return np.einsum("xpq,pa,qi->xai", v, cv, co).reshape(x.shape[0], -1)
+
+    def solve(rhs: np.ndarray) -> np.ndarray:
+        u, _ = cphf.solve(
+            fvind, eps, mf.mo_occ, rhs, None, max_cycle=CPHF_MAX_CYCLE, tol=CPHF_TOL, verbose=0
+        )
+        return u.reshape(rhs.shape)
+
+    def embed(vo: np.ndarray) -> np.ndarray:
+        """Symmetric MO matrix with vo block ``vo`` and ov block its transpose."""
+        p = np.zeros(vo.shape[:-2] + (nmo, nmo))
+        p[..., vir[:, None] & occ[None, :]] = vo.reshape(vo.shape[:-2] + (-1,))
+        return p + np.swapaxes(p, -1, -2)
+
+    r_mo = np.einsum("pi,xpq,qj->xij", c, dipole_integrals(mf.mol), c)
+    u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
+    p1 = embed(u1)
+    f1 = r_mo + g_mo(p1)  # (3, nmo, nmo)
+    f0 = np.diag(eps)
+    p0 = np.diag(occ.astype(float))
+
+    known = np.zeros((len(PAIRS), nmo, nmo))
+    rhs = np.zeros((len(PAIRS), nvir, nocc))
+    for k, (a, b) in enumerate(PAIRS):
+        ua, ub = u1[a], u1[b]
+        known[k][np.ix_(occ, occ)] = -(ua.T @ ub + ub.T @ ua)
+        known[k][np.ix_(vir, vir)] = ua @ ub.T + ub @ ua.T
+        fa_vv, fa_oo = f1[a][np.ix_(vir, vir)], f1[a][np.ix_(occ, occ)]
+        fb_vv, fb_oo = f1[b][np.ix_(vir, vir)], f1[b][np.ix_(occ, occ)]
+        rhs[k] = fa_vv @ ub - ub @ fa_oo + fb_vv @ ua - ua @ fb_oo
+    rhs += g_mo(known)[:, vir][:, :, occ]
+    p2_pairs = known + embed(solve(rhs))
+    f2_pairs = g_mo(p2_pairs)
+
+    def pfp1(a: int) -> np.ndarray:
+        return p1[a] @ f0 @ p0 + p0 @ f1[a] @ p0 + p0 @ f0 @ p1[a]
+
+    def pfp2(k: int, a: int, b: int) -> np.ndarray:
+        p2, f2 = p2_pairs[k], f2_pairs[k]
+        out = p2 @ f0 @ p0 + p0 @ f2 @ p0 + p0 @ f0 @ p2
+        for x, y in ((a, b), (b, a)):
+            out += p1[x] @ f1[y] @ p0 + p1[x] @ f0 @ p1[y] + p0 @ f1[x] @ p1[y]
+        return out
+
+    def ao(m: np.ndarray) -> np.ndarray:
+        return 2.0 * np.einsum("pi,...ij,qj->...pq", c, m, c)
+
+    nao = c.shape[0]
+    d2 = np.zeros((3, 3, nao, nao))
+    w2 = np.zeros((3, 3, nao, nao))
+    for k, (a, b) in enumerate(PAIRS):
+        d2[a, b] = d2[b, a] = ao(p2_pairs[k])
+        w2[a, b] = w2[b, a] = ao(pfp2(k, a, b))
+    return FieldDensityDerivatives(
+        density=ao(p0),
+        energy_weighted=ao(p0 @ f0 @ p0),
+        d1=ao(p1),
+        w1=ao(np.array([pfp1(a) for a in range(3)])),
+        d2=d2,
+        w2=w2,
+    )
+
+
+def _two_electron_potentials(mol, dms: np.ndarray) -> np.ndarray:
+    """−(∂_κ μ ν|λσ)-contracted J − K/2 of each density, shape (n, 3, nao, nao).
+
+    PySCF's gradient helper (``pyscf.grad.rhf.get_jk``, integrals ``int2e_ip1``, direct, no
+    four-index array in memory); the nabla acts on the first (bra) function only.
+    """
+    from pyscf.grad import rhf as rhf_grad
+
+    vj, vk = rhf_grad.get_jk(mol, np.asarray(dms))
+    return np.asarray(vj) - 0.5 * np.asarray(vk)
+
+
+def derivative_terms(mf, dens: FieldDensityDerivatives) -> tuple[AlphaDerivativeTerms, np.ndarray]:
+    """The named terms of ∂³E/∂x∂F_a∂F_b and the mixed second derivative ∂²E/∂x∂F_a.
+
+    Returns
+    -------
+    terms : AlphaDerivativeTerms
+    d2e_dx_df : ndarray (N, 3, 3)
+        ∂²E/∂R_Aκ∂F_a [atom, κ, a] in au (electrons and nuclei); ∂μ_a/∂x is minus it.
+    """
+    mol = mf.mol
+    natm, nao = mol.natm, mol.nao
+    hcore_deriv = mf.nuc_grad_method().hcore_generator(mol)
+    s_bra = -mol.intor("int1e_ipovlp", comp=3)  # ⟨∂μ/∂R_κ|ν⟩
+    with mol.with_common_orig((0.0, 0.0, 0.0)):
+        irp = mol.intor("int1e_irp", comp=9).reshape(3, 3, nao, nao)
+    r_bra = -irp.transpose(0, 1, 3, 2)  # ⟨∂μ/∂R_κ|r_a|ν⟩ = −⟨∇_κ μ|r_a|ν⟩
+    d0, d1, d2 = dens.density, dens.d1, dens.d2
+    pairs_d2 = np.array([d2[a, b] for a, b in PAIRS])
+    v = _two_electron_potentials(mol, np.concatenate([d0[None], d1, pairs_d2]))
+    v0, v1, v2 = v[0], v[1:4], v[4:]
+
+    shape = (natm, 3, 3, 3)
+    core, relaxed, resp, ovlp, dip = (np.zeros(shape) for _ in range(5))
+    mixed = np.zeros((natm, 3, 3))
+    for atom, (_, _, p0, p1) in enumerate(mol.aoslice_by_atom()):
+        sl = slice(p0, p1)
+        h1 = hcore_deriv(atom)
+        # Tr[D r_cˣ] for every c and density: 2 Σ_{μ∈A} ⟨∂μ|r_c|ν⟩ D_μν
+        dip1 = 2.0 * np.einsum("ckpq,apq->kac", r_bra[:, :, sl], d1[:, sl])  # Tr[Dᵃ r_cˣ]
+        for k, (a, b) in enumerate(PAIRS):
+            # two-electron bilinear form B_x(D1, D2) = Σ_{μ∈A} [V(D2)·D1 + V(D1)·D2]_μ
+            b_relax = np.einsum("kpq,pq->k", v0[:, sl], d2[a, b, sl]) + np.einsum(
+                "kpq,pq->k", v2[k][:, sl], d0[sl]
+            )
+            b_resp = np.einsum("kpq,pq->k", v1[b][:, sl], d1[a, sl]) + np.einsum(
+                "kpq,pq->k", v1[a][:, sl], d1[b, sl]
+            )
+            values = (
+                (core, np.einsum("kpq,pq->k", h1, d2[a, b])),
+                (relaxed, 2.0 * b_relax),
+                (resp, 2.0 * b_resp),
+                (ovlp, -2.0 * np.einsum("kpq,pq->k", s_bra[:, sl], dens.w2[a, b, sl])),
+                (dip, dip1[:, b, a] + dip1[:, a, b]),
+            )
+            for target, value in values:
+                target[atom, :, a, b] = target[atom, :, b, a] = value
+        for a in range(3):
+            mixed[atom, :, a] = (
+                np.einsum("kpq,pq->k", h1, d1[a])
+                + 2.0 * np.einsum("kpq,pq->k", v0[:, sl], d1[a, sl])
+                + 2.0 * np.einsum("kpq,pq->k", v1[a][:, sl], d0[sl])
+                - 2.0 * np.einsum("kpq,pq->k", s_bra[:, sl], dens.w1[a, sl])
+                + 2.0 * np.einsum("kpq,pq->k", r_bra[a][:, sl], d0[sl])
+            )
+        mixed[atom] -= mol.atom_charge(atom) * np.eye(3)
+    return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip), mixed
+
+
+def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
+    """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF calculation, analytically.
+
+    Parameters
+    ----------
+    mf : pyscf.scf.hf.RHF
+        Converged closed-shell restricted Hartree–Fock object (tightly converged: the
+        responses are solved to a residual of 1e-10, and the SCF's own error enters linearly).
+
+    Returns
+    -------
+    AnalyticDerivatives
+
+    Raises
+    ------
+    EngineInputError
+        For Kohn–Sham, open-shell, solvated or pseudopotential calculations (not implemented).
+
+    References
+    ----------
+    A. Komornicki and J. W. McIver, J. Chem. Phys. 70, 2014 (1979) (∂α/∂x as a field
+    derivative of the gradient); M. J. Frisch, Y. Yamaguchi, J. F. Gaw, H. F. Schaefer III and
+    J. S. Binkley, J. Chem. Phys. 84, 531 (1986) (analytic Raman intensities; cited from
+    memory).  See ``docs/analytic-raman.md`` for the derivation.
+    """
+    dens = field_density_derivatives(mf)
+    terms, mixed = derivative_terms(mf, dens)
+    natm = mf.mol.natm
+    dalpha = -terms.total().reshape(3 * natm, 3, 3)
+    dalpha = 0.5 * (dalpha + dalpha.transpose(0, 2, 1))
+    alpha = -np.einsum("apq,bpq->ab", dipole_integrals(mf.mol), dens.d1)
+    return AnalyticDerivatives(
+        dalpha_dx_ang2=dalpha * BOHR2_TO_ANG2,
+        dmu_dx_e=-mixed.reshape(3 * natm, 3),
+        terms=terms,
+        alpha_bohr3=0.5 * (alpha + alpha.T),
+    )

@@ -263,7 +263,8 @@ def test_rotating_the_molecule_rotates_the_tensor():
     np.testing.assert_allclose(rotated.reshape(n, 3, 3, 3), expect, atol=1e-7)
 
 
-def test_refuses_dft_and_open_shell():
+def test_refuses_what_it_does_not_handle():
+    """Contract: one clear EngineInputError for DFT, open shells, density fitting, no SCF."""
     from pyscf import dft, gto, scf
 
     mol = gto.M(atom=WATER, basis="sto-3g", verbose=0)
@@ -272,6 +273,8 @@ def test_refuses_dft_and_open_shell():
     radical = gto.M(atom=[("O", (0, 0, 0)), ("H", (0, 0, 0.97))], spin=1, verbose=0)
     with pytest.raises(EngineInputError, match="closed-shell restricted"):
         check_supported(scf.UHF(radical))
+    with pytest.raises(EngineInputError, match="density fitting"):
+        check_supported(scf.RHF(mol).density_fit())
     with pytest.raises(EngineInputError, match="not converged"):
         check_supported(scf.RHF(mol))
 

@@ -62,10 +62,12 @@ def check_supported(mf) -> None:
             "the analytic polarizability derivatives need a closed-shell restricted "
             "Hartree–Fock calculation; use the field or cartesian route"
         )
-    if getattr(mf, "with_solvent", None) is not None or mf.mol.has_ecp() or mf.mol._pseudo:
+    extras = ("with_solvent", "with_df", "with_x2c")
+    if any(getattr(mf, name, None) for name in extras) or mf.mol.has_ecp() or mf.mol._pseudo:
         raise EngineInputError(
-            "the analytic polarizability derivatives do not handle solvent models or "
-            "pseudopotentials; use the field or cartesian route"
+            "the analytic polarizability derivatives do not handle solvent models, density "
+            "fitting, relativistic Hamiltonians or pseudopotentials; use the field or "
+            "cartesian route"
         )
     if not mf.converged:
         raise EngineInputError("the SCF is not converged; analytic derivatives need it")

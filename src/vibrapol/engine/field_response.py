@@ -162,14 +162,14 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
     def g_mo(p_mo: np.ndarray) -> np.ndarray:
         """G[P] in the MO basis for symmetric MO matrices P (…, nmo, nmo)."""
         p_mo = np.asarray(p_mo).reshape(-1, nmo, nmo)
-        dm = 2.0 * np.einsum("pi,xij,qj->xpq", c, p_mo, c)
-        return np.einsum("pi,xpq,qj->xij", c, np.asarray(response(dm)), c)
+        dm = 2.0 * (c @ p_mo @ c.T)
+        return c.T @ np.asarray(response(dm)) @ c
 
     def fvind(x: np.ndarray) -> np.ndarray:
         x = x.reshape(-1, nvir, nocc)
-        dm = 2.0 * np.einsum("xai,pa,qi->xpq", x, cv, co)
+        dm = 2.0 * (cv @ x @ co.T)
         v = np.asarray(response(dm + dm.transpose(0, 2, 1)))
-        return np.einsum("xpq,pa,qi->xai", v, cv, co).reshape(x.shape[0], -1)
+        return (cv.T @ v @ co).reshape(x.shape[0], -1)
 
     delta = eps[vir][:, None] - eps[occ][None, :]
 
@@ -182,7 +182,7 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
         p[..., vir[:, None] & occ[None, :]] = vo.reshape(vo.shape[:-2] + (-1,))
         return p + np.swapaxes(p, -1, -2)
 
-    r_mo = np.einsum("pi,xpq,qj->xij", c, dipole_integrals(mf.mol), c)
+    r_mo = c.T @ dipole_integrals(mf.mol) @ c
     u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
     p1 = embed(u1)
     f1 = r_mo + g_mo(p1)  # (3, nmo, nmo)
@@ -213,7 +213,7 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
         return out
 
     def ao(m: np.ndarray) -> np.ndarray:
-        return 2.0 * np.einsum("pi,...ij,qj->...pq", c, m, c)
+        return 2.0 * (c @ m @ c.T)
 
     nao = c.shape[0]
     d2 = np.zeros((3, 3, nao, nao))

@@ -1,0 +1,231 @@
+"""Field derivatives of the closed-shell RHF density by coupled-perturbed Hartree–Fock.
+
+First-order (three) and second-order (six) responses of the occupied-space projector to a
+uniform electric field, as the AO density D and energy-weighted density W and their first and
+second field derivatives: the inputs of the analytic ∂α/∂x of :mod:`vibrapol.engine.analytic`.
+The equations are derived in ``docs/analytic-raman.md``.
+
+Scope: closed-shell restricted Hartree–Fock; :func:`check_supported` refuses the rest.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from vibrapol.engine.fieldgrad import dipole_integrals
+from vibrapol.engine.polarizability import CPHF_MAX_CYCLE, CPHF_TOL
+from vibrapol.engine.scf import EngineConvergenceError, EngineInputError
+
+#: Field component pairs (a, b), a ≤ b, of the second-order responses.
+PAIRS = ((0, 0), (1, 1), (2, 2), (0, 1), (0, 2), (1, 2))
+
+
+@dataclass(frozen=True)
+class FieldDensityDerivatives:
+    """Field derivatives of the AO density and energy-weighted density at F = 0.
+
+    All matrices are total (both spins) closed-shell quantities in the AO basis, symmetric.
+
+    Attributes
+    ----------
+    density : ndarray (nao, nao)
+        D = 2 C_occ C_occᵀ.
+    energy_weighted : ndarray (nao, nao)
+        W = 2 Σ_i ε_i c_i c_iᵀ.
+    d1, w1 : ndarray (3, nao, nao)
+        ∂D/∂F_a, ∂W/∂F_a.
+    d2, w2 : ndarray (3, 3, nao, nao)
+        ∂²D/∂F_a∂F_b, ∂²W/∂F_a∂F_b.
+    """
+
+    density: np.ndarray
+    energy_weighted: np.ndarray
+    d1: np.ndarray
+    w1: np.ndarray
+    d2: np.ndarray
+    w2: np.ndarray
+
+
+def check_supported(mf) -> None:
+    """Raise :class:`EngineInputError` unless ``mf`` is a converged closed-shell RHF object."""
+    from pyscf import dft, scf
+
+    if isinstance(mf, dft.rks.KohnShamDFT):
+        raise EngineInputError(
+            "the analytic polarizability derivatives are implemented for Hartree–Fock only; "
+            "use the field or cartesian route for DFT"
+        )
+    if not isinstance(mf, scf.hf.RHF) or isinstance(mf, scf.rohf.ROHF):
+        raise EngineInputError(
+            "the analytic polarizability derivatives need a closed-shell restricted "
+            "Hartree–Fock calculation; use the field or cartesian route"
+        )
+    extras = ("with_solvent", "with_df", "with_x2c")
+    if any(getattr(mf, name, None) for name in extras) or mf.mol.has_ecp() or mf.mol._pseudo:
+        raise EngineInputError(
+            "the analytic polarizability derivatives do not handle solvent models, density "
+            "fitting, relativistic Hamiltonians or pseudopotentials; use the field or "
+            "cartesian route"
+        )
+    if not mf.converged:
+        raise EngineInputError("the SCF is not converged; analytic derivatives need it")
+
+
+def solve_response(fvind, delta: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """Solve (ε_v − ε_o) X + G[X]_vo = −rhs for each right-hand side (k, nvir, nocc).
+
+    Preconditioned conjugate gradients, one recurrence per right-hand side with the
+    operator applied to all unconverged ones at once (one batched Fock build per step).  The
+    closed-shell real response matrix is symmetric and, for a stable RHF solution, positive
+    definite; the preconditioner is the orbital-energy difference.  Stops when every residual
+    norm is below ``CPHF_TOL``.
+
+    PySCF's ``cphf.solve`` is not used: its multi-vector Krylov solver (``lib.krylov``) left an
+    error of 3e-7 au in α_xz of water HF/6-31G at an out-of-plane displacement whatever its
+    tolerance (α_xz and α_zx then differ), while single right-hand sides and a direct solve
+    of the full response matrix agree to 1e-10; divided by a 0.001 Å central difference that
+    error becomes 1.5e-4 au in ∂α/∂x.
+
+    Raises
+    ------
+    EngineConvergenceError
+        When a residual is still above the tolerance after ``CPHF_MAX_CYCLE`` steps.
+    """
+    shape = rhs.shape
+    n = shape[0]
+    d = np.broadcast_to(delta, shape[1:]).reshape(-1)
+    b = -np.asarray(rhs, dtype=float).reshape(n, -1)
+
+    def apply(v: np.ndarray) -> np.ndarray:
+        return d * v + fvind(v.reshape(-1, *shape[1:])).reshape(v.shape[0], -1)
+
+    x = b / d
+    r = b - apply(x)
+    z = r / d
+    p = z.copy()
+    rz = np.einsum("kn,kn->k", r, z)
+    active = np.linalg.norm(r, axis=1) > CPHF_TOL
+    for _ in range(CPHF_MAX_CYCLE):
+        if not active.any():
+            return x.reshape(shape)
+        idx = np.flatnonzero(active)
+        ap = apply(p[idx])
+        step = rz[idx] / np.einsum("kn,kn->k", p[idx], ap)
+        x[idx] += step[:, None] * p[idx]
+        r[idx] -= step[:, None] * ap
+        z[idx] = r[idx] / d
+        rz_new = np.einsum("kn,kn->k", r[idx], z[idx])
+        p[idx] = z[idx] + (rz_new / rz[idx])[:, None] * p[idx]
+        rz[idx] = rz_new
+        active[idx] = np.linalg.norm(r[idx], axis=1) > CPHF_TOL
+    if active.any():
+        raise EngineConvergenceError(
+            f"the coupled-perturbed HF equations did not converge in {CPHF_MAX_CYCLE} steps"
+        )
+    return x.reshape(shape)
+
+
+def field_density_derivatives(mf) -> FieldDensityDerivatives:
+    """First and second field derivatives of D and W by coupled-perturbed HF.
+
+    In the orthonormal MO basis of the unperturbed SCF the occupied projector P(F) obeys
+    P² = P and [f(P), P] = 0 with f = f⁰ + Σ F_c r_c + G[P].  Order by order (Pᵃ = ∂P/∂F_a,
+    Pᵃᵇ = ∂²P/∂F_a∂F_b, o occupied, v virtual):
+
+    * first order: Pᵃ_vo = Uᵃ with (ε_v − ε_o) Uᵃ + G[Pᵃ]_vo = −r_a,vo;
+    * second order: idempotency fixes Pᵃᵇ_oo = −(Uᵃᵀ Uᵇ + Uᵇᵀ Uᵃ) and
+      Pᵃᵇ_vv = Uᵃ Uᵇᵀ + Uᵇ Uᵃᵀ; the commutator gives for X = Pᵃᵇ_vo
+      (ε_v − ε_o) X + G[X]_vo = −{fᵃ_vv Uᵇ − Uᵇ fᵃ_oo + fᵇ_vv Uᵃ − Uᵃ fᵇ_oo + G[Pᵃᵇ_oo+vv]_vo},
+      fᵃ = r_a + G[Pᵃ].
+
+    Then D = 2 C P Cᵀ and W = 2 C (P f P) Cᵀ (the Lagrangian of the orbital orthonormality,
+    field included) are differentiated as products.
+
+    References
+    ----------
+    J. Gerratt and I. M. Mills, J. Chem. Phys. 49, 1719 (1968) (coupled-perturbed HF);
+    R. McWeeny, Rev. Mod. Phys. 32, 335 (1960) (density-matrix formulation).  The second-order
+    equations are derived in ``docs/analytic-raman.md``.
+    """
+    check_supported(mf)
+    c = mf.mo_coeff
+    occ = mf.mo_occ > 0
+    vir = ~occ
+    eps = mf.mo_energy
+    nocc, nvir = int(occ.sum()), int(vir.sum())
+    nmo = c.shape[1]
+    co, cv = c[:, occ], c[:, vir]
+    response = mf.gen_response(hermi=1)  # AO total density → J − K/2
+
+    def g_mo(p_mo: np.ndarray) -> np.ndarray:
+        """G[P] in the MO basis for symmetric MO matrices P (…, nmo, nmo)."""
+        p_mo = np.asarray(p_mo).reshape(-1, nmo, nmo)
+        dm = 2.0 * (c @ p_mo @ c.T)
+        return c.T @ np.asarray(response(dm)) @ c
+
+    def fvind(x: np.ndarray) -> np.ndarray:
+        x = x.reshape(-1, nvir, nocc)
+        dm = 2.0 * (cv @ x @ co.T)
+        v = np.asarray(response(dm + dm.transpose(0, 2, 1)))
+        return (cv.T @ v @ co).reshape(x.shape[0], -1)
+
+    delta = eps[vir][:, None] - eps[occ][None, :]
+
+    def solve(rhs: np.ndarray) -> np.ndarray:
+        return solve_response(fvind, delta, rhs)
+
+    def embed(vo: np.ndarray) -> np.ndarray:
+        """Symmetric MO matrix with vo block ``vo`` and ov block its transpose."""
+        p = np.zeros(vo.shape[:-2] + (nmo, nmo))
+        p[..., vir[:, None] & occ[None, :]] = vo.reshape(vo.shape[:-2] + (-1,))
+        return p + np.swapaxes(p, -1, -2)
+
+    r_mo = c.T @ dipole_integrals(mf.mol) @ c
+    u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
+    p1 = embed(u1)
+    f1 = r_mo + g_mo(p1)  # (3, nmo, nmo)
+    f0 = np.diag(eps)
+    p0 = np.diag(occ.astype(float))
+
+    known = np.zeros((len(PAIRS), nmo, nmo))
+    rhs = np.zeros((len(PAIRS), nvir, nocc))
+    for k, (a, b) in enumerate(PAIRS):
+        ua, ub = u1[a], u1[b]
+        known[k][np.ix_(occ, occ)] = -(ua.T @ ub + ub.T @ ua)
+        known[k][np.ix_(vir, vir)] = ua @ ub.T + ub @ ua.T
+        fa_vv, fa_oo = f1[a][np.ix_(vir, vir)], f1[a][np.ix_(occ, occ)]
+        fb_vv, fb_oo = f1[b][np.ix_(vir, vir)], f1[b][np.ix_(occ, occ)]
+        rhs[k] = fa_vv @ ub - ub @ fa_oo + fb_vv @ ua - ua @ fb_oo
+    rhs += g_mo(known)[:, vir][:, :, occ]
+    p2_pairs = known + embed(solve(rhs))
+    f2_pairs = g_mo(p2_pairs)
+
+    def pfp1(a: int) -> np.ndarray:
+        return p1[a] @ f0 @ p0 + p0 @ f1[a] @ p0 + p0 @ f0 @ p1[a]
+
+    def pfp2(k: int, a: int, b: int) -> np.ndarray:
+        p2, f2 = p2_pairs[k], f2_pairs[k]
+        out = p2 @ f0 @ p0 + p0 @ f2 @ p0 + p0 @ f0 @ p2
+        for x, y in ((a, b), (b, a)):
+            out += p1[x] @ f1[y] @ p0 + p1[x] @ f0 @ p1[y] + p0 @ f1[x] @ p1[y]
+        return out
+
+    def ao(m: np.ndarray) -> np.ndarray:
+        return 2.0 * (c @ m @ c.T)
+
+    nao = c.shape[0]
+    d2 = np.zeros((3, 3, nao, nao))
+    w2 = np.zeros((3, 3, nao, nao))
+    for k, (a, b) in enumerate(PAIRS):
+        d2[a, b] = d2[b, a] = ao(p2_pairs[k])
+        w2[a, b] = w2[b, a] = ao(pfp2(k, a, b))
+    return FieldDensityDerivatives(
+        density=ao(p0),
+        energy_weighted=ao(p0 @ f0 @ p0),
+        d1=ao(p1),
+        w1=ao(np.array([pfp1(a) for a in range(3)])),
+        d2=d2,
+        w2=w2,
+    )

@@ -115,12 +115,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     )
     parser.add_argument(
         "--route",
-        choices=("auto", "cartesian", "normal", "field", "displacement"),
+        choices=("auto", "cartesian", "normal", "field", "displacement", "analytic"),
         default="auto",
         help="how to get the polarizability derivatives: displaced Cartesians, displaced normal "
         "modes, analytic gradients in electric fields (these three after an analytic Hessian), "
         "displacement: gradient, dipole and polarizability at displaced Cartesians, the Hessian "
-        "from their gradients (no analytic Hessian; scales with the workers), or auto: the "
+        "from their gradients (no analytic Hessian; scales with the workers), analytic: "
+        "analytic derivatives in one task beside the Hessian (closed-shell Hartree–Fock only), "
+        "or auto: the "
         "fastest on the run's workers by a cost model measured on the molecule (default: auto)",
     )
     parser.add_argument(

@@ -107,7 +107,9 @@ def choose_family(
     w = max(int(workers), 1)
     have = ref.hessian_hartree_bohr2 is not None
     t_hess = 0.0 if have else estimated_hessian_seconds(ref, is_hf)
-    counts: dict[str, int] = {r: plans[r].n_tasks for r in ("cartesian", "field") if r in plans}
+    counts: dict[str, int] = {
+        r: plans[r].n_tasks for r in ("cartesian", "field", "analytic") if r in plans
+    }
     counts["normal-mode"] = n_normal_tasks
     walls = {r: t_hess + parallel_seconds(n, w, task_seconds(r, ref)) for r, n in counts.items()}
     n_disp = plans["displacement"].n_tasks
@@ -145,11 +147,14 @@ def combined_choice(family: FamilyChoice, route: RouteChoice) -> RouteChoice:
 
 def hessian_routes_allowed(settings: EngineSettings) -> tuple[str, ...]:
     """The Hessian routes ``auto`` may take: no field route in a solvent or with α(ω)."""
+    from vibrapol.engine.analyticroute import analytic_unsupported
     from vibrapol.engine.solvent import allowed_routes
 
     routes = allowed_routes(HESSIAN_ROUTES, settings.spec.solvent)
     if settings.dynamic:  # the field route gives the static α only
         routes = tuple(r for r in routes if r != "field")
+    if analytic_unsupported(settings.spec, settings.dynamic) is not None:
+        routes = tuple(r for r in routes if r != "analytic")
     return routes
 
 

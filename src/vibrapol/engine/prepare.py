@@ -20,6 +20,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from vibrapol.engine.analyticroute import AnalyticPlan
 from vibrapol.engine.autoroute import FamilyChoice, hessian_needed, pick_route
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
@@ -68,7 +69,7 @@ IR_NOTE = (
 SAME_GEOMETRY_ANG = 1e-10
 
 #: Requested routes whose task list needs no normal modes: chosen after the reference SCF.
-ROUTES_WITHOUT_MODES = frozenset({"cartesian", "field"})
+ROUTES_WITHOUT_MODES = frozenset({"cartesian", "field", "analytic"})
 
 #: Routes whose own tasks give the Hessian: their molecules skip the Hessian stage.
 HESSIAN_FREE_ROUTES: frozenset[str] = frozenset({"displacement"})
@@ -284,6 +285,12 @@ def _provenance(
         how = (
             f"dalpha and dmu by central differences of CPHF alpha and the total dipole (PySCF "
             f"dip_moment, frame origin) at the same {plan.n_tasks} displaced geometries"
+        )
+    elif isinstance(plan, AnalyticPlan):
+        how = (
+            "dalpha/dx and dmu/dx analytically (closed-shell RHF: field derivatives of the "
+            "analytic gradient from first- and second-order CPHF field responses, "
+            "docs/analytic-raman.md)"
         )
     elif isinstance(plan, FieldPlan):
         how = (

@@ -26,6 +26,7 @@ from typing import Any
 
 import numpy as np
 
+from vibrapol.engine.analyticroute import ANALYTIC_TO_HESSIAN, AnalyticJob, AnalyticPlan
 from vibrapol.engine.checkpoint import task_key
 from vibrapol.engine.dipole import dmu_dx_from_gradients, dmu_from_displacements, rebuild_dmu_dx
 from vibrapol.engine.displacements import (
@@ -52,10 +53,10 @@ from vibrapol.engine.symdisplace import SymmetricPlan, rebuild_dalpha_dx, symmet
 from vibrapol.symmetry import PointGroup
 
 #: Route names; ``normal`` is accepted for ``normal-mode``.
-ROUTES = ("auto", "cartesian", "normal-mode", "field", "displacement")
+ROUTES = ("auto", "cartesian", "normal-mode", "field", "displacement", "analytic")
 
 #: The routes that need the analytic Hessian at the reference geometry.
-HESSIAN_ROUTES = ("cartesian", "normal-mode", "field")
+HESSIAN_ROUTES = ("cartesian", "normal-mode", "field", "analytic")
 
 #: A field task (tight SCF from the reference density + gradient, one thread) costs this many
 #: times the reference SCF + gradient (all threads).  Measured here, HF/6-31G* on 2 shared
@@ -78,12 +79,13 @@ def normalize_route(route: str) -> str:
     name = "normal-mode" if route == "normal" else route
     if name not in ROUTES:
         raise EngineInputError(
-            f"unknown route {route!r}; choose one of auto, cartesian, normal, field, displacement"
+            f"unknown route {route!r}; choose one of auto, cartesian, normal, field, "
+            "displacement, analytic"
         )
     return name
 
 
-Plan = DisplacementPlan | SymmetricPlan | FieldPlan | DisplacementRoutePlan
+Plan = DisplacementPlan | SymmetricPlan | FieldPlan | DisplacementRoutePlan | AnalyticPlan
 
 
 def build_plan(
@@ -106,6 +108,8 @@ def build_plan(
     """
     if route == "normal-mode":
         return normal_mode_plan(coordinates_ang, modes, masses_da, step_ang)
+    if route == "analytic":
+        return AnalyticPlan(coordinates_ang)
     if route == "displacement":
         geometries = build_plan(
             "cartesian", coordinates_ang, modes, masses_da, step_ang, field_au, group, grid_free
@@ -165,6 +169,11 @@ def make_jobs(
     """
     z = atomic_numbers
     jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob] | list[Any]
+    if isinstance(plan, AnalyticPlan):
+        x = plan.coordinates_ang
+        jobs = [AnalyticJob(z, x, spec, ref.density)]
+        keys = [task_key("analytic-dalpha", z, x, spec, analytic_conv=[1e-10])]
+        return jobs, keys, plan.labels
     if isinstance(plan, DisplacementRoutePlan):
         jobs = [GradientDipoleAlphaJob(z, x, spec, ref.density) for x in plan.coordinates_ang]
         keys = [task_key("gradient-dipole-alpha", z, x, spec) for x in plan.coordinates_ang]
@@ -210,6 +219,8 @@ def make_jobs(
 
 def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> np.ndarray:
     """∂α/∂x (Å², Cartesian and field routes) or ∂α/∂Q (Å² Da⁻¹ᐟ², normal-mode route)."""
+    if isinstance(plan, AnalyticPlan):
+        return np.asarray(results[0])[:, :3, :]
     if isinstance(plan, FieldPlan):
         gradients = np.array([ref.gradient_hartree_bohr, *results])
         return dalpha_dx_from_gradients(plan, gradients)
@@ -229,6 +240,8 @@ def dipole_derivatives(
     From the same task results as :func:`derivatives` (:mod:`vibrapol.engine.dipole`);
     ``charge`` is the molecule's total charge (the symmetry rebuild needs it).
     """
+    if isinstance(plan, AnalyticPlan):
+        return np.asarray(results[0])[:, 3, :]
     if isinstance(plan, FieldPlan):
         return dmu_dx_from_gradients(plan, np.array([ref.gradient_hartree_bohr, *results]))
     if isinstance(plan, DisplacementRoutePlan):
@@ -280,6 +293,10 @@ def task_seconds(route: str, ref: ReferenceResult) -> float:
     """Estimated serial seconds of one task of ``route`` from the reference timings."""
     if route == "field":
         return FIELD_TASK_FACTOR * (ref.seconds_scf + ref.seconds_gradient)
+    if route == "analytic":  # a fraction of the analytic Hessian (estimated as ``auto`` does)
+        from vibrapol.engine.autoroute import estimated_hessian_seconds
+
+        return ANALYTIC_TO_HESSIAN * estimated_hessian_seconds(ref, True)
     if route == "displacement":
         return DISPLACEMENT_TASK_FACTOR * (
             ref.seconds_scf + ref.seconds_alpha + ref.seconds_gradient
@@ -307,7 +324,7 @@ def choose_route(
     estimates = {
         r: parallel_seconds(p.n_tasks, workers, task_seconds(r, ref)) for r, p in plans.items()
     }
-    order = tuple(r for r in ("cartesian", "field", "normal-mode") if r in plans)
+    order = tuple(r for r in ("cartesian", "field", "normal-mode", "analytic") if r in plans)
     best = min(estimates, key=lambda r: (round(estimates[r], 6), order.index(r)))
     costs = ", ".join(
         f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order if r in plans

@@ -121,6 +121,15 @@ class EngineSettings:
         route = normalize_route(self.route)
         check_solvent_route(route, spec.solvent)
         laser_nm = check_dynamic(self.laser_nm, bool(self.dynamic), route, spec.multiplicity)
+        if route == "analytic":
+            from vibrapol.engine.analyticroute import analytic_unsupported
+
+            why = analytic_unsupported(spec, bool(self.dynamic))
+            if why is not None:
+                raise OptionError(
+                    f"the analytic route cannot run here: {why}; use --route field, cartesian "
+                    "or auto"
+                )
         if route == "displacement" and (self.dynamic or spec.solvent is not None):
             raise OptionError(
                 "the displacement route computes the static polarizability in vacuum only; "

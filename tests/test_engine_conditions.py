@@ -10,13 +10,16 @@ writers, so a change of their wording that the method line no longer finds fails
 from __future__ import annotations
 
 import dataclasses
+import re
 
 import numpy as np
+import pytest
 
 from _paths import PROJECT_ROOT
 from vibrapol.engine.ecp import ecp_note
 from vibrapol.engine.openshell import spin_note
 from vibrapol.engine.scf import MethodSpec, build_molecule, integral_notes
+from vibrapol.errors import AccuracyWarning
 from vibrapol.modeset import Provenance
 from vibrapol.output.tables import header_lines
 from vibrapol.plotting.conditions import caption_text
@@ -64,3 +67,33 @@ def test_table_header_spectrum_and_caption_carry_the_model():
     conditions = stick_spectrum(modes, laser_nm=532.0).conditions
     assert conditions.method.endswith(want)
     assert want in caption_text(conditions)
+
+
+def test_spectrum_warnings_reach_every_file_and_caption(tmp_path):
+    # Contract: what `vibrapol spectrum` warns of on stderr (here: an imaginary mode of a
+    # structure that is not a minimum, left out of the spectrum) is repeated in the header of
+    # the spectrum CSV, the stick CSV, the JSON and in the figure's caption.
+    import json
+
+    from vibrapol.cli import main
+    from vibrapol.sources.modes_json import write_modes_json
+
+    modes = read_modes_json(PROJECT_ROOT / "examples" / "water.modes.json")
+    freqs = np.array(modes.freqs_cm1)
+    freqs[0] = -freqs[0]
+    src = tmp_path / "saddle.modes.json"
+    write_modes_json(dataclasses.replace(modes, freqs_cm1=freqs), src)
+    files = {k: tmp_path / f"s.{k}" for k in ("csv", "sticks.csv", "json", "svg")}
+    base = ["spectrum", str(src), "--sticks", str(files["sticks.csv"])]
+    said = "1 imaginary mode(s) left out of the spectrum"
+    with pytest.warns(AccuracyWarning, match=re.escape(said)):
+        assert main([*base, "-o", str(files["csv"]), "--figure", str(files["svg"])]) == 0
+    with pytest.warns(AccuracyWarning, match=re.escape(said)):
+        assert main([*base, "-o", str(files["json"]), "--format", "json", "--force"]) == 0
+    for key in ("csv", "sticks.csv"):
+        assert any(
+            line.startswith("# warning: ") and said in line
+            for line in files[key].read_text().splitlines()
+        ), key
+    assert any(said in w for w in json.loads(files["json"].read_text())["header"]["warnings"])
+    assert said in files["svg"].read_text()

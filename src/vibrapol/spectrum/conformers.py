@@ -217,6 +217,7 @@ def mixture(
         components=tuple(s.components[0] for s in spectra),
         weights=tuple(float(x) for x in w),
         conditions=dataclasses.replace(first.conditions, method=methods),
+        warnings=tuple(dict.fromkeys(w for s in spectra for w in s.warnings)),
     )
 
 
@@ -305,4 +306,5 @@ def _component(sticks: StickSpectrum, k: int) -> StickSpectrum:
         components=(sticks.components[k],),
         weights=(sticks.weights[k],),
         conditions=sticks.conditions,
+        warnings=sticks.warnings,
     )

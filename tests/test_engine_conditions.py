@@ -97,3 +97,32 @@ def test_spectrum_warnings_reach_every_file_and_caption(tmp_path):
         ), key
     assert any(said in w for w in json.loads(files["json"].read_text())["header"]["warnings"])
     assert said in files["svg"].read_text()
+
+
+def _with_notes(modes, *notes: str, source: str):
+    prov = dataclasses.replace(modes.provenance, notes=(*modes.provenance.notes, *notes))
+    return dataclasses.replace(modes, provenance=dataclasses.replace(prov, source_file=source))
+
+
+def test_conformer_mixture_needs_one_engine_model():
+    # Contract: a Boltzmann mixture weights conformers by their energies, which only compare
+    # within one model: a solvated and a gas-phase run, or a fitted and an exact one, of the
+    # same method/basis are refused; open shells differing only in <S^2> are accepted.
+    from vibrapol.engine.solvent import solvent_model, solvent_note
+    from vibrapol.errors import VibrapolError
+    from vibrapol.spectrum.conformers import check_conformers
+
+    modes = read_modes_json(PROJECT_ROOT / "examples" / "water.modes.json")
+    gas = _with_notes(modes, source="gas")
+    solvated = _with_notes(modes, solvent_note(solvent_model("water")), source="solvated")
+    spin, fit, _ = _engine_notes()
+    fitted = _with_notes(modes, fit, source="fitted")
+    for other in (solvated, fitted):
+        with pytest.raises(VibrapolError, match="different levels of theory"):
+            check_conformers([gas, other])
+    doublet = MethodSpec("hf", "sto-3g", 0, 2)
+    a = _with_notes(modes, spin_note(0.7652, doublet), source="a")
+    b = _with_notes(modes, spin_note(0.7701, doublet), source="b")
+    check_conformers([a, b])
+    with pytest.raises(VibrapolError, match="different levels of theory"):
+        check_conformers([a, gas])

@@ -126,3 +126,22 @@ def test_conformer_mixture_needs_one_engine_model():
     check_conformers([a, b])
     with pytest.raises(VibrapolError, match="different levels of theory"):
         check_conformers([a, gas])
+
+
+def test_symmetrized_geometry_without_optimisation_is_announced(tmp_path, capsys):
+    # Contract ("never change a user's number silently"): with --no-optimize the user's
+    # geometry is used as given, unless the symmetrization moved atoms; then stderr says so in
+    # one warning line and the file's first note no longer claims "used as given".
+    from vibrapol.cli import main
+
+    xyz, out = tmp_path / "w.xyz", tmp_path / "w.modes.json"
+    xyz.write_text(
+        "3\nwater, 3 mÅ off C2v\nO 0 0 0.1173\nH 0 0.7602 -0.4692\nH 0 -0.7572 -0.4672\n"
+    )
+    args = ["compute", str(xyz), "--basis", "sto-3g", "--no-optimize", "--workers", "1"]
+    assert main([*args, "--route", "field", "-o", str(out)]) == 0
+    warned = [line for line in capsys.readouterr().err.splitlines() if "warning:" in line]
+    assert len(warned) == 1
+    assert "symmetrized to C2v: atoms moved by up to 2.9e-03 Å" in warned[0]
+    notes = read_modes_json(out).provenance.notes
+    assert notes[0] == "geometry symmetrized, not optimised"

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import re
 import sys
 from contextlib import ExitStack
 from pathlib import Path
@@ -38,6 +39,7 @@ from vibrapol.engine.estimate import (
 )
 from vibrapol.engine.executors import check_scheduler_address
 from vibrapol.engine.optimize import DEFAULT_OPTIMIZER, OPTIMIZERS
+from vibrapol.engine.prepare import SAME_GEOMETRY_ANG
 from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
 from vibrapol.engine.scf import (
     DEFAULT_BASIS,
@@ -355,6 +357,19 @@ def _check_cost(atoms, settings, name: str, yes: bool) -> str | None:  # noqa: A
     return f"{name}: estimated cost {cost.describe()}, an order of magnitude"
 
 
+def symmetrization_shift_ang(notes: tuple[str, ...]) -> float:
+    """The largest atom shift of the engine's symmetrization recorded in ``notes`` (0 if none)."""
+    for note in notes:
+        found = _SHIFT_NOTE.search(note)
+        if found:
+            return float(found.group(1))
+    return 0.0
+
+
+#: How the engine's provenance records the symmetrization (vibrapol.engine.prepare).
+_SHIFT_NOTE = re.compile(r"geometry symmetrized \(max shift ([0-9.]+e[+-]\d+) Å\)")
+
+
 def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  # noqa: ANN001
     try:
         write_modes_json(result.modes, output, force=force)
@@ -366,6 +381,12 @@ def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  #
         ) from exc
     prefix = f"{item.name}: " if item.name else ""
     opt = result.optimization
+    shift = symmetrization_shift_ang(result.modes.provenance.notes)
+    if opt is None and shift >= SAME_GEOMETRY_ANG:
+        say(
+            f"{prefix}warning: geometry not optimised but symmetrized to {result.point_group}: "
+            f"atoms moved by up to {shift:.1e} Å (--no-use-symmetry keeps it as given)"
+        )
     if opt is not None:
         say(
             f"{prefix}geometry optimised ({opt.optimizer}) in {opt.n_steps} steps, "

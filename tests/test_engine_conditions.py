@@ -19,8 +19,10 @@ from _paths import PROJECT_ROOT
 from vibrapol.engine.ecp import ecp_note
 from vibrapol.engine.openshell import spin_note
 from vibrapol.engine.scf import MethodSpec, build_molecule, integral_notes
-from vibrapol.errors import AccuracyWarning
+from vibrapol.errors import AccuracyWarning, ChangedValuesWarning
+from vibrapol.isotopes import isotope_shifts
 from vibrapol.modeset import Provenance
+from vibrapol.output.isotopes import shift_header
 from vibrapol.output.tables import header_lines
 from vibrapol.plotting.conditions import caption_text
 from vibrapol.ramantable import raman_table
@@ -67,6 +69,9 @@ def test_table_header_spectrum_and_caption_carry_the_model():
     conditions = stick_spectrum(modes, laser_nm=532.0).conditions
     assert conditions.method.endswith(want)
     assert want in caption_text(conditions)
+    with pytest.warns(ChangedValuesWarning, match="masses changed"):
+        heavy = modes.with_masses(np.array([15.995, 2.014, 2.014]))
+    assert shift_header(isotope_shifts(modes, heavy))["method"].endswith(want)
 
 
 def test_spectrum_warnings_reach_every_file_and_caption(tmp_path):

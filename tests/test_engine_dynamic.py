@@ -272,6 +272,18 @@ def test_water_dynamic_provenance(water_static_and_dynamic):
     )
 
 
+def test_every_table_names_the_wavelength_of_alpha(water_static_and_dynamic):
+    # Contract (issue 17: the dynamic α wavelength in every table's conditions): the method
+    # line of the Raman table (all formats, the paper-ready caption too) says "alpha at
+    # 532 nm"; the static run's does not.
+    from vibrapol.output.tables import header_fields, table_markdown
+
+    static, dynamic = water_static_and_dynamic
+    assert header_fields(raman_table(dynamic))["method"] == "HF/sto-3g, alpha at 532 nm"
+    assert header_fields(raman_table(static))["method"] == "HF/sto-3g"
+    assert "HF/sto-3g, alpha at 532 nm" in table_markdown(raman_table(dynamic)).splitlines()[0]
+
+
 def test_auto_leaves_out_the_field_route_when_dynamic():
     run = run_engine(WATER, "hf", "sto-3g", route="auto", laser_nm=532.0, dynamic=True)
     assert run.route != "field" and "field" not in run.route_reason

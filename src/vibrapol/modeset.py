@@ -142,7 +142,7 @@ class Provenance:
 
 #: Engine provenance notes that change the model or its numbers, and the short words that say so
 #: after the level of theory (notes written by vibrapol.engine.openshell.spin_note,
-#: vibrapol.engine.scf.integral_notes and vibrapol.engine.ecp.ecp_note).
+#: vibrapol.engine.scf.integral_notes, vibrapol.engine.ecp.ecp_note and vibrapol.engine.laser).
 _MODEL_NOTES = (
     (
         re.compile(r"^open shell, multiplicity (\d+) .*?<S\^2> = ([0-9.]+)"),
@@ -156,15 +156,19 @@ _MODEL_NOTES = (
         re.compile(r"^effective core potential \S+ on (.+?); the other atoms"),
         lambda m: "ECP on " + re.sub(r" \(\d+ core electrons\)", "", m.group(1)),
     ),
+    (  # vibrapol.engine.laser: the polarizability at the laser line
+        re.compile(r"^polarizability: dynamic alpha\(-omega; omega\) at the laser line ([0-9.]+) "),
+        lambda m: f"alpha at {float(m.group(1)):g} nm",
+    ),
 )
 
 
 def engine_model_tags(notes: tuple[str, ...]) -> list[str]:
-    """Short words for the open shell (⟨S²⟩), density fitting and ECPs the notes record.
+    """Short words for the open shell (⟨S²⟩), density fitting, ECPs and dynamic α in the notes.
 
     E.g. ``["multiplicity 2 (<S^2> 0.7652)", "density fitting (def2-universal-jkfit)",
-    "ECP on I"]``: what :meth:`Provenance.level_of_theory` adds, so that every table header and
-    spectrum's conditions (files and figures) show them.
+    "ECP on I", "alpha at 532 nm"]``: what :meth:`Provenance.level_of_theory` adds, so that
+    every table header and spectrum's conditions (files and figures) show them.
     """
     tags = []
     for pattern, words in _MODEL_NOTES:

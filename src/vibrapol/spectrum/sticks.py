@@ -375,8 +375,7 @@ def stick_spectrum(
 
     method = modes.provenance.level_of_theory()
     alpha_nm = dynamic_alpha_nm(modes)
-    if alpha_nm is not None:
-        method += f", alpha at {alpha_nm:g} nm"
+    if alpha_nm is not None:  # the method line says "alpha at … nm" (level_of_theory)
         if abs(alpha_nm - laser_nm) > 0.5:
             warn(
                 f"{where}: its polarizability derivatives were computed at {alpha_nm:g} nm, "

@@ -47,7 +47,7 @@ from vibrapol.engine.scf import (
     DENSITY_FIT_ACCURACY,
     build_molecule,
 )
-from vibrapol.errors import InputFormatError, VibrapolError
+from vibrapol.errors import InputFormatError, OptionError, VibrapolError
 from vibrapol.fileio import check_outputs, check_writable
 from vibrapol.sources.modes_json import write_modes_json
 from vibrapol.structure import read_structure
@@ -103,7 +103,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--optimizer",
         choices=OPTIMIZERS,
-        default=DEFAULT_OPTIMIZER,
+        default=None,
         help="internal: geomeTRIC in internal coordinates, few steps from rough starts; "
         "cartesian-bfgs: ASE BFGS in Cartesians, the optimiser of earlier versions "
         f"(default: {DEFAULT_OPTIMIZER})",
@@ -112,7 +112,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--step-ang",
         metavar="ANG",
         type=float,
-        default=DEFAULT_STEP_ANG,
+        default=None,
         help=f"finite-difference step in Å (default: {DEFAULT_STEP_ANG})",
     )
     parser.add_argument(
@@ -127,7 +127,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--field-au",
         metavar="AU",
         type=float,
-        default=DEFAULT_FIELD_AU,
+        default=None,
         help=f"field strength of the field route, atomic units (default: {DEFAULT_FIELD_AU})",
     )
     parser.add_argument(
@@ -275,8 +275,37 @@ def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
     return check_outputs(outputs, args.force, inputs=files)
 
 
+#: Options whose value only one kind of run uses: (option, attribute, default).  Given
+#: explicitly for a run that ignores them they are refused: the number would be
+#: silently unused.
+_UNUSED_OPTIONS = (
+    ("--optimizer", "optimizer", DEFAULT_OPTIMIZER),
+    ("--step-ang", "step_ang", DEFAULT_STEP_ANG),
+    ("--field-au", "field_au", DEFAULT_FIELD_AU),
+)
+
+
+def check_unused_options(args: argparse.Namespace) -> None:
+    """Refuse an option given for a run that would ignore it; then fill in the defaults."""
+    ignored = {
+        "optimizer": None if args.optimize else "with --no-optimize (no optimisation is run)",
+        "step_ang": "on the field route (it differentiates in fields of --field-au)"
+        if args.route == "field"
+        else None,
+        "field_au": f"on the {args.route} route (it displaces atoms by --step-ang)"
+        if args.route in ("cartesian", "normal")
+        else None,
+    }
+    for option, name, default in _UNUSED_OPTIONS:
+        if getattr(args, name) is None:
+            setattr(args, name, default)
+        elif ignored[name]:
+            raise OptionError(f"{option} has no effect {ignored[name]}: drop it or change the run")
+
+
 def settings_from_args(args: argparse.Namespace) -> EngineSettings:
     """The engine settings from the options named as its fields (``--use-symmetry``: symmetry)."""
+    check_unused_options(args)
     options = {f.name: f.name for f in dataclasses.fields(EngineSettings) if f.init}
     options["symmetry"] = "use_symmetry"
     return EngineSettings(**{field: getattr(args, option) for field, option in options.items()})

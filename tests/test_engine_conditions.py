@@ -150,3 +150,26 @@ def test_symmetrized_geometry_without_optimisation_is_announced(tmp_path, capsys
     assert "symmetrized to C2v: atoms moved by up to 2.9e-03 Å" in warned[0]
     notes = read_modes_json(out).provenance.notes
     assert notes[0] == "geometry symmetrized, not optimised"
+
+
+def test_assignment_header_repeats_the_spectrum_warnings(tmp_path):
+    # Contract: `vibrapol match` on a structure that is not a minimum warns that its imaginary
+    # mode is left out, and the assignment file's header says so too.
+    from bad_input_cases import good_pair
+    from compare_helpers import CHCL3_MODES
+    from vibrapol.cli import main
+    from vibrapol.sources.modes_json import write_modes_json
+
+    modes = read_modes_json(CHCL3_MODES)
+    freqs = np.array(modes.freqs_cm1)
+    freqs[2] = -freqs[2]  # a non-degenerate mode (403 cm⁻¹), not one of an E pair
+    src = tmp_path / "saddle.modes.json"
+    write_modes_json(dataclasses.replace(modes, freqs_cm1=freqs), src)
+    (tmp_path / "in").mkdir()
+    out = tmp_path / "assigned.csv"
+    said = "1 imaginary mode(s) left out of the spectrum"
+    with pytest.warns(AccuracyWarning, match=re.escape(said)):
+        assert main(["match", str(src), *good_pair(tmp_path), "-o", str(out)]) == 0
+    assert any(
+        line.startswith("# warning: ") and said in line for line in out.read_text().splitlines()
+    )

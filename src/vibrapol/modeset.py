@@ -8,6 +8,7 @@ Every source (quantum-chemistry output, the embedded engine, vibrapol's own JSON
 from __future__ import annotations
 
 import dataclasses
+import re
 import weakref
 from dataclasses import dataclass, field
 from typing import Any
@@ -125,16 +126,58 @@ class Provenance:
         return dataclasses.replace(self, notes=(*self.notes, note))
 
     def level_of_theory(self) -> str:
-        """``method/basis``, followed by the engine's solvent when it recorded one.
+        """``method/basis``, followed by the engine's solvent, open shell, fit and ECPs.
 
-        E.g. ``HF/6-31g* in water (IEF-PCM, ε 78.355, ε∞ 1.7750)``: what tables and figures
-        print as the method.
+        E.g. ``HF/6-31g* in water (IEF-PCM, ε 78.355, ε∞ 1.7750)`` or ``UHF/sto-3g,
+        multiplicity 2 (<S^2> 0.7652), density fitting (def2-svp-jkfit)``: what tables and
+        figures print as the method (:func:`engine_model_tags`).
         """
         text = "/".join(x for x in (self.method, self.basis) if x)
         for note in self.notes:
             if note.startswith(SOLVENT_NOTE_PREFIX):
-                return f"{text} in {note[len(SOLVENT_NOTE_PREFIX) :].split(';')[0]}"
-        return text
+                text += f" in {note[len(SOLVENT_NOTE_PREFIX) :].split(';')[0]}"
+                break
+        return ", ".join([text, *engine_model_tags(self.notes)])
+
+
+#: Engine provenance notes that change the model or its numbers, and the short words that say so
+#: after the level of theory (notes written by vibrapol.engine.openshell.spin_note,
+#: vibrapol.engine.scf.integral_notes, vibrapol.engine.ecp.ecp_note and vibrapol.engine.laser).
+_MODEL_NOTES = (
+    (
+        re.compile(r"^open shell, multiplicity (\d+) .*?<S\^2> = ([0-9.]+)"),
+        lambda m: f"multiplicity {m.group(1)} (<S^2> {m.group(2)})",
+    ),
+    (
+        re.compile(r"^density fitting \(PySCF density_fit\).*?; auxiliary basis ([^;]+);"),
+        lambda m: f"density fitting ({m.group(1).rsplit(': ', 1)[-1]})",
+    ),
+    (
+        re.compile(r"^effective core potential \S+ on (.+?); the other atoms"),
+        lambda m: "ECP on " + re.sub(r" \(\d+ core electrons\)", "", m.group(1)),
+    ),
+    (  # vibrapol.engine.laser: the polarizability at the laser line
+        re.compile(r"^polarizability: dynamic alpha\(-omega; omega\) at the laser line ([0-9.]+) "),
+        lambda m: f"alpha at {float(m.group(1)):g} nm",
+    ),
+)
+
+
+def engine_model_tags(notes: tuple[str, ...]) -> list[str]:
+    """Short words for the open shell (⟨S²⟩), density fitting, ECPs and dynamic α in the notes.
+
+    E.g. ``["multiplicity 2 (<S^2> 0.7652)", "density fitting (def2-universal-jkfit)",
+    "ECP on I", "alpha at 532 nm"]``: what :meth:`Provenance.level_of_theory` adds, so that
+    every table header and spectrum's conditions (files and figures) show them.
+    """
+    tags = []
+    for pattern, words in _MODEL_NOTES:
+        for note in notes:
+            found = pattern.match(note)
+            if found:
+                tags.append(words(found))
+                break
+    return tags
 
 
 def _array(value: Any, name: str, shape: tuple[int | None, ...], dtype: type = float) -> np.ndarray:

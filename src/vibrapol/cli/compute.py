@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import re
 import sys
 from contextlib import ExitStack
 from pathlib import Path
@@ -38,6 +39,7 @@ from vibrapol.engine.estimate import (
 )
 from vibrapol.engine.executors import check_scheduler_address
 from vibrapol.engine.optimize import DEFAULT_OPTIMIZER, OPTIMIZERS
+from vibrapol.engine.prepare import SAME_GEOMETRY_ANG
 from vibrapol.engine.runlock import run_lock, sigterm_as_interrupt
 from vibrapol.engine.scf import (
     DEFAULT_BASIS,
@@ -45,7 +47,7 @@ from vibrapol.engine.scf import (
     DENSITY_FIT_ACCURACY,
     build_molecule,
 )
-from vibrapol.errors import InputFormatError, VibrapolError
+from vibrapol.errors import InputFormatError, OptionError, VibrapolError
 from vibrapol.fileio import check_outputs, check_writable
 from vibrapol.sources.modes_json import write_modes_json
 from vibrapol.structure import read_structure
@@ -101,7 +103,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument(
         "--optimizer",
         choices=OPTIMIZERS,
-        default=DEFAULT_OPTIMIZER,
+        default=None,
         help="internal: geomeTRIC in internal coordinates, few steps from rough starts; "
         "cartesian-bfgs: ASE BFGS in Cartesians, the optimiser of earlier versions "
         f"(default: {DEFAULT_OPTIMIZER})",
@@ -110,7 +112,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--step-ang",
         metavar="ANG",
         type=float,
-        default=DEFAULT_STEP_ANG,
+        default=None,
         help=f"finite-difference step in Å (default: {DEFAULT_STEP_ANG})",
     )
     parser.add_argument(
@@ -129,7 +131,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "--field-au",
         metavar="AU",
         type=float,
-        default=DEFAULT_FIELD_AU,
+        default=None,
         help=f"field strength of the field route, atomic units (default: {DEFAULT_FIELD_AU})",
     )
     parser.add_argument(
@@ -277,8 +279,37 @@ def output_paths(files: list[Path], args: argparse.Namespace) -> list[Path]:
     return check_outputs(outputs, args.force, inputs=files)
 
 
+#: Options whose value only one kind of run uses: (option, attribute, default).  Given
+#: explicitly for a run that ignores them they are refused: the number would be
+#: silently unused.
+_UNUSED_OPTIONS = (
+    ("--optimizer", "optimizer", DEFAULT_OPTIMIZER),
+    ("--step-ang", "step_ang", DEFAULT_STEP_ANG),
+    ("--field-au", "field_au", DEFAULT_FIELD_AU),
+)
+
+
+def check_unused_options(args: argparse.Namespace) -> None:
+    """Refuse an option given for a run that would ignore it; then fill in the defaults."""
+    ignored = {
+        "optimizer": None if args.optimize else "with --no-optimize (no optimisation is run)",
+        "step_ang": "on the field route (it differentiates in fields of --field-au)"
+        if args.route == "field"
+        else None,
+        "field_au": f"on the {args.route} route (it displaces atoms by --step-ang)"
+        if args.route in ("cartesian", "normal")
+        else None,
+    }
+    for option, name, default in _UNUSED_OPTIONS:
+        if getattr(args, name) is None:
+            setattr(args, name, default)
+        elif ignored[name]:
+            raise OptionError(f"{option} has no effect {ignored[name]}: drop it or change the run")
+
+
 def settings_from_args(args: argparse.Namespace) -> EngineSettings:
     """The engine settings from the options named as its fields (``--use-symmetry``: symmetry)."""
+    check_unused_options(args)
     options = {f.name: f.name for f in dataclasses.fields(EngineSettings) if f.init}
     options["symmetry"] = "use_symmetry"
     return EngineSettings(**{field: getattr(args, option) for field, option in options.items()})
@@ -359,6 +390,19 @@ def _check_cost(atoms, settings, name: str, yes: bool) -> str | None:  # noqa: A
     return f"{name}: estimated cost {cost.describe()}, an order of magnitude"
 
 
+def symmetrization_shift_ang(notes: tuple[str, ...]) -> float:
+    """The largest atom shift of the engine's symmetrization recorded in ``notes`` (0 if none)."""
+    for note in notes:
+        found = _SHIFT_NOTE.search(note)
+        if found:
+            return float(found.group(1))
+    return 0.0
+
+
+#: How the engine's provenance records the symmetrization (vibrapol.engine.prepare).
+_SHIFT_NOTE = re.compile(r"geometry symmetrized \(max shift ([0-9.]+e[+-]\d+) Å\)")
+
+
 def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  # noqa: ANN001
     try:
         write_modes_json(result.modes, output, force=force)
@@ -370,6 +414,12 @@ def _report(result, item: BatchItem, output: Path, say, force: bool) -> None:  #
         ) from exc
     prefix = f"{item.name}: " if item.name else ""
     opt = result.optimization
+    shift = symmetrization_shift_ang(result.modes.provenance.notes)
+    if opt is None and shift >= SAME_GEOMETRY_ANG:
+        say(
+            f"{prefix}warning: geometry not optimised but symmetrized to {result.point_group}: "
+            f"atoms moved by up to {shift:.1e} Å (--no-use-symmetry keeps it as given)"
+        )
     if opt is not None:
         say(
             f"{prefix}geometry optimised ({opt.optimizer}) in {opt.n_steps} steps, "

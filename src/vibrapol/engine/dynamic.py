@@ -51,6 +51,12 @@ N_EXCITED_STATES = 5
 #: with the sum over all TDHF states to 3e-8 relative (tests/test_engine_dynamic.py).
 RESPONSE_RESIDUAL_MAX = 1e-3
 
+#: Residual (max norm, au) below which the response solution is not refined further (where
+#: one Krylov solve usually stops, as the static CPHF's does), and the largest number of
+#: Krylov solves: measured, the residual stalls near 1e-6 after 3–6 solves.
+RESPONSE_RESIDUAL_TARGET = 1e-5
+RESPONSE_REFINEMENTS = 8
+
 
 class PreResonanceWarning(AccuracyWarning):
     """The laser is close below an electronic excitation: the non-resonant theory fails."""
@@ -118,9 +124,22 @@ def dynamic_polarizability(mf, omega_au: float) -> np.ndarray:
         z = np.asarray(z).reshape(-1, diag.size)
         return (vind(z) - diag * z) / denom
 
-    z = lib.krylov(aop, rhs / denom, tol=CPHF_TOL, max_cycle=CPHF_MAX_CYCLE)
-    z = np.asarray(z).reshape(3, diag.size)
-    residual = float(np.abs(vind(z) - omega * z - rhs).max())
+    # PySCF's Krylov solver stops early on this non-symmetric system when a weak transition
+    # couples to the field (residual 1e-3 for a slightly non-planar formaldehyde at 350 nm):
+    # solve again for the remaining residual (iterative refinement) until it stops falling.
+    z = np.zeros_like(rhs)
+    best, residual = z, np.inf
+    for _ in range(RESPONSE_REFINEMENTS):
+        left = rhs - (vind(z) - omega * z)
+        now = float(np.abs(left).max())
+        stalled = now > 0.5 * residual
+        if now < residual:
+            best, residual = z, now
+        if stalled or residual < RESPONSE_RESIDUAL_TARGET:
+            break
+        dz = lib.krylov(aop, left / denom, tol=CPHF_TOL, max_cycle=CPHF_MAX_CYCLE)
+        z = z + np.asarray(dz).reshape(3, diag.size)
+    z = best
     if residual > RESPONSE_RESIDUAL_MAX:
         raise EngineConvergenceError(
             f"the response equations at ħω = {omega * HARTREE_EV:.3f} eV did not converge "

@@ -262,7 +262,8 @@ def _provenance(
 
     spec, plan, opt = settings.spec, prep.plan, prep.optimization
     if opt is None:
-        notes = ["geometry used as given (not optimised)"]
+        moved = prep.symmetry_shift_ang >= SAME_GEOMETRY_ANG  # symmetrized: not as given
+        notes = [f"geometry {'symmetrized, ' if moved else 'used as given, '}not optimised"]
     else:
         notes = [opt.describe()]
     if settings.symmetry:

@@ -99,7 +99,10 @@ class MethodSpec:
         object.__setattr__(self, "basis", self.basis.strip().lower())
         aux = self.auxbasis.strip().lower() if self.auxbasis else None
         if aux is not None and not self.density_fit:
-            raise EngineInputError("an auxiliary basis needs density fitting (--density-fit)")
+            raise EngineInputError(
+                "--auxbasis needs density fitting (--density-fit): without it every integral "
+                "is exact and no auxiliary basis is used"
+            )
         object.__setattr__(self, "auxbasis", aux)
 
     @property

@@ -187,7 +187,7 @@ def check_dynamic(
             raise OptionError(f"laser wavelength {laser_nm!r} is not a number (nm)") from exc
         lo, hi = LASER_NM_RANGE
         if not lo <= value <= hi:
-            raise OptionError(f"laser wavelength {laser_nm} nm is outside {lo:g}–{hi:g} nm")
+            raise OptionError(f"laser wavelength {value:g} nm is outside {lo:g}–{hi:g} nm")
         laser_nm = value
         if multiplicity != 1:
             raise OptionError(

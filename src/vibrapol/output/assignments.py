@@ -68,6 +68,7 @@ def assignment_conditions(
         items.append(("measured spectra", "; ".join(steps) or "as read, no cleaning recorded"))
     items.append(("scale", how))
     items += [(k, v) for k, v in assignment.sticks.conditions.items() if k != "scale"]
+    items += [("warning", w) for w in assignment.sticks.warnings]
     items += [("note", n) for n in notes]
     items.append(
         (

@@ -54,7 +54,7 @@ def shift_header(shifts: IsotopeShifts, warnings: list[str] | tuple[str, ...] = 
     return {
         "source": p.source_file,
         "program": p.program,
-        "method": "/".join(x for x in (p.method, p.basis) if x),
+        "method": p.level_of_theory(),
         "parent_masses": p.masses,
         "isotopologue_masses": shifts.heavy.provenance.masses,
         "pairing": "largest overlap of unit Cartesian displacements (one to one)",

@@ -63,8 +63,12 @@ def conditions_items(
     components: tuple[str, ...] = (),
     weights: tuple[float, ...] = (),
     columns: str = "",
+    warned: tuple[str, ...] = (),
 ) -> list[tuple[str, str]]:
-    """(name, value) pairs stating how a spectrum was computed (CSV header, DataFrame attrs)."""
+    """(name, value) pairs stating how a spectrum was computed (CSV header, DataFrame attrs).
+
+    Each warning given while computing it (``warned``) is one ``warning`` pair.
+    """
     items = [("vibrapol", "computed Raman spectrum (a prediction, not a measurement)")]
     items += conditions.items()
     items.append(("line shape", lineshape_text(lineshape)))
@@ -78,6 +82,7 @@ def conditions_items(
                 ),
             )
         )
+    items += [("warning", w) for w in warned]
     if columns:
         items.append(("columns", columns))
     items.append(("constants", CODATA_VERSION))
@@ -111,6 +116,7 @@ def grid_items(grid: GridSpectrum) -> list[tuple[str, str]]:
         st.components,
         st.weights,
         f"{_shift_note(st.conditions)}; channels in {grid.unit}",
+        st.warnings,
     )
 
 
@@ -148,6 +154,7 @@ def stick_items(sticks: StickSpectrum) -> list[tuple[str, str]]:
         sticks.weights,
         f"{_shift_note(c)}; harmonic_cm1 = unscaled; rho_linear = vh/vv and rho_natural = "
         f"nh/nv at {c.geometry_deg} deg for this sample ({c.orientation}); channels in {c.unit}",
+        sticks.warnings,
     )
 
 
@@ -246,6 +253,7 @@ def header(sticks: StickSpectrum) -> dict[str, Any]:
             {"source": s, "weight": w}
             for s, w in zip(sticks.components, sticks.weights, strict=True)
         ],
+        "warnings": list(sticks.warnings),
         "constants": CODATA_VERSION,
     }
 

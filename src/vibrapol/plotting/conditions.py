@@ -43,8 +43,10 @@ def shift_label(conditions: Conditions) -> str:
     return f"{base}, scaled in two regions"
 
 
-def caption_text(conditions: Conditions, lineshape: LineShape | None = None) -> str:
-    """One paragraph with every condition, in mathtext where a formula appears."""
+def caption_text(
+    conditions: Conditions, lineshape: LineShape | None = None, warned: tuple[str, ...] = ()
+) -> str:
+    """One paragraph with every condition (and warning), in mathtext where a formula appears."""
     c = conditions
     parts = [
         rf"$\lambda_0$ = {c.laser_nm:g} nm, $T$ = {c.temperature_k:g} K",
@@ -65,12 +67,18 @@ def caption_text(conditions: Conditions, lineshape: LineShape | None = None) -> 
 
         parts.append(_plain(lineshape_text(lineshape)).replace("cm-1", "cm$^{-1}$"))
     parts.append(_plain(c.method) if c.method else "method not recorded by the source")
+    parts += [f"warning: {_plain(w)}" for w in warned]
     return "; ".join(parts)
 
 
-def add_caption(fig: Figure, conditions: Conditions, lineshape: LineShape | None = None) -> None:
-    """Write the conditions under the axes (constrained layout makes room for them)."""
-    text = _keep_maths_whole(caption_text(conditions, lineshape))
+def add_caption(
+    fig: Figure,
+    conditions: Conditions,
+    lineshape: LineShape | None = None,
+    warned: tuple[str, ...] = (),
+) -> None:
+    """Write the conditions (and ``warned``) under the axes (constrained layout makes room)."""
+    text = _keep_maths_whole(caption_text(conditions, lineshape, warned))
     lines = textwrap.wrap(text, int(_CHARS_PER_INCH * fig.get_figwidth()))
     lines = [line.replace("\x00", " ") for line in lines]
     fig.supxlabel("\n".join(lines), fontsize=CAPTION_PT, color="#444444", ha="center")

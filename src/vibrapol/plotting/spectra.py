@@ -223,7 +223,7 @@ def spectrum_figure(
             fig.supylabel(ylabel, fontsize=8.0)
         axes[-1].set_xlabel(shift_label(grid.sticks.conditions))
         if caption:
-            add_caption(fig, grid.sticks.conditions, grid.lineshape)
+            add_caption(fig, grid.sticks.conditions, grid.lineshape, grid.sticks.warnings)
         if title:
             fig.suptitle(title, fontsize=8.0)
         if label_count and label_channel in chans:
@@ -358,7 +358,7 @@ def depolarization_figure(
             if kind == "linear"
             else r"$\rho_\mathrm{natural}$ = NH/NV"
         )
-        add_caption(fig, sticks.conditions)
+        add_caption(fig, sticks.conditions, warned=sticks.warnings)
         # Outside the axes, above them: the markers near 3/4 stay visible.
         fig.legend(
             handles=handles,

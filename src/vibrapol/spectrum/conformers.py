@@ -14,6 +14,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import re
 import warnings
 from collections import Counter
 from collections.abc import Sequence
@@ -23,7 +24,7 @@ import numpy as np
 
 from vibrapol import units
 from vibrapol.errors import AccuracyWarning, VibrapolError
-from vibrapol.modeset import ModeSet
+from vibrapol.modeset import ModeSet, Provenance
 from vibrapol.spectrum import (
     DEFAULT_LINESHAPE,
     GridSpectrum,
@@ -61,8 +62,9 @@ def check_conformers(
     Raises
     ------
     VibrapolError
-        When the compositions differ (different molecules) or the recorded methods or basis
-        sets differ (energies from different levels cannot be compared).
+        When the compositions differ (different molecules) or the recorded methods, basis
+        sets or engine models (solvent, multiplicity, density fitting, ECPs) differ (energies
+        from different levels cannot be compared).
 
     Warns
     -----
@@ -90,15 +92,26 @@ def check_conformers(
             )
             continue
         levels.append(
-            (name, f"{p.method}/{p.basis}", parse_method(p.method), normalize_basis(p.basis))
+            (name, p.level_of_theory(), parse_method(p.method), normalize_basis(p.basis), _model(p))
         )
-    for name, text, method, basis in levels[1:]:
-        if (method, basis) != levels[0][2:]:
+    for name, text, *level in levels[1:]:
+        if tuple(level) != levels[0][2:]:
             raise VibrapolError(
                 f"{levels[0][0]} ({levels[0][1]}) and {name} ({text}) were computed at different "
                 "levels of theory: their energies cannot weight a Boltzmann mixture; overlay "
                 f"them with {overlay_hint}"
             )
+
+
+def _model(p: Provenance) -> str:
+    """The engine's model beyond method/basis, as the level of theory names it.
+
+    The solvent, multiplicity, density fitting and ECPs; not ⟨S²⟩, which differs from one
+    geometry to the next.
+    """
+    level = p.level_of_theory()
+    extra = level[len("/".join(x for x in (p.method, p.basis) if x)) :]
+    return re.sub(r" \(<S\^2> [0-9.]+\)", "", extra)
 
 
 def boltzmann_weights(
@@ -217,6 +230,7 @@ def mixture(
         components=tuple(s.components[0] for s in spectra),
         weights=tuple(float(x) for x in w),
         conditions=dataclasses.replace(first.conditions, method=methods),
+        warnings=tuple(dict.fromkeys(w for s in spectra for w in s.warnings)),
     )
 
 
@@ -305,4 +319,5 @@ def _component(sticks: StickSpectrum, k: int) -> StickSpectrum:
         components=(sticks.components[k],),
         weights=(sticks.weights[k],),
         conditions=sticks.conditions,
+        warnings=sticks.warnings,
     )

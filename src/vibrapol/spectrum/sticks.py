@@ -181,6 +181,9 @@ class StickSpectrum:
     unresolved : ndarray of bool (n,)
         Totally symmetric, but ρ too close to 3/4 for a measurement to tell it from a
         depolarized band (:mod:`vibrapol.polarization`); all False when not given.
+    warnings : tuple of str
+        What :func:`stick_spectrum` warned of while making it (modes left out, α computed at
+        another laser line, …), repeated in the header of every file and figure made from it.
     """
 
     positions_cm1: np.ndarray
@@ -197,6 +200,7 @@ class StickSpectrum:
     weights: tuple[float, ...] = (1.0,)
     conditions: Conditions = Conditions()
     unresolved: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
+    warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         n = np.asarray(self.positions_cm1).shape[0]
@@ -363,17 +367,20 @@ def stick_spectrum(
     where = modes.provenance.source_file or "this mode set"
     scale.check_belongs(modes.provenance.method, modes.provenance.basis, where)
     desc = "isotropic" if orientation is None else orientation.description
+    said: list[str] = []  # every warning, for the headers of what is made from the spectrum
+
+    def warn(message: str) -> None:
+        said.append(message)
+        warnings.warn(message, AccuracyWarning, stacklevel=3)
+
     method = modes.provenance.level_of_theory()
     alpha_nm = dynamic_alpha_nm(modes)
-    if alpha_nm is not None:
-        method += f", alpha at {alpha_nm:g} nm"
+    if alpha_nm is not None:  # the method line says "alpha at … nm" (level_of_theory)
         if abs(alpha_nm - laser_nm) > 0.5:
-            warnings.warn(
+            warn(
                 f"{where}: its polarizability derivatives were computed at {alpha_nm:g} nm, "
                 f"this spectrum is for a {laser_nm:g} nm laser (only the frequency factor "
-                "follows the new line)",
-                AccuracyWarning,
-                stacklevel=2,
+                "follows the new line)"
             )
     cond = Conditions(
         quantity, laser_nm, temperature_k, geometry_deg, side, scale, desc, detector, method
@@ -395,21 +402,17 @@ def stick_spectrum(
     pos = np.array([np.mean(scaled[list(s)]) for s in sets])
     keep = pos > 0
     if np.any(modes.freqs_cm1 < 0):
-        warnings.warn(
+        warn(
             f"{modes.provenance.source_file or 'mode set'}: "
             f"{int(np.sum(modes.freqs_cm1 < 0))} imaginary "
-            "mode(s) left out of the spectrum (the structure is not a minimum)",
-            AccuracyWarning,
-            stacklevel=2,
+            "mode(s) left out of the spectrum (the structure is not a minimum)"
         )
     sets = [s for s, k in zip(sets, keep, strict=True) if k]
     pos = pos[keep]
     if quantity != "activity" and np.any(pos < LOW_BAND_CM1):
-        warnings.warn(
+        warn(
             f"{modes.provenance.source_file or 'mode set'}: band(s) below {LOW_BAND_CM1:g} cm-1 "
-            "(residual rotations or translations?) get a huge thermal factor and may dominate",
-            AccuracyWarning,
-            stacklevel=2,
+            "(residual rotations or translations?) get a huge thermal factor and may dominate"
         )
     summed = sum_over_sets(per_mode, sets).reshape(len(sets), len(every))
     heights = summed[:, : len(chans)]
@@ -442,4 +445,5 @@ def stick_spectrum(
         component=np.zeros(len(sets) * rep, dtype=int),
         components=(label or modes.provenance.source_file,),
         conditions=cond,
+        warnings=tuple(said),
     )

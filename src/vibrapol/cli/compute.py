@@ -293,12 +293,16 @@ def check_unused_options(args: argparse.Namespace) -> None:
     """Refuse an option given for a run that would ignore it; then fill in the defaults."""
     ignored = {
         "optimizer": None if args.optimize else "with --no-optimize (no optimisation is run)",
-        "step_ang": "on the field route (it differentiates in fields of --field-au)"
-        if args.route == "field"
-        else None,
-        "field_au": f"on the {args.route} route (it displaces atoms by --step-ang)"
-        if args.route in ("cartesian", "normal")
-        else None,
+        "step_ang": {
+            "field": "on the field route (it differentiates in fields of --field-au)",
+            "analytic": "on the analytic route (it takes no finite differences)",
+        }.get(args.route),
+        "field_au": {
+            "cartesian": "on the cartesian route (it displaces atoms by --step-ang)",
+            "normal": "on the normal route (it displaces atoms by --step-ang)",
+            "displacement": "on the displacement route (it displaces atoms by --step-ang)",
+            "analytic": "on the analytic route (it takes no finite differences)",
+        }.get(args.route),
     }
     for option, name, default in _UNUSED_OPTIONS:
         if getattr(args, name) is None:

@@ -328,3 +328,15 @@ def test_analytic_route_is_refused_where_not_implemented():
     ):
         with pytest.raises(OptionError, match="analytic route cannot run here"):
             EngineSettings(route="analytic", **kwargs)
+
+
+def test_auto_leaves_out_the_analytic_route_where_it_would_fail():
+    # Contract: auto never picks a route whose task refuses the molecule: iodine with def2-SVP
+    # carries an ECP (def2 puts one on elements beyond Kr, common practice), so the analytic
+    # route is not among auto's choices there; without an ECP it is.
+    from vibrapol.engine.autoroute import hessian_routes_allowed
+    from vibrapol.engine.settings import EngineSettings
+
+    settings = EngineSettings(method="hf", basis="def2-svp")
+    assert "analytic" not in hessian_routes_allowed(settings, np.array([1, 53]))
+    assert "analytic" in hessian_routes_allowed(settings, np.array([1, 9]))

@@ -23,10 +23,13 @@ from vibrapol.engine.scf import MethodSpec
 ANALYTIC_TO_HESSIAN = 0.25
 
 
-def analytic_unsupported(spec: MethodSpec, dynamic: bool = False) -> str | None:
+def analytic_unsupported(
+    spec: MethodSpec, dynamic: bool = False, atomic_numbers: np.ndarray | None = None
+) -> str | None:
     """Why the analytic route cannot run with ``spec`` (None: it can).
 
-    Pseudopotentials are found only when the molecule is built (the task then refuses them).
+    Pseudopotentials depend on the atoms: with ``atomic_numbers`` they are looked for here,
+    without them the task refuses them when it builds the molecule.
     """
     if not spec.is_hf:
         return "it is implemented for Hartree–Fock only (DFT kernel terms not yet)"
@@ -38,6 +41,11 @@ def analytic_unsupported(spec: MethodSpec, dynamic: bool = False) -> str | None:
         return "it does not use density fitting"
     if dynamic:
         return "it gives the static polarizability derivatives only"
+    if atomic_numbers is not None:
+        from vibrapol.engine.ecp import ecp_core_electrons
+
+        if ecp_core_electrons(spec.basis, atomic_numbers):
+            return "it does not handle effective core potentials"
     return None
 
 

@@ -145,15 +145,22 @@ def combined_choice(family: FamilyChoice, route: RouteChoice) -> RouteChoice:
     )
 
 
-def hessian_routes_allowed(settings: EngineSettings) -> tuple[str, ...]:
-    """The Hessian routes ``auto`` may take: no field route in a solvent or with α(ω)."""
+def hessian_routes_allowed(
+    settings: EngineSettings, atomic_numbers: np.ndarray | None = None
+) -> tuple[str, ...]:
+    """The Hessian routes ``auto`` may take.
+
+    No field route in a solvent or with α(ω); the analytic route only where it is implemented
+    (:func:`~vibrapol.engine.analyticroute.analytic_unsupported`; with ``atomic_numbers``, not
+    when the basis set puts an ECP on one of them).
+    """
     from vibrapol.engine.analyticroute import analytic_unsupported
     from vibrapol.engine.solvent import allowed_routes
 
     routes = allowed_routes(HESSIAN_ROUTES, settings.spec.solvent)
     if settings.dynamic:  # the field route gives the static α only
         routes = tuple(r for r in routes if r != "field")
-    if analytic_unsupported(settings.spec, settings.dynamic) is not None:
+    if analytic_unsupported(settings.spec, settings.dynamic, atomic_numbers) is not None:
         routes = tuple(r for r in routes if r != "analytic")
     return routes
 
@@ -174,6 +181,7 @@ def hessian_needed(
     group: PointGroup | None,
     ref: ReferenceResult,
     workers: int,
+    atomic_numbers: np.ndarray | None = None,
 ) -> FamilyChoice:
     """Whether the run computes the analytic Hessian: requested, or :func:`choose_family`."""
     if settings.route != "auto":
@@ -181,7 +189,7 @@ def hessian_needed(
     excluded = displacement_excluded(settings)
     if excluded is not None:
         return FamilyChoice(True, f"auto: displacement route not considered: {excluded}", {})
-    routes = hessian_routes_allowed(settings)
+    routes = hessian_routes_allowed(settings, atomic_numbers)
     plans = {
         r: _plan(r, settings, coordinates_ang, masses_da, group, None)
         for r in (*(r for r in routes if r != "normal-mode"), "displacement")
@@ -199,13 +207,17 @@ def pick_route(
     modes: np.ndarray | None,
     ref: ReferenceResult,
     workers: int,
+    atomic_numbers: np.ndarray | None = None,
 ) -> tuple[RouteChoice, Plan]:
     """The route and its plan once the Hessian question is settled (``modes``: its modes)."""
     if not family.hessian:
         plan = _plan("displacement", settings, coordinates_ang, masses_da, group, None)
         estimates = family.estimates_s
         return RouteChoice("displacement", plan.n_tasks, family.reason, estimates), plan
-    wanted = hessian_routes_allowed(settings) if settings.route == "auto" else (settings.route,)
+    if settings.route == "auto":
+        wanted = hessian_routes_allowed(settings, atomic_numbers)
+    else:
+        wanted = (settings.route,)
     if modes is None:  # before the Hessian: only the routes that need no modes
         wanted = tuple(r for r in wanted if r != "normal-mode")
     plans = {r: _plan(r, settings, coordinates_ang, masses_da, group, modes) for r in wanted}

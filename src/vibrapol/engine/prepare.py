@@ -204,13 +204,21 @@ def plan_route(m: Molecule, settings: EngineSettings, workers: int = 1) -> bool:
     group = m.group if settings.symmetry else None
     if m.family is None:
         m.family = hessian_needed(
-            settings, m.coordinates_ang, m.masses_da, group, m.reference, workers
+            settings, m.coordinates_ang, m.masses_da, group, m.reference, workers, m.atomic_numbers
         )
     if m.family.hessian and m.harmonic is None and settings.route not in ROUTES_WITHOUT_MODES:
         return False
     modes = None if m.harmonic is None else m.harmonic.modes
     m.choice, m.plan = pick_route(
-        settings, m.family, m.coordinates_ang, m.masses_da, group, modes, m.reference, workers
+        settings,
+        m.family,
+        m.coordinates_ang,
+        m.masses_da,
+        group,
+        modes,
+        m.reference,
+        workers,
+        m.atomic_numbers,
     )
     m.jobs, m.keys, m.labels = make_jobs(
         m.plan,

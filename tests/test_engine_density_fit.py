@@ -147,12 +147,13 @@ def water_df_runs():
 
 def test_density_fitted_run_agrees_with_exact_integrals_within_the_stated_accuracy(water_df_runs):
     # Reference: the exact-integral run (HF/3-21G water, each optimised with its own
-    # integrals).  Stated accuracy (docs/engine-routes.md, measured on water and benzene):
-    # |Δν| ≤ 1 cm⁻¹, activities ≤ 0.5 %, |Δρ| ≤ 0.005.
+    # integrals).  Stated accuracy (docs/engine-routes.md, measured on water, benzene and
+    # ethanol): |Δν| ≤ 1 cm⁻¹, activities ≤ 1 % (bands above 1 % of the strongest; all of
+    # water's are), |Δρ| ≤ 0.005.
     exact = raman_table(water_df_runs["exact"].modes)
     fitted = raman_table(water_df_runs["df"].modes)
     assert np.abs(fitted.freqs_cm1 - exact.freqs_cm1).max() < 1.0
-    assert np.abs(fitted.activity / exact.activity - 1.0).max() < 5e-3
+    assert np.abs(fitted.activity / exact.activity - 1.0).max() < 1e-2
     assert np.abs(fitted.rho_linear - exact.rho_linear).max() < 5e-3
     # …and it is a different model, not the exact one run again.
     assert np.abs(fitted.freqs_cm1 - exact.freqs_cm1).max() > 1e-3
@@ -246,5 +247,5 @@ def test_provenance_notes_name_the_dft_grid_and_the_fit():
     b3lyp = MethodSpec("b3lyp", "sto-3g", density_fit=True, auxbasis="def2-universal-jkfit")
     notes = integral_notes(build_molecule(z, x, b3lyp), b3lyp)
     assert any("grids.level 3" in n for n in notes)
-    assert any("def2-universal-jkfit" in n and "0.5 %" in n for n in notes)
+    assert any("def2-universal-jkfit" in n and "1 % in the activities" in n for n in notes)
     assert integral_notes(build_molecule(z, x, HF_STO), HF_STO) == []

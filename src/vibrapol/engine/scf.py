@@ -379,8 +379,9 @@ def _with_models(mf, spec: MethodSpec):  # noqa: ANN001, ANN202
 #: Accuracy of density fitting against exact integrals, measured (docs/engine-routes.md,
 #: "Cheaper field tasks and integrals"); quoted in the provenance and the option's help.
 DENSITY_FIT_ACCURACY = (
-    "measured error against exact integrals at most about 1 cm-1 in frequencies, 0.5 % in "
-    "activities and 0.005 in depolarization ratios"
+    "measured error against exact integrals at most about 1 cm-1 in frequencies, 1 % in the "
+    "activities of bands above 1 % of the strongest (2 % on weaker ones) and 0.005 in "
+    "depolarization ratios"
 )
 
 

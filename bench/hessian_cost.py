@@ -29,15 +29,16 @@ from time import perf_counter
 def _measure(system: str, method: str, basis: str) -> dict:
     from ase.build import molecule
 
-    from vibrapol.engine.evaluate import reference_calculation, reference_hessian
     from vibrapol.engine.scf import MethodSpec
+    from vibrapol.engine.stages import HessianJob, ScfJob
 
     atoms = molecule(system)
     z, xyz = atoms.get_atomic_numbers(), atoms.get_positions()
     spec = MethodSpec(method, basis)
-    ref = reference_calculation(z, xyz, spec, with_hessian=False)
+    scf = ScfJob(z, xyz, spec).run()  # the engine's reference stage
+    ref = scf.reference
     t0 = perf_counter()
-    reference_hessian(z, xyz, spec, ref.density)
+    HessianJob.after(scf, z, xyz, spec).run()  # and its Hessian stage
     hessian = perf_counter() - t0
     point = ref.seconds_scf + ref.seconds_alpha + ref.seconds_gradient
     return {

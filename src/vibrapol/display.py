@@ -282,6 +282,11 @@ def modeset_html(modes: ModeSet) -> str:
     return html_block(modeset_lines(modes), notes, html_table(columns, rows))
 
 
+def _pairs_view(lines: list[str], pairs, columns, rows) -> str:  # noqa: ANN001
+    """The notebook view of an object whose header is (name, value) pairs and a table."""
+    return html_block(lines, [f"{k}: {v}" for k, v in pairs], html_table(columns, rows))
+
+
 def table_html(table: RamanTable) -> str:
     """The notebook view of a RamanTable: the CSV's columns and the header's notes and warnings."""
     from vibrapol.output.tables import TABLE_COLUMNS, table_notes, table_rows
@@ -296,18 +301,18 @@ def sticks_html(sticks: StickSpectrum) -> str:
     """The notebook view of a StickSpectrum: conditions and the stick CSV's rows."""
     from vibrapol.output.spectra import stick_columns, stick_items, stick_rows
 
-    items = [f"{k}: {v}" for k, v in stick_items(sticks)]
-    table = html_table(stick_columns(sticks), stick_rows(sticks))
-    return html_block(sticks_lines(sticks), items, table)
+    return _pairs_view(
+        sticks_lines(sticks), stick_items(sticks), stick_columns(sticks), stick_rows(sticks)
+    )
 
 
 def grid_html(grid: GridSpectrum) -> str:
     """The notebook view of a GridSpectrum: conditions and the sticks it was broadened from."""
     from vibrapol.output.spectra import grid_items, stick_columns, stick_rows
 
-    items = [f"{k}: {v}" for k, v in grid_items(grid)]
-    table = html_table(stick_columns(grid.sticks), stick_rows(grid.sticks))
-    return html_block(grid_lines(grid), items, table)
+    return _pairs_view(
+        grid_lines(grid), grid_items(grid), stick_columns(grid.sticks), stick_rows(grid.sticks)
+    )
 
 
 def bands_html(bands: MeasuredBands) -> str:
@@ -318,9 +323,12 @@ def bands_html(bands: MeasuredBands) -> str:
         measured_conditions,
     )
 
-    items = [f"{k}: {v}" for k, v in measured_conditions(bands)]
-    table = html_table(MEASURED_BAND_COLUMNS, measured_band_rows(bands))
-    return html_block(bands_lines(bands), items, table)
+    return _pairs_view(
+        bands_lines(bands),
+        measured_conditions(bands),
+        MEASURED_BAND_COLUMNS,
+        measured_band_rows(bands),
+    )
 
 
 def assignment_html(assignment: Assignment) -> str:
@@ -331,15 +339,18 @@ def assignment_html(assignment: Assignment) -> str:
         assignment_rows,
     )
 
-    items = [f"{k}: {v}" for k, v in assignment_conditions(assignment)]
-    table = html_table(ASSIGNMENT_COLUMNS, assignment_rows(assignment))
-    return html_block(assignment_lines(assignment), items, table)
+    return _pairs_view(
+        assignment_lines(assignment),
+        assignment_conditions(assignment),
+        ASSIGNMENT_COLUMNS,
+        assignment_rows(assignment),
+    )
 
 
 def ranking_html(ranking: Ranking) -> str:
     """The notebook view of a Ranking: one row per candidate, best first."""
     from vibrapol.output.assignments import RANKING_COLUMNS, ranking_conditions, ranking_rows
 
-    items = [f"{k}: {v}" for k, v in ranking_conditions(ranking)]
-    table = html_table(RANKING_COLUMNS, ranking_rows(ranking))
-    return html_block(ranking_lines(ranking), items, table)
+    return _pairs_view(
+        ranking_lines(ranking), ranking_conditions(ranking), RANKING_COLUMNS, ranking_rows(ranking)
+    )

@@ -30,7 +30,7 @@ def _ecp_core(basis: str, symbol: str) -> int:
     with contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink):
         try:
             ecp = library.load_ecp(basis, symbol)
-        except Exception:  # noqa: BLE001 - no ECP of that name: an all-electron basis
+        except RuntimeError:  # PySCF: no ECP data of that name, an all-electron basis
             return 0
     return int(ecp[0]) if ecp else 0
 

@@ -14,8 +14,7 @@ from typing import Any, ClassVar
 
 import numpy as np
 
-from vibrapol.engine.hessian import analytic_hessian
-from vibrapol.engine.polarizability import cphf_polarizability, cphf_polarizability_response
+from vibrapol.engine.polarizability import cphf_polarizability
 from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
 from vibrapol.units import BOHR3_TO_ANG3, BOHR_ANG
 
@@ -209,62 +208,22 @@ def evaluate_polarizability_dipole(job: PolarizabilityJob) -> np.ndarray:
 
 
 def reference_calculation(
-    atomic_numbers: np.ndarray,
-    coordinates_ang: np.ndarray,
-    spec: MethodSpec,
-    with_hessian: bool = True,
+    atomic_numbers: np.ndarray, coordinates_ang: np.ndarray, spec: MethodSpec
 ) -> ReferenceResult:
-    """SCF, analytic Hessian and CPHF α at the reference geometry (all threads of the process).
+    """SCF, CPHF α, gradient and analytic Hessian at one geometry, in this process.
 
-    With ``with_hessian`` False the Hessian is skipped (``hessian_hartree_bohr2`` is None):
-    the displacement route builds it from its tasks, and ``auto`` decides whether it is needed
-    from the other timings (:func:`reference_hessian` computes it afterwards).
+    The engine's reference and Hessian stages run one after the other
+    (:class:`~vibrapol.engine.stages.ScfJob`, :class:`~vibrapol.engine.stages.HessianJob`),
+    for scripts and tests that want the whole reference at once.
     """
     from time import perf_counter
 
-    mol = build_molecule(atomic_numbers, coordinates_ang, spec)
+    from vibrapol.engine import stages
+
+    scf = stages.ScfJob(atomic_numbers, coordinates_ang, spec).run()
     t0 = perf_counter()
-    from vibrapol.engine.fieldgrad import field_gradient, tighten_scf
-
-    mf = tighten_scf(run_scf(mol, spec), spec)
-    t1 = perf_counter()
-    hessian = analytic_hessian(mf) if with_hessian else None
-    t2 = perf_counter()
-    alpha_bohr3, density_response = cphf_polarizability_response(mf)
-    alpha = alpha_bohr3 * BOHR3_TO_ANG3
-    t3 = perf_counter()
-    gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
-    t4 = perf_counter()
-    return ReferenceResult(
-        energy_hartree=float(mf.e_tot),
-        hessian_hartree_bohr2=hessian,
-        alpha_ang3=alpha,
-        density=np.asarray(mf.make_rdm1()),
-        gradient_hartree_bohr=gradient,
-        seconds_scf=t1 - t0,
-        seconds_hessian=t2 - t1 if with_hessian else 0.0,
-        seconds_alpha=t3 - t2,
-        seconds_gradient=t4 - t3,
-        density_response=density_response,
-    )
-
-
-def reference_hessian(
-    atomic_numbers: np.ndarray,
-    coordinates_ang: np.ndarray,
-    spec: MethodSpec,
-    density: np.ndarray | None = None,
-) -> np.ndarray:
-    """Analytic Hessian (3N, 3N) in hartree/bohr² at the reference geometry, on its own.
-
-    The SCF is converged again (as tightly as in :func:`reference_calculation`) from the
-    reference ``density``, which takes a cycle or two.
-    """
-    from vibrapol.engine.fieldgrad import tighten_scf
-
-    mol = build_molecule(atomic_numbers, coordinates_ang, spec)
-    mf = tighten_scf(run_scf(mol, spec, dm0=density), spec)
-    return analytic_hessian(mf)
+    hessian = stages.HessianJob.after(scf, atomic_numbers, coordinates_ang, spec).run()
+    return stages.with_hessian(scf.reference, hessian, perf_counter() - t0)
 
 
 def peak_memory_mb() -> float:

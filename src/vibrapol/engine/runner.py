@@ -334,19 +334,6 @@ class TaskRunner:
             entry.done(value, seconds, memory_mb, reused)
 
 
-def run_polarizability_tasks(
-    jobs: Sequence[PolarizabilityJob],
-    keys: Sequence[str],
-    labels: Sequence[str],
-    backend: Backend,
-    store: CheckpointStore | StoreRouter | None = None,
-    progress: Progress | None = None,
-) -> tuple[np.ndarray, TaskStats]:
-    """α (Å³) of every job, in order, as one (n_jobs, 3, 3) array (see :func:`run_tasks`)."""
-    alphas, stats = run_tasks(jobs, keys, labels, backend, store, progress, desc="displacements")
-    return np.array(alphas), stats
-
-
 def _from_store(job: Any, stored: dict[str, np.ndarray] | None) -> tuple[Any, float] | None:
     """A job's result and recorded seconds from its checkpoint row, or None."""
     if stored is None:

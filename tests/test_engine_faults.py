@@ -182,3 +182,25 @@ def test_a_second_run_on_the_same_output_is_refused_with_one_line(tmp_path):
     _, err1 = first.communicate(timeout=60)
     assert first.returncode == 130, err1
     assert not lock.exists() and not out.exists()
+
+
+def test_a_sigterm_swallowed_by_a_destructor_still_stops_the_run():
+    # Contract (found by CI: a SIGTERM landing in tempfile's __del__ was "ignored" and the run
+    # went on to write its output with exit 0): the block records the signal, and check()
+    # raises the interrupt again before results are written.
+    import os
+    import signal as sig
+
+    from vibrapol.engine.runlock import sigterm_as_interrupt
+
+    class KilledWhileCollected:
+        def __del__(self) -> None:
+            os.kill(os.getpid(), sig.SIGTERM)
+            time.sleep(0.05)  # the handler runs here, inside the destructor: its raise is lost
+
+    with sigterm_as_interrupt() as term:
+        victim = KilledWhileCollected()
+        del victim
+        assert term.received
+        with pytest.raises(KeyboardInterrupt):
+            term.check()

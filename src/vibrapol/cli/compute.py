@@ -345,7 +345,7 @@ def run(args: argparse.Namespace) -> int:
         items.append((BatchItem(atoms, str(f), checkpoint_path_for(out)), out))
         if estimate is not None:
             estimates.append(estimate)
-    with ExitStack() as locks, sigterm_as_interrupt():
+    with ExitStack() as locks, sigterm_as_interrupt() as term:
         try:
             for _, out in items:
                 locks.enter_context(run_lock(checkpoint_path_for(out), str(out)))
@@ -361,6 +361,7 @@ def run(args: argparse.Namespace) -> int:
                 progress=args.progress,
                 raise_errors=single,
             )
+            term.check()  # a SIGTERM swallowed by a destructor still stops the run here
             for (item, out), outcome in zip(items, outcomes, strict=True):
                 if outcome.run is None:
                     failures.append(f"{item.name}: {outcome.error}")

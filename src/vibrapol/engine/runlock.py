@@ -113,26 +113,46 @@ def run_lock(checkpoint: str | Path, what: str | None = None) -> Iterator[Path]:
                 os.close(entry[0])
 
 
+class TermSignal:
+    """Whether SIGTERM arrived in a :func:`sigterm_as_interrupt` block.
+
+    The KeyboardInterrupt raised by the handler is lost when the signal lands while Python
+    runs a destructor ("Exception ignored in …"); :meth:`check` raises it again, so the run
+    still stops before it writes its results.
+    """
+
+    def __init__(self) -> None:
+        self.received = False
+
+    def check(self) -> None:
+        """Raise KeyboardInterrupt if SIGTERM arrived (whether or not it was swallowed)."""
+        if self.received:
+            raise KeyboardInterrupt
+
+
 @contextlib.contextmanager
-def sigterm_as_interrupt() -> Iterator[None]:
+def sigterm_as_interrupt() -> Iterator[TermSignal]:
     """Treat SIGTERM like Ctrl-C (KeyboardInterrupt) in the enclosed block (main thread only).
 
     Batch systems and ``kill`` send SIGTERM; turned into KeyboardInterrupt it takes the same
     path as Ctrl-C: worker processes stopped, finished tasks kept in the checkpoint, the lock
-    released, one message and exit status 130.
+    released, one message and exit status 130.  Yields a :class:`TermSignal` whose ``check``
+    repeats an interrupt that a destructor swallowed.
     """
+    term = TermSignal()
     if threading.current_thread() is not threading.main_thread():
-        yield
+        yield term
         return
 
     def interrupt(signum: int, frame: object) -> None:
         # A second SIGTERM while the run stops its workers would break off that clean-up.
         signal.signal(signal.SIGTERM, signal.SIG_IGN)
+        term.received = True
         raise KeyboardInterrupt
 
     previous = signal.signal(signal.SIGTERM, interrupt)
     try:
-        yield
+        yield term
     finally:
         # None: a handler not set from Python, which cannot be put back; use the default.
         signal.signal(signal.SIGTERM, signal.SIG_DFL if previous is None else previous)

@@ -15,19 +15,18 @@ in the tests: HI with def2-SVP, field and Cartesian routes agree).
 
 from __future__ import annotations
 
-import contextlib
-import io
 from functools import lru_cache
 
 import numpy as np
+
+from vibrapol.engine.quiet import quiet_streams
 
 
 @lru_cache(maxsize=256)
 def _ecp_core(basis: str, symbol: str) -> int:
     from pyscf.gto import basis as library
 
-    sink = io.StringIO()
-    with contextlib.redirect_stdout(sink), contextlib.redirect_stderr(sink):
+    with quiet_streams():  # PySCF prints what it cannot find; this thread only
         try:
             ecp = library.load_ecp(basis, symbol)
         except RuntimeError:  # PySCF: no ECP data of that name, an all-electron basis

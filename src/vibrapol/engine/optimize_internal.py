@@ -23,14 +23,15 @@ largest force below the threshold, is thus never passed on a loose gradient.
 from __future__ import annotations
 
 import contextlib
-import io
 import os
 import tempfile
+import threading
 from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
 
+from vibrapol.engine.quiet import quiet_streams
 from vibrapol.engine.scf import (
     EngineConvergenceError,
     MethodSpec,
@@ -138,18 +139,35 @@ class Evaluator:
         return result
 
 
+_LOGGER_LOCK = threading.Lock()
+_LOGGER_USERS = 0
+_LOGGER_STATE: dict[str, bool] = {}
+
+
 @contextlib.contextmanager
 def _silenced() -> Iterator[None]:
-    """Silence geomeTRIC's logger and swallow its stray prints while it runs."""
+    """Silence geomeTRIC's logger and swallow its stray prints while it runs.
+
+    Optimisations may run in several threads at once: the logger is switched off by the first
+    to enter and restored by the last to leave, and the prints are caught in this thread only
+    (:func:`~vibrapol.engine.quiet.quiet_streams`).
+    """
+    global _LOGGER_USERS
     from geometric.nifty import logger
 
-    was = logger.disabled
-    logger.disabled = True
+    with _LOGGER_LOCK:
+        if _LOGGER_USERS == 0:
+            _LOGGER_STATE["disabled"] = logger.disabled
+            logger.disabled = True
+        _LOGGER_USERS += 1
     try:
-        with contextlib.redirect_stdout(io.StringIO()):
+        with quiet_streams():
             yield
     finally:
-        logger.disabled = was
+        with _LOGGER_LOCK:
+            _LOGGER_USERS -= 1
+            if _LOGGER_USERS == 0:
+                logger.disabled = _LOGGER_STATE.pop("disabled")
 
 
 def _engine(evaluator: Evaluator, molecule):  # noqa: ANN001, ANN202

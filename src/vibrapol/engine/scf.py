@@ -10,10 +10,6 @@ line saying what to do.
 
 from __future__ import annotations
 
-import contextlib
-import io
-import warnings
-from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -177,17 +173,14 @@ def check_functional(method: str) -> None:
         ) from exc
 
 
-@contextlib.contextmanager
-def _quiet() -> Iterator[None]:
-    """Swallow what PySCF prints or warns while it looks up a basis (it is reported by us)."""
-    sink = io.StringIO()
-    with (
-        warnings.catch_warnings(),
-        contextlib.redirect_stdout(sink),
-        contextlib.redirect_stderr(sink),
-    ):
-        warnings.simplefilter("ignore")
-        yield
+def _quiet():  # noqa: ANN202
+    """Swallow what PySCF prints while it looks up a basis (it is reported by us).
+
+    In this thread only (:func:`~vibrapol.engine.quiet.quiet_streams`): jobs run in threads too.
+    """
+    from vibrapol.engine.quiet import quiet_streams
+
+    return quiet_streams()
 
 
 def check_basis(basis: str, atomic_numbers: np.ndarray) -> None:

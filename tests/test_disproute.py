@@ -213,7 +213,7 @@ def test_auto_skips_the_analytic_hessian_on_many_workers(monkeypatch):
     assert not many.needs_hessian and many.harmonic is None
     assert "displacement is faster" in many.choice.reason
     serial = Molecule("water", z, x, m, True, None, reference=reference)
-    assert not plan_route(serial, settings, workers=1)  # waits for the Hessian stage
+    plan_route(serial, settings, workers=1)
     assert serial.needs_hessian and serial.family is not None and serial.family.hessian
     assert "the Hessian routes are not slower" in serial.family.reason
 
@@ -267,3 +267,53 @@ def test_displacement_route_for_an_open_shell_agrees_with_the_field_route():
     seen = ref.activity > 1e-3 * ref.activity.max()
     np.testing.assert_allclose(disp.activity[seen], ref.activity[seen], rtol=0.01)
     np.testing.assert_allclose(disp.rho_linear[seen], ref.rho_linear[seen], atol=0.01)
+
+
+def _water_before_hessian(settings):  # noqa: ANN001, ANN202
+    from vibrapol.engine.prepare import Molecule
+    from vibrapol.engine.stages import ScfJob
+    from vibrapol.modeset import default_masses
+
+    atoms = molecule("H2O")
+    z, x, m = atoms.numbers, atoms.positions, default_masses(atoms.numbers)
+    scf = ScfJob(z, x, settings.spec).run()
+    return Molecule("water", z, x, m, True, None, reference=scf.reference), scf
+
+
+def test_auto_lists_its_tasks_before_the_hessian_unless_normal_modes_could_win(monkeypatch):
+    # Contract: ``auto`` lists its derivative tasks right after the reference SCF (so they run
+    # beside the Hessian) and makes there the choice it would make after the Hessian; it waits
+    # for the modes only when the normal-mode route is its cheapest.  (Before, it always
+    # waited.)
+    from vibrapol.engine import routes
+    from vibrapol.engine.autoroute import pick_route
+    from vibrapol.engine.prepare import ROUTES_WITHOUT_MODES, plan_route
+    from vibrapol.engine.settings import EngineSettings
+    from vibrapol.engine.stages import HessianJob, with_hessian
+
+    settings = EngineSettings(method="hf", basis="sto-3g", route="auto", optimize=False)
+    m, scf = _water_before_hessian(settings)
+    assert plan_route(m, settings, workers=1)
+    assert m.harmonic is None and m.needs_hessian
+    assert m.choice is not None and m.choice.route in ROUTES_WITHOUT_MODES
+    assert "listed before the Hessian and run beside it" in m.choice.reason
+    # after the Hessian, with the normal-mode route planned as well, the choice is the same
+    hessian = HessianJob.after(scf, m.atomic_numbers, m.coordinates_ang, settings.spec).run()
+    m.add_hessian(with_hessian(m.reference, hessian, 1.0))
+    assert m.harmonic is not None and m.family is not None
+    after, _ = pick_route(
+        settings, m.family, m.coordinates_ang, m.masses_da, None, m.harmonic.modes,
+        m.reference, 1, m.atomic_numbers,
+    )  # fmt: skip
+    assert after.route == m.choice.route
+
+    # Every route but the normal-mode one made dear (no symmetry: 18 Cartesian tasks against
+    # 6 normal-mode ones of the same price): now auto waits for the modes.
+    monkeypatch.setattr(routes, "FIELD_TASK_FACTOR", 1e6)
+    monkeypatch.setattr(routes, "ANALYTIC_TO_HESSIAN", 1e6)
+    plain = EngineSettings(
+        method="hf", basis="sto-3g", route="auto", optimize=False, symmetry=False
+    )
+    waiting, _ = _water_before_hessian(plain)
+    assert not plan_route(waiting, plain, workers=1)
+    assert waiting.family is not None and waiting.family.hessian and waiting.choice is None

@@ -35,6 +35,7 @@ from vibrapol.engine.routes import (
     Plan,
     RouteChoice,
     build_plan,
+    cheapest_route,
     choose_route,
     parallel_seconds,
     task_seconds,
@@ -198,6 +199,50 @@ def hessian_needed(
     return choose_family(plans, n_normal, ref, settings.spec.is_hf, workers)
 
 
+def normal_mode_estimate(
+    coordinates_ang: np.ndarray, ref: ReferenceResult, workers: int
+) -> tuple[int, float]:
+    """Tasks and estimated wall seconds of the normal-mode route, known before the Hessian.
+
+    Its plan has two tasks per vibrational mode whatever the modes turn out to be, so the
+    estimate is the one :func:`~vibrapol.engine.routes.choose_route` makes after the Hessian.
+    """
+    n = normal_mode_tasks(coordinates_ang)
+    return n, parallel_seconds(n, workers, task_seconds("normal-mode", ref))
+
+
+def modes_needed_to_choose(
+    settings: EngineSettings,
+    coordinates_ang: np.ndarray,
+    masses_da: np.ndarray,
+    group: PointGroup | None,
+    ref: ReferenceResult,
+    workers: int,
+    atomic_numbers: np.ndarray | None = None,
+) -> bool:
+    """Whether ``auto`` must wait for the Hessian's modes before it lists its tasks.
+
+    Only when the normal-mode route (which displaces along the modes) would be the cheapest of
+    the Hessian routes.  Otherwise the choice made now is the one that would be made after the
+    Hessian (same estimates, same ties), and its tasks can run beside the Hessian.
+    """
+    routes = hessian_routes_allowed(settings, atomic_numbers)
+    if "normal-mode" not in routes:
+        return False
+    w = max(int(workers), 1)
+    estimates = {
+        r: parallel_seconds(
+            _plan(r, settings, coordinates_ang, masses_da, group, None).n_tasks,
+            w,
+            task_seconds(r, ref),
+        )
+        for r in routes
+        if r != "normal-mode"
+    }
+    estimates["normal-mode"] = normal_mode_estimate(coordinates_ang, ref, w)[1]
+    return cheapest_route(estimates) == "normal-mode"
+
+
 def pick_route(
     settings: EngineSettings,
     family: FamilyChoice,
@@ -214,14 +259,19 @@ def pick_route(
         plan = _plan("displacement", settings, coordinates_ang, masses_da, group, None)
         estimates = family.estimates_s
         return RouteChoice("displacement", plan.n_tasks, family.reason, estimates), plan
-    if settings.route == "auto":
-        wanted = hessian_routes_allowed(settings, atomic_numbers)
-    else:
-        wanted = (settings.route,)
+    allowed = hessian_routes_allowed(settings, atomic_numbers)
+    wanted = allowed if settings.route == "auto" else (settings.route,)
     if modes is None:  # before the Hessian: only the routes that need no modes
         wanted = tuple(r for r in wanted if r != "normal-mode")
     plans = {r: _plan(r, settings, coordinates_ang, masses_da, group, modes) for r in wanted}
     choice, plan = choose_route(settings.route, plans, ref, workers)
+    if settings.route == "auto" and modes is None and "normal-mode" in allowed:
+        n, t = normal_mode_estimate(coordinates_ang, ref, workers)
+        note = (
+            f"; normal-mode {n} tasks ≈ {t:.1f} s is not cheaper, so the tasks were listed "
+            "before the Hessian and run beside it"
+        )
+        choice = RouteChoice(choice.route, choice.n_tasks, choice.reason + note, choice.estimates_s)
     if settings.route == "auto":
         choice = combined_choice(family, choice)
     return choice, plan

@@ -8,9 +8,9 @@ route and lists its tasks (:func:`plan_route`), and turns the results into a
 
 When the route is chosen: a requested route whose tasks do not need the normal modes
 (:data:`ROUTES_WITHOUT_MODES`) is fixed right after the reference SCF, so its tasks run
-alongside the Hessian; ``auto`` and the normal-mode route wait for the Hessian (the one needs
-the modes' count and costs, the other the modes).  A route in :data:`HESSIAN_FREE_ROUTES` (none
-yet) would skip the Hessian stage altogether.
+alongside the Hessian, and so is ``auto``'s choice unless the normal-mode route (which needs the
+modes) would be its cheapest; the normal-mode route waits for the Hessian.  A route in
+:data:`HESSIAN_FREE_ROUTES` (the displacement route) skips the Hessian stage altogether.
 """
 
 from __future__ import annotations
@@ -21,7 +21,12 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from vibrapol.engine.analyticroute import AnalyticPlan
-from vibrapol.engine.autoroute import FamilyChoice, hessian_needed, pick_route
+from vibrapol.engine.autoroute import (
+    FamilyChoice,
+    hessian_needed,
+    modes_needed_to_choose,
+    pick_route,
+)
 from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.disproute import HESSIAN_NOTE, DisplacementRoutePlan
@@ -198,7 +203,9 @@ def plan_route(m: Molecule, settings: EngineSettings, workers: int = 1) -> bool:
     displacement route on ``workers`` workers (:func:`~vibrapol.engine.autoroute.hessian_needed`,
     kept in ``m.family``); the displacement route is planned at once (it needs no Hessian).
     Of the Hessian routes, a requested one of :data:`ROUTES_WITHOUT_MODES` is planned before
-    the Hessian (its tasks run beside it); ``auto`` and the normal-mode route wait for it.
+    the Hessian (its tasks run beside it), and so is ``auto`` unless the normal-mode route would
+    be its cheapest (:func:`~vibrapol.engine.autoroute.modes_needed_to_choose`); the
+    normal-mode route waits for the modes.
     """
     assert m.reference is not None
     group = m.group if settings.symmetry else None
@@ -206,8 +213,21 @@ def plan_route(m: Molecule, settings: EngineSettings, workers: int = 1) -> bool:
         m.family = hessian_needed(
             settings, m.coordinates_ang, m.masses_da, group, m.reference, workers, m.atomic_numbers
         )
-    if m.family.hessian and m.harmonic is None and settings.route not in ROUTES_WITHOUT_MODES:
-        return False
+    if m.family.hessian and m.harmonic is None:
+        if settings.route == "auto":
+            wait = modes_needed_to_choose(
+                settings,
+                m.coordinates_ang,
+                m.masses_da,
+                group,
+                m.reference,
+                workers,
+                m.atomic_numbers,
+            )
+        else:
+            wait = settings.route not in ROUTES_WITHOUT_MODES
+        if wait:
+            return False
     modes = None if m.harmonic is None else m.harmonic.modes
     m.choice, m.plan = pick_route(
         settings,

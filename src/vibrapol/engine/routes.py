@@ -309,14 +309,25 @@ def parallel_seconds(n_tasks: int, workers: int, seconds_task: float) -> float:
     return math.ceil(n_tasks / max(int(workers), 1)) * seconds_task
 
 
+#: Order in which ``auto`` breaks ties between equal estimates: the Cartesian route first (it
+#: needs no field-strength choice), then the field route (it gives ∂α/∂x, the normal-mode route
+#: only ∂α/∂Q).
+ROUTE_PREFERENCE = ("cartesian", "field", "normal-mode", "analytic")
+
+
+def cheapest_route(estimates: dict[str, float]) -> str:
+    """The route of least estimated seconds, ties broken by :data:`ROUTE_PREFERENCE`."""
+    order = tuple(r for r in ROUTE_PREFERENCE if r in estimates)
+    return min(order, key=lambda r: (round(estimates[r], 6), order.index(r)))
+
+
 def choose_route(
     requested: str, plans: dict[str, Plan], ref: ReferenceResult, workers: int = 1
 ) -> tuple[RouteChoice, Plan]:
     """The requested route, or for ``auto`` the one of ``plans`` with the least estimated time.
 
-    The estimate of a route is ceil(tasks / ``workers``) × (one task's estimated time).  Ties
-    go to the Cartesian route (it needs no field-strength choice), then to the field route (it
-    gives ∂α/∂x, the normal-mode route only ∂α/∂Q).
+    The estimate of a route is ceil(tasks / ``workers``) × (one task's estimated time); ties
+    are broken by :data:`ROUTE_PREFERENCE`.
     """
     if requested != "auto":
         plan = plans[requested]
@@ -324,8 +335,8 @@ def choose_route(
     estimates = {
         r: parallel_seconds(p.n_tasks, workers, task_seconds(r, ref)) for r, p in plans.items()
     }
-    order = tuple(r for r in ("cartesian", "field", "normal-mode", "analytic") if r in plans)
-    best = min(estimates, key=lambda r: (round(estimates[r], 6), order.index(r)))
+    order = tuple(r for r in ROUTE_PREFERENCE if r in plans)
+    best = cheapest_route(estimates)
     costs = ", ".join(
         f"{r} {plans[r].n_tasks} tasks ≈ {estimates[r]:.1f} s" for r in order if r in plans
     )

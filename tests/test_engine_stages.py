@@ -237,3 +237,29 @@ def test_a_reference_row_of_an_earlier_version_is_used(tmp_path, monkeypatch):
     )
     assert run.reused_reference and run.reused_stages == ("reference SCF", "Hessian")
     np.testing.assert_array_equal(run.modes.polarizability_ang3, ref.alpha_ang3)
+
+
+def test_reference_scf_starts_from_the_optimisations_density(monkeypatch):
+    # Contract: the optimisation keeps its last converged density (also through its checkpoint
+    # row), the flow hands it to the reference SCF stage, and starting there changes the
+    # reference only within the tight SCF criteria (PySCF's own guess as the check).
+    settings = engine_settings(METHOD, BASIS)
+    water = molecule("H2O")
+    job = stages.OptimizeJob(water.numbers, water.positions, settings.spec)
+    opt = job.run()
+    assert opt.density is not None and opt.density.shape == (7, 7)
+    again = job.unpack({k: np.asarray(v) for k, v in job.pack(opt).items()})
+    assert again is not None and np.array_equal(again.density, opt.density)
+
+    x = opt.coordinates_ang
+    cold = stages.ScfJob(water.numbers, x, settings.spec).run().reference
+    warm = stages.ScfJob(water.numbers, x, settings.spec, dm0=opt.density).run().reference
+    assert abs(warm.energy_hartree - cold.energy_hartree) < 1e-10
+    np.testing.assert_allclose(warm.gradient_hartree_bohr, cold.gradient_hartree_bohr, atol=1e-8)
+    np.testing.assert_allclose(warm.alpha_ang3, cold.alpha_ang3, atol=1e-8)
+
+    seen = []
+    run = stages.ScfJob.run
+    monkeypatch.setattr(stages.ScfJob, "run", lambda self: seen.append(self.dm0) or run(self))
+    run_engine(water, METHOD, BASIS, route="field", workers=1, progress=False)
+    assert len(seen) == 1 and seen[0] is not None and seen[0].shape == (7, 7)

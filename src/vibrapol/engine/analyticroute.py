@@ -88,12 +88,12 @@ class AnalyticJob:
         """The stacked derivatives (raises EngineInputError where not implemented)."""
         from vibrapol.engine.analytic import analytic_polarizability_derivatives
         from vibrapol.engine.evaluate import threads_limited
-        from vibrapol.engine.fieldgrad import tighten_scf
-        from vibrapol.engine.scf import build_molecule, run_scf
+        from vibrapol.engine.fieldgrad import run_tight_scf
+        from vibrapol.engine.scf import build_molecule
 
         with threads_limited(self.threads):
             mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
-            mf = tighten_scf(run_scf(mol, self.spec, dm0=self.dm0), self.spec)
+            mf = run_tight_scf(mol, self.spec, self.dm0)
             result = analytic_polarizability_derivatives(mf)
         out = np.empty(self.result_shape())
         out[:, :3, :] = result.dalpha_dx_ang2

@@ -141,6 +141,35 @@ def tighten_scf(mf, spec: MethodSpec):
     return mf
 
 
+def run_tight_scf(mol, spec: MethodSpec, dm0: np.ndarray | None = None):  # noqa: ANN001, ANN201
+    """The reference SCF converged to the field route's tight criteria.
+
+    From a starting density ``dm0`` (the optimisation's last, or the reference's) it goes to
+    the tight criteria in one run; without one, or when that run does not converge, it takes
+    the engine's usual path (:func:`~vibrapol.engine.scf.run_scf` with its rescue, then
+    :func:`tighten_scf`).  Measured (benzene B3LYP/6-31G*, from a density at a geometry
+    1e-5 Å away): 3.7 s CPU in one run against 4.5 + 5.0 s for the usual path, and 12.2 + 5.0 s
+    from PySCF's guess.
+    """
+    from vibrapol.engine.scf import build_scf, run_scf
+
+    if dm0 is not None:
+        mf = build_scf(mol, spec)
+        shape = (2, mol.nao, mol.nao) if spec.is_unrestricted else (mol.nao, mol.nao)
+        if np.shape(dm0) == shape:
+            mf.conv_tol = FIELD_SCF_CONV_TOL
+            mf.conv_tol_grad = FIELD_SCF_CONV_TOL_GRAD
+            mf.DIIS = scaled_cdiis_class()
+            mf.kernel(dm0=dm0)
+            if mf.converged:
+                if spec.is_unrestricted:  # the same spin check as run_scf's
+                    from vibrapol.engine.openshell import check_scf_spin
+
+                    check_scf_spin(mf, spec, "reference geometry")
+                return mf
+    return tighten_scf(run_scf(mol, spec, dm0=dm0), spec)
+
+
 def field_start_density(
     density: np.ndarray, density_response: np.ndarray | None, field_au: np.ndarray
 ) -> np.ndarray:

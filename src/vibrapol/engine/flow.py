@@ -165,7 +165,9 @@ class Flow:
             plan_route(m, self.settings, self.runner.backend.workers)
             self._tasks(k)
             return
-        self._stage(k, stages.ScfJob(m.atomic_numbers, m.coordinates_ang, spec), self._scf_done)
+        start = None if m.optimization is None else m.optimization.density
+        job = stages.ScfJob(m.atomic_numbers, m.coordinates_ang, spec, dm0=start)
+        self._stage(k, job, self._scf_done)
 
     def _scf_done(self, k: int, scf: stages.ScfResult, seconds: float, reused: bool) -> None:
         m = self.molecules[k]

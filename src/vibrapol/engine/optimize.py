@@ -68,6 +68,9 @@ class OptimizationResult:
         One of :data:`OPTIMIZERS`.
     n_loose : int
         Gradients among ``n_gradients`` computed with loose SCF.
+    density : ndarray or None
+        The converged SCF density at the final geometry (AO basis; (2, n, n) for an open
+        shell), the start of the reference SCF; None when not kept (older checkpoints).
     """
 
     coordinates_ang: np.ndarray
@@ -77,6 +80,7 @@ class OptimizationResult:
     n_gradients: int
     optimizer: str = "cartesian-bfgs"
     n_loose: int = 0
+    density: np.ndarray | None = None
 
     def describe(self) -> str:
         """One line for the provenance: optimiser, steps, gradients and final largest force."""
@@ -215,6 +219,7 @@ def _internal(z, xyz, spec, fmax, max_steps, loose) -> OptimizationResult:  # no
         n_gradients=evaluator.n_gradients,
         optimizer="internal",
         n_loose=evaluator.n_loose,
+        density=evaluator.density,
     )
 
 
@@ -248,4 +253,5 @@ def _bfgs(z, coordinates_ang, spec, fmax_hartree_bohr, max_steps) -> Optimizatio
         n_steps=int(opt.nsteps),
         n_gradients=calc.n_gradients,
         optimizer="cartesian-bfgs",
+        density=calc.density,
     )

@@ -79,6 +79,7 @@ class OptimizeJob:
             "n_steps": result.n_steps,
             "n_gradients": result.n_gradients,
             "n_loose": result.n_loose,
+            **({} if result.density is None else {"density": result.density}),
         }
 
     def unpack(self, stored: dict[str, np.ndarray]) -> OptimizationResult | None:
@@ -92,6 +93,7 @@ class OptimizeJob:
                 n_gradients=int(stored["n_gradients"]),
                 optimizer=self.optimizer,
                 n_loose=int(stored.get("n_loose", 0)),
+                density=stored.get("density"),
             )
         except KeyError:
             return None
@@ -122,12 +124,17 @@ _ORBITALS = ("mo_coeff", "mo_occ", "mo_energy")
 
 @dataclass(frozen=True, eq=False)
 class ScfJob:
-    """Reference SCF, CPHF α and the zero-field analytic gradient at one geometry."""
+    """Reference SCF, CPHF α and the zero-field analytic gradient at one geometry.
+
+    ``dm0``: a starting density (the optimisation's last one), or None for PySCF's guess; the
+    SCF is converged to the same tight criteria either way.
+    """
 
     atomic_numbers: np.ndarray
     coordinates_ang: np.ndarray
     spec: MethodSpec
     threads: int | None = None
+    dm0: np.ndarray | None = None
 
     kind: ClassVar[str] = "reference-scf"
     label: ClassVar[str] = "reference SCF, polarizability and gradient"
@@ -140,15 +147,14 @@ class ScfJob:
 
     def run(self) -> ScfResult:
         """Tight SCF, α (Å³) and gradient, with the wall time of each."""
-        from vibrapol.engine.fieldgrad import field_gradient, tighten_scf
+        from vibrapol.engine.fieldgrad import field_gradient, run_tight_scf
         from vibrapol.engine.polarizability import cphf_polarizability_response
-        from vibrapol.engine.scf import run_scf
         from vibrapol.units import BOHR3_TO_ANG3
 
         with threads_limited(self.threads):
             mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
             t0 = perf_counter()
-            mf = tighten_scf(run_scf(mol, self.spec), self.spec)
+            mf = run_tight_scf(mol, self.spec, self.dm0)
             t1 = perf_counter()
             alpha_bohr3, density_response = cphf_polarizability_response(mf)
             alpha = alpha_bohr3 * BOHR3_TO_ANG3

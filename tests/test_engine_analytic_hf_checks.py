@@ -124,26 +124,81 @@ def _quantities(run):
     return table.activity, table.rho_linear, run.modes.dalpha_dx
 
 
-# Tolerances of the route comparisons, each the measured figure rounded up (machine idle,
-# 2026-12-05) with its reason.  Target of the issue: activities 1e-4, ρ 1e-5; the numerical
-# routes' own error is about that size, so where they miss it the tight reference below shows
-# that the analytic numbers are the accurate ones.
+# Tolerances of the route comparisons: (activity, ρ, tensor) per route, each the measured
+# figure (2026-12-05, in the comment) rounded up, with its reason.  The issue's target is 1e-4
+# in activities and 1e-5 in ρ; the numerical routes' own error is of that size, so where they
+# miss it the tight reference below (test_against_a_tight_pyscf_reference) shows that the
+# analytic numbers are the accurate ones.  Reasons, measured:
+# * field route: at 0.001 au its error is noise (SCF residuals divided by F², see
+#   test_field_route_error_is_its_own_step_error), and it scatters from run to run on the same
+#   input (CH2Cl2 3-21G, three identical runs: activities 5.3e-5, 6.3e-5, 1.1e-4; ρ 2.3e-5 to
+#   2.7e-5; thread-order rounding in the SCF, amplified by 1/F²): FIELD_SCATTER below;
+# * Cartesian route: at its 0.005 Å step the O(h²) truncation is 1.1e-5 of max |∂α/∂x|, and
+#   for CH2Cl2 the α of PySCF's ``cphf.solve`` at the displaced geometries adds 3.3e-5 (at
+#   the same geometries and step, α from SciPy conjugate gradients gives 1.1e-5; at 0.001 Å
+#   1.7e-4 against 3.9e-7): the weak B1 mode at 1038 cm⁻¹ and the B2 CH stretch are then
+#   off by 2.3e-4 and 1.8e-4 in activity (3-21G), 3.2e-4 at most (6-31G*).
+FIELD_SCATTER = (3e-4, 5e-5, 5e-5)
+
 ROUTE_CASES = [
     # (molecule, basis, {route: (activity, rho, tensor)})
     pytest.param(
         "NH3",
         "3-21g",
-        # measured: cartesian 3.2e-5, 1.0e-5, 9.9e-6; field 8.2e-5, 2.6e-6, 3.3e-5
+        # measured: cartesian 3.2e-5, 1.0e-5, 9.9e-6; field 8.2e-5, 2.6e-6, 3.3e-5 (identical
+        # in five runs)
         {"cartesian": (1e-4, 2e-5, 2e-5), "field": (1e-4, 1e-5, 5e-5)},
         id="NH3-C3v-3-21g",
     ),
     pytest.param(
         "CH4",
         "3-21g",
-        # measured: cartesian 3.3e-5, 1e-16, 2.3e-5; field 8.1e-6, 0, 6.7e-6 (ρ of the totally
-        # symmetric stretch is 0 by symmetry, 3/4 for the others)
+        # measured: cartesian 3.3e-5, 1e-16, 2.3e-5; field 8.1e-6, 0, 6.7e-6 (ρ is 0 for the
+        # totally symmetric stretch and 3/4 for the others by symmetry)
         {"cartesian": (1e-4, 1e-5, 5e-5), "field": (1e-4, 1e-5, 5e-5)},
         id="CH4-Td-3-21g",
+    ),
+    pytest.param(
+        "FCH2OH",
+        "3-21g",
+        # measured: cartesian 4.9e-5, 1.5e-5, 3.9e-5; field 3.3e-5, 8.9e-6, 1.2e-5
+        {"cartesian": (1e-4, 3e-5, 1e-4), "field": FIELD_SCATTER},
+        id="FCH2OH-C1-3-21g",
+        marks=pytest.mark.slow,
+    ),
+    pytest.param(
+        "CH2Cl2",
+        "3-21g",
+        # measured: cartesian 2.3e-4, 5.2e-6, 3.3e-5 (cphf.solve, above); field up to 1.1e-4,
+        # 2.7e-5, 2.5e-5
+        {"cartesian": (5e-4, 2e-5, 1e-4), "field": FIELD_SCATTER},
+        id="CH2Cl2-C2v-3-21g",
+        marks=pytest.mark.slow,
+    ),
+    pytest.param(
+        "NH3",
+        "6-31g*",
+        # measured: cartesian 4.4e-5, 2.0e-5, 8.3e-6; field 3.7e-5, 1.6e-5, 1.6e-5
+        {"cartesian": (1e-4, 4e-5, 2e-5), "field": FIELD_SCATTER},
+        id="NH3-C3v-6-31g*",
+        marks=pytest.mark.slow,
+    ),
+    pytest.param(
+        "FCH2OH",
+        "6-31g*",
+        # measured: cartesian 6.3e-5, 9.0e-6, 2.7e-5; field 1.5e-4, 7.4e-6, 1.3e-5
+        {"cartesian": (2e-4, 3e-5, 1e-4), "field": FIELD_SCATTER},
+        id="FCH2OH-C1-6-31g*",
+        marks=pytest.mark.slow,
+    ),
+    pytest.param(
+        "CH2Cl2",
+        "6-31g*",
+        # measured: cartesian 3.2e-4, 7.1e-6, 1.9e-5 (cphf.solve, above); field 3.7e-5,
+        # 1.2e-5, 1.1e-5
+        {"cartesian": (6e-4, 2e-5, 1e-4), "field": FIELD_SCATTER},
+        id="CH2Cl2-C2v-6-31g*",
+        marks=pytest.mark.slow,
     ),
 ]
 
@@ -169,8 +224,9 @@ def test_analytic_route_against_numerical_routes(name, basis, tolerances):
 def _rhf(atoms: Atoms, basis: str, cart: bool = False):
     from pyscf import gto, scf
 
+    symbols = atoms.get_chemical_symbols()
     mol = gto.M(
-        atom=[(s, tuple(x)) for s, x in zip(atoms.get_chemical_symbols(), atoms.positions)],
+        atom=[(s, tuple(x)) for s, x in zip(symbols, atoms.positions, strict=True)],
         basis=basis,
         unit="Angstrom",
         cart=cart,
@@ -217,7 +273,7 @@ def _reference_alpha(mf) -> np.ndarray:
     return -4.0 * h1 @ u.T
 
 
-def _tight_reference(atoms: Atoms, basis: str) -> np.ndarray:
+def _tight_reference(atoms: Atoms, basis: str, cart: bool = False) -> np.ndarray:
     """∂α/∂x (Å²) by central differences (h = 0.001 Å) of :func:`_reference_alpha`."""
     n = 3 * len(atoms)
     out = np.zeros((n, 3, 3))
@@ -226,7 +282,7 @@ def _tight_reference(atoms: Atoms, basis: str) -> np.ndarray:
         for sign in (1, -1):
             moved = atoms.copy()
             moved.positions[i // 3, i % 3] += sign * STEP_ANG
-            alphas.append(_reference_alpha(_rhf(moved, basis)))
+            alphas.append(_reference_alpha(_rhf(moved, basis, cart)))
         out[i] = (alphas[0] - alphas[1]) / (2 * STEP_ANG / BOHR_ANG)
     return out * BOHR2_TO_ANG2
 
@@ -240,16 +296,125 @@ def _mode_quantities(mf, dalpha_dx_ang2: np.ndarray, modes):
     return activity(a2, g2), rho_linear(a2, g2), dalpha_dx_ang2
 
 
-def _against_tight_reference(name: str, basis: str) -> dict[str, float]:
+def _against_tight_reference(name: str, basis: str, cart: bool = False) -> dict[str, float]:
     from vibrapol.engine.hessian import analytic_hessian
     from vibrapol.vibrations import harmonic_analysis
 
     atoms = MOLECULES[name]()
-    mf = _rhf(atoms, basis)
+    mf = _rhf(atoms, basis, cart)
     masses = mf.mol.atom_mass_list(isotope_avg=True)
     modes = harmonic_analysis(analytic_hessian(mf), masses, atoms.positions)
     analytic = analytic_polarizability_derivatives(mf).dalpha_dx_ang2
-    reference = _tight_reference(atoms, basis)
+    reference = _tight_reference(atoms, basis, cart)
     return _differences(
         _mode_quantities(mf, analytic, modes), _mode_quantities(mf, reference, modes)
     )
+
+
+def test_field_route_error_is_its_own_step_error():
+    """The field route's difference from the analytic route is the field route's own error.
+
+    Source: vibrapol's field route at four field strengths (NH3 HF/3-21G).  A central
+    difference has truncation error ∝ F² and noise ∝ ε/F² (ε the SCF residual); their sum is
+    least near 0.002 au.  Measured max |Δ ∂α/∂x| / max |∂α/∂x| against the analytic route:
+    6.8e-5 (0.0005 au), 3.3e-5 (0.001), 1.1e-5 (0.002), 6.2e-5 (0.004).  Were the analytic
+    terms wrong, the difference would level off at their error instead of falling to 1e-5
+    at the best field and rising on both sides.
+    """
+    analytic = _quantities(_route_run("NH3", "3-21g", "analytic"))
+    diff = {
+        f: _differences(analytic, _quantities(_route_run("NH3", "3-21g", "field", f)))["tensor"]
+        for f in (5e-4, 2e-3, 4e-3)
+    }
+    assert diff[2e-3] < 2e-5
+    assert diff[5e-4] > 3 * diff[2e-3]  # noise: 4× per halving of F
+    assert diff[4e-3] > 3 * diff[2e-3]  # truncation: 4× per doubling of F
+
+
+TIGHT_CASES = [
+    pytest.param("NH3", "3-21g", False, id="NH3-C3v-3-21g"),
+    pytest.param("NH3", "6-31g*", True, id="NH3-C3v-6-31g*-6d"),
+    pytest.param("CH4", "3-21g", False, id="CH4-Td-3-21g", marks=pytest.mark.slow),
+    pytest.param("FCH2OH", "3-21g", False, id="FCH2OH-C1-3-21g", marks=pytest.mark.slow),
+    pytest.param("CH2Cl2", "3-21g", False, id="CH2Cl2-C2v-3-21g", marks=pytest.mark.slow),
+    pytest.param("FCH2OH", "6-31g*", False, id="FCH2OH-C1-6-31g*", marks=pytest.mark.slow),
+    pytest.param("CH2Cl2", "6-31g*", False, id="CH2Cl2-C2v-6-31g*", marks=pytest.mark.slow),
+]
+
+
+@pytest.mark.parametrize(("name", "basis", "cart"), TIGHT_CASES)
+def test_against_a_tight_pyscf_reference(name, basis, cart):
+    """Activities, ρ and ∂α/∂x against central differences of a tightly solved CPHF α.
+
+    Source: PySCF (SCF to 1e-12, its response operator, solved by SciPy to a 1e-12 residual;
+    :func:`_reference_alpha`), h = 0.001 Å.  Same Hessian (PySCF's analytic one) for both.
+    Measured (spherical d unless 6d): activities 1.4e-6 to 2.9e-6 relative, ρ at most 7e-7,
+    tensor at most 1.5e-6 (the h² error of the reference is about 1e-6): the issue's target,
+    1e-4 and 1e-5, is met with a margin of more than ten.
+    """
+    got = _against_tight_reference(name, basis, cart)
+    assert got["activity"] < 1e-5, got
+    assert got["rho"] < 2e-6, got
+    assert got["tensor"] < 5e-6, got
+
+
+def _by_displacement(mol, quantity, step_ang: float = 2e-4) -> np.ndarray:
+    """Central differences of ``quantity(mol)`` over every Cartesian coordinate, per bohr."""
+    x0 = mol.atom_coords(unit="Angstrom").ravel()
+    out = []
+    for i in range(x0.size):
+        values = []
+        for sign in (1, -1):
+            x = x0.copy()
+            x[i] += sign * step_ang
+            moved = mol.set_geom_(x.reshape(-1, 3), unit="Angstrom", inplace=False)
+            values.append(quantity(moved))
+        out.append((values[0] - values[1]) / (2 * step_ang / BOHR_ANG))
+    return np.array(out)
+
+
+@pytest.mark.parametrize(
+    ("name", "cart"),
+    [
+        pytest.param("NH3", False, id="NH3-spherical-d"),
+        pytest.param("NH3", True, id="NH3-cartesian-6d"),
+        pytest.param("FCH2OH", False, id="FCH2OH-spherical-d", marks=pytest.mark.slow),
+    ],
+)
+def test_each_term_with_d_functions(name, cart):
+    """Every named term, densities held fixed, is the x-derivative of its integrals (d shells).
+
+    Source: PySCF's integrals (``get_hcore``, ``get_jk``, ``int1e_ovlp``, ``int1e_r``) at
+    displaced geometries, central differences of 2e-4 Å.  The existing term check uses
+    STO-3G (s and p only); this one is HF/6-31G* (ammonia; fluoromethanol, slow), whose d
+    shells the derivative integrals must move with their atoms, in both the spherical (5d)
+    and the Cartesian (6d) form.  Measured: at most 7.2e-8 of each term's largest element,
+    the differences' own h² error (it falls to 1.9e-8 at 1e-4 Å).
+    """
+    from pyscf import scf
+
+    from vibrapol.engine.fieldgrad import dipole_integrals
+
+    mf = _rhf(MOLECULES[name](), "6-31g*", cart)
+    dens = field_density_derivatives(mf)
+    terms, _ = derivative_terms(mf, dens)
+    d0, d1, d2, w2 = dens.density, dens.d1, dens.d2, dens.w2
+
+    def veff(mol, dm):
+        vj, vk = scf.hf.get_jk(mol, dm, hermi=1)
+        return vj - 0.5 * vk
+
+    expected = {
+        "core_hamiltonian": lambda m: np.einsum("pq,abpq->ab", scf.hf.get_hcore(m), d2),
+        "two_electron_relaxed": lambda m: np.einsum("pq,abpq->ab", veff(m, d0), d2),
+        "two_electron_response": lambda m: np.einsum("apq,bpq->ab", d1, veff(m, d1)),
+        "overlap": lambda m: -np.einsum("pq,abpq->ab", m.intor("int1e_ovlp"), w2),
+        "dipole_integrals": lambda m: (
+            lambda r: np.einsum("apq,bpq->ab", r, d1) + np.einsum("apq,bpq->ba", r, d1)
+        )(dipole_integrals(m)),
+    }
+    for name, quantity in expected.items():
+        fd = _by_displacement(mf.mol, quantity)
+        analytic = getattr(terms, name).reshape(fd.shape)
+        err = np.abs(fd - analytic).max() / np.abs(analytic).max()
+        assert err < 3e-7, (name, err)

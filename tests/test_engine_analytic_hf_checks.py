@@ -11,12 +11,12 @@ Independent checks, each named beside its numbers:
   (central differences of the CPHF α at ±0.005 Å, symmetry-reduced) and ``field`` (analytic
   gradients in uniform fields of 0.001 au).  They share the SCF and the Hessian with the
   analytic route, nothing else.  Their own error is about 1e-4 in activities and up to a few
-  1e-5 in ρ (docs/engine-routes.md), so they cannot check ρ to 1e-5; the measured reason is in
-  :func:`test_numerical_routes_error_is_noise_not_the_analytic_terms`.
-* a tight reference built from PySCF (the reference library) alone: central differences
-  (h = 0.001 Å, error O(h²) ≈ 1e-6 relative) of α from a direct solve of the full
-  coupled-perturbed HF matrix built with PySCF's ``gen_response``.  This one reaches the
-  issue's target (activities 1e-4 relative, ρ 1e-5) with a wide margin.
+  1e-5 in ρ (docs/engine-routes.md), so they cannot check ρ to 1e-5; the measured reasons are
+  beside ``ROUTE_CASES`` and in :func:`test_field_route_error_is_its_own_step_error`.
+* a tight reference built from PySCF (the reference library) and SciPy alone: central
+  differences (h = 0.001 Å, error O(h²) ≈ 1e-6 relative) of α from PySCF's coupled-perturbed
+  HF operator (``gen_response``) solved by SciPy's conjugate gradients to a 1e-12 residual.
+  This one reaches the issue's target (activities 1e-4 relative, ρ 1e-5) with a wide margin.
 * each named term with d functions (spherical and Cartesian), densities held fixed, against
   differences of PySCF's integrals at displaced geometries.
 """

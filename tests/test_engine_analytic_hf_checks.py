@@ -335,8 +335,6 @@ TIGHT_CASES = [
     pytest.param("NH3", "3-21g", False, id="NH3-C3v-3-21g"),
     pytest.param("NH3", "6-31g*", True, id="NH3-C3v-6-31g*-6d"),
     pytest.param("CH4", "3-21g", False, id="CH4-Td-3-21g", marks=pytest.mark.slow),
-    pytest.param("FCH2OH", "3-21g", False, id="FCH2OH-C1-3-21g", marks=pytest.mark.slow),
-    pytest.param("CH2Cl2", "3-21g", False, id="CH2Cl2-C2v-3-21g", marks=pytest.mark.slow),
     pytest.param("FCH2OH", "6-31g*", False, id="FCH2OH-C1-6-31g*", marks=pytest.mark.slow),
     pytest.param("CH2Cl2", "6-31g*", False, id="CH2Cl2-C2v-6-31g*", marks=pytest.mark.slow),
 ]
@@ -350,7 +348,9 @@ def test_against_a_tight_pyscf_reference(name, basis, cart):
     :func:`_reference_alpha`), h = 0.001 Å.  Same Hessian (PySCF's analytic one) for both.
     Measured (spherical d unless 6d): activities 1.4e-6 to 2.9e-6 relative, ρ at most 7e-7,
     tensor at most 1.5e-6 (the h² error of the reference is about 1e-6): the issue's target,
-    1e-4 and 1e-5, is met with a margin of more than ten.
+    1e-4 and 1e-5, is met with a margin of more than ten.  FCH2OH and CH2Cl2 at 3-21G gave
+    the same (2.0e-6 / 6.1e-7 / 1.5e-6 and 2.6e-6 / 2.2e-7 / 4.1e-7) and are left out to
+    keep the slow suite short; their 6-31G* cases stay.
     """
     got = _against_tight_reference(name, basis, cart)
     assert got["activity"] < 1e-5, got
@@ -378,7 +378,6 @@ def _by_displacement(mol, quantity, step_ang: float = 2e-4) -> np.ndarray:
     [
         pytest.param("NH3", False, id="NH3-spherical-d"),
         pytest.param("NH3", True, id="NH3-cartesian-6d"),
-        pytest.param("FCH2OH", False, id="FCH2OH-spherical-d", marks=pytest.mark.slow),
     ],
 )
 def test_each_term_with_d_functions(name, cart):
@@ -386,10 +385,10 @@ def test_each_term_with_d_functions(name, cart):
 
     Source: PySCF's integrals (``get_hcore``, ``get_jk``, ``int1e_ovlp``, ``int1e_r``) at
     displaced geometries, central differences of 2e-4 Å.  The existing term check uses
-    STO-3G (s and p only); this one is HF/6-31G* (ammonia; fluoromethanol, slow), whose d
-    shells the derivative integrals must move with their atoms, in both the spherical (5d)
-    and the Cartesian (6d) form.  Measured: at most 7.2e-8 of each term's largest element,
-    the differences' own h² error (it falls to 1.9e-8 at 1e-4 Å).
+    STO-3G (s and p only); this one is ammonia HF/6-31G*, whose d shells the derivative
+    integrals must move with their atoms, in both the spherical (5d) and the Cartesian (6d)
+    form.  Measured: at most 7.2e-8 of each term's largest element, the differences' own h²
+    error (it falls to 1.9e-8 at 1e-4 Å; fluoromethanol 6-31G*, 20 s, gave 3.4e-8).
     """
     from pyscf import scf
 

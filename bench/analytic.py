@@ -9,8 +9,9 @@ One process, one molecule after the other, all threads of the process: the SCF (
 the field route's tolerance), PySCF's analytic Hessian, then the analytic ∂α/∂x split into its
 two stages (the 3 + 6 field responses; the derivative-integral contractions).  With
 ``--field-route`` also the field route without symmetry (12 field SCFs + gradients, serial).
-Geometries are ASE's, or built here (``butan-2-ol``: no symmetry, 15 atoms; see
-:func:`butan_2_ol`); not optimised: the costs do not need a stationary point.
+Geometries are ASE's, or built here without symmetry (``butan-2-ol``, 15 atoms, from ASE's
+trans-butane; ``hexan-2-ol``, 21 atoms, a built zigzag chain); not optimised: the costs do not
+need a stationary point.
 
 Prints a table and, last, one JSON line with every figure.  Wall times on shared cores are
 contended; the CPU time of the process is printed beside them and is less sensitive to load.
@@ -60,7 +61,58 @@ def butan_2_ol():
     return Atoms([*symbols, "H"], positions=np.vstack([pos, hydroxyl]))
 
 
-BUILT = {"butan-2-ol": butan_2_ol}
+def alkan_2_ol(n_carbons: int):
+    """CnH(2n+1)OH with the OH on the second carbon (C1), built as an all-trans zigzag chain.
+
+    Rounded typical values, from memory: C–C 1.53 Å, C–H 1.09 Å, C–O 1.43 Å, O–H 0.96 Å,
+    tetrahedral angles, C–O–H 108°.  Not optimised (the costs do not need a minimum).
+    """
+    import numpy as np
+    from ase import Atoms
+
+    cc, ch, half = 1.53, 1.09, np.deg2rad(111.5) / 2
+    tet = np.deg2rad(109.47)
+    z = np.array([0.0, 0.0, 1.0])
+    carbons = np.array(
+        [[i * cc * np.sin(half), (i % 2) * cc * np.cos(half), 0.0] for i in range(n_carbons)]
+    )
+    symbols, pos = ["C"] * n_carbons, list(carbons)
+    hydrogens = []  # (carbon index, position)
+    for i, c in enumerate(carbons):
+        bonds = [carbons[j] - c for j in (i - 1, i + 1) if 0 <= j < n_carbons]
+        units = [b / np.linalg.norm(b) for b in bonds]
+        if len(units) == 2:
+            away = -(units[0] + units[1])
+            away /= np.linalg.norm(away)
+            for sign in (1, -1):
+                h = np.cos(tet / 2) * away + sign * np.sin(tet / 2) * z
+                hydrogens.append((i, c + ch * h))
+        else:
+            u = -units[0]
+            p = np.cross(z, u)
+            # in-plane H anti to the carbon two along the chain (the zigzag continued)
+            p = p if np.dot(p, [0.0, 1.0, 0.0]) * (-1 if i % 2 else 1) > 0 else -p
+            a = np.pi - tet
+            hydrogens.append((i, c + ch * (np.cos(a) * u + np.sin(a) * p)))
+            for sign in (1, -1):
+                h = np.cos(a) * u - np.sin(a) * (0.5 * p - sign * np.sqrt(0.75) * z)
+                hydrogens.append((i, c + ch * h))
+    replaced = next(k for k, (i, x) in enumerate(hydrogens) if i == 1 and x[2] > 0)
+    for k, (_, x) in enumerate(hydrogens):
+        if k != replaced:
+            symbols.append("H")
+            pos.append(x)
+    u = hydrogens[replaced][1] - carbons[1]
+    u /= np.linalg.norm(u)
+    oxygen = carbons[1] + 1.43 * u
+    v = np.cross(u, [1.0, 0.0, 0.0])
+    v /= np.linalg.norm(v)
+    angle = np.deg2rad(180.0 - 108.0)
+    hydroxyl = oxygen + 0.96 * (np.cos(angle) * u + np.sin(angle) * v)
+    return Atoms([*symbols, "O", "H"], positions=np.vstack([pos, oxygen, hydroxyl]))
+
+
+BUILT = {"butan-2-ol": butan_2_ol, "hexan-2-ol": lambda: alkan_2_ol(6)}
 
 
 def run_system(name: str, basis: str, field_route: bool) -> dict:

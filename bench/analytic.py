@@ -3,12 +3,15 @@
     PYTHONPATH=src python bench/analytic.py                       # benzene HF/6-31G*
     PYTHONPATH=src python bench/analytic.py --systems water,benzene --basis 6-31g*
     PYTHONPATH=src python bench/analytic.py --field-route         # also the 12-field route
+    PYTHONPATH=src python bench/analytic.py --systems butan-2-ol --field-route   # C1, 15 atoms
 
 One process, one molecule after the other, all threads of the process: the SCF (converged to
 the field route's tolerance), PySCF's analytic Hessian, then the analytic ∂α/∂x split into its
 two stages (the 3 + 6 field responses; the derivative-integral contractions).  With
 ``--field-route`` also the field route without symmetry (12 field SCFs + gradients, serial).
-Geometries are ASE's (not optimised: the costs do not need a stationary point).
+Geometries are ASE's, or built here without symmetry (``butan-2-ol``, 15 atoms, from ASE's
+trans-butane; ``hexan-2-ol``, 21 atoms, a built zigzag chain); not optimised: the costs do not
+need a stationary point.
 
 Prints a table and, last, one JSON line with every figure.  Wall times on shared cores are
 contended; the CPU time of the process is printed beside them and is less sensitive to load.
@@ -32,6 +35,86 @@ def _since(start: tuple[float, float]) -> tuple[float, float]:
     return wall - start[0], cpu - start[1]
 
 
+def butan_2_ol():
+    """Butan-2-ol (C1, 15 atoms), built from ASE's trans-butane.
+
+    The out-of-plane H at +z on the second carbon becomes O (C–O 1.43 Å along the old C–H
+    bond); the hydroxyl H sits 0.96 Å from O with C–O–H 108° (rounded typical values, from
+    memory).  The carbon then carries H, OH, CH3 and C2H5: a stereocentre, so no symmetry.
+    """
+    import numpy as np
+    from ase import Atoms
+    from ase.build import molecule
+
+    butane = molecule("trans-butane")
+    symbols, pos = butane.get_chemical_symbols(), butane.positions.copy()
+    carbon, hydrogen = 1, 11  # the second carbon and its H at +z (ASE's atom order)
+    u = pos[hydrogen] - pos[carbon]
+    u /= np.linalg.norm(u)
+    oxygen = pos[carbon] + 1.43 * u
+    v = np.cross(u, [1.0, 0.0, 0.0])
+    v /= np.linalg.norm(v)
+    angle = np.deg2rad(180.0 - 108.0)
+    hydroxyl = oxygen + 0.96 * (np.cos(angle) * u + np.sin(angle) * v)
+    symbols[hydrogen] = "O"
+    pos[hydrogen] = oxygen
+    return Atoms([*symbols, "H"], positions=np.vstack([pos, hydroxyl]))
+
+
+def alkan_2_ol(n_carbons: int):
+    """CnH(2n+1)OH with the OH on the second carbon (C1), built as an all-trans zigzag chain.
+
+    Rounded typical values, from memory: C–C 1.53 Å, C–H 1.09 Å, C–O 1.43 Å, O–H 0.96 Å,
+    tetrahedral angles, C–O–H 108°.  Not optimised (the costs do not need a minimum).
+    """
+    import numpy as np
+    from ase import Atoms
+
+    cc, ch, half = 1.53, 1.09, np.deg2rad(111.5) / 2
+    tet = np.deg2rad(109.47)
+    z = np.array([0.0, 0.0, 1.0])
+    carbons = np.array(
+        [[i * cc * np.sin(half), (i % 2) * cc * np.cos(half), 0.0] for i in range(n_carbons)]
+    )
+    symbols, pos = ["C"] * n_carbons, list(carbons)
+    hydrogens = []  # (carbon index, position)
+    for i, c in enumerate(carbons):
+        bonds = [carbons[j] - c for j in (i - 1, i + 1) if 0 <= j < n_carbons]
+        units = [b / np.linalg.norm(b) for b in bonds]
+        if len(units) == 2:
+            away = -(units[0] + units[1])
+            away /= np.linalg.norm(away)
+            for sign in (1, -1):
+                h = np.cos(tet / 2) * away + sign * np.sin(tet / 2) * z
+                hydrogens.append((i, c + ch * h))
+        else:
+            u = -units[0]
+            p = np.cross(z, u)
+            # in-plane H anti to the carbon two along the chain (the zigzag continued)
+            p = p if np.dot(p, [0.0, 1.0, 0.0]) * (-1 if i % 2 else 1) > 0 else -p
+            a = np.pi - tet
+            hydrogens.append((i, c + ch * (np.cos(a) * u + np.sin(a) * p)))
+            for sign in (1, -1):
+                h = np.cos(a) * u - np.sin(a) * (0.5 * p - sign * np.sqrt(0.75) * z)
+                hydrogens.append((i, c + ch * h))
+    replaced = next(k for k, (i, x) in enumerate(hydrogens) if i == 1 and x[2] > 0)
+    for k, (_, x) in enumerate(hydrogens):
+        if k != replaced:
+            symbols.append("H")
+            pos.append(x)
+    u = hydrogens[replaced][1] - carbons[1]
+    u /= np.linalg.norm(u)
+    oxygen = carbons[1] + 1.43 * u
+    v = np.cross(u, [1.0, 0.0, 0.0])
+    v /= np.linalg.norm(v)
+    angle = np.deg2rad(180.0 - 108.0)
+    hydroxyl = oxygen + 0.96 * (np.cos(angle) * u + np.sin(angle) * v)
+    return Atoms([*symbols, "O", "H"], positions=np.vstack([pos, oxygen, hydroxyl]))
+
+
+BUILT = {"butan-2-ol": butan_2_ol, "hexan-2-ol": lambda: alkan_2_ol(6)}
+
+
 def run_system(name: str, basis: str, field_route: bool) -> dict:
     """Times (wall, CPU) of SCF, Hessian, analytic ∂α/∂x (and the field route) for one molecule."""
     import numpy as np
@@ -41,7 +124,7 @@ def run_system(name: str, basis: str, field_route: bool) -> dict:
     from vibrapol.engine.fieldgrad import tighten_scf
     from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
 
-    atoms = molecule(name)
+    atoms = BUILT[name]() if name in BUILT else molecule(name)
     spec = MethodSpec("hf", basis)
     mol = build_molecule(atoms.numbers, atoms.positions, spec)
     row: dict = {"system": name, "basis": basis, "atoms": mol.natm, "nao": mol.nao}
@@ -70,6 +153,8 @@ def run_system(name: str, basis: str, field_route: bool) -> dict:
         for field in field_plan(n_atoms=mol.natm).task_fields_au:
             field_gradient(field_scf(mol, spec, np.asarray(field), mf.make_rdm1()), field)
         row["field_route"] = _since(t)
+        row["field_ratio_wall"] = row["field_route"][0] / row["hessian"][0]
+        row["field_ratio_cpu"] = row["field_route"][1] / row["hessian"][1]
     row["ratio_wall"] = row["analytic"][0] / row["hessian"][0]
     row["ratio_cpu"] = row["analytic"][1] / row["hessian"][1]
     return row
@@ -82,6 +167,7 @@ def main() -> None:
     parser.add_argument("--basis", default="6-31g*")
     parser.add_argument("--field-route", action="store_true")
     args = parser.parse_args()
+    load_start = os.getloadavg()[0] if hasattr(os, "getloadavg") else None
     rows = [run_system(s, args.basis, args.field_route) for s in args.systems.split(",")]
     cols = ["scf", "hessian", "responses", "contractions", "analytic"]
     if args.field_route:
@@ -96,7 +182,12 @@ def main() -> None:
             f"{r['ratio_wall']:.3f} | {r['ratio_cpu']:.3f} |"
         )
     load = os.getloadavg()[0] if hasattr(os, "getloadavg") else None
-    machine = {"cpus": os.cpu_count(), "load_1min": load, "python": platform.python_version()}
+    machine = {
+        "cpus": os.cpu_count(),
+        "load_1min_start": load_start,
+        "load_1min": load,
+        "python": platform.python_version(),
+    }
     print(json.dumps({"bench": "analytic", "machine": machine, "rows": rows}))
 
 

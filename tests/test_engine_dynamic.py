@@ -70,10 +70,17 @@ def _sum_over_states(mf, omega):
 
 def test_static_limit_equals_static_cphf(water_321g, water_b3lyp):
     # Contract: at ω = 0 the response equations are the static CPHF/CPKS ones (X = Y).
-    # Tolerance 1e-9 relative: both solves converge far below it (measured 1e-15).
+    # Tolerance 1e-6 relative: the dynamic solve stops at a residual of 1e-5
+    # (RESPONSE_RESIDUAL_TARGET); measured 2.4e-7 relative (water HF/3-21G) against the static
+    # conjugate-gradient solve, which agrees with a direct solve of the full response matrix to
+    # 3e-14 (test_engine_analytic.py).  (The earlier 1e-9 held because both used PySCF's
+    # Krylov solver, off the direct solution by the same 5.6e-7 au.)
     for mf in (water_321g, water_b3lyp):
         static = cphf_polarizability(mf)
-        np.testing.assert_allclose(dynamic_polarizability(mf, 0.0), static, rtol=1e-9, atol=1e-9)
+        scale = np.abs(static).max()
+        np.testing.assert_allclose(
+            dynamic_polarizability(mf, 0.0), static, rtol=0, atol=1e-6 * scale
+        )
         # and continuously: ω → 0 approaches it quadratically (α is even in ω)
         small = dynamic_polarizability(mf, 1e-3)
         assert np.abs(small - static).max() < 1e-4 * np.abs(static).max()

@@ -66,31 +66,37 @@ class XcScope:
         return 1 if self.xctype == "LDA" else 2
 
 
-def xc_scope(mf) -> XcScope:
-    """The functional of a closed-shell RKS object, or :class:`EngineInputError` naming why not.
+def functional_unsupported(xc: str) -> str | None:
+    """Why the analytic derivatives cannot handle functional ``xc`` (None: they can).
 
-    Implemented and checked: LDA, GGA and global hybrids.  Refused: meta-GGA, range-separated
-    hybrids, non-local correlation (VV10/NLC).
+    Implemented and checked: LDA, GGA and global hybrids.  Not implemented: meta-GGA
+    (the kinetic-energy density), range-separated hybrids (the attenuated exchange),
+    non-local correlation (VV10/NLC).
     """
-    ni = mf._numint
-    xctype = ni._xc_type(mf.xc)
+    from pyscf.dft import numint
+
+    ni = numint.NumInt()
+    xctype = ni._xc_type(xc)
     if xctype not in ("LDA", "GGA"):
+        return f"it handles LDA, GGA and global hybrid functionals, not the {xctype} {xc!r}"
+    if ni.rsh_and_hybrid_coeff(xc)[0] != 0:
+        return f"it does not handle range-separated hybrids ({xc!r})"
+    if ni.libxc.is_nlc(xc):
+        return f"it does not handle non-local correlation (VV10/NLC) of {xc!r}"
+    return None
+
+
+def xc_scope(mf) -> XcScope:
+    """The functional of a closed-shell RKS object, or :class:`EngineInputError` naming why not."""
+    why = functional_unsupported(mf.xc)
+    if why is None and mf.do_nlc():
+        why = f"it does not handle non-local correlation (VV10/NLC) of {mf.xc!r}"
+    if why is not None:
         raise EngineInputError(
-            f"the analytic polarizability derivatives handle LDA, GGA and global hybrid "
-            f"functionals, not the {xctype} functional {mf.xc!r}; {_NUMERICAL}"
+            f"the analytic polarizability derivatives cannot run: {why}; {_NUMERICAL}"
         )
-    omega, _, hyb = ni.rsh_and_hybrid_coeff(mf.xc, spin=mf.mol.spin)
-    if omega != 0:
-        raise EngineInputError(
-            f"the analytic polarizability derivatives do not handle range-separated hybrids "
-            f"({mf.xc!r}); {_NUMERICAL}"
-        )
-    if mf.do_nlc():
-        raise EngineInputError(
-            f"the analytic polarizability derivatives do not handle non-local correlation "
-            f"(VV10/NLC) of {mf.xc!r}; {_NUMERICAL}"
-        )
-    return XcScope(xctype, float(hyb))
+    ni = mf._numint
+    return XcScope(ni._xc_type(mf.xc), float(ni.rsh_and_hybrid_coeff(mf.xc)[2]))
 
 
 def _densities(ao: np.ndarray, dms: np.ndarray, scope: XcScope) -> np.ndarray:

@@ -31,10 +31,15 @@ def analytic_unsupported(
     Pseudopotentials depend on the atoms: with ``atomic_numbers`` they are looked for here,
     without them the task refuses them when it builds the molecule.
     """
-    if not spec.is_hf:
-        return "it is implemented for Hartree–Fock only (DFT kernel terms not yet)"
     if spec.is_unrestricted:
         return "it is implemented for closed shells only"
+    if not spec.is_hf:
+        from vibrapol.engine.analytic_xc import functional_unsupported
+        from vibrapol.engine.dispersion import split_dispersion
+
+        why = functional_unsupported(split_dispersion(spec.method)[0])
+        if why is not None:
+            return why
     if spec.solvent is not None:
         return "it does not include a solvent model"
     if spec.density_fit:

@@ -105,8 +105,8 @@ def _densities(ao: np.ndarray, dms: np.ndarray, scope: XcScope) -> np.ndarray:
     for i, dm in enumerate(dms):
         x0 = ao[0] @ dm
         out[i, 0] = np.einsum("gu,gu->g", ao[0], x0)
-        if scope.xctype == "GGA":
-            out[i, 1:4] = 2.0 * np.einsum("igu,gu->ig", ao[1:4], x0)
+        for c in range(1, scope.n_components):
+            out[i, c] = 2.0 * np.einsum("gu,gu->g", ao[c], x0)
     return out
 
 
@@ -118,7 +118,8 @@ def _xc_derivatives(mf, u0: np.ndarray, scope: XcScope):
 
 
 def _eval_ao(mf, coords: np.ndarray, deriv: int) -> np.ndarray:
-    ao = mf._numint.eval_ao(mf.mol, coords, deriv=deriv)
+    # contiguous: PySCF returns transposed views, which NumPy multiplies without BLAS
+    ao = np.ascontiguousarray(mf._numint.eval_ao(mf.mol, coords, deriv=deriv))
     return ao if deriv else ao[None]
 
 
@@ -151,8 +152,8 @@ def kernel_derivative_fock(mf, d0: np.ndarray, d1: np.ndarray) -> np.ndarray:
         for p, (a, b) in enumerate(_PAIRS):
             wv = np.einsum("ijlg,jg,lg->ig", k, u[1 + a], u[1 + b]) * w
             aow = 0.5 * wv[0][:, None] * ao[0]
-            if scope.xctype == "GGA":
-                aow += np.einsum("ig,igu->gu", wv[1:4], ao[1:4])
+            for c in range(1, scope.n_components):
+                aow += wv[c][:, None] * ao[c]
             m = ao[0].T @ aow
             out[p] += m + m.T
     return out
@@ -164,15 +165,18 @@ def _pulled(ao: np.ndarray, dm: np.ndarray, wvs: np.ndarray, scope: XcScope) -> 
     The fixed-grid contraction of a grid potential with the basis-function derivative of
     u[dm]: T(wv, dm)[A, κ] = −2 Σ_{μ∈A} Y[κ, μ] (∂/∂R_A = −∇ on the functions of atom A).
     """
-    x0 = ao[0] @ dm
-    xi = [ao[1 + i] @ dm for i in range(3)] if scope.xctype == "GGA" else []
-    y = np.empty((wvs.shape[0], 3, ao.shape[2]))
+    ncomp, ng, nao = scope.n_components, ao.shape[1], ao.shape[2]
+    x = ao[:ncomp] @ dm  # X_i[g, μ] = Σ_ν ∂_iφ_ν D_νμ (i = 0: φ itself)
+    flat = wvs.reshape(wvs.shape[0], ncomp * ng)
+    y = np.empty((wvs.shape[0], 3, nao))
+    b = np.empty((ncomp, ng, nao))
     for kap in range(3):
-        b = [ao[1 + kap] * x0]
-        for i, x in enumerate(xi):
+        np.multiply(ao[1 + kap], x[0], out=b[0])
+        for i in range(1, ncomp):
             # ∇κ∇iφμ: PySCF's second-derivative order xx, xy, xz, yy, yz, zz
-            b.append(ao[1 + kap] * x + ao[4 + _HESS_INDEX[kap][i]] * x0)
-        y[:, kap] = np.einsum("mig,igu->mu", wvs, np.array(b))
+            np.multiply(ao[1 + kap], x[i], out=b[i])
+            b[i] += ao[4 + _HESS_INDEX[kap][i - 1]] * x[0]
+        y[:, kap] = flat @ b.reshape(ncomp * ng, nao)
     return y
 
 

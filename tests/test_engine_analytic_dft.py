@@ -317,3 +317,28 @@ def test_compute_route_analytic_agrees_with_the_field_route_for_b3lyp(tmp_path, 
     np.testing.assert_allclose(t_a.freqs_cm1, t_f.freqs_cm1, atol=1e-6)
     np.testing.assert_allclose(t_a.activity, t_f.activity, rtol=2e-4)
     np.testing.assert_allclose(t_a.rho_linear, t_f.rho_linear, atol=1e-4)
+
+
+def test_auto_prices_the_dft_analytic_route_with_the_dft_model():
+    # Contract (cost model): for DFT the analytic task is ANALYTIC_TO_HESSIAN_DFT × the DFT
+    # Hessian estimate (measured 0.61 for benzene B3LYP/6-31G*, docs/analytic-raman.md), for HF
+    # ANALYTIC_TO_HESSIAN × the HF one.
+    from vibrapol.engine.analyticroute import ANALYTIC_TO_HESSIAN, ANALYTIC_TO_HESSIAN_DFT
+    from vibrapol.engine.autoroute import estimated_hessian_seconds
+    from vibrapol.engine.evaluate import ReferenceResult
+    from vibrapol.engine.routes import task_seconds
+
+    ref = ReferenceResult(
+        energy_hartree=0.0,
+        hessian_hartree_bohr2=None,
+        alpha_ang3=np.eye(3),
+        density=np.eye(40),
+        gradient_hartree_bohr=np.zeros((3, 3)),
+        seconds_scf=2.0,
+        seconds_alpha=1.0,
+        seconds_gradient=0.5,
+    )
+    dft = task_seconds("analytic", ref, is_hf=False)
+    assert dft == pytest.approx(ANALYTIC_TO_HESSIAN_DFT * estimated_hessian_seconds(ref, False))
+    hf = task_seconds("analytic", ref, is_hf=True)
+    assert hf == pytest.approx(ANALYTIC_TO_HESSIAN * estimated_hessian_seconds(ref, True))

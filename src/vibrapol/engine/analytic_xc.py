@@ -183,6 +183,26 @@ def _pulled(ao: np.ndarray, dm: np.ndarray, wvs: np.ndarray, scope: XcScope) -> 
 _HESS_INDEX = ((0, 1, 2), (1, 3, 4), (2, 4, 5))
 
 
+def _pulled_matrices(ao: np.ndarray, wvs: np.ndarray, scope: XcScope) -> np.ndarray:
+    """M[m, κ, μ, ν] with Σ_ν M[m, κ, μ, ν] D_νμ = :func:`_pulled` (m, κ, μ) for any D.
+
+    M = ∫ ∇κφμ (v₀ φν + Σ_i v_i ∇_iφν) + (Σ_i v_i ∇κ∇_iφμ) φν: the matrix PySCF's RKS
+    gradient builds for one potential, worth building when it meets several densities.
+    """
+    ncomp = scope.n_components
+    out = np.empty((wvs.shape[0], 3, ao.shape[2], ao.shape[2]))
+    for m, wv in enumerate(wvs):
+        aow = wv[0][:, None] * ao[0]
+        for i in range(1, ncomp):
+            aow += wv[i][:, None] * ao[i]
+        for kap in range(3):
+            out[m, kap] = ao[1 + kap].T @ aow
+            if ncomp > 1:
+                second = sum(wv[i][:, None] * ao[4 + _HESS_INDEX[kap][i - 1]] for i in (1, 2, 3))
+                out[m, kap] += second.T @ ao[0]
+    return out
+
+
 def _atom_sums(y: np.ndarray, atom_of_ao: np.ndarray, natm: int) -> np.ndarray:
     """T = −2 Σ_{μ∈A} Y over the last (AO) axis → (..., natm)."""
     out = np.zeros((natm,) + y.shape[:-1])
@@ -248,10 +268,10 @@ def xc_gradient_derivatives(
             wv0 = v * w
             y_d0 = _pulled(ao, d0, np.concatenate([wv0[None], fu2 * w, ku * w, fu1 * w]), scope)
             y_grad, y_relax, y_kder, y_f1_d0 = y_d0[0], y_d0[1:7], y_d0[7:13], y_d0[13:16]
-            y_d1 = np.array(
-                [_pulled(ao, d1[c], np.concatenate([wv0[None], fu1 * w]), scope) for c in range(3)]
-            )  # [c, m, κ, μ]: m = 0 v, m = 1 + a f·uᵃ
-            y_pot = np.array([_pulled(ao, pairs_d2[p], wv0[None], scope)[0] for p in range(6)])
+            # the potentials v and f·uᵃ meet nine densities (Dᵃ, Dᵃᵇ): one matrix each
+            mats = _pulled_matrices(ao, np.concatenate([wv0[None], fu1 * w]), scope)
+            y_d1 = np.einsum("mkuv,cuv->cmku", mats, d1)  # [c, m, κ, μ]: m = 0 v, 1 + a f·uᵃ
+            y_pot = np.einsum("kuv,puv->pku", mats[0], pairs_d2)
             y_resp = np.array([y_d1[b, 1 + a] + y_d1[a, 1 + b] for a, b in _PAIRS])
             y_mixed = y_d1[:, 0] + y_f1_d0  # T(v, Dᵃ) + T(f·uᵃ, D)
             blocks = {

@@ -67,11 +67,10 @@ def _pyscf_xc_gradient(mf, dm, grid_response: bool) -> np.ndarray:
     from pyscf.grad import rks as rks_grad
 
     ni, mol = mf._numint, mf.mol
-    if grid_response:
+    if grid_response:  # the grid terms come back per atom, the basis term as a matrix
         exc, vmat = rks_grad.get_vxc_full_response(ni, mol, mf.grids, mf.xc, dm)
     else:
-        exc, vmat = rks_grad.get_vxc(ni, mol, mf.grids, mf.xc, dm)[1], None
-        exc, vmat = 0.0, exc
+        exc, vmat = 0.0, rks_grad.get_vxc(ni, mol, mf.grids, mf.xc, dm)[1]
     out = np.zeros((mol.natm, 3))
     for atom, (_, _, p0, p1) in enumerate(mol.aoslice_by_atom()):
         out[atom] = 2.0 * np.einsum("kpq,pq->k", vmat[:, p0:p1], dm[p0:p1])

@@ -1,4 +1,4 @@
-"""Analytic Cartesian polarizability derivatives ∂α/∂x of a closed-shell RHF wavefunction.
+"""Analytic Cartesian polarizability derivatives ∂α/∂x of a closed-shell RHF or RKS wavefunction.
 
 In a uniform field F the analytic nuclear gradient of a closed-shell SCF energy is, with the
 field-dependent density D(F) and energy-weighted density W(F) (the basis does not depend on F),
@@ -22,8 +22,12 @@ perturbations is solved: the cost is 9 field responses plus gradient-like contra
 independent of the number of atoms.  The derivation, its references and the checks are in
 ``docs/analytic-raman.md``.
 
-Scope: closed-shell restricted Hartree–Fock, all-electron, no solvent model.  Kohn–Sham needs
-the exchange–correlation kernel and its derivative, which are not implemented here.
+For Kohn–Sham, B_x carries the hybrid's share of exchange only, the responses include the XC
+kernel (and its derivative at second order), and the XC gradient term adds five named terms
+(:mod:`vibrapol.engine.analytic_xc`), grid response included.
+
+Scope: closed-shell RHF and RKS with LDA, GGA or global hybrid functionals, all-electron, no
+solvent model.
 """
 
 from __future__ import annotations
@@ -186,13 +190,14 @@ def derivative_terms(
 
 
 def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
-    """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF calculation, analytically.
+    """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF or RKS calculation, analytically.
 
     Parameters
     ----------
-    mf : pyscf.scf.hf.RHF
-        Converged closed-shell restricted Hartree–Fock object (tightly converged: the
-        responses are solved to a residual of 1e-10, and the SCF's own error enters linearly).
+    mf : pyscf.scf.hf.RHF or pyscf.dft.rks.RKS
+        Converged closed-shell restricted Hartree–Fock or Kohn–Sham (LDA, GGA, global hybrid)
+        object (tightly converged: the responses are solved to a residual of 1e-10, and the
+        SCF's own error enters linearly).
 
     Returns
     -------
@@ -201,7 +206,8 @@ def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
     Raises
     ------
     EngineInputError
-        For Kohn–Sham, open-shell, solvated or pseudopotential calculations (not implemented).
+        For meta-GGA, range-separated or VV10 functionals, open-shell, solvated, density-fitted
+        or pseudopotential calculations (not implemented).
 
     References
     ----------

@@ -1,6 +1,7 @@
-"""Cost of the analytic ∂α/∂x (closed-shell RHF) against PySCF's analytic Hessian.
+"""Cost of the analytic ∂α/∂x (closed-shell RHF/RKS) against PySCF's analytic Hessian.
 
     PYTHONPATH=src python bench/analytic.py                       # benzene HF/6-31G*
+    PYTHONPATH=src python bench/analytic.py --method b3lyp        # benzene B3LYP/6-31G*
     PYTHONPATH=src python bench/analytic.py --systems water,benzene --basis 6-31g*
     PYTHONPATH=src python bench/analytic.py --field-route         # also the 12-field route
     PYTHONPATH=src python bench/analytic.py --systems butan-2-ol --field-route   # C1, 15 atoms
@@ -115,7 +116,7 @@ def alkan_2_ol(n_carbons: int):
 BUILT = {"butan-2-ol": butan_2_ol, "hexan-2-ol": lambda: alkan_2_ol(6)}
 
 
-def run_system(name: str, basis: str, field_route: bool) -> dict:
+def run_system(name: str, basis: str, field_route: bool, method: str = "hf") -> dict:
     """Times (wall, CPU) of SCF, Hessian, analytic ∂α/∂x (and the field route) for one molecule."""
     import numpy as np
     from ase.build import molecule
@@ -125,9 +126,10 @@ def run_system(name: str, basis: str, field_route: bool) -> dict:
     from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
 
     atoms = BUILT[name]() if name in BUILT else molecule(name)
-    spec = MethodSpec("hf", basis)
+    spec = MethodSpec(method, basis)
     mol = build_molecule(atoms.numbers, atoms.positions, spec)
-    row: dict = {"system": name, "basis": basis, "atoms": mol.natm, "nao": mol.nao}
+    row: dict = {"system": name, "method": method, "basis": basis, "atoms": mol.natm}
+    row["nao"] = mol.nao
     t = _clock()
     mf = tighten_scf(run_scf(mol, spec), spec)
     row["scf"] = _since(t)
@@ -165,20 +167,23 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--systems", default="C6H6", help="ASE molecule names, comma-separated")
     parser.add_argument("--basis", default="6-31g*")
+    parser.add_argument("--method", default="hf", help="hf or a functional (e.g. b3lyp)")
     parser.add_argument("--field-route", action="store_true")
     args = parser.parse_args()
     load_start = os.getloadavg()[0] if hasattr(os, "getloadavg") else None
-    rows = [run_system(s, args.basis, args.field_route) for s in args.systems.split(",")]
+    rows = [
+        run_system(s, args.basis, args.field_route, args.method) for s in args.systems.split(",")
+    ]
     cols = ["scf", "hessian", "responses", "contractions", "analytic"]
     if args.field_route:
         cols.append("field_route")
-    header = "| molecule | basis | nao | " + " | ".join(f"{c} / s" for c in cols)
+    header = "| molecule | method | basis | nao | " + " | ".join(f"{c} / s" for c in cols)
     print(header + " | analytic / Hessian (wall) | (CPU) |")
-    print("|" + "---|" * (len(cols) + 5))
+    print("|" + "---|" * (len(cols) + 6))
     for r in rows:
         cells = " | ".join(f"{r[c][0]:.1f} ({r[c][1]:.1f} CPU)" for c in cols)
         print(
-            f"| {r['system']} | {r['basis']} | {r['nao']} | {cells} | "
+            f"| {r['system']} | {r['method']} | {r['basis']} | {r['nao']} | {cells} | "
             f"{r['ratio_wall']:.3f} | {r['ratio_cpu']:.3f} |"
         )
     load = os.getloadavg()[0] if hasattr(os, "getloadavg") else None

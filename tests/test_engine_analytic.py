@@ -264,12 +264,12 @@ def test_rotating_the_molecule_rotates_the_tensor():
 
 
 def test_refuses_what_it_does_not_handle():
-    """Contract: one clear EngineInputError for DFT, open shells, density fitting, no SCF."""
+    """Contract: one clear EngineInputError for meta-GGA, open shells, density fitting, no SCF."""
     from pyscf import dft, gto, scf
 
     mol = gto.M(atom=WATER, basis="sto-3g", verbose=0)
-    with pytest.raises(EngineInputError, match="Hartree–Fock only"):
-        check_supported(dft.RKS(mol, xc="b3lyp"))
+    with pytest.raises(EngineInputError, match="not the MGGA"):
+        check_supported(dft.RKS(mol, xc="tpss"))
     radical = gto.M(atom=[("O", (0, 0, 0)), ("H", (0, 0, 0.97))], spin=1, verbose=0)
     with pytest.raises(EngineInputError, match="closed-shell restricted"):
         check_supported(scf.UHF(radical))
@@ -332,12 +332,12 @@ def test_analytic_route_end_to_end_agrees_with_the_field_route():
 
 
 def test_analytic_route_is_refused_where_not_implemented():
-    # Contract: one clear line for DFT, open shells, density fitting and --dynamic.
+    # Contract: one clear line for meta-GGA, open shells, density fitting and --dynamic.
     from vibrapol.engine.settings import EngineSettings
     from vibrapol.errors import OptionError
 
     for kwargs in (
-        {"method": "b3lyp"},
+        {"method": "tpss"},
         {"multiplicity": 3},
         {"density_fit": True},
         {"laser_nm": 532.0, "dynamic": True},

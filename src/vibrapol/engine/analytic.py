@@ -1,4 +1,4 @@
-"""Analytic Cartesian polarizability derivatives ∂α/∂x of a closed-shell RHF wavefunction.
+"""Analytic Cartesian polarizability derivatives ∂α/∂x of a closed-shell RHF or RKS wavefunction.
 
 In a uniform field F the analytic nuclear gradient of a closed-shell SCF energy is, with the
 field-dependent density D(F) and energy-weighted density W(F) (the basis does not depend on F),
@@ -22,16 +22,21 @@ perturbations is solved: the cost is 9 field responses plus gradient-like contra
 independent of the number of atoms.  The derivation, its references and the checks are in
 ``docs/analytic-raman.md``.
 
-Scope: closed-shell restricted Hartree–Fock, all-electron, no solvent model.  Kohn–Sham needs
-the exchange–correlation kernel and its derivative, which are not implemented here.
+For Kohn–Sham, B_x carries the hybrid's share of exchange only, the responses include the XC
+kernel (and its derivative at second order), and the XC gradient term adds five named terms
+(:mod:`vibrapol.engine.analytic_xc`), grid response included.
+
+Scope: closed-shell RHF and RKS with LDA, GGA or global hybrid functionals, all-electron, no
+solvent model.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import numpy as np
 
+from vibrapol.engine.analytic_xc import xc_gradient_derivatives, xc_scope
 from vibrapol.engine.field_response import (
     PAIRS,
     FieldDensityDerivatives,
@@ -63,16 +68,16 @@ class AlphaDerivativeTerms:
     two_electron_response: np.ndarray
     overlap: np.ndarray
     dipole_integrals: np.ndarray
+    xc_potential: np.ndarray | None = None
+    xc_kernel_relaxed: np.ndarray | None = None
+    xc_kernel_response: np.ndarray | None = None
+    xc_kernel_derivative: np.ndarray | None = None
+    xc_grid_response: np.ndarray | None = None
 
     def total(self) -> np.ndarray:
         """∂³E/∂x∂F_a∂F_b, shape (N, 3, 3, 3)."""
-        return (
-            self.core_hamiltonian
-            + self.two_electron_relaxed
-            + self.two_electron_response
-            + self.overlap
-            + self.dipole_integrals
-        )
+        parts = [getattr(self, f.name) for f in fields(self)]
+        return np.sum([p for p in parts if p is not None], axis=0)
 
 
 @dataclass(frozen=True)
@@ -97,20 +102,29 @@ class AnalyticDerivatives:
     alpha_bohr3: np.ndarray
 
 
-def _two_electron_potentials(mol, dms: np.ndarray) -> np.ndarray:
-    """−(∂_κ μ ν|λσ)-contracted J − K/2 of each density, shape (n, 3, nao, nao).
+def _two_electron_potentials(mol, dms: np.ndarray, exact_exchange: float) -> np.ndarray:
+    """−(∂_κ μ ν|λσ)-contracted J − c_x K/2 of each density, shape (n, 3, nao, nao).
 
-    PySCF's gradient helper (``pyscf.grad.rhf.get_jk``, integrals ``int2e_ip1``, direct, no
-    four-index array in memory); the nabla acts on the first (bra) function only.
+    PySCF's gradient helpers (``pyscf.grad.rhf.get_jk``/``get_j``, integrals ``int2e_ip1``,
+    direct, no four-index array in memory); the nabla acts on the first (bra) function only.
+    ``exact_exchange`` is c_x: 1 for HF, the hybrid fraction for DFT (0: J alone).
     """
     from pyscf.grad import rhf as rhf_grad
 
+    if exact_exchange == 0:
+        return np.asarray(rhf_grad.get_j(mol, np.asarray(dms)))
     vj, vk = rhf_grad.get_jk(mol, np.asarray(dms))
-    return np.asarray(vj) - 0.5 * np.asarray(vk)
+    return np.asarray(vj) - 0.5 * exact_exchange * np.asarray(vk)
 
 
-def derivative_terms(mf, dens: FieldDensityDerivatives) -> tuple[AlphaDerivativeTerms, np.ndarray]:
+def derivative_terms(
+    mf, dens: FieldDensityDerivatives, grid_response: bool = True
+) -> tuple[AlphaDerivativeTerms, np.ndarray]:
     """The named terms of ∂³E/∂x∂F_a∂F_b and the mixed second derivative ∂²E/∂x∂F_a.
+
+    For Kohn–Sham the XC terms of :mod:`vibrapol.engine.analytic_xc` are added, with the
+    grid moving with the atoms unless ``grid_response`` is False (for checks only: the field
+    route's gradients and the displaced-geometry routes include it).
 
     Returns
     -------
@@ -118,6 +132,8 @@ def derivative_terms(mf, dens: FieldDensityDerivatives) -> tuple[AlphaDerivative
     d2e_dx_df : ndarray (N, 3, 3)
         ∂²E/∂R_Aκ∂F_a [atom, κ, a] in au (electrons and nuclei); ∂μ_a/∂x is minus it.
     """
+    from pyscf import dft
+
     mol = mf.mol
     natm, nao = mol.natm, mol.nao
     hcore_deriv = mf.nuc_grad_method().hcore_generator(mol)
@@ -127,7 +143,9 @@ def derivative_terms(mf, dens: FieldDensityDerivatives) -> tuple[AlphaDerivative
     r_bra = -irp.transpose(0, 1, 3, 2)  # ⟨∂μ/∂R_κ|r_a|ν⟩ = −⟨∇_κ μ|r_a|ν⟩
     d0, d1, d2 = dens.density, dens.d1, dens.d2
     pairs_d2 = np.array([d2[a, b] for a, b in PAIRS])
-    v = _two_electron_potentials(mol, np.concatenate([d0[None], d1, pairs_d2]))
+    kohn_sham = isinstance(mf, dft.rks.KohnShamDFT)
+    exact_exchange = xc_scope(mf).exact_exchange if kohn_sham else 1.0
+    v = _two_electron_potentials(mol, np.concatenate([d0[None], d1, pairs_d2]), exact_exchange)
     v0, v1, v2 = v[0], v[1:4], v[4:]
 
     shape = (natm, 3, 3, 3)
@@ -164,17 +182,22 @@ def derivative_terms(mf, dens: FieldDensityDerivatives) -> tuple[AlphaDerivative
                 + 2.0 * np.einsum("kpq,pq->k", r_bra[a][:, sl], d0[sl])
             )
         mixed[atom] -= mol.atom_charge(atom) * np.eye(3)
-    return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip), mixed
+    xc_terms: dict[str, np.ndarray] = {}
+    if kohn_sham:
+        xc_terms, xc_mixed, _ = xc_gradient_derivatives(mf, d0, d1, d2, grid_response)
+        mixed = mixed + xc_mixed
+    return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip, **xc_terms), mixed
 
 
 def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
-    """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF calculation, analytically.
+    """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF or RKS calculation, analytically.
 
     Parameters
     ----------
-    mf : pyscf.scf.hf.RHF
-        Converged closed-shell restricted Hartree–Fock object (tightly converged: the
-        responses are solved to a residual of 1e-10, and the SCF's own error enters linearly).
+    mf : pyscf.scf.hf.RHF or pyscf.dft.rks.RKS
+        Converged closed-shell restricted Hartree–Fock or Kohn–Sham (LDA, GGA, global hybrid)
+        object (tightly converged: the responses are solved to a residual of 1e-10, and the
+        SCF's own error enters linearly).
 
     Returns
     -------
@@ -183,7 +206,8 @@ def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
     Raises
     ------
     EngineInputError
-        For Kohn–Sham, open-shell, solvated or pseudopotential calculations (not implemented).
+        For meta-GGA, range-separated or VV10 functionals, open-shell, solvated, density-fitted
+        or pseudopotential calculations (not implemented).
 
     References
     ----------

@@ -1,12 +1,13 @@
-"""The ``analytic`` route: ∂α/∂x and ∂μ/∂x in one task, analytically (closed-shell RHF).
+"""The ``analytic`` route: ∂α/∂x and ∂μ/∂x in one task, analytically (closed-shell RHF/RKS).
 
 The task converges the SCF at the reference geometry again (from the reference density, to the
 field route's tight tolerances) and calls
 :func:`vibrapol.engine.analytic.analytic_polarizability_derivatives`: three first-order and six
 second-order field responses contracted with derivative integrals, whatever the molecule's
 size or symmetry (docs/analytic-raman.md).  It needs no normal modes, so it runs beside the
-Hessian stage.  Measured (benzene HF/6-31G*, 2 shared cores): 0.23 × the analytic Hessian's
-wall time, 0.18 × its CPU time.
+Hessian stage.  Measured (benzene 6-31G*, 2 shared cores): HF 0.23 × the analytic Hessian's
+wall time (0.18 × its CPU time); B3LYP 0.45 (0.48 CPU), where the response solves, each step a
+grid contraction of the XC kernel, take most of the time (docs/analytic-raman.md).
 """
 
 from __future__ import annotations
@@ -21,6 +22,9 @@ from vibrapol.engine.scf import MethodSpec
 #: Wall time of the analytic ∂α/∂x over that of the analytic Hessian, for ``auto``'s estimate
 #: (measured: benzene HF/6-31G*, 0.23; docs/analytic-raman.md).
 ANALYTIC_TO_HESSIAN = 0.25
+#: The same for Kohn–Sham DFT (measured: benzene B3LYP/6-31G*, 0.45 wall, 0.48 CPU, load 6 on
+#: 2 cores; docs/analytic-raman.md).
+ANALYTIC_TO_HESSIAN_DFT = 0.5
 
 
 def analytic_unsupported(
@@ -31,10 +35,15 @@ def analytic_unsupported(
     Pseudopotentials depend on the atoms: with ``atomic_numbers`` they are looked for here,
     without them the task refuses them when it builds the molecule.
     """
-    if not spec.is_hf:
-        return "it is implemented for Hartree–Fock only (DFT kernel terms not yet)"
     if spec.is_unrestricted:
         return "it is implemented for closed shells only"
+    if not spec.is_hf:
+        from vibrapol.engine.analytic_xc import functional_unsupported
+        from vibrapol.engine.dispersion import split_dispersion
+
+        why = functional_unsupported(split_dispersion(spec.method)[0])
+        if why is not None:
+            return why
     if spec.solvent is not None:
         return "it does not include a solvent model"
     if spec.density_fit:

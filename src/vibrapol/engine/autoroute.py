@@ -112,7 +112,9 @@ def choose_family(
         r: plans[r].n_tasks for r in ("cartesian", "field", "analytic") if r in plans
     }
     counts["normal-mode"] = n_normal_tasks
-    walls = {r: t_hess + parallel_seconds(n, w, task_seconds(r, ref)) for r, n in counts.items()}
+    walls = {
+        r: t_hess + parallel_seconds(n, w, task_seconds(r, ref, is_hf)) for r, n in counts.items()
+    }
     n_disp = plans["displacement"].n_tasks
     disp = parallel_seconds(n_disp, w, task_seconds("displacement", ref))
     best = min(walls, key=lambda r: walls[r])
@@ -234,7 +236,7 @@ def modes_needed_to_choose(
         r: parallel_seconds(
             _plan(r, settings, coordinates_ang, masses_da, group, None).n_tasks,
             w,
-            task_seconds(r, ref),
+            task_seconds(r, ref, settings.spec.is_hf),
         )
         for r in routes
         if r != "normal-mode"
@@ -264,7 +266,7 @@ def pick_route(
     if modes is None:  # before the Hessian: only the routes that need no modes
         wanted = tuple(r for r in wanted if r != "normal-mode")
     plans = {r: _plan(r, settings, coordinates_ang, masses_da, group, modes) for r in wanted}
-    choice, plan = choose_route(settings.route, plans, ref, workers)
+    choice, plan = choose_route(settings.route, plans, ref, workers, settings.spec.is_hf)
     if settings.route == "auto" and modes is None and "normal-mode" in allowed:
         n, t = normal_mode_estimate(coordinates_ang, ref, workers)
         note = (

@@ -1,11 +1,16 @@
-"""Field derivatives of the closed-shell RHF density by coupled-perturbed Hartree–Fock.
+"""Field derivatives of the closed-shell RHF/RKS density by coupled-perturbed HF/KS.
 
 First-order (three) and second-order (six) responses of the occupied-space projector to a
 uniform electric field, as the AO density D and energy-weighted density W and their first and
 second field derivatives: the inputs of the analytic ∂α/∂x of :mod:`vibrapol.engine.analytic`.
 The equations are derived in ``docs/analytic-raman.md``.
 
-Scope: closed-shell restricted Hartree–Fock; :func:`check_supported` refuses the rest.
+For Kohn–Sham, ``mf.gen_response`` includes the XC kernel (and the hybrid's share of
+exchange) in G, and the second-order equations get the XC third derivative
+(:func:`vibrapol.engine.analytic_xc.kernel_derivative_fock`).
+
+Scope: closed-shell RHF and RKS (LDA, GGA, global hybrids); :func:`check_supported` refuses
+the rest.
 """
 
 from __future__ import annotations
@@ -14,6 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from vibrapol.engine.analytic_xc import kernel_derivative_fock
 from vibrapol.engine.fieldgrad import dipole_integrals
 from vibrapol.engine.polarizability import CPHF_MAX_CYCLE, CPHF_TOL
 from vibrapol.engine.scf import EngineConvergenceError, EngineInputError
@@ -49,18 +55,17 @@ class FieldDensityDerivatives:
 
 
 def check_supported(mf) -> None:
-    """Raise :class:`EngineInputError` unless ``mf`` is a converged closed-shell RHF object."""
+    """Raise :class:`EngineInputError` unless ``mf`` is a converged closed-shell RHF or RKS.
+
+    Kohn–Sham functionals are limited to LDA, GGA and global hybrids
+    (:func:`vibrapol.engine.analytic_xc.xc_scope`).
+    """
     from pyscf import dft, scf
 
-    if isinstance(mf, dft.rks.KohnShamDFT):
-        raise EngineInputError(
-            "the analytic polarizability derivatives are implemented for Hartree–Fock only; "
-            "use the field or cartesian route for DFT"
-        )
     if not isinstance(mf, scf.hf.RHF) or isinstance(mf, scf.rohf.ROHF):
         raise EngineInputError(
             "the analytic polarizability derivatives need a closed-shell restricted "
-            "Hartree–Fock calculation; use the field or cartesian route"
+            "Hartree–Fock or Kohn–Sham calculation; use the field or cartesian route"
         )
     extras = ("with_solvent", "with_df", "with_x2c")
     if any(getattr(mf, name, None) for name in extras) or mf.mol.has_ecp() or mf.mol._pseudo:
@@ -69,6 +74,10 @@ def check_supported(mf) -> None:
             "fitting, relativistic Hamiltonians or pseudopotentials; use the field or "
             "cartesian route"
         )
+    if isinstance(mf, dft.rks.KohnShamDFT):
+        from vibrapol.engine.analytic_xc import xc_scope
+
+        xc_scope(mf)
     if not mf.converged:
         raise EngineInputError("the SCF is not converged; analytic derivatives need it")
 
@@ -157,7 +166,7 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
     nocc, nvir = int(occ.sum()), int(vir.sum())
     nmo = c.shape[1]
     co, cv = c[:, occ], c[:, vir]
-    response = mf.gen_response(hermi=1)  # AO total density → J − K/2
+    response = mf.gen_response(hermi=1)  # AO total density → J − c_x K/2 (+ f_xc for KS)
 
     def g_mo(p_mo: np.ndarray) -> np.ndarray:
         """G[P] in the MO basis for symmetric MO matrices P (…, nmo, nmo)."""
@@ -182,6 +191,9 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
         p[..., vir[:, None] & occ[None, :]] = vo.reshape(vo.shape[:-2] + (-1,))
         return p + np.swapaxes(p, -1, -2)
 
+    def ao(m: np.ndarray) -> np.ndarray:
+        return 2.0 * (c @ m @ c.T)
+
     r_mo = c.T @ dipole_integrals(mf.mol) @ c
     u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
     p1 = embed(u1)
@@ -198,9 +210,12 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
         fa_vv, fa_oo = f1[a][np.ix_(vir, vir)], f1[a][np.ix_(occ, occ)]
         fb_vv, fb_oo = f1[b][np.ix_(vir, vir)], f1[b][np.ix_(occ, occ)]
         rhs[k] = fa_vv @ ub - ub @ fa_oo + fb_vv @ ua - ua @ fb_oo
-    rhs += g_mo(known)[:, vir][:, :, occ]
+    # Kohn–Sham: the XC potential is not linear in the density; its second field derivative
+    # adds ∫ φμ φν k·uᵃ·uᵇ to f^ab beyond the kernel applied to Pᵃᵇ (zero for HF).
+    kxc = c.T @ kernel_derivative_fock(mf, ao(p0), ao(p1)) @ c
+    rhs += (g_mo(known) + kxc)[:, vir][:, :, occ]
     p2_pairs = known + embed(solve(rhs))
-    f2_pairs = g_mo(p2_pairs)
+    f2_pairs = g_mo(p2_pairs) + kxc
 
     def pfp1(a: int) -> np.ndarray:
         return p1[a] @ f0 @ p0 + p0 @ f1[a] @ p0 + p0 @ f0 @ p1[a]
@@ -211,9 +226,6 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
         for x, y in ((a, b), (b, a)):
             out += p1[x] @ f1[y] @ p0 + p1[x] @ f0 @ p1[y] + p0 @ f1[x] @ p1[y]
         return out
-
-    def ao(m: np.ndarray) -> np.ndarray:
-        return 2.0 * (c @ m @ c.T)
 
     nao = c.shape[0]
     d2 = np.zeros((3, 3, nao, nao))

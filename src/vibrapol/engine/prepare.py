@@ -317,9 +317,9 @@ def _provenance(
         )
     elif isinstance(plan, AnalyticPlan):
         how = (
-            "dalpha/dx and dmu/dx analytically (closed-shell RHF: field derivatives of the "
-            "analytic gradient from first- and second-order CPHF field responses, "
-            "docs/analytic-raman.md)"
+            "dalpha/dx and dmu/dx analytically (closed-shell RHF/RKS: field derivatives of the "
+            "analytic gradient, for DFT with the XC kernel terms and the grid response, from "
+            "first- and second-order coupled-perturbed field responses, docs/analytic-raman.md)"
         )
     elif isinstance(plan, FieldPlan):
         how = (

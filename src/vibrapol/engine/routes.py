@@ -26,7 +26,12 @@ from typing import Any
 
 import numpy as np
 
-from vibrapol.engine.analyticroute import ANALYTIC_TO_HESSIAN, AnalyticJob, AnalyticPlan
+from vibrapol.engine.analyticroute import (
+    ANALYTIC_TO_HESSIAN,
+    ANALYTIC_TO_HESSIAN_DFT,
+    AnalyticJob,
+    AnalyticPlan,
+)
 from vibrapol.engine.checkpoint import task_key
 from vibrapol.engine.dipole import dmu_dx_from_gradients, dmu_from_displacements, rebuild_dmu_dx
 from vibrapol.engine.displacements import (
@@ -289,14 +294,18 @@ class RouteChoice:
     estimates_s: dict
 
 
-def task_seconds(route: str, ref: ReferenceResult) -> float:
-    """Estimated serial seconds of one task of ``route`` from the reference timings."""
+def task_seconds(route: str, ref: ReferenceResult, is_hf: bool = True) -> float:
+    """Estimated serial seconds of one task of ``route`` from the reference timings.
+
+    ``is_hf`` selects the Hessian model and the analytic route's fraction of it (HF or DFT).
+    """
     if route == "field":
         return FIELD_TASK_FACTOR * (ref.seconds_scf + ref.seconds_gradient)
     if route == "analytic":  # a fraction of the analytic Hessian (estimated as ``auto`` does)
         from vibrapol.engine.autoroute import estimated_hessian_seconds
 
-        return ANALYTIC_TO_HESSIAN * estimated_hessian_seconds(ref, True)
+        fraction = ANALYTIC_TO_HESSIAN if is_hf else ANALYTIC_TO_HESSIAN_DFT
+        return fraction * estimated_hessian_seconds(ref, is_hf)
     if route == "displacement":
         return DISPLACEMENT_TASK_FACTOR * (
             ref.seconds_scf + ref.seconds_alpha + ref.seconds_gradient
@@ -322,7 +331,11 @@ def cheapest_route(estimates: dict[str, float]) -> str:
 
 
 def choose_route(
-    requested: str, plans: dict[str, Plan], ref: ReferenceResult, workers: int = 1
+    requested: str,
+    plans: dict[str, Plan],
+    ref: ReferenceResult,
+    workers: int = 1,
+    is_hf: bool = True,
 ) -> tuple[RouteChoice, Plan]:
     """The requested route, or for ``auto`` the one of ``plans`` with the least estimated time.
 
@@ -333,7 +346,8 @@ def choose_route(
         plan = plans[requested]
         return RouteChoice(requested, plan.n_tasks, "requested", {}), plan
     estimates = {
-        r: parallel_seconds(p.n_tasks, workers, task_seconds(r, ref)) for r, p in plans.items()
+        r: parallel_seconds(p.n_tasks, workers, task_seconds(r, ref, is_hf))
+        for r, p in plans.items()
     }
     order = tuple(r for r in ROUTE_PREFERENCE if r in plans)
     best = cheapest_route(estimates)

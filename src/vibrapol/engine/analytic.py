@@ -189,7 +189,9 @@ def derivative_terms(
     return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip, **xc_terms), mixed
 
 
-def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
+def analytic_polarizability_derivatives(
+    mf, first_order_start: np.ndarray | None = None
+) -> AnalyticDerivatives:
     """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF or RKS calculation, analytically.
 
     Parameters
@@ -198,6 +200,9 @@ def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
         Converged closed-shell restricted Hartree–Fock or Kohn–Sham (LDA, GGA, global hybrid)
         object (tightly converged: the responses are solved to a residual of 1e-10, and the
         SCF's own error enters linearly).
+    first_order_start : ndarray (3, nao, nao), optional
+        An approximate ∂D/∂F (the reference stage's); only the start of the first-order
+        equations (:func:`~vibrapol.engine.field_response.field_density_derivatives`).
 
     Returns
     -------
@@ -216,7 +221,7 @@ def analytic_polarizability_derivatives(mf) -> AnalyticDerivatives:
     J. S. Binkley, J. Chem. Phys. 84, 531 (1986) (analytic Raman intensities; cited from
     memory).  See ``docs/analytic-raman.md`` for the derivation.
     """
-    dens = field_density_derivatives(mf)
+    dens = field_density_derivatives(mf, first_order_start)
     terms, mixed = derivative_terms(mf, dens)
     natm = mf.mol.natm
     dalpha = -terms.total().reshape(3 * natm, 3, 3)

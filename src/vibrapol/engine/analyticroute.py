@@ -77,7 +77,9 @@ class AnalyticJob:
     """∂α/∂x (Å²) over ∂μ/∂x (e) at one geometry: one (3N, 4, 3) array.
 
     Rows 0–2 of each coordinate are ∂α/∂x, row 3 is ∂μ/∂x, so that the result is stored and
-    checkpointed like every other task result.
+    checkpointed like every other task result.  ``dm0`` and ``density_response`` (the
+    reference stage's density and ∂D/∂F) are starting points only: the SCF and the responses
+    are converged to their own tolerances from them.
     """
 
     atomic_numbers: np.ndarray
@@ -85,6 +87,7 @@ class AnalyticJob:
     spec: MethodSpec
     dm0: np.ndarray | None = None
     threads: int | None = None
+    density_response: np.ndarray | None = None
 
     kind: ClassVar[str] = "analytic-dalpha"
     result_name: ClassVar[str] = "dalpha_dx_ang2_dmu_dx_e"
@@ -103,7 +106,7 @@ class AnalyticJob:
         with threads_limited(self.threads):
             mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
             mf = run_tight_scf(mol, self.spec, self.dm0)
-            result = analytic_polarizability_derivatives(mf)
+            result = analytic_polarizability_derivatives(mf, self.density_response)
         out = np.empty(self.result_shape())
         out[:, :3, :] = result.dalpha_dx_ang2
         out[:, 3, :] = result.dmu_dx_e

@@ -82,8 +82,12 @@ def check_supported(mf) -> None:
         raise EngineInputError("the SCF is not converged; analytic derivatives need it")
 
 
-def solve_response(fvind, delta: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+def solve_response(
+    fvind, delta: np.ndarray, rhs: np.ndarray, x0: np.ndarray | None = None
+) -> np.ndarray:
     """Solve (ε_v − ε_o) X + G[X]_vo = −rhs for each right-hand side (k, nvir, nocc).
+
+    ``x0``: a starting solution (same shape as ``rhs``), else −rhs / (ε_v − ε_o).
 
     Preconditioned conjugate gradients, one recurrence per right-hand side with the
     operator applied to all unconverged ones at once (one batched Fock build per step).  The
@@ -110,7 +114,7 @@ def solve_response(fvind, delta: np.ndarray, rhs: np.ndarray) -> np.ndarray:
     def apply(v: np.ndarray) -> np.ndarray:
         return d * v + fvind(v.reshape(-1, *shape[1:])).reshape(v.shape[0], -1)
 
-    x = b / d
+    x = b / d if x0 is None else np.array(x0, dtype=float).reshape(n, -1)
     r = b - apply(x)
     z = r / d
     p = z.copy()
@@ -136,8 +140,14 @@ def solve_response(fvind, delta: np.ndarray, rhs: np.ndarray) -> np.ndarray:
     return x.reshape(shape)
 
 
-def field_density_derivatives(mf) -> FieldDensityDerivatives:
+def field_density_derivatives(
+    mf, first_order_start: np.ndarray | None = None
+) -> FieldDensityDerivatives:
     """First and second field derivatives of D and W by coupled-perturbed HF.
+
+    ``first_order_start``: an approximate ∂D/∂F_a (3, nao, nao) in the AO basis, for the
+    perturbation +F_a r_a (the reference stage's, solved by a faster, less exact solver), from
+    which the first-order equations start; they are still solved to the full tolerance.
 
     In the orthonormal MO basis of the unperturbed SCF the occupied projector P(F) obeys
     P² = P and [f(P), P] = 0 with f = f⁰ + Σ F_c r_c + G[P].  Order by order (Pᵃ = ∂P/∂F_a,
@@ -182,8 +192,8 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
 
     delta = eps[vir][:, None] - eps[occ][None, :]
 
-    def solve(rhs: np.ndarray) -> np.ndarray:
-        return solve_response(fvind, delta, rhs)
+    def solve(rhs: np.ndarray, x0: np.ndarray | None = None) -> np.ndarray:
+        return solve_response(fvind, delta, rhs, x0)
 
     def embed(vo: np.ndarray) -> np.ndarray:
         """Symmetric MO matrix with vo block ``vo`` and ov block its transpose."""
@@ -195,7 +205,12 @@ def field_density_derivatives(mf) -> FieldDensityDerivatives:
         return 2.0 * (c @ m @ c.T)
 
     r_mo = c.T @ dipole_integrals(mf.mol) @ c
-    u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
+    u1_start = None
+    if first_order_start is not None and np.shape(first_order_start) == (3, *c.shape[:1] * 2):
+        # D¹ = 2 C P¹ Cᵀ with P¹_vo = U: U = ½ C_vᵀ S D¹ S C_o (orthonormal MOs)
+        s = mf.get_ovlp()
+        u1_start = 0.5 * (cv.T @ s) @ np.asarray(first_order_start) @ (s @ co)
+    u1 = solve(r_mo[:, vir][:, :, occ], u1_start)  # (3, nvir, nocc)
     p1 = embed(u1)
     f1 = r_mo + g_mo(p1)  # (3, nmo, nmo)
     f0 = np.diag(eps)

@@ -176,7 +176,7 @@ def make_jobs(
     jobs: list[FieldGradientJob] | list[PolarizabilityDipoleJob] | list[Any]
     if isinstance(plan, AnalyticPlan):
         x = plan.coordinates_ang
-        jobs = [AnalyticJob(z, x, spec, ref.density)]
+        jobs = [AnalyticJob(z, x, spec, ref.density, density_response=ref.density_response)]
         keys = [task_key("analytic-dalpha", z, x, spec, analytic_conv=[1e-10])]
         return jobs, keys, plan.labels
     if isinstance(plan, DisplacementRoutePlan):

@@ -284,11 +284,12 @@ def test_response_solver_is_accurate_in_small_components():
 
     Water HF/6-31G with the O atom 0.001 Å out of the molecular plane: α_xz ≈ 0.005 bohr³.
     PySCF's ``cphf.solve`` left it 3e-7 off (and α_xz ≠ α_zx) at any tolerance; the direct
-    solve of the full response matrix is the reference.
+    solve of the full response matrix is the reference.  Tolerance 1e-8: the analytic route
+    solves to a residual of 1e-8 (ANALYTIC_RESPONSE_TOL; measured 2.5e-9 here, 2e-14 at 1e-10).
     """
     mf = _rhf(_displaced(WATER, 0, 1e-3), "6-31g")
     alpha = analytic_polarizability_derivatives(mf).alpha_bohr3
-    np.testing.assert_allclose(alpha, _direct_cphf_alpha(mf), rtol=0, atol=1e-9)
+    np.testing.assert_allclose(alpha, _direct_cphf_alpha(mf), rtol=0, atol=1e-8)
 
 
 def test_polarizability_of_displaced_tasks_is_accurate_in_small_components():
@@ -370,14 +371,14 @@ def test_first_order_start_from_the_reference_response_changes_only_the_cost(mon
     steps = []
     solve = field_response.solve_response
 
-    def counted(fvind, delta, rhs, x0=None):  # noqa: ANN001, ANN202
+    def counted(fvind, delta, rhs, x0=None, tol=1e-8):  # noqa: ANN001, ANN202
         n = [0]
 
         def counting(x):  # noqa: ANN001, ANN202
             n[0] += 1
             return fvind(x)
 
-        out = solve(counting, delta, rhs, x0)
+        out = solve(counting, delta, rhs, x0, tol)
         steps.append(n[0])
         return out
 

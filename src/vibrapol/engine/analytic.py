@@ -198,7 +198,7 @@ def analytic_polarizability_derivatives(
     ----------
     mf : pyscf.scf.hf.RHF or pyscf.dft.rks.RKS
         Converged closed-shell restricted Hartree–Fock or Kohn–Sham (LDA, GGA, global hybrid)
-        object (tightly converged: the responses are solved to a residual of 1e-10, and the
+        object (tightly converged: the responses are solved to a residual of 1e-8, and the
         SCF's own error enters linearly).
     first_order_start : ndarray (3, nao, nao), optional
         An approximate ∂D/∂F (the reference stage's); only the start of the first-order

@@ -47,6 +47,7 @@ from vibrapol.engine.disproute import (
     split_results,
 )
 from vibrapol.engine.evaluate import FieldGradientJob, PolarizabilityDipoleJob, ReferenceResult
+from vibrapol.engine.field_response import ANALYTIC_RESPONSE_TOL
 from vibrapol.engine.fieldgrad import (
     FIELD_SCF_CONV_TOL,
     FIELD_SCF_CONV_TOL_GRAD,
@@ -177,7 +178,7 @@ def make_jobs(
     if isinstance(plan, AnalyticPlan):
         x = plan.coordinates_ang
         jobs = [AnalyticJob(z, x, spec, ref.density, density_response=ref.density_response)]
-        keys = [task_key("analytic-dalpha", z, x, spec, analytic_conv=[1e-10])]
+        keys = [task_key("analytic-dalpha", z, x, spec, analytic_conv=[ANALYTIC_RESPONSE_TOL])]
         return jobs, keys, plan.labels
     if isinstance(plan, DisplacementRoutePlan):
         jobs = [GradientDipoleAlphaJob(z, x, spec, ref.density) for x in plan.coordinates_ang]

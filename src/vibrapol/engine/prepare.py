@@ -35,6 +35,7 @@ from vibrapol.engine.fieldplan import FieldPlan
 from vibrapol.engine.laser import LaserReference
 from vibrapol.engine.openshell import check_symmetric_solution, reference_spin_note
 from vibrapol.engine.optimize import OptimizationResult
+from vibrapol.engine.polarizability import CPHF_TOL
 from vibrapol.engine.progress import Progress
 from vibrapol.engine.routes import (
     Plan,
@@ -333,7 +334,12 @@ def _provenance(
             f"{plan.n_tasks} displaced geometries; dmu from the total dipole (PySCF "
             "dip_moment, frame origin) at the same geometries"
         )
-    alpha = "CPHF static polarizability"
+    alpha = (
+        "CPHF static polarizability (PySCF ucphf.solve)"
+        if settings.spec.is_unrestricted
+        else f"CPHF static polarizability (preconditioned conjugate gradients to a residual of "
+        f"{CPHF_TOL:g} at displaced geometries)"
+    )
     if prep.laser is not None and prep.laser.dynamic:
         alpha = f"dynamic polarizability at {prep.laser.laser_nm:g} nm (linear response)"
     notes.append(

@@ -306,6 +306,12 @@ def _provenance(
             )
         )
     route = route_name(plan)
+    if settings.dynamic:
+        solver = "linear-response equations at the laser frequency, residual ≤ 1e-5"
+    elif settings.spec.is_unrestricted:
+        solver = "PySCF ucphf.solve"
+    else:
+        solver = f"preconditioned conjugate gradients to a residual of {CPHF_TOL:g}"
     hessian = "analytic Hessian"
     if isinstance(plan, DisplacementRoutePlan):
         hessian = (
@@ -313,8 +319,9 @@ def _provenance(
             f"{asymmetry:.1e} hartree/bohr²)"
         )
         how = (
-            f"dalpha and dmu by central differences of CPHF alpha and the total dipole (PySCF "
-            f"dip_moment, frame origin) at the same {plan.n_tasks} displaced geometries"
+            f"dalpha and dmu by central differences of alpha ({solver}) and the total "
+            f"dipole (PySCF dip_moment, frame origin) at the same {plan.n_tasks} displaced "
+            "geometries"
         )
     elif isinstance(plan, AnalyticPlan):
         how = (
@@ -331,15 +338,10 @@ def _provenance(
     else:
         how = (
             f"dalpha by central differences, {route} route, step {plan.step_ang} Å, "
-            f"{plan.n_tasks} displaced geometries; dmu from the total dipole (PySCF "
-            "dip_moment, frame origin) at the same geometries"
+            f"{plan.n_tasks} displaced geometries (alpha: {solver}); dmu from the total "
+            "dipole (PySCF dip_moment, frame origin) at the same geometries"
         )
-    alpha = (
-        "CPHF static polarizability (PySCF ucphf.solve)"
-        if settings.spec.is_unrestricted
-        else f"CPHF static polarizability (preconditioned conjugate gradients to a residual of "
-        f"{CPHF_TOL:g} at displaced geometries)"
-    )
+    alpha = "CPHF static polarizability"
     if prep.laser is not None and prep.laser.dynamic:
         alpha = f"dynamic polarizability at {prep.laser.laser_nm:g} nm (linear response)"
     notes.append(

@@ -6,7 +6,7 @@ field route's tight tolerances) and calls
 second-order field responses contracted with derivative integrals, whatever the molecule's
 size or symmetry (docs/analytic-raman.md).  It needs no normal modes, so it runs beside the
 Hessian stage.  Measured (benzene 6-31G*, 2 shared cores): HF 0.23 × the analytic Hessian's
-wall time (0.18 × its CPU time); B3LYP 0.45 (0.48 CPU), where the response solves, each step a
+wall time (0.18 × its CPU time); B3LYP 0.33 (0.41 CPU), where the response solves, each step a
 grid contraction of the XC kernel, take most of the time (docs/analytic-raman.md).
 """
 
@@ -22,9 +22,9 @@ from vibrapol.engine.scf import MethodSpec
 #: Wall time of the analytic ∂α/∂x over that of the analytic Hessian, for ``auto``'s estimate
 #: (measured: benzene HF/6-31G*, 0.23; docs/analytic-raman.md).
 ANALYTIC_TO_HESSIAN = 0.25
-#: The same for Kohn–Sham DFT (measured: benzene B3LYP/6-31G*, 0.45 wall, 0.48 CPU, load 6 on
-#: 2 cores; docs/analytic-raman.md).
-ANALYTIC_TO_HESSIAN_DFT = 0.5
+#: The same for Kohn–Sham DFT (measured: benzene B3LYP/6-31G*, 0.33 wall, 0.41 CPU, load 3–4 on
+#: 2 cores, responses solved to 1e-8; 0.45 / 0.48 at 1e-10; docs/analytic-raman.md).
+ANALYTIC_TO_HESSIAN_DFT = 0.4
 
 
 def analytic_unsupported(

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from vibrapol.errors import ShapeError
+from vibrapol.modeset import MAX_ABS_VALUE
 from vibrapol.units import hessian_eigenvalue_to_cm1
 
 #: A molecule is treated as linear when its smallest principal moment of inertia is below this
@@ -57,6 +58,24 @@ def is_linear(coordinates_ang: np.ndarray, masses_da: np.ndarray) -> bool:
     return bool(moments[-1] <= 0 or moments[0] < LINEAR_INERTIA_RATIO * moments[-1])
 
 
+def require_finite(name: str, values: np.ndarray) -> None:
+    """Raise :class:`ShapeError` unless every value is finite and at most ``MAX_ABS_VALUE``.
+
+    LAPACK's singular-value and eigenvalue drivers can loop without end on infinite entries
+    (found by fuzzing a Gaussian reader: a mutated coordinate of 1.7e308 made a 3 × 3 matrix
+    product infinite and ``numpy.linalg.svd`` never returned), so numbers read from files are
+    checked before they reach them.
+    """
+    v = np.asarray(values, dtype=float)
+    if not np.all(np.isfinite(v)):
+        raise ShapeError(f"{name} contains NaN or infinite values")
+    if v.size and float(np.max(np.abs(v))) > MAX_ABS_VALUE:
+        raise ShapeError(
+            f"{name} holds {float(np.max(np.abs(v))):.3g}, beyond the largest accepted "
+            f"magnitude ({MAX_ABS_VALUE:g}); the file is damaged or in other units"
+        )
+
+
 def rigid_body_vectors(coordinates_ang: np.ndarray, masses_da: np.ndarray) -> np.ndarray:
     """Orthonormal mass-weighted vectors of overall translation and rotation.
 
@@ -65,6 +84,8 @@ def rigid_body_vectors(coordinates_ang: np.ndarray, masses_da: np.ndarray) -> np
     ndarray, shape (6, 3N) or (5, 3N) for a linear molecule (3 for a single atom).
     """
     n = len(masses_da)
+    require_finite("coordinates", coordinates_ang)
+    require_finite("masses", masses_da)
     sqrt_m = np.sqrt(masses_da)
     com = masses_da @ coordinates_ang / masses_da.sum()
     r = coordinates_ang - com
@@ -122,6 +143,7 @@ def harmonic_analysis(
         )
     if coords.shape != (n, 3):
         raise ShapeError(f"coordinates should be an ({n}, 3) array, got {coords.shape}")
+    require_finite("Hessian", h)
     h = 0.5 * (h + h.T)
     inv_sqrt_m = np.repeat(1.0 / np.sqrt(masses), 3)
     hmw = h * inv_sqrt_m[:, None] * inv_sqrt_m[None, :]
@@ -261,6 +283,8 @@ def modes_from_displacements(displacements: np.ndarray, masses_da: np.ndarray) -
         raise ShapeError(
             f"displacements should have 3N = {3 * masses.shape[0]} columns, got {d.shape[1]}"
         )
+    require_finite("normal-mode displacements", d)
+    require_finite("masses", masses)
     weighted = d * np.repeat(np.sqrt(masses), 3)[None, :]
     norms = np.linalg.norm(weighted, axis=1, keepdims=True)
     if np.any(norms == 0):

@@ -26,8 +26,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from vibrapol.errors import InputFormatError
+from vibrapol.errors import InputFormatError, ShapeError
 from vibrapol.modeset import Provenance
+from vibrapol.vibrations import require_finite
 
 #: Gaussian stores a symmetric 3×3 tensor as its lower triangle: xx, xy, yy, xz, yz, zz.
 LOWER_TRIANGLE_INDEX = np.array([[0, 1, 3], [1, 2, 4], [3, 4, 5]])
@@ -171,6 +172,11 @@ def frame_rotation(from_ang: np.ndarray, to_ang: np.ndarray, where: str) -> np.n
     InputFormatError
         If the two tables do not describe the same geometry.
     """
+    try:
+        require_finite("input orientation", from_ang)
+        require_finite("standard orientation", to_ang)
+    except ShapeError as exc:
+        raise InputFormatError(f"{where}: {exc}") from None
     a = from_ang - from_ang.mean(axis=0)
     b = to_ang - to_ang.mean(axis=0)
     u, _, vt = np.linalg.svd(b.T @ a)

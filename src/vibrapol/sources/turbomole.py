@@ -336,7 +336,7 @@ def _modes(vectors: np.ndarray, masses: np.ndarray, where: str) -> tuple[np.ndar
             "TURBOMOLE printed Cartesian displacements (orthogonal once multiplied by √m; "
             f"largest overlap {cartesian_err:.1g}), converted to mass-weighted modes"
         )
-    if mass_weighted_err <= 5e-3:
+    if mass_weighted_err <= 5e-3:  # finite: the errors above are finite only then
         u, _, vt = np.linalg.svd(vectors, full_matrices=False)
         return u @ vt, (
             "TURBOMOLE printed mass-weighted orthonormal mode vectors (largest deviation "

@@ -22,9 +22,13 @@ from vibrapol.engine.scf import MethodSpec
 #: Wall time of the analytic ∂α/∂x over that of the analytic Hessian, for ``auto``'s estimate
 #: (measured: benzene HF/6-31G*, 0.23; docs/analytic-raman.md).
 ANALYTIC_TO_HESSIAN = 0.25
-#: The same for Kohn–Sham DFT (measured: benzene B3LYP/6-31G*, 0.33 wall, 0.41 CPU, load 3–4 on
-#: 2 cores, responses solved to 1e-8; 0.45 / 0.48 at 1e-10; docs/analytic-raman.md).
-ANALYTIC_TO_HESSIAN_DFT = 0.4
+#: The same for Kohn–Sham DFT.  Measured alone: benzene B3LYP/6-31G*, 0.33 wall, 0.41 CPU (load
+#: 3–4 on 2 cores, responses solved to 1e-8).  Priced higher because beside the Hessian it
+#: competes with it for the cores: at 0.4 ``auto`` took it for benzene over three field tasks,
+#: and the whole job then cost 1.33 × the frequency-only job in CPU against 1.21 with the field
+#: route (bench/engine_scale.py, docs/engine-routes.md); at 0.5 benzene keeps the field route
+#: and molecules without symmetry (12 field tasks) still get the analytic one.
+ANALYTIC_TO_HESSIAN_DFT = 0.5
 
 
 def analytic_unsupported(

@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from _analytic_terms import PEROXIDE_C1, WATER, term_integrals
 from vibrapol.engine.analytic import (
     analytic_polarizability_derivatives,
     check_supported,
@@ -27,16 +28,6 @@ from vibrapol.engine.analytic import (
 from vibrapol.engine.polarizability import cphf_polarizability, cphf_polarizability_response
 from vibrapol.engine.scf import EngineInputError
 from vibrapol.units import BOHR2_TO_ANG2, BOHR_ANG
-
-#: Water near its HF/STO-3G geometry (Å).
-WATER = [("O", (0.0, 0.0, 0.1173)), ("H", (0.0, 0.7572, -0.4692)), ("H", (0.0, -0.7572, -0.4692))]
-#: Hydrogen peroxide with unequal O–H bonds and a 105° dihedral: no symmetry (C1), Å.
-PEROXIDE_C1 = [
-    ("O", (0.0, 0.7375, -0.0528)),
-    ("O", (0.0, -0.7375, -0.0528)),
-    ("H", (0.8190, 0.8170, 0.4220)),
-    ("H", (-0.7480, -0.9400, 0.5100)),
-]
 
 #: Cartesian step of the finite-difference references, Å (error O(h²) ≈ 1e-6 relative).
 STEP_ANG = 1e-3
@@ -181,30 +172,10 @@ def test_each_term_against_finite_differences_of_its_integrals():
     Tr[Dᵃ G_x[Dᵇ]]; overlap: −Tr[Wᵃᵇ S(x)]; dipole integrals: Tr[Dᵇ r_a(x)] + Tr[Dᵃ r_b(x)],
     r about the fixed frame origin (the Hellmann–Feynman-like term).
     """
-    from pyscf import scf
-
-    from vibrapol.engine.fieldgrad import dipole_integrals
-
     mf = _rhf(PEROXIDE_C1, "sto-3g")
     dens = field_density_derivatives(mf)
     terms, _ = derivative_terms(mf, dens)
-    d0, d1, d2, w2 = dens.density, dens.d1, dens.d2, dens.w2
-
-    def veff(mol, dm):
-        vj, vk = scf.hf.get_jk(mol, dm, hermi=1)
-        return vj - 0.5 * vk
-
-    expected = {
-        "core_hamiltonian": lambda m: np.einsum("pq,abpq->ab", scf.hf.get_hcore(m), d2),
-        "two_electron_relaxed": lambda m: np.einsum("pq,abpq->ab", veff(m, d0), d2),
-        "two_electron_response": lambda m: np.einsum(
-            "apq,bpq->ab", d1, np.array([veff(m, d) for d in d1])
-        ),
-        "overlap": lambda m: -np.einsum("pq,abpq->ab", m.intor("int1e_ovlp"), w2),
-        "dipole_integrals": lambda m: (
-            lambda r: np.einsum("apq,bpq->ab", r, d1) + np.einsum("apq,bpq->ba", r, d1)
-        )(dipole_integrals(m)),
-    }
+    expected = term_integrals(dens)
     for name, quantity in expected.items():
         fd = _term_by_displacement(mf, quantity)
         analytic = getattr(terms, name).reshape(fd.shape)

@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from _analytic_terms import PEROXIDE_C1, WATER
 from vibrapol.engine.analytic import (
     analytic_polarizability_derivatives,
     check_supported,
@@ -29,15 +30,6 @@ from vibrapol.engine.field_response import PAIRS
 from vibrapol.engine.scf import EngineInputError
 from vibrapol.units import BOHR2_TO_ANG2, BOHR_ANG
 
-#: Water near its equilibrium geometry (Å), C2v.
-WATER = [("O", (0.0, 0.0, 0.1173)), ("H", (0.0, 0.7572, -0.4692)), ("H", (0.0, -0.7572, -0.4692))]
-#: Hydrogen peroxide with unequal O–H bonds and a 105° dihedral: no symmetry (C1), Å.
-PEROXIDE_C1 = [
-    ("O", (0.0, 0.7375, -0.0528)),
-    ("O", (0.0, -0.7375, -0.0528)),
-    ("H", (0.8190, 0.8170, 0.4220)),
-    ("H", (-0.7480, -0.9400, 0.5100)),
-]
 #: Ammonia (C3v), Å (N–H 1.012 Å, H–N–H 106.7°, common practice).
 AMMONIA = [
     ("N", (0.0, 0.0, 0.1162)),

@@ -30,6 +30,7 @@ import pytest
 from ase import Atoms
 from ase.build import molecule
 
+from _analytic_terms import term_integrals
 from vibrapol.engine.analytic import (
     analytic_polarizability_derivatives,
     derivative_terms,
@@ -392,28 +393,10 @@ def test_each_term_with_d_functions(name, cart):
     form.  Measured: at most 7.2e-8 of each term's largest element, the differences' own h²
     error (it falls to 1.9e-8 at 1e-4 Å; fluoromethanol 6-31G*, 20 s, gave 3.4e-8).
     """
-    from pyscf import scf
-
-    from vibrapol.engine.fieldgrad import dipole_integrals
-
     mf = _rhf(MOLECULES[name](), "6-31g*", cart)
     dens = field_density_derivatives(mf)
     terms, _ = derivative_terms(mf, dens)
-    d0, d1, d2, w2 = dens.density, dens.d1, dens.d2, dens.w2
-
-    def veff(mol, dm):
-        vj, vk = scf.hf.get_jk(mol, dm, hermi=1)
-        return vj - 0.5 * vk
-
-    expected = {
-        "core_hamiltonian": lambda m: np.einsum("pq,abpq->ab", scf.hf.get_hcore(m), d2),
-        "two_electron_relaxed": lambda m: np.einsum("pq,abpq->ab", veff(m, d0), d2),
-        "two_electron_response": lambda m: np.einsum("apq,bpq->ab", d1, veff(m, d1)),
-        "overlap": lambda m: -np.einsum("pq,abpq->ab", m.intor("int1e_ovlp"), w2),
-        "dipole_integrals": lambda m: (
-            lambda r: np.einsum("apq,bpq->ab", r, d1) + np.einsum("apq,bpq->ba", r, d1)
-        )(dipole_integrals(m)),
-    }
+    expected = term_integrals(dens)
     for name, quantity in expected.items():
         fd = _by_displacement(mf.mol, quantity)
         analytic = getattr(terms, name).reshape(fd.shape)

@@ -7,9 +7,13 @@
     PYTHONPATH=src python bench/analytic.py --systems butan-2-ol --field-route   # C1, 15 atoms
 
 One process, one molecule after the other, all threads of the process: the SCF (converged to
-the field route's tolerance), PySCF's analytic Hessian, then the analytic ∂α/∂x split into its
-two stages (the 3 + 6 field responses; the derivative-integral contractions).  With
-``--field-route`` also the field route without symmetry (12 field SCFs + gradients, serial).
+the field route's tolerance), PySCF's own analytic Hessian (``hessian_pyscf``), the engine's
+(``hessian``: PySCF's terms, the nuclear equations solved by vibrapol's block solver, the
+responses kept), then the analytic ∂α/∂x by the 2n+1 rule split into its two stages (the 3
+first-order field responses, started cold; the derivative contractions).  With
+``--second-order`` also ∂α/∂x with the six second-order field equations solved (the route's
+task when the Hessian comes from a checkpoint); with ``--field-route`` the field route without
+symmetry (12 field SCFs + gradients, serial).  The ratios are to the engine's Hessian.
 Geometries are ASE's, or built here without symmetry (``butan-2-ol``, 15 atoms, from ASE's
 trans-butane; ``hexan-2-ol``, 21 atoms, a built zigzag chain); not optimised: the costs do not
 need a stationary point.
@@ -116,13 +120,16 @@ def alkan_2_ol(n_carbons: int):
 BUILT = {"butan-2-ol": butan_2_ol, "hexan-2-ol": lambda: alkan_2_ol(6)}
 
 
-def run_system(name: str, basis: str, field_route: bool, method: str = "hf") -> dict:
-    """Times (wall, CPU) of SCF, Hessian, analytic ∂α/∂x (and the field route) for one molecule."""
+def run_system(
+    name: str, basis: str, field_route: bool, method: str = "hf", second_order: bool = False
+) -> dict:
+    """Times (wall, CPU) of SCF, Hessians, analytic ∂α/∂x (and the field route), one molecule."""
     import numpy as np
     from ase.build import molecule
 
     from vibrapol.engine.analytic import derivative_terms, field_density_derivatives
     from vibrapol.engine.fieldgrad import tighten_scf
+    from vibrapol.engine.hessian import analytic_hessian_parts
     from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
 
     atoms = BUILT[name]() if name in BUILT else molecule(name)
@@ -137,9 +144,12 @@ def run_system(name: str, basis: str, field_route: bool, method: str = "hf") -> 
     hess = mf.Hessian()
     hess.verbose = 0
     hess.kernel()
+    row["hessian_pyscf"] = _since(t)
+    t = _clock()
+    _, nuclear = analytic_hessian_parts(mf)
     row["hessian"] = _since(t)
     t = _clock()
-    dens = field_density_derivatives(mf)
+    dens = field_density_derivatives(mf, None, nuclear)
     row["responses"] = _since(t)
     t = _clock()
     derivative_terms(mf, dens)
@@ -147,6 +157,10 @@ def run_system(name: str, basis: str, field_route: bool, method: str = "hf") -> 
     row["analytic"] = tuple(
         a + b for a, b in zip(row["responses"], row["contractions"], strict=True)
     )
+    if second_order:
+        t = _clock()
+        derivative_terms(mf, field_density_derivatives(mf))
+        row["second_order"] = _since(t)
     if field_route:
         from vibrapol.engine.fieldgrad import field_gradient, field_scf
         from vibrapol.engine.fieldplan import field_plan
@@ -169,12 +183,20 @@ def main() -> None:
     parser.add_argument("--basis", default="6-31g*")
     parser.add_argument("--method", default="hf", help="hf or a functional (e.g. b3lyp)")
     parser.add_argument("--field-route", action="store_true")
+    parser.add_argument(
+        "--second-order",
+        action="store_true",
+        help="also ∂α/∂x with the six second-order field equations solved (no 2n+1)",
+    )
     args = parser.parse_args()
     load_start = os.getloadavg()[0] if hasattr(os, "getloadavg") else None
     rows = [
-        run_system(s, args.basis, args.field_route, args.method) for s in args.systems.split(",")
+        run_system(s, args.basis, args.field_route, args.method, args.second_order)
+        for s in args.systems.split(",")
     ]
-    cols = ["scf", "hessian", "responses", "contractions", "analytic"]
+    cols = ["scf", "hessian_pyscf", "hessian", "responses", "contractions", "analytic"]
+    if args.second_order:
+        cols.append("second_order")
     if args.field_route:
         cols.append("field_route")
     header = "| molecule | method | basis | nao | " + " | ".join(f"{c} / s" for c in cols)

@@ -123,8 +123,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
         "modes, analytic gradients in electric fields (these three after an analytic Hessian), "
         "displacement: gradient, dipole and polarizability at displaced Cartesians, the Hessian "
         "from their gradients (no analytic Hessian; scales with the workers), analytic: "
-        "analytic derivatives in one task beside the Hessian (closed-shell HF, or DFT with an LDA, "
-        "GGA or global hybrid functional; gas phase), "
+        "analytic derivatives computed with the analytic Hessian by the 2n+1 rule (closed-shell "
+        "HF, or DFT with an LDA, GGA or global hybrid functional; gas phase), "
         "or auto: the "
         "fastest on the run's workers by a cost model measured on the molecule (default: auto)",
     )

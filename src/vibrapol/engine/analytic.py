@@ -73,6 +73,7 @@ class AlphaDerivativeTerms:
     xc_kernel_response: np.ndarray | None = None
     xc_kernel_derivative: np.ndarray | None = None
     xc_grid_response: np.ndarray | None = None
+    orbital_relaxation: np.ndarray | None = None
 
     def total(self) -> np.ndarray:
         """∂³E/∂x∂F_a∂F_b, shape (N, 3, 3, 3)."""
@@ -186,11 +187,18 @@ def derivative_terms(
     if kohn_sham:
         xc_terms, xc_mixed, _ = xc_gradient_derivatives(mf, d0, d1, d2, grid_response)
         mixed = mixed + xc_mixed
+    if dens.relaxation is not None:
+        relaxation = np.zeros(shape)
+        for k, (a, b) in enumerate(PAIRS):
+            relaxation[..., a, b] = relaxation[..., b, a] = dens.relaxation[:, k].reshape(natm, 3)
+        xc_terms["orbital_relaxation"] = relaxation
     return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip, **xc_terms), mixed
 
 
 def analytic_polarizability_derivatives(
-    mf, first_order_start: np.ndarray | None = None
+    mf,
+    first_order_start: np.ndarray | None = None,
+    nuclear_response: np.ndarray | None = None,
 ) -> AnalyticDerivatives:
     """∂α/∂x and ∂μ/∂x of a converged closed-shell RHF or RKS calculation, analytically.
 
@@ -203,6 +211,11 @@ def analytic_polarizability_derivatives(
     first_order_start : ndarray (3, nao, nao), optional
         An approximate ∂D/∂F (the reference stage's); only the start of the first-order
         equations (:func:`~vibrapol.engine.field_response.field_density_derivatives`).
+    nuclear_response : ndarray (3N, nvir, nocc), optional
+        The analytic Hessian's orbital responses to the nuclear coordinates (vo blocks, from
+        :func:`vibrapol.engine.hessian.analytic_hessian` with ``keep_response``).  With them
+        the six second-order field equations are not solved (2n+1 rule; the orbital
+        relaxation term then carries no XC grid response, as the Hessian's).
 
     Returns
     -------
@@ -221,7 +234,7 @@ def analytic_polarizability_derivatives(
     J. S. Binkley, J. Chem. Phys. 84, 531 (1986) (analytic Raman intensities; cited from
     memory).  See ``docs/analytic-raman.md`` for the derivation.
     """
-    dens = field_density_derivatives(mf, first_order_start)
+    dens = field_density_derivatives(mf, first_order_start, nuclear_response)
     terms, mixed = derivative_terms(mf, dens)
     natm = mf.mol.natm
     dalpha = -terms.total().reshape(3 * natm, 3, 3)

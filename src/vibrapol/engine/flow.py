@@ -15,6 +15,7 @@ from time import perf_counter
 import numpy as np
 
 from vibrapol.engine import stages
+from vibrapol.engine.analyticroute import AnalyticPlan, HessianAndTensor, HessianTensorJob
 from vibrapol.engine.dynamic import PreResonanceWarning
 from vibrapol.engine.executors import Backend
 from vibrapol.engine.laser import LaserJob, LaserReference
@@ -39,6 +40,7 @@ STAGE_NAMES = {
     "laser-reference": "excitation energies",
     "reference-scf": "reference SCF",
     "hessian": "Hessian",
+    "hessian-dalpha": "Hessian",
 }
 
 
@@ -178,9 +180,42 @@ class Flow:
             job = stages.HessianJob.after(
                 scf, m.atomic_numbers, m.coordinates_ang, self.settings.spec
             )
+            if planned and self._tensor_with_hessian(k, scf, job):
+                return
             self._stage(k, job, self._hessian_done)
         if planned:
             self._tasks(k)
+
+    def _tensor_with_hessian(self, k: int, scf: stages.ScfResult, hessian_job) -> bool:  # noqa: ANN001
+        """The analytic route's ∂α/∂x in the Hessian stage (2n+1 rule); False: not here.
+
+        Not when the route is another, nor when the plain Hessian is already in the checkpoint
+        (then the route's own task, which solves the second-order field equations, runs).
+        """
+        m = self.molecules[k]
+        if not isinstance(m.plan, AnalyticPlan):
+            return False
+        if m.store is not None and m.store.get(hessian_job.key()) is not None:
+            return False
+        job = HessianTensorJob(
+            m.atomic_numbers,
+            m.coordinates_ang,
+            self.settings.spec,
+            scf.mo_coeff,
+            scf.mo_occ,
+            scf.mo_energy,
+            density_response=m.reference.density_response if m.reference else None,
+        )
+        m.tensor_with_hessian = True
+        self._open_tasks(k)
+        self._stage(k, job, self._hessian_tensor_done)
+        return True
+
+    def _hessian_tensor_done(
+        self, k: int, value: HessianAndTensor, seconds: float, reused: bool
+    ) -> None:
+        self._hessian_done(k, value.hessian_hartree_bohr2, seconds - value.seconds_tensor, reused)
+        self._task_done(k, 0, value.tensor, value.seconds_tensor, 0.0, reused)
 
     def _hessian_done(self, k: int, hessian: np.ndarray, seconds: float, reused: bool) -> None:
         m = self.molecules[k]
@@ -199,14 +234,22 @@ class Flow:
         if note is not None:
             warnings.warn(f"{self.molecules[k].name}: {note}", OpenShellWarning, stacklevel=2)
 
-    def _tasks(self, k: int) -> None:
+    def _open_tasks(self, k: int) -> None:
+        """Empty results for molecule ``k``'s tasks, and the line that announces them."""
         m = self.molecules[k]
         assert m.choice is not None
         n = len(m.jobs)
         self.results[k] = [None] * n
         self.reused[k], self.seconds[k] = [False] * n, [0.0] * n
         self.window[k] = [np.inf, -np.inf]
-        self._say(k, f"{m.choice.route} route: {n} tasks")
+        if m.tensor_with_hessian:
+            self._say(k, f"{m.choice.route} route: dalpha/dx computed with the Hessian (2n+1)")
+        else:
+            self._say(k, f"{m.choice.route} route: {n} tasks")
+
+    def _tasks(self, k: int) -> None:
+        m = self.molecules[k]
+        self._open_tasks(k)
         for i, job in enumerate(m.jobs):
 
             def done(value, seconds, memory_mb, reused, i=i) -> None:  # noqa: ANN001

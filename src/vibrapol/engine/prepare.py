@@ -31,7 +31,9 @@ from vibrapol.engine.checkpoint import CheckpointStore
 from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.disproute import HESSIAN_NOTE, DisplacementRoutePlan
 from vibrapol.engine.evaluate import ReferenceResult
+from vibrapol.engine.field_response import ANALYTIC_RESPONSE_TOL
 from vibrapol.engine.fieldplan import FieldPlan
+from vibrapol.engine.hessian import nuclear_solver_note
 from vibrapol.engine.laser import LaserReference
 from vibrapol.engine.openshell import check_symmetric_solution, reference_spin_note
 from vibrapol.engine.optimize import OptimizationResult
@@ -109,6 +111,9 @@ class Molecule:
         The route, once chosen.
     jobs, keys, labels
         Its derivative tasks.
+    tensor_with_hessian : bool
+        The analytic route's derivatives come from the Hessian stage (2n+1 rule), not from
+        its own task.
     """
 
     name: str
@@ -130,6 +135,7 @@ class Molecule:
     jobs: list = field(default_factory=list)
     keys: list[str] = field(default_factory=list)
     labels: tuple[str, ...] = ()
+    tensor_with_hessian: bool = False
     spin_note: str | None = None
     laser: LaserReference | None = None
     family: FamilyChoice | None = None
@@ -312,7 +318,7 @@ def _provenance(
         solver = "PySCF ucphf.solve"
     else:
         solver = f"preconditioned conjugate gradients to a residual of {CPHF_TOL:g}"
-    hessian = "analytic Hessian"
+    hessian = f"analytic Hessian ({nuclear_solver_note(settings.spec)})"
     if isinstance(plan, DisplacementRoutePlan):
         hessian = (
             f"{HESSIAN_NOTE}, step {plan.step_ang} Å (largest |H - H^T|/2 before: "
@@ -322,6 +328,14 @@ def _provenance(
             f"dalpha and dmu by central differences of alpha ({solver}) and the total "
             f"dipole (PySCF dip_moment, frame origin) at the same {plan.n_tasks} displaced "
             "geometries"
+        )
+    elif isinstance(plan, AnalyticPlan) and prep.tensor_with_hessian:
+        how = (
+            "dalpha/dx and dmu/dx analytically (closed-shell RHF/RKS: field derivatives of the "
+            "analytic gradient by the 2n+1 rule, from the first-order field responses "
+            f"(residual {ANALYTIC_RESPONSE_TOL:g}) and the Hessian's nuclear responses; for "
+            "DFT with the XC kernel terms and their grid response, except in the "
+            "orbital-relaxation term, which has none, as the Hessian; docs/analytic-raman.md)"
         )
     elif isinstance(plan, AnalyticPlan):
         how = (

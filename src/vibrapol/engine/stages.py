@@ -33,7 +33,7 @@ from vibrapol.engine.optimize import (
 from vibrapol.engine.scf import MethodSpec, build_molecule
 
 #: The convergence settings of the reference SCF enter the keys of both reference stages.
-_REFERENCE_KEY = {
+REFERENCE_KEY = {
     "reference_conv": [FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
     "grid_response": True,
 }
@@ -142,7 +142,7 @@ class ScfJob:
     def key(self) -> str:
         """Checkpoint key."""
         return task_key(
-            "reference-scf", self.atomic_numbers, self.coordinates_ang, self.spec, **_REFERENCE_KEY
+            "reference-scf", self.atomic_numbers, self.coordinates_ang, self.spec, **REFERENCE_KEY
         )
 
     def run(self) -> ScfResult:
@@ -230,7 +230,7 @@ class HessianJob:
     def key(self) -> str:
         """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
         return task_key(
-            "hessian", self.atomic_numbers, self.coordinates_ang, self.spec, **_REFERENCE_KEY
+            "hessian", self.atomic_numbers, self.coordinates_ang, self.spec, **REFERENCE_KEY
         )
 
     def run(self) -> np.ndarray:
@@ -282,7 +282,7 @@ def legacy_reference(
     """
     if store is None:
         return None
-    key = task_key("reference", atomic_numbers, coordinates_ang, spec, **_REFERENCE_KEY)
+    key = task_key("reference", atomic_numbers, coordinates_ang, spec, **REFERENCE_KEY)
     stored = store.get(key)
     if stored is None or not all(k in stored for k in (*_LEGACY_FIELDS, *_LEGACY_TIMES)):
         return None

@@ -314,7 +314,7 @@ def test_compute_route_analytic_agrees_with_the_field_route_for_b3lyp(tmp_path, 
 
 def test_auto_prices_the_dft_analytic_route_with_the_dft_model():
     # Contract (cost model): for DFT the analytic task is ANALYTIC_TO_HESSIAN_DFT × the DFT
-    # Hessian estimate (0.5; measured 0.33–0.41 alone for benzene B3LYP/6-31G*), for HF
+    # Hessian estimate (0.25; measured 0.19 for benzene B3LYP/6-31G* by the 2n+1 rule), for HF
     # ANALYTIC_TO_HESSIAN × the HF one.
     from vibrapol.engine.analyticroute import ANALYTIC_TO_HESSIAN, ANALYTIC_TO_HESSIAN_DFT
     from vibrapol.engine.autoroute import estimated_hessian_seconds

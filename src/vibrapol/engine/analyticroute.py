@@ -1,13 +1,14 @@
-"""The ``analytic`` route: ∂α/∂x and ∂μ/∂x in one task, analytically (closed-shell RHF/RKS).
+"""The ``analytic`` route: ∂α/∂x and ∂μ/∂x analytically (closed-shell RHF/RKS).
 
-The task converges the SCF at the reference geometry again (from the reference density, to the
-field route's tight tolerances) and calls
-:func:`vibrapol.engine.analytic.analytic_polarizability_derivatives`: three first-order and six
-second-order field responses contracted with derivative integrals, whatever the molecule's
-size or symmetry (docs/analytic-raman.md).  It needs no normal modes, so it runs beside the
-Hessian stage.  Measured (benzene 6-31G*, 2 shared cores): HF 0.23 × the analytic Hessian's
-wall time (0.18 × its CPU time); B3LYP 0.33 (0.41 CPU), where the response solves, each step a
-grid contraction of the XC kernel, take most of the time (docs/analytic-raman.md).
+Normally computed in the Hessian stage itself (:class:`HessianTensorJob`): the Hessian keeps
+its 3N nuclear orbital responses, and by the 2n+1 rule these, the three first-order field
+responses and derivative integrals give ∂α/∂x with no second-order field equations and no
+second SCF (docs/analytic-raman.md).  Measured on a quiet 2-core machine (6-31G*): 0.15 × the
+Hessian's time for benzene and butan-2-ol (C1) at HF, 0.19 for benzene at B3LYP
+(``bench/analytic.py``).  Where the plain Hessian is already in the checkpoint (another route
+computed it, its responses were not kept), the route's own task (:class:`AnalyticJob`) solves
+the three first-order and six second-order field equations instead (0.29 × the Hessian for
+benzene B3LYP).
 """
 
 from __future__ import annotations
@@ -20,16 +21,16 @@ import numpy as np
 
 from vibrapol.engine.scf import MethodSpec, build_molecule
 
-#: Wall time of the analytic ∂α/∂x over that of the analytic Hessian, for ``auto``'s estimate
-#: (measured: benzene HF/6-31G*, 0.23; docs/analytic-raman.md).
-ANALYTIC_TO_HESSIAN = 0.25
-#: The same for Kohn–Sham DFT.  Measured alone: benzene B3LYP/6-31G*, 0.33 wall, 0.41 CPU (load
-#: 3–4 on 2 cores, responses solved to 1e-8).  Priced higher because beside the Hessian it
-#: competes with it for the cores: at 0.4 ``auto`` took it for benzene over three field tasks,
-#: and the whole job then cost 1.33 × the frequency-only job in CPU against 1.21 with the field
-#: route (bench/engine_scale.py, docs/engine-routes.md); at 0.5 benzene keeps the field route
-#: and molecules without symmetry (12 field tasks) still get the analytic one.
-ANALYTIC_TO_HESSIAN_DFT = 0.5
+#: Time of the analytic ∂α/∂x after the Hessian over that of the Hessian, for ``auto``'s
+#: estimate, HF.  Measured 0.15 (wall and CPU) for benzene and butan-2-ol at HF/6-31G* (2 cores,
+#: load 0.3–1.9; docs/analytic-raman.md); priced with a margin.  It runs after the Hessian in
+#: the same stage, so the model adds it to the Hessian's time.  (The second-order task that runs
+#: when the Hessian comes from a checkpoint costs about twice as much; it is priced the same.)
+ANALYTIC_TO_HESSIAN = 0.2
+#: The same for Kohn–Sham DFT: measured 0.19 (wall and CPU) for benzene B3LYP/6-31G* (load 1–2),
+#: where the response solves started cold; in the route they start from the reference stage's
+#: ∂D/∂F.
+ANALYTIC_TO_HESSIAN_DFT = 0.25
 
 
 def analytic_unsupported(

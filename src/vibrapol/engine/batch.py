@@ -253,7 +253,7 @@ def _engine_run(flow: Flow, k: int, backend: Backend, seconds_wall: float) -> En
     m = flow.molecules[k]
     ref = m.reference
     assert ref is not None and m.choice is not None
-    stages_reused = tuple(s for s in STAGE_NAMES.values() if s in m.reused)
+    stages_reused = tuple(s for s in dict.fromkeys(STAGE_NAMES.values()) if s in m.reused)
     reference_reused = "reference SCF" in m.reused and (
         "Hessian" in m.reused or not m.needs_hessian
     )

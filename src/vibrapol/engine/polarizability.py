@@ -34,7 +34,7 @@ def cphf_polarizability(mf) -> np.ndarray:
 
 
 #: The coupled-perturbed solvers of :func:`cphf_polarizability_response`.
-CPHF_SOLVERS = ("cg", "krylov")
+CPHF_SOLVERS = ("cg", "krylov", "block")
 
 
 def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np.ndarray | None]:
@@ -54,7 +54,7 @@ def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np
     mf : pyscf.scf.hf.RHF or pyscf.dft.rks.RKS
         Converged restricted SCF object (a UHF/UKS object is passed on to
         :func:`vibrapol.engine.openshell.ucphf_polarizability`).
-    solver : {"cg", "krylov"}
+    solver : {"cg", "krylov", "block"}
         ``cg``: our preconditioned conjugate gradients
         (:func:`~vibrapol.engine.field_response.solve_response`), every residual below
         :data:`CPHF_TOL`; for α at displaced geometries, whose differences are divided by the
@@ -62,6 +62,8 @@ def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np
         B3LYP) but it leaves errors of up to 3e-7 au in small components (measured: CH₂Cl₂
         HF/6-31G*, Cartesian route at 0.001 Å, tensor error 1.7e-4 against 3.9e-7 with CG); for
         the reference α alone (a relative error of 1e-8) and the start of the field tasks.
+        ``block``: :func:`~vibrapol.engine.field_response.solve_response_block`, the three
+        equations in one shared subspace, every residual below :data:`CPHF_TOL`.
 
     Returns
     -------
@@ -98,9 +100,13 @@ def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np
         v1 = response(dm1)
         return np.einsum("xpq,pa,qi->xai", v1, orbv, orbo).reshape(x.shape[0], -1)
 
+    delta = mo_energy[mo_occ == 0][:, None] - mo_energy[mo_occ > 0][None, :]
     if solver == "cg":
-        delta = mo_energy[mo_occ == 0][:, None] - mo_energy[mo_occ > 0][None, :]
         mo1 = solve_response(fvind, delta, h1)
+    elif solver == "block":
+        from vibrapol.engine.field_response import solve_response_block
+
+        mo1 = solve_response_block(fvind, delta, h1, CPHF_TOL)[0]
     elif solver == "krylov":
         from pyscf.scf import cphf
 

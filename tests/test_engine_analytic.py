@@ -269,12 +269,14 @@ def test_polarizability_of_displaced_tasks_is_accurate_in_small_components():
     Same case as above through :func:`cphf_polarizability` (what those tasks call): with
     PySCF's ``cphf.solve`` it was 3e-7 off, which the Cartesian route divided by its step
     (CH₂Cl₂ HF/6-31G*: ∂α/∂x off by 1.7e-4 of the tensor at 0.001 Å). The reference stage's
-    α keeps PySCF's faster solver on purpose (``solver="krylov"``): checked to stay within
-    1e-6 of the direct solution, a relative 1e-7 of α.
+    α uses the block solver (``solver="block"``), as exact; PySCF's (``solver="krylov"``)
+    stays within 1e-6 of the direct solution, a relative 1e-7 of α.
     """
     mf = _rhf(_displaced(WATER, 0, 1e-3), "6-31g")
     direct = _direct_cphf_alpha(mf)
     np.testing.assert_allclose(cphf_polarizability(mf), direct, rtol=0, atol=1e-9)
+    block = cphf_polarizability_response(mf, solver="block")[0]
+    np.testing.assert_allclose(block, direct, rtol=0, atol=1e-9)
     fast = cphf_polarizability_response(mf, solver="krylov")[0]
     np.testing.assert_allclose(fast, direct, rtol=0, atol=1e-6)
 

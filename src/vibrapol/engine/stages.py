@@ -156,8 +156,11 @@ class ScfJob:
             t0 = perf_counter()
             mf = run_tight_scf(mol, self.spec, self.dm0)
             t1 = perf_counter()
-            # α here is reported, not differentiated: PySCF's faster solver is accurate enough
-            alpha_bohr3, density_response = cphf_polarizability_response(mf, solver="krylov")
+            # The three equations in one shared subspace, to the full tolerance: ∂D/∂F is also
+            # where the analytic route's first-order equations start (then solved already).
+            # Benzene B3LYP/6-31G*: 11.2 s against 8.8 s for PySCF's Krylov solver, whose α is
+            # 1.7e-7 au off (bench numbers in docs/analytic-raman.md).
+            alpha_bohr3, density_response = cphf_polarizability_response(mf, solver="block")
             alpha = alpha_bohr3 * BOHR3_TO_ANG3
             t2 = perf_counter()
             gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point

@@ -9,8 +9,9 @@
 One process, one molecule after the other, all threads of the process: the SCF (converged to
 the field route's tolerance), PySCF's own analytic Hessian (``hessian_pyscf``), the engine's
 (``hessian``: PySCF's terms, the nuclear equations solved by vibrapol's block solver, the
-responses kept), then the analytic ∂α/∂x by the 2n+1 rule split into its two stages (the 3
-first-order field responses, started cold; the derivative contractions).  With
+responses kept), the reference stage's α and ∂D/∂F (``alpha``, block solver, as the engine),
+then the analytic ∂α/∂x by the 2n+1 rule split into its two stages (the 3 first-order field
+responses, started from that ∂D/∂F as in the route; the derivative contractions).  With
 ``--second-order`` also ∂α/∂x with the six second-order field equations solved (the route's
 task when the Hessian comes from a checkpoint); with ``--field-route`` the field route without
 symmetry (12 field SCFs + gradients, serial).  The ratios are to the engine's Hessian.
@@ -135,6 +136,7 @@ def run_system(
     from vibrapol.engine.analytic import derivative_terms, field_density_derivatives
     from vibrapol.engine.fieldgrad import tighten_scf
     from vibrapol.engine.hessian import analytic_hessian_parts
+    from vibrapol.engine.polarizability import cphf_polarizability_response
     from vibrapol.engine.scf import MethodSpec, build_molecule, run_scf
 
     atoms = BUILT[name]() if name in BUILT else molecule(name)
@@ -155,7 +157,10 @@ def run_system(
     _, nuclear = analytic_hessian_parts(mf)
     row["hessian"] = _since(t)
     t = _clock()
-    dens = field_density_derivatives(mf, None, nuclear)
+    _, start = cphf_polarizability_response(mf, solver="block")
+    row["alpha"] = _since(t)
+    t = _clock()
+    dens = field_density_derivatives(mf, start, nuclear)
     row["responses"] = _since(t)
     t = _clock()
     derivative_terms(mf, dens)
@@ -212,7 +217,7 @@ def main() -> None:
         )
         for s in args.systems.split(",")
     ]
-    cols = ["scf", "hessian_pyscf", "hessian", "responses", "contractions", "analytic"]
+    cols = ["scf", "hessian_pyscf", "hessian", "alpha", "responses", "contractions", "analytic"]
     if args.no_pyscf_hessian:
         cols.remove("hessian_pyscf")
     if args.second_order:

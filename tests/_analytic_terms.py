@@ -51,3 +51,17 @@ def term_integrals(dens) -> dict[str, Callable]:  # noqa: ANN001
         "overlap": lambda m: -np.einsum("pq,abpq->ab", m.intor("int1e_ovlp"), w2),
         "dipole_integrals": dipole,
     }
+
+
+def tight_scf(atoms, basis: str, method: str):  # noqa: ANN001, ANN201
+    """The engine's SCF object for ``method`` (its grid), converged to 1e-12 / 1e-9."""
+    from pyscf import gto
+
+    from vibrapol.engine.scf import MethodSpec, build_scf, converge
+
+    mol = gto.M(atom=atoms, basis=basis, unit="Angstrom", verbose=0)
+    mf = converge(build_scf(mol, MethodSpec(method, basis)), None)
+    mf.conv_tol, mf.conv_tol_grad = 1e-12, 1e-9
+    mf.kernel(dm0=mf.make_rdm1())
+    assert mf.converged
+    return mf

@@ -19,7 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from _analytic_terms import PEROXIDE_C1, WATER
+from _analytic_terms import PEROXIDE_C1, WATER, tight_scf
 from vibrapol.engine.analytic import analytic_polarizability_derivatives, derivative_terms
 from vibrapol.engine.field_response import field_density_derivatives
 from vibrapol.engine.hessian import analytic_hessian, analytic_hessian_parts
@@ -31,19 +31,6 @@ AMMONIA = [
     ("H", (0.8138, -0.4699, -0.2711)),
     ("H", (-0.8138, -0.4699, -0.2711)),
 ]
-
-
-def _scf(atoms, basis: str, method: str):
-    from pyscf import gto
-
-    from vibrapol.engine.scf import MethodSpec, build_scf, converge
-
-    mol = gto.M(atom=atoms, basis=basis, unit="Angstrom", verbose=0)
-    mf = converge(build_scf(mol, MethodSpec(method, basis)), None)  # the engine's grid
-    mf.conv_tol, mf.conv_tol_grad = 1e-12, 1e-9
-    mf.kernel(dm0=mf.make_rdm1())
-    assert mf.converged
-    return mf
 
 
 def _responses(mf) -> np.ndarray:
@@ -108,7 +95,7 @@ def test_closed_shell_hessian_is_pyscfs_with_exactly_solved_responses(method):
     residual of 1e-6, gives Uˣ within 1.9e-7 of the direct solve and the Hessian within
     5.7e-13 (its error is second order in that of Uˣ; measured, PySCF 2.14).
     """
-    mf = _scf(WATER, "3-21g", method)
+    mf = tight_scf(WATER, "3-21g", method)
     u_direct, h_direct = _direct(mf)
     h_ours, u_ours = analytic_hessian_parts(mf)
     h_pyscf = mf.Hessian().kernel()
@@ -139,7 +126,7 @@ def test_2n1_rule_equals_the_second_order_field_equations(atoms, method):
     # orbital-relaxation term equals the second-order vo blocks' contribution, to the nuclear
     # responses' residual (1e-6): measured 2.8e-7 of the largest element for water HF/3-21G
     # (PySCF 2.14).  The terms that do not involve the second-order blocks are unchanged.
-    mf = _scf(atoms, "3-21g", method)
+    mf = tight_scf(atoms, "3-21g", method)
     u = _responses(mf)
     full = derivative_terms(mf, field_density_derivatives(mf), grid_response=False)[0]
     fast = derivative_terms(mf, field_density_derivatives(mf, None, u), grid_response=False)[0]
@@ -156,7 +143,7 @@ def test_2n1_rule_leaves_out_only_the_relaxation_terms_grid_response(atoms, tol)
     # With the grid response (B3LYP, the engine's grid) the two differ by the grid response of
     # the orbital-relaxation term alone, which the Hessian's Fock derivatives do not carry:
     # measured 9.5e-7 (water) and 1.1e-5 (ammonia) of the largest element at 6-31G*.
-    mf = _scf(atoms, "3-21g", "b3lyp")
+    mf = tight_scf(atoms, "3-21g", "b3lyp")
     full = analytic_polarizability_derivatives(mf)
     fast = analytic_polarizability_derivatives(mf, None, _responses(mf))
     scale = np.abs(full.dalpha_dx_ang2).max()

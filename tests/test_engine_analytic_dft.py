@@ -19,7 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from _analytic_terms import PEROXIDE_C1, WATER
+from _analytic_terms import PEROXIDE_C1, WATER, tight_scf
 from vibrapol.engine.analytic import (
     analytic_polarizability_derivatives,
     check_supported,
@@ -41,19 +41,6 @@ AMMONIA = [
 STEP_ANG = 1e-3
 
 
-def _rks(atoms, basis, xc):
-    from pyscf import gto
-
-    from vibrapol.engine.scf import MethodSpec, build_scf, converge
-
-    mol = gto.M(atom=atoms, basis=basis, unit="Angstrom", verbose=0)
-    mf = converge(build_scf(mol, MethodSpec(xc, basis)), None)  # the engine's grid
-    mf.conv_tol, mf.conv_tol_grad = 1e-12, 1e-9
-    mf.kernel(dm0=mf.make_rdm1())
-    assert mf.converged
-    return mf
-
-
 def _pyscf_xc_gradient(mf, dm, grid_response: bool) -> np.ndarray:
     """The XC part of PySCF's RKS nuclear gradient at density ``dm`` (N, 3)."""
     from pyscf.grad import rks as rks_grad
@@ -72,7 +59,7 @@ def _pyscf_xc_gradient(mf, dm, grid_response: bool) -> np.ndarray:
 @pytest.mark.parametrize("xc", ["svwn", "pbe"])
 def test_xc_gradient_is_pyscfs(xc):
     """The contraction machinery at zeroth order reproduces PySCF's XC gradient."""
-    mf = _rks(PEROXIDE_C1, "sto-3g", xc)
+    mf = tight_scf(PEROXIDE_C1, "sto-3g", xc)
     dm = mf.make_rdm1()
     zeros = np.zeros((3, 3) + dm.shape)
     for grid_response in (False, True):
@@ -91,7 +78,7 @@ def test_xc_terms_are_density_derivatives_of_pyscfs_xc_gradient(xc):
     (``get_vxc_full_response``) minus the fixed-grid one gives xc_grid_response.  C1
     molecule, so that no component vanishes by symmetry.
     """
-    mf = _rks(PEROXIDE_C1, "sto-3g", xc)
+    mf = tight_scf(PEROXIDE_C1, "sto-3g", xc)
     dens = field_density_derivatives(mf)
     d0, d1, d2 = dens.density, dens.d1, dens.d2
     fixed = xc_gradient_derivatives(mf, d0, d1, d2, grid_response=False)[0]
@@ -130,7 +117,7 @@ def test_kernel_derivative_fock_is_the_derivative_of_pyscfs_kernel():
     Dᵃ; its central difference (h = 2.5e-4, error O(h²) ≈ 2e-7 relative) is the kxc term,
     for GGA with the gradient terms.
     """
-    mf = _rks(PEROXIDE_C1, "sto-3g", "b3lyp")
+    mf = tight_scf(PEROXIDE_C1, "sto-3g", "b3lyp")
     dens = field_density_derivatives(mf)
     d0, d1 = dens.density, dens.d1
     kxc = kernel_derivative_fock(mf, d0, d1)
@@ -178,7 +165,8 @@ def _cartesian_route(atoms, basis, xc) -> np.ndarray:
     out = np.zeros((n, 3, 3))
     for i in range(n):
         plus, minus = (
-            _direct_cpks_alpha(_rks(_displaced(atoms, i, s * STEP_ANG), basis, xc)) for s in (1, -1)
+            _direct_cpks_alpha(tight_scf(_displaced(atoms, i, s * STEP_ANG), basis, xc))
+            for s in (1, -1)
         )
         out[i] = (plus - minus) / (2 * STEP_ANG / BOHR_ANG)
     return out * BOHR2_TO_ANG2
@@ -224,7 +212,7 @@ def test_activities_and_rho_against_field_and_cartesian_routes(atoms, xc):
     """3-21G: activities and ρ of the analytic ∂α/∂x against the two numerical routes."""
     from vibrapol.engine.scf import MethodSpec
 
-    mf = _rks(atoms, "3-21g", xc)
+    mf = tight_scf(atoms, "3-21g", xc)
     analytic = analytic_polarizability_derivatives(mf).dalpha_dx_ang2
     np.testing.assert_allclose(
         analytic_polarizability_derivatives(mf).alpha_bohr3, _direct_cpks_alpha(mf), atol=1e-8

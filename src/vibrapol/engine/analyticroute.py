@@ -14,8 +14,7 @@ benzene B3LYP).
 from __future__ import annotations
 
 from dataclasses import dataclass
-from time import perf_counter
-from typing import Any, ClassVar
+from typing import ClassVar
 
 import numpy as np
 
@@ -116,102 +115,3 @@ class AnalyticJob:
         out[:, :3, :] = result.dalpha_dx_ang2
         out[:, 3, :] = result.dmu_dx_e
         return out
-
-
-@dataclass(frozen=True)
-class HessianAndTensor:
-    """Result of :class:`HessianTensorJob`.
-
-    Attributes
-    ----------
-    hessian_hartree_bohr2 : ndarray (3N, 3N)
-        The analytic Hessian, as the Hessian stage's.
-    tensor : ndarray (3N, 4, 3)
-        ∂α/∂x (Å²) over ∂μ/∂x (e), as :class:`AnalyticJob`'s result.
-    seconds_tensor : float
-        The part of the stage's time spent on ``tensor`` (after the Hessian).
-    """
-
-    hessian_hartree_bohr2: np.ndarray
-    tensor: np.ndarray
-    seconds_tensor: float
-
-
-@dataclass(frozen=True, eq=False)
-class HessianTensorJob:
-    """The analytic Hessian, then ∂α/∂x and ∂μ/∂x from its nuclear responses (2n+1 rule).
-
-    The Hessian stage of the analytic route: the Hessian is computed as by
-    :class:`~vibrapol.engine.stages.HessianJob` (the same steps, the same result), its 3N
-    orbital responses to the nuclei are kept
-    (:func:`vibrapol.engine.hessian.analytic_hessian_parts`), and the six second-order field
-    equations of :class:`AnalyticJob` are replaced by their contraction with them
-    (:func:`vibrapol.engine.field_response.field_density_derivatives`).
-    No second SCF.
-    """
-
-    atomic_numbers: np.ndarray
-    coordinates_ang: np.ndarray
-    spec: MethodSpec
-    mo_coeff: np.ndarray
-    mo_occ: np.ndarray
-    mo_energy: np.ndarray
-    density_response: np.ndarray | None = None
-    threads: int | None = None
-
-    kind: ClassVar[str] = "hessian-dalpha"
-    label: ClassVar[str] = "analytic Hessian and dalpha/dx"
-
-    def key(self) -> str:
-        """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
-        from vibrapol.engine.checkpoint import task_key
-        from vibrapol.engine.field_response import ANALYTIC_RESPONSE_TOL
-        from vibrapol.engine.stages import REFERENCE_KEY
-
-        return task_key(
-            self.kind,
-            self.atomic_numbers,
-            self.coordinates_ang,
-            self.spec,
-            analytic_conv=[ANALYTIC_RESPONSE_TOL],
-            **REFERENCE_KEY,
-        )
-
-    def run(self) -> HessianAndTensor:
-        """The Hessian and the stacked derivatives (EngineInputError where not implemented)."""
-        from vibrapol.engine.analytic import analytic_polarizability_derivatives, check_supported
-        from vibrapol.engine.evaluate import threads_limited
-        from vibrapol.engine.hessian import analytic_hessian_parts
-        from vibrapol.engine.scf import build_scf
-
-        with threads_limited(self.threads):
-            mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
-            mf = build_scf(mol, self.spec)
-            mf.mo_coeff, mf.mo_occ, mf.mo_energy = self.mo_coeff, self.mo_occ, self.mo_energy
-            mf.converged = True
-            check_supported(mf)  # refused before the Hessian, not after
-            hessian, u = analytic_hessian_parts(mf)
-            start = perf_counter()
-            result = analytic_polarizability_derivatives(mf, self.density_response, u)
-        tensor = np.empty((3 * len(self.atomic_numbers), 4, 3))
-        tensor[:, :3, :] = result.dalpha_dx_ang2
-        tensor[:, 3, :] = result.dmu_dx_e
-        return HessianAndTensor(hessian, tensor, perf_counter() - start)
-
-    @staticmethod
-    def pack(result: HessianAndTensor) -> dict[str, Any]:
-        """The arrays stored in the checkpoint."""
-        return {
-            "hessian_hartree_bohr2": result.hessian_hartree_bohr2,
-            AnalyticJob.result_name: result.tensor,
-            "seconds_tensor": result.seconds_tensor,
-        }
-
-    def unpack(self, stored: dict[str, np.ndarray]) -> HessianAndTensor | None:
-        """The result from a checkpoint row (None when a field is missing or misshapen)."""
-        n = 3 * len(self.atomic_numbers)
-        hessian = stored.get("hessian_hartree_bohr2")
-        tensor = stored.get(AnalyticJob.result_name)
-        if hessian is None or tensor is None or tensor.shape != (n, 4, 3):
-            return None
-        return HessianAndTensor(hessian, tensor, float(stored.get("seconds_tensor", 0.0)))

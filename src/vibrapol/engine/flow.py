@@ -10,12 +10,13 @@ step fails that molecule only (one line) unless the run raises its errors.
 from __future__ import annotations
 
 import warnings
+from dataclasses import replace
 from time import perf_counter
 
 import numpy as np
 
 from vibrapol.engine import stages
-from vibrapol.engine.analyticroute import AnalyticPlan, HessianAndTensor, HessianTensorJob
+from vibrapol.engine.analyticroute import AnalyticPlan
 from vibrapol.engine.dynamic import PreResonanceWarning
 from vibrapol.engine.executors import Backend
 from vibrapol.engine.laser import LaserJob, LaserReference
@@ -197,13 +198,10 @@ class Flow:
             return False
         if m.store is not None and m.store.get(hessian_job.key()) is not None:
             return False
-        job = HessianTensorJob(
-            m.atomic_numbers,
-            m.coordinates_ang,
-            self.settings.spec,
-            scf.mo_coeff,
-            scf.mo_occ,
-            scf.mo_energy,
+        job = replace(
+            stages.HessianTensorJob.after(
+                scf, m.atomic_numbers, m.coordinates_ang, self.settings.spec
+            ),
             density_response=m.reference.density_response if m.reference else None,
         )
         m.tensor_with_hessian = True
@@ -212,7 +210,7 @@ class Flow:
         return True
 
     def _hessian_tensor_done(
-        self, k: int, value: HessianAndTensor, seconds: float, reused: bool
+        self, k: int, value: stages.HessianAndTensor, seconds: float, reused: bool
     ) -> None:
         self._hessian_done(k, value.hessian_hartree_bohr2, seconds - value.seconds_tensor, reused)
         self._task_done(k, 0, value.tensor, value.seconds_tensor, 0.0, reused)

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from time import perf_counter
-from typing import Any, ClassVar
+from typing import Any, ClassVar, Self
 
 import numpy as np
 
@@ -226,7 +226,7 @@ class HessianJob:
     label: ClassVar[str] = "analytic Hessian"
 
     @classmethod
-    def after(cls, scf: ScfResult, atomic_numbers, coordinates_ang, spec) -> HessianJob:  # noqa: ANN001
+    def after(cls, scf: ScfResult, atomic_numbers, coordinates_ang, spec) -> Self:  # noqa: ANN001
         """The Hessian job that follows an SCF stage."""
         return cls(atomic_numbers, coordinates_ang, spec, scf.mo_coeff, scf.mo_occ, scf.mo_energy)
 
@@ -236,17 +236,22 @@ class HessianJob:
             "hessian", self.atomic_numbers, self.coordinates_ang, self.spec, **REFERENCE_KEY
         )
 
+    def scf_object(self):  # noqa: ANN201
+        """The SCF object at the job's geometry with the SCF stage's orbitals (no new SCF)."""
+        from vibrapol.engine.scf import build_scf
+
+        mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
+        mf = build_scf(mol, self.spec)
+        mf.mo_coeff, mf.mo_occ, mf.mo_energy = self.mo_coeff, self.mo_occ, self.mo_energy
+        mf.converged = True
+        return mf
+
     def run(self) -> np.ndarray:
         """The (3N, 3N) Hessian in hartree/bohr² (PySCF analytic second derivatives)."""
         from vibrapol.engine.hessian import analytic_hessian
-        from vibrapol.engine.scf import build_scf
 
         with threads_limited(self.threads):
-            mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
-            mf = build_scf(mol, self.spec)
-            mf.mo_coeff, mf.mo_occ, mf.mo_energy = self.mo_coeff, self.mo_occ, self.mo_energy
-            mf.converged = True
-            return analytic_hessian(mf)
+            return analytic_hessian(self.scf_object())
 
     @staticmethod
     def pack(result: np.ndarray) -> dict[str, Any]:
@@ -257,6 +262,97 @@ class HessianJob:
     def unpack(stored: dict[str, np.ndarray]) -> np.ndarray | None:
         """The result from a checkpoint row (None when missing)."""
         return stored.get("hessian_hartree_bohr2")
+
+
+@dataclass(frozen=True)
+class HessianAndTensor:
+    """Result of :class:`HessianTensorJob`.
+
+    Attributes
+    ----------
+    hessian_hartree_bohr2 : ndarray (3N, 3N)
+        The analytic Hessian, as the Hessian stage's.
+    tensor : ndarray (3N, 4, 3)
+        ∂α/∂x (Å²) over ∂μ/∂x (e), as the analytic route's task result
+        (:class:`~vibrapol.engine.analyticroute.AnalyticJob`).
+    seconds_tensor : float
+        The part of the stage's time spent on ``tensor`` (after the Hessian).
+    """
+
+    hessian_hartree_bohr2: np.ndarray
+    tensor: np.ndarray
+    seconds_tensor: float
+
+
+#: The checkpoint name of the analytic route's stacked derivatives (as its task's).
+_TENSOR = "dalpha_dx_ang2_dmu_dx_e"
+
+
+@dataclass(frozen=True, eq=False)
+class HessianTensorJob(HessianJob):
+    """The analytic Hessian, then ∂α/∂x and ∂μ/∂x from its nuclear responses (2n+1 rule).
+
+    The Hessian stage of the analytic route: the Hessian is computed as by
+    :class:`HessianJob` (the same steps, the same result), its 3N orbital responses to the
+    nuclei are kept (:func:`vibrapol.engine.hessian.analytic_hessian_parts`), and the six
+    second-order field equations of the route's own task
+    (:class:`~vibrapol.engine.analyticroute.AnalyticJob`) are replaced by their contraction
+    with them (:func:`vibrapol.engine.field_response.field_density_derivatives`).  No second
+    SCF.  ``density_response``: the SCF stage's ∂D/∂F, where the first-order field equations
+    start.
+    """
+
+    density_response: np.ndarray | None = None
+
+    kind: ClassVar[str] = "hessian-dalpha"
+    label: ClassVar[str] = "analytic Hessian and dalpha/dx"
+
+    def key(self) -> str:
+        """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
+        from vibrapol.engine.field_response import ANALYTIC_RESPONSE_TOL
+
+        return task_key(
+            self.kind,
+            self.atomic_numbers,
+            self.coordinates_ang,
+            self.spec,
+            analytic_conv=[ANALYTIC_RESPONSE_TOL],
+            **REFERENCE_KEY,
+        )
+
+    def run(self) -> HessianAndTensor:  # type: ignore[override]
+        """The Hessian and the stacked derivatives (EngineInputError where not implemented)."""
+        from vibrapol.engine.analytic import analytic_polarizability_derivatives, check_supported
+        from vibrapol.engine.hessian import analytic_hessian_parts
+
+        with threads_limited(self.threads):
+            mf = self.scf_object()
+            check_supported(mf)  # refused before the Hessian, not after
+            hessian, nuclear = analytic_hessian_parts(mf)
+            start = perf_counter()
+            result = analytic_polarizability_derivatives(mf, self.density_response, nuclear)
+        tensor = np.empty((3 * len(self.atomic_numbers), 4, 3))
+        tensor[:, :3, :] = result.dalpha_dx_ang2
+        tensor[:, 3, :] = result.dmu_dx_e
+        return HessianAndTensor(hessian, tensor, perf_counter() - start)
+
+    @staticmethod
+    def pack(result: HessianAndTensor) -> dict[str, Any]:  # type: ignore[override]
+        """The arrays stored in the checkpoint."""
+        return {
+            "hessian_hartree_bohr2": result.hessian_hartree_bohr2,
+            _TENSOR: result.tensor,
+            "seconds_tensor": result.seconds_tensor,
+        }
+
+    def unpack(self, stored: dict[str, np.ndarray]) -> HessianAndTensor | None:  # type: ignore[override]
+        """The result from a checkpoint row (None when a field is missing or misshapen)."""
+        n = 3 * len(self.atomic_numbers)
+        hessian = stored.get("hessian_hartree_bohr2")
+        tensor = stored.get(_TENSOR)
+        if hessian is None or tensor is None or tensor.shape != (n, 4, 3):
+            return None
+        return HessianAndTensor(hessian, tensor, float(stored.get("seconds_tensor", 0.0)))
 
 
 def with_hessian(

@@ -16,8 +16,8 @@ responses, started from that ∂D/∂F as in the route; the derivative contracti
 task when the Hessian comes from a checkpoint); with ``--field-route`` the field route without
 symmetry (12 field SCFs + gradients, serial).  The ratios are to the engine's Hessian.
 Geometries are ASE's, or built here without symmetry (``butan-2-ol``, 15 atoms, from ASE's
-trans-butane; ``hexan-2-ol``, 21 atoms, a built zigzag chain); not optimised: the costs do not
-need a stationary point.
+trans-butane; ``hexan-2-ol``, 21 atoms, a built zigzag chain; ``naphthalene``, the model of
+``bench/engine.py``); not optimised: the costs do not need a stationary point.
 
 Prints a table and, last, one JSON line with every figure.  Wall times on shared cores are
 contended; the CPU time of the process is printed beside them and is less sensitive to load.
@@ -118,7 +118,22 @@ def alkan_2_ol(n_carbons: int):
     return Atoms([*symbols, "O", "H"], positions=np.vstack([pos, oxygen, hydroxyl]))
 
 
-BUILT = {"butan-2-ol": butan_2_ol, "hexan-2-ol": lambda: alkan_2_ol(6)}
+def naphthalene():
+    """Naphthalene (D2h, 18 atoms): the engine benchmark's own model (``bench/engine.py``)."""
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    from engine import _atoms as model
+
+    return model("naphthalene")
+
+
+BUILT = {
+    "butan-2-ol": butan_2_ol,
+    "hexan-2-ol": lambda: alkan_2_ol(6),
+    "naphthalene": naphthalene,
+}
 
 
 def run_system(

@@ -268,12 +268,12 @@ def field_density_derivatives(
     """First and second field derivatives of D and W by coupled-perturbed HF.
 
     ``first_order_start``: an approximate ∂D/∂F_a (3, nao, nao) in the AO basis, for the
-    perturbation +F_a r_a (the reference stage's, solved by a faster, less exact solver), from
-    which the first-order equations start; they are still solved to the full tolerance.
+    perturbation +F_a r_a (the reference stage's), from which the first-order equations start;
+    they are still solved to this function's tolerance.
 
     ``nuclear_response``: the vo blocks Uˣ (3N, nvir, nocc) of the analytic Hessian's
     first-order orbital responses to the nuclear coordinates
-    (:func:`vibrapol.engine.hessian.analytic_hessian`).  With them the six second-order
+    (:func:`vibrapol.engine.hessian.analytic_hessian_parts`).  With them the six second-order
     equations are not solved (the 2n+1 rule): the second-order vo block X enters
     ∂³E/∂x∂F_a∂F_b only through 4⟨Lˣ, X⟩, where Lˣ = Fˣ_vo − Sˣ_vo ε_o − G[Sˣ_oo]_vo is the
     right-hand side of the nuclear equations, A Uˣ = −Lˣ; A is symmetric, so

@@ -17,11 +17,14 @@ import numpy as np
 #: Residual norm of the nuclear coupled-perturbed equations of the closed-shell Hessian.
 #: Measured (ethanol B3LYP/3-21G, 27 right-hand sides): 4.9 applications of the response per
 #: right-hand side, against 4.1 for PySCF's Krylov solver, which stops at residuals of 5e-4;
-#: 4.2 at 1e-5, 5.2 at 1e-7.  The Hessian's error is second order in the responses' (5.7e-13
-#: hartree/bohr², water HF/3-21G); ∂α/∂x by the 2n+1 rule moves linearly with it: 2.8e-7 of its
-#: largest element here (water HF/3-21G), 2e-5 at PySCF's residual (water B3LYP/6-31G*).
+#: 4.2 at 1e-5, 5.2 at 1e-7.  The Hessian moves with the responses' error, by about a fifth of
+#: it (water B3LYP/3-21G in blocks of 3: responses 1.9e-7 and Hessian 3.6e-8 hartree/bohr² off a
+#: dense direct solve; in one block the shared subspace converges further, 1e-8 and 3e-15);
+#: ∂α/∂x by the 2n+1 rule moves with it too: 2.8e-7 of its largest element (water HF/3-21G),
+#: 2e-5 at PySCF's residual (water B3LYP/6-31G*).
 NUCLEAR_RESPONSE_TOL = 1e-6
-#: Right-hand sides solved in one shared subspace, at most (bounds the subspace's memory).
+#: Right-hand sides solved in one shared subspace, and AO densities sent to the response
+#: function at once, at most; fewer when PySCF's ``max_memory`` asks (:func:`_blocks`).
 _MAX_BLOCK = 96
 
 
@@ -77,6 +80,19 @@ def nuclear_solver_note(spec) -> str:  # noqa: ANN001
             f"vibrapol's block subspace solver to a residual of {NUCLEAR_RESPONSE_TOL:g}"
         )
     return "PySCF's analytic Hessian (nuclear coupled-perturbed equations by its Krylov solver)"
+
+
+def _blocks(mf, nao: int, n_vo: int) -> tuple[int, int]:  # noqa: ANN001
+    """How many AO densities and right-hand sides to treat at once within PySCF's max_memory.
+
+    A density and its potential take 2 nao² numbers (the response function needs about as
+    much again); a right-hand side keeps about ten subspace vectors and their images, 20 n_vo.
+    A quarter of ``max_memory`` (MB) each, at most :data:`_MAX_BLOCK`, at least 3.
+    """
+    budget = 0.25 * float(getattr(mf, "max_memory", 4000)) * 1e6 / 8
+    dm_block = int(budget / (4 * nao * nao))
+    rhs_block = int(budget / (20 * max(n_vo, 1)))
+    return (max(3, min(_MAX_BLOCK, dm_block)), max(3, min(_MAX_BLOCK, rhs_block)))
 
 
 def _flatten(h4: np.ndarray) -> np.ndarray:
@@ -140,11 +156,13 @@ def analytic_hessian_parts(mf) -> tuple[np.ndarray, np.ndarray]:
     s1_oo = s1_mo[:, occ]
     response = mf.gen_response(hermi=1)  # AO total density → J − c_x K/2 (+ f_xc for KS)
 
+    dm_block, rhs_block = _blocks(mf, mo_coeff.shape[0], (~occ).sum() * nocc)
+
     def g_full(dm: np.ndarray) -> np.ndarray:
-        """G of AO densities, (k, nmo, nocc), in blocks of at most _MAX_BLOCK."""
+        """G of AO densities, (k, nmo, nocc), ``dm_block`` densities at a time."""
         out = np.empty((len(dm), mo_coeff.shape[1], nocc))
-        for i in range(0, len(dm), _MAX_BLOCK):
-            out[i : i + _MAX_BLOCK] = mo_coeff.T @ np.asarray(response(dm[i : i + _MAX_BLOCK])) @ co
+        for i in range(0, len(dm), dm_block):
+            out[i : i + dm_block] = mo_coeff.T @ np.asarray(response(dm[i : i + dm_block])) @ co
         return out
 
     g_s = g_full(2.0 * (co @ s1_oo @ co.T))  # G[Sˣ_oo]
@@ -156,7 +174,7 @@ def analytic_hessian_parts(mf) -> tuple[np.ndarray, np.ndarray]:
         return g[:, vir], g[:, occ]
 
     delta = mo_energy[vir][:, None] - eps_o[None, :]
-    u, g_u_oo = solve_response_block(fvind, delta, rhs, NUCLEAR_RESPONSE_TOL, _MAX_BLOCK)
+    u, g_u_oo = solve_response_block(fvind, delta, rhs, NUCLEAR_RESPONSE_TOL, rhs_block)
     assert g_u_oo is not None
     g_u_oo = g_u_oo.reshape(-1, nocc, nocc)
 

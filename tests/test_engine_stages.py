@@ -244,6 +244,29 @@ def test_a_reference_row_of_an_earlier_version_is_used(tmp_path, monkeypatch):
     )
     assert run.reused_reference and run.reused_stages == ("reference SCF", "Hessian")
     np.testing.assert_array_equal(run.modes.polarizability_ang3, ref.alpha_ang3)
+    # ... and the provenance says where that Hessian came from (no claim about its solver)
+    assert "from an earlier vibrapol's checkpoint" in " ".join(run.modes.provenance.notes)
+
+
+def test_a_hessian_row_solved_by_pyscfs_solver_is_not_taken_for_ours(tmp_path):
+    # Contract: the closed-shell Hessian's key records its solver (our block solver, and its
+    # tolerance), so a Hessian row of an earlier version (PySCF's Krylov solver, key without
+    # it) is recomputed rather than reported under our solver's name; open shells keep
+    # PySCF's solver and their key.  Fails on the code before (one key for both).
+    from vibrapol.engine.scf import MethodSpec
+
+    water = molecule("H2O")
+    job = stages.HessianJob(water.numbers, water.positions, MethodSpec(METHOD, BASIS), *[None] * 3)
+    old = stages.task_key(
+        "hessian", water.numbers, water.positions, job.spec, **stages.REFERENCE_KEY
+    )
+    assert job.key() != old
+    open_shell = MethodSpec(METHOD, BASIS, multiplicity=3)
+    job3 = stages.HessianJob(water.numbers, water.positions, open_shell, *[None] * 3)
+    old3 = stages.task_key(
+        "hessian", water.numbers, water.positions, open_shell, **stages.REFERENCE_KEY
+    )
+    assert job3.key() == old3
 
 
 def test_reference_scf_starts_from_the_optimisations_density(monkeypatch):

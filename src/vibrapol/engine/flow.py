@@ -160,6 +160,7 @@ class Flow:
         old = stages.legacy_reference(m.atomic_numbers, m.coordinates_ang, spec, m.store)
         if old is not None:  # one row of an earlier vibrapol: SCF and Hessian together
             m.reused |= {"reference SCF", "Hessian"}
+            m.earlier_hessian = True
             self._say(k, "reference SCF, Hessian and polarizability: taken from the checkpoint")
             m.reference = old
             self._spin(k)

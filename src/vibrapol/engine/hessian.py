@@ -69,12 +69,28 @@ def own_nuclear_solver(mf) -> bool:
     )
 
 
-def nuclear_solver_note(spec) -> str:  # noqa: ANN001
-    """How the Hessian of a calculation with ``spec`` (a MethodSpec) solves its 3N equations.
+def own_solver_for(spec) -> bool:  # noqa: ANN001
+    """:func:`own_nuclear_solver` decided from a MethodSpec, before the SCF."""
+    return not spec.is_unrestricted and spec.solvent is None
 
-    The same choice as :func:`own_nuclear_solver`, made from the method before the SCF.
+
+def hessian_key(spec) -> dict:  # noqa: ANN001
+    """What the Hessian stage's checkpoint key records about the solver of its equations.
+
+    Hessians solved by PySCF's Krylov solver (earlier versions) are not taken for ours.
     """
-    if not spec.is_unrestricted and spec.solvent is None:
+    return {"nuclear_solver": ["block", NUCLEAR_RESPONSE_TOL]} if own_solver_for(spec) else {}
+
+
+def nuclear_solver_note(spec, earlier_version: bool = False) -> str:  # noqa: ANN001
+    """How the Hessian of a calculation with ``spec`` (a MethodSpec) solved its 3N equations.
+
+    ``earlier_version``: the Hessian was taken from a checkpoint row of an earlier vibrapol
+    (one reference row), whose Hessian PySCF's Krylov solver solved.
+    """
+    if earlier_version:
+        return "PySCF's analytic Hessian, from an earlier vibrapol's checkpoint"
+    if own_solver_for(spec):
         return (
             "PySCF's analytic Hessian terms, its nuclear coupled-perturbed equations solved by "
             f"vibrapol's block subspace solver to a residual of {NUCLEAR_RESPONSE_TOL:g}"

@@ -114,6 +114,8 @@ class Molecule:
     tensor_with_hessian : bool
         The analytic route's derivatives come from the Hessian stage (2n+1 rule), not from
         its own task.
+    earlier_hessian : bool
+        The Hessian was taken from an earlier vibrapol's one-row reference checkpoint.
     """
 
     name: str
@@ -136,6 +138,7 @@ class Molecule:
     keys: list[str] = field(default_factory=list)
     labels: tuple[str, ...] = ()
     tensor_with_hessian: bool = False
+    earlier_hessian: bool = False
     spin_note: str | None = None
     laser: LaserReference | None = None
     family: FamilyChoice | None = None
@@ -318,7 +321,7 @@ def _provenance(
         solver = "PySCF ucphf.solve"
     else:
         solver = f"preconditioned conjugate gradients to a residual of {CPHF_TOL:g}"
-    hessian = f"analytic Hessian ({nuclear_solver_note(settings.spec)})"
+    hessian = f"analytic Hessian ({nuclear_solver_note(settings.spec, prep.earlier_hessian)})"
     if isinstance(plan, DisplacementRoutePlan):
         hessian = (
             f"{HESSIAN_NOTE}, step {plan.step_ang} Å (largest |H - H^T|/2 before: "

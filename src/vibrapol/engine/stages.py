@@ -232,8 +232,15 @@ class HessianJob:
 
     def key(self) -> str:
         """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
+        from vibrapol.engine.hessian import hessian_key
+
         return task_key(
-            "hessian", self.atomic_numbers, self.coordinates_ang, self.spec, **REFERENCE_KEY
+            "hessian",
+            self.atomic_numbers,
+            self.coordinates_ang,
+            self.spec,
+            **REFERENCE_KEY,
+            **hessian_key(self.spec),
         )
 
     def scf_object(self):  # noqa: ANN201
@@ -310,6 +317,7 @@ class HessianTensorJob(HessianJob):
     def key(self) -> str:
         """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
         from vibrapol.engine.field_response import ANALYTIC_RESPONSE_TOL
+        from vibrapol.engine.hessian import hessian_key
 
         return task_key(
             self.kind,
@@ -318,6 +326,7 @@ class HessianTensorJob(HessianJob):
             self.spec,
             analytic_conv=[ANALYTIC_RESPONSE_TOL],
             **REFERENCE_KEY,
+            **hessian_key(self.spec),
         )
 
     def run(self) -> HessianAndTensor:  # type: ignore[override]

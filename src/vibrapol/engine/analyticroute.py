@@ -1,8 +1,9 @@
 """The ``analytic`` route: ∂α/∂x and ∂μ/∂x analytically (closed-shell RHF/RKS).
 
-Normally computed in the Hessian stage itself (:class:`HessianTensorJob`): the Hessian keeps
-its 3N nuclear orbital responses, and by the 2n+1 rule these, the three first-order field
-responses and derivative integrals give ∂α/∂x with no second-order field equations and no
+Normally computed in the Hessian stage itself
+(:class:`~vibrapol.engine.stages.HessianTensorJob`): the Hessian keeps its 3N nuclear orbital
+responses, and by the 2n+1 rule these, the three first-order field responses and derivative
+integrals give ∂α/∂x with no second-order field equations and no
 second SCF (docs/analytic-raman.md).  Measured on a quiet 2-core machine (6-31G*): 0.15 × the
 Hessian's time for benzene and butan-2-ol (C1) at HF, 0.19 for benzene at B3LYP
 (``bench/analytic.py``).  Where the plain Hessian is already in the checkpoint (another route

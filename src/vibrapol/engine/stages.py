@@ -21,6 +21,7 @@ from typing import Any, ClassVar, Self
 
 import numpy as np
 
+from vibrapol.engine.analyticroute import AnalyticJob
 from vibrapol.engine.checkpoint import CheckpointStore, task_key
 from vibrapol.engine.evaluate import ReferenceResult, threads_limited
 from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
@@ -291,10 +292,6 @@ class HessianAndTensor:
     seconds_tensor: float
 
 
-#: The checkpoint name of the analytic route's stacked derivatives (as its task's).
-_TENSOR = "dalpha_dx_ang2_dmu_dx_e"
-
-
 @dataclass(frozen=True, eq=False)
 class HessianTensorJob(HessianJob):
     """The analytic Hessian, then ∂α/∂x and ∂μ/∂x from its nuclear responses (2n+1 rule).
@@ -350,7 +347,7 @@ class HessianTensorJob(HessianJob):
         """The arrays stored in the checkpoint."""
         return {
             "hessian_hartree_bohr2": result.hessian_hartree_bohr2,
-            _TENSOR: result.tensor,
+            AnalyticJob.result_name: result.tensor,
             "seconds_tensor": result.seconds_tensor,
         }
 
@@ -358,7 +355,7 @@ class HessianTensorJob(HessianJob):
         """The result from a checkpoint row (None when a field is missing or misshapen)."""
         n = 3 * len(self.atomic_numbers)
         hessian = stored.get("hessian_hartree_bohr2")
-        tensor = stored.get(_TENSOR)
+        tensor = stored.get(AnalyticJob.result_name)
         if hessian is None or tensor is None or tensor.shape != (n, 4, 3):
             return None
         return HessianAndTensor(hessian, tensor, float(stored.get("seconds_tensor", 0.0)))

@@ -183,16 +183,16 @@ def derivative_terms(
                 + 2.0 * np.einsum("kpq,pq->k", r_bra[a][:, sl], d0[sl])
             )
         mixed[atom] -= mol.atom_charge(atom) * np.eye(3)
-    xc_terms: dict[str, np.ndarray] = {}
+    more_terms: dict[str, np.ndarray] = {}
     if kohn_sham:
-        xc_terms, xc_mixed, _ = xc_gradient_derivatives(mf, d0, d1, d2, grid_response)
+        more_terms, xc_mixed, _ = xc_gradient_derivatives(mf, d0, d1, d2, grid_response)
         mixed = mixed + xc_mixed
     if dens.relaxation is not None:
         relaxation = np.zeros(shape)
         for k, (a, b) in enumerate(PAIRS):
             relaxation[..., a, b] = relaxation[..., b, a] = dens.relaxation[:, k].reshape(natm, 3)
-        xc_terms["orbital_relaxation"] = relaxation
-    return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip, **xc_terms), mixed
+        more_terms["orbital_relaxation"] = relaxation
+    return AlphaDerivativeTerms(core, relaxed, resp, ovlp, dip, **more_terms), mixed
 
 
 def analytic_polarizability_derivatives(
@@ -213,7 +213,7 @@ def analytic_polarizability_derivatives(
         equations (:func:`~vibrapol.engine.field_response.field_density_derivatives`).
     nuclear_response : ndarray (3N, nvir, nocc), optional
         The analytic Hessian's orbital responses to the nuclear coordinates (vo blocks, from
-        :func:`vibrapol.engine.hessian.analytic_hessian` with ``keep_response``).  With them
+        :func:`vibrapol.engine.hessian.analytic_hessian_parts`).  With them
         the six second-order field equations are not solved (2n+1 rule; the orbital
         relaxation term then carries no XC grid response, as the Hessian's).
 

@@ -102,6 +102,13 @@ class AnalyticDerivatives:
     terms: AlphaDerivativeTerms
     alpha_bohr3: np.ndarray
 
+    def stacked(self) -> np.ndarray:
+        """(3N, 4, 3): rows 0–2 of each coordinate ∂α/∂x (Å²), row 3 ∂μ/∂x (e).
+
+        The analytic route's result, stored and checkpointed like every task result.
+        """
+        return np.concatenate([self.dalpha_dx_ang2, self.dmu_dx_e[:, None, :]], axis=1)
+
 
 def _two_electron_potentials(mol, dms: np.ndarray, exact_exchange: float) -> np.ndarray:
     """−(∂_κ μ ν|λσ)-contracted J − c_x K/2 of each density, shape (n, 3, nao, nao).

@@ -112,7 +112,4 @@ class AnalyticJob:
             mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
             mf = run_tight_scf(mol, self.spec, self.dm0)
             result = analytic_polarizability_derivatives(mf, self.density_response)
-        out = np.empty(self.result_shape())
-        out[:, :3, :] = result.dalpha_dx_ang2
-        out[:, 3, :] = result.dmu_dx_e
-        return out
+        return result.stacked()

@@ -337,10 +337,7 @@ class HessianTensorJob(HessianJob):
             hessian, nuclear = analytic_hessian_parts(mf)
             start = perf_counter()
             result = analytic_polarizability_derivatives(mf, self.density_response, nuclear)
-        tensor = np.empty((3 * len(self.atomic_numbers), 4, 3))
-        tensor[:, :3, :] = result.dalpha_dx_ang2
-        tensor[:, 3, :] = result.dmu_dx_e
-        return HessianAndTensor(hessian, tensor, perf_counter() - start)
+        return HessianAndTensor(hessian, result.stacked(), perf_counter() - start)
 
     @staticmethod
     def pack(result: HessianAndTensor) -> dict[str, Any]:  # type: ignore[override]

@@ -209,3 +209,35 @@ def test_hessian_in_memory_blocks_equals_the_hessian_in_one_block(monkeypatch):
     # each block to the residual 1e-6: measured 3.6e-8 hartree/bohr² and 1.9e-7 apart
     np.testing.assert_allclose(blocks, whole, rtol=0, atol=1e-7)
     np.testing.assert_allclose(u_blocks, u_whole, rtol=0, atol=1e-6)
+
+
+@pytest.mark.parametrize("method", ["hf", "b3lyp"])
+def test_a_solved_first_order_start_costs_no_solver_step(method):
+    # Contract (cost and result): with the reference stage's ∂D/∂F, already solved, as the
+    # start and the Hessian's nuclear responses given, the field derivatives apply the response
+    # function twice (G[P¹], whose vo block is also the start's residual check, and G of the
+    # six second-order densities), where a cold start needs the solver's steps as well; the
+    # derivatives agree to the response tolerance (1e-8 residual).
+    from vibrapol.engine.polarizability import cphf_polarizability_response
+
+    mf = tight_scf(WATER, "3-21g", method)
+    u = _responses(mf)
+    start = cphf_polarizability_response(mf, solver="block")[1]
+    build = mf.gen_response
+    calls = []
+
+    def counted(*args, **kwargs):  # noqa: ANN002, ANN003, ANN202
+        response = build(*args, **kwargs)
+        return lambda dm: calls.append(len(dm)) or response(dm)
+
+    mf.gen_response = counted
+    warm = field_density_derivatives(mf, start, u)
+    assert len(calls) == 2
+    calls.clear()
+    cold = field_density_derivatives(mf, None, u)
+    assert len(calls) > 2
+    scale = np.abs(cold.d1).max()
+    np.testing.assert_allclose(warm.d1, cold.d1, atol=1e-7 * scale)
+    np.testing.assert_allclose(
+        warm.relaxation, cold.relaxation, atol=1e-7 * np.abs(cold.relaxation).max()
+    )

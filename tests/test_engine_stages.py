@@ -75,7 +75,8 @@ def test_batch_with_every_stage_on_dask_equals_serial_runs(capsys):
             alone = run_engine(molecule(NAMES[name]), METHOD, BASIS, route=run.route, workers=1)
         assert run.point_group == alone.point_group
         _same_modes(run.modes, alone.modes)
-        for stage in ("optimisation", "reference SCF, polarizability and gradient"):
+        # after an optimisation the reference stage computes no gradient (its cost is known)
+        for stage in ("optimisation", "reference SCF and polarizability"):
             assert f"vibrapol: {name}: {stage} …" in err
             assert f"vibrapol: {name}: {stage}: done in " in err
         hessian = (
@@ -121,12 +122,14 @@ def test_stopped_in_the_hessian_resumes_without_redoing_earlier_stages(tmp_path,
     resumed = run_engine(water, METHOD, BASIS, route="field", workers=1, checkpoint=path)
     assert resumed.reused_optimization and not resumed.reused_reference
     assert resumed.reused_stages == ("optimisation", "reference SCF")
-    assert resumed.tasks.n_computed == resumed.tasks.n_tasks == 4  # water C2v: 4 fields
+    # water C2v: 4 fields, and the zero field (after an optimisation the reference stage
+    # computes no gradient)
+    assert resumed.tasks.n_computed == resumed.tasks.n_tasks == 5
     _same_modes(resumed.modes, whole.modes)
     assert "hessian" in _kinds(path)
     again = run_engine(water, METHOD, BASIS, route="field", workers=1, checkpoint=path)
     assert again.reused_stages == ("optimisation", "reference SCF", "Hessian")
-    assert again.reused_reference and again.tasks.n_reused == 4
+    assert again.reused_reference and again.tasks.n_reused == 5
     assert np.array_equal(again.modes.dalpha_dx, resumed.modes.dalpha_dx)
 
 
@@ -293,3 +296,43 @@ def test_reference_scf_starts_from_the_optimisations_density(monkeypatch):
     monkeypatch.setattr(stages.ScfJob, "run", lambda self: seen.append(self.dm0) or run(self))
     run_engine(water, METHOD, BASIS, route="field", workers=1, progress=False)
     assert len(seen) == 1 and seen[0] is not None and seen[0].shape == (7, 7)
+
+
+def test_after_an_optimisation_the_zero_field_gradient_is_a_field_task():
+    # Contract: the optimisation measures one analytic gradient's cost (kept through its
+    # checkpoint row); given it, the reference stage computes no gradient (only the field route
+    # needs one: it becomes that route's first task), under a key of its own, and reports the
+    # optimisation's time for the route choice.  ∂α/∂x from the zero-field task equals that
+    # from the reference stage's own zero-field gradient at the same geometry within the field
+    # route's own error: both SCFs stop at an orbital gradient of 1e-9, and ∂α/∂x divides
+    # gradient differences by F² = 1e-6 (measured 3.5e-5 apart; each is 1.0e-4 from the
+    # analytic route at this geometry).  ∂μ/∂x does not use the zero-field gradient.
+    settings = engine_settings(METHOD, BASIS)
+    water = molecule("H2O")
+    job = stages.OptimizeJob(water.numbers, water.positions, settings.spec)
+    opt = job.run()
+    assert opt.seconds_gradient is not None and opt.seconds_gradient > 0
+    again = job.unpack({k: np.asarray(v) for k, v in job.pack(opt).items()})
+    assert again is not None and again.seconds_gradient == opt.seconds_gradient
+
+    x, spec = opt.coordinates_ang, settings.spec
+    measured = stages.ScfJob(water.numbers, x, spec, dm0=opt.density)
+    known = dataclasses.replace(measured, seconds_gradient=opt.seconds_gradient)
+    assert known.key() != measured.key()
+    assert measured.label == "reference SCF, polarizability and gradient"
+    assert known.label == "reference SCF and polarizability"
+    scf = known.run()
+    ref = scf.reference
+    assert ref.gradient_hartree_bohr is None and ref.seconds_gradient == opt.seconds_gradient
+    stored = known.unpack({k: np.asarray(v) for k, v in known.pack(scf).items()})
+    assert stored is not None and stored.reference.gradient_hartree_bohr is None
+
+    optimised = run_engine(water, METHOD, BASIS, route="field", workers=1, progress=False)
+    start = water.copy()
+    start.positions = optimised.modes.coordinates_ang
+    given = run_engine(start, METHOD, BASIS, route="field", optimize=False, progress=False)
+    assert optimised.tasks.n_tasks == given.tasks.n_tasks + 1 == 5  # water C2v: 4 fields
+    assert any("(the zero-field one among them)" in n for n in optimised.modes.provenance.notes)
+    assert not any("zero-field one among" in n for n in given.modes.provenance.notes)
+    assert _rel(optimised.modes.dalpha_dx, given.modes.dalpha_dx) < 1e-4
+    assert _rel(optimised.modes.ir_intensity_km_mol, given.modes.ir_intensity_km_mol) < 1e-6

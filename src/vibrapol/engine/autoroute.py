@@ -30,6 +30,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from vibrapol.engine.evaluate import ReferenceResult
+from vibrapol.engine.fieldplan import FieldPlan, with_zero_field_task
 from vibrapol.engine.routes import (
     HESSIAN_ROUTES,
     Plan,
@@ -194,7 +195,7 @@ def hessian_needed(
         return FamilyChoice(True, f"auto: displacement route not considered: {excluded}", {})
     routes = hessian_routes_allowed(settings, atomic_numbers)
     plans = {
-        r: _plan(r, settings, coordinates_ang, masses_da, group, None)
+        r: _plan(r, settings, coordinates_ang, masses_da, group, None, ref)
         for r in (*(r for r in routes if r != "normal-mode"), "displacement")
     }
     n_normal = normal_mode_tasks(coordinates_ang)
@@ -234,7 +235,7 @@ def modes_needed_to_choose(
     w = max(int(workers), 1)
     estimates = {
         r: parallel_seconds(
-            _plan(r, settings, coordinates_ang, masses_da, group, None).n_tasks,
+            _plan(r, settings, coordinates_ang, masses_da, group, None, ref).n_tasks,
             w,
             task_seconds(r, ref, settings.spec.is_hf),
         )
@@ -258,14 +259,14 @@ def pick_route(
 ) -> tuple[RouteChoice, Plan]:
     """The route and its plan once the Hessian question is settled (``modes``: its modes)."""
     if not family.hessian:
-        plan = _plan("displacement", settings, coordinates_ang, masses_da, group, None)
+        plan = _plan("displacement", settings, coordinates_ang, masses_da, group, None, ref)
         estimates = family.estimates_s
         return RouteChoice("displacement", plan.n_tasks, family.reason, estimates), plan
     allowed = hessian_routes_allowed(settings, atomic_numbers)
     wanted = allowed if settings.route == "auto" else (settings.route,)
     if modes is None:  # before the Hessian: only the routes that need no modes
         wanted = tuple(r for r in wanted if r != "normal-mode")
-    plans = {r: _plan(r, settings, coordinates_ang, masses_da, group, modes) for r in wanted}
+    plans = {r: _plan(r, settings, coordinates_ang, masses_da, group, modes, ref) for r in wanted}
     choice, plan = choose_route(settings.route, plans, ref, workers, settings.spec.is_hf)
     if settings.route == "auto" and modes is None and "normal-mode" in allowed:
         n, t = normal_mode_estimate(coordinates_ang, ref, workers)
@@ -279,8 +280,8 @@ def pick_route(
     return choice, plan
 
 
-def _plan(route, settings, coords, masses, group, modes):  # noqa: ANN001, ANN202
-    return build_plan(
+def _plan(route, settings, coords, masses, group, modes, ref):  # noqa: ANN001, ANN202
+    plan = build_plan(
         route,
         coords,
         modes,
@@ -291,3 +292,6 @@ def _plan(route, settings, coords, masses, group, modes):  # noqa: ANN001, ANN20
         # PCM surfaces are Lebedev spheres fixed to the axes, like the DFT grid
         grid_free=settings.spec.is_hf and settings.spec.solvent is None,
     )
+    if isinstance(plan, FieldPlan) and ref.gradient_hartree_bohr is None:
+        return with_zero_field_task(plan)  # the reference stage computed no gradient
+    return plan

@@ -49,11 +49,11 @@ E_ANG_TO_DEBYE: float = _c.e * 1e-10 / DEBYE_C_M
 def dmu_dx_from_gradients(plan: FieldPlan, gradients: np.ndarray) -> np.ndarray:
     """∂μ/∂x (3N, 3) in e from the field gradients of ``plan``.
 
-    ``gradients`` has shape (n_tasks + 1, N, 3) in hartree/bohr, the zero-field one first (it
+    ``gradients`` has shape (n_points, N, 3) in hartree/bohr, the zero-field one first (it
     is not needed for the first derivative).
     """
     g = np.asarray(gradients, dtype=float)
-    n = plan.n_tasks + 1
+    n = len(plan.fields_au)
     if g.ndim != 3 or g.shape[0] != n or g.shape[2] != 3:
         raise ShapeError(f"need gradients of shape ({n}, N, 3), got {g.shape}")
 

@@ -129,11 +129,14 @@ class ReferenceResult:
     alpha_ang3 : ndarray (3, 3)
     density : ndarray (nao, nao)
         Converged AO density matrix, used as the start of every displaced SCF.
-    gradient_hartree_bohr : ndarray (N, 3)
+    gradient_hartree_bohr : ndarray (N, 3) or None
         Analytic gradient (with the DFT grid response), from the SCF converged to the field
-        route's tolerance: the zero-field point of that route; its time feeds the cost model.
+        route's tolerance: the zero-field point of that route.  None when the reference stage
+        did not compute it (after an optimisation, which measured a gradient's cost): the field
+        route then computes it as one of its tasks.
     seconds_scf, seconds_hessian, seconds_alpha, seconds_gradient : float
-        Wall time of each step.
+        Wall time of each step; ``seconds_gradient`` (the cost model's) is the optimisation's
+        last gradient when the reference stage computed none.
     density_response : ndarray (3, nao, nao), optional
         ∂D/∂F from the CPHF of α: the field tasks start from D + Σ_a F_a ∂D/∂F_a (None in
         checkpoints written before it was kept: they start from D).
@@ -143,7 +146,7 @@ class ReferenceResult:
     hessian_hartree_bohr2: np.ndarray | None
     alpha_ang3: np.ndarray
     density: np.ndarray
-    gradient_hartree_bohr: np.ndarray
+    gradient_hartree_bohr: np.ndarray | None
     seconds_scf: float = 0.0
     seconds_hessian: float = 0.0
     seconds_alpha: float = 0.0

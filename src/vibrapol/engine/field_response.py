@@ -336,14 +336,21 @@ def field_density_derivatives(
         return 2.0 * (c @ m @ c.T)
 
     r_mo = c.T @ dipole_integrals(mf.mol) @ c
-    u1_start = None
+    u1, g1 = None, None
     if first_order_start is not None and np.shape(first_order_start) == (3, *c.shape[:1] * 2):
         # D¹ = 2 C P¹ Cᵀ with P¹_vo = U: U = ½ C_vᵀ S D¹ S C_o (orthonormal MOs)
         s = mf.get_ovlp()
-        u1_start = 0.5 * (cv.T @ s) @ np.asarray(first_order_start) @ (s @ co)
-    u1 = solve(r_mo[:, vir][:, :, occ], u1_start)  # (3, nvir, nocc)
+        u1 = 0.5 * (cv.T @ s) @ np.asarray(first_order_start) @ (s @ co)
+        # G[P¹] is needed in full below; its vo block is also the start's residual check
+        # (the reference stage's start is usually solved already: one response, not two)
+        g1 = g_mo(embed(u1))
+        residual = delta * u1 + g1[:, vir][:, :, occ] + r_mo[:, vir][:, :, occ]
+        if (np.linalg.norm(residual.reshape(3, -1), axis=1) > ANALYTIC_RESPONSE_TOL).any():
+            u1, g1 = solve(r_mo[:, vir][:, :, occ], u1), None
+    if u1 is None:
+        u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
     p1 = embed(u1)
-    f1 = r_mo + g_mo(p1)  # (3, nmo, nmo)
+    f1 = r_mo + (g_mo(p1) if g1 is None else g1)  # (3, nmo, nmo)
     f0 = np.diag(eps)
     p0 = np.diag(occ.astype(float))
 
@@ -359,14 +366,15 @@ def field_density_derivatives(
     # Kohn–Sham: the XC potential is not linear in the density; its second field derivative
     # adds ∫ φμ φν k·uᵃ·uᵇ to f^ab beyond the kernel applied to Pᵃᵇ (zero for HF).
     kxc = c.T @ kernel_derivative_fock(mf, ao(p0), ao(p1)) @ c
-    rhs += (g_mo(known) + kxc)[:, vir][:, :, occ]
+    f2_known = g_mo(known) + kxc
+    rhs += f2_known[:, vir][:, :, occ]
     relaxation = None
     if nuclear_response is None:
         p2_pairs = known + embed(solve(rhs))
+        f2_pairs = g_mo(p2_pairs) + kxc
     else:
         relaxation = 4.0 * np.einsum("xvo,kvo->xk", nuclear_response, rhs)
-        p2_pairs = known
-    f2_pairs = g_mo(p2_pairs) + kxc
+        p2_pairs, f2_pairs = known, f2_known
 
     def pfp1(a: int) -> np.ndarray:
         return p1[a] @ f0 @ p0 + p0 @ f1[a] @ p0 + p0 @ f0 @ p1[a]

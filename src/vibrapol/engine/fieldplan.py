@@ -21,8 +21,9 @@ D(R) moving atom i's vector to its partner π_R(i) and rotating it: (D(R)g)_π(i
 computed field gives the gradients in its whole orbit {R F}; :func:`field_plan` picks the
 cheapest set of computed fields whose orbits contain ± pairs along six well-conditioned
 directions, and :func:`dalpha_dx_from_gradients` solves the quadratic forms by least squares.
-Besides the zero-field gradient, which the reference calculation provides, benzene (D6h)
-needs 2 field gradients, CCl4 (Td) 1, water (C2v) 4, a C1 molecule 12.
+Besides the zero-field gradient (the reference calculation's, or one more task when that did
+not compute it, :func:`with_zero_field_task`), benzene (D6h) needs 2 field gradients, CCl4
+(Td) 1, water (C2v) 4, a C1 molecule 12.
 
 Field strength (study: ``bench/field_strength.py``, HF/3-21G, max relative activity error
 against the Cartesian route at h = 0.002 Å, field SCF orbital gradient 1e-9):
@@ -43,7 +44,7 @@ below 1e-4; the floor near 3e-5 is partly the Cartesian reference's own O(h²) e
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -88,9 +89,10 @@ class FieldPlan:
         Field strength F.
     fields_au : ndarray (n_points, 3)
         Field vectors (input frame); point 0 is the zero field, whose gradient comes from the
-        reference calculation, the others are the tasks.
+        reference calculation (or from the first task, ``zero_field_task``), the others are
+        the tasks.
     labels : tuple of str
-        One per task (points 1 …).
+        One per task.
     operations : ndarray (g, 3, 3)
         Symmetry operations used (just E for C1 or when symmetry is off).
     permutations : ndarray of int (g, N)
@@ -98,6 +100,9 @@ class FieldPlan:
         For each direction used: (point, operation) of +F n, then of −F n.
     directions : ndarray (m, 3)
         The unit directions n.
+    zero_field_task : bool
+        True: the zero-field gradient is the first task (the reference stage did not compute
+        it); False: it is the reference's.
     """
 
     field_au: float
@@ -107,16 +112,29 @@ class FieldPlan:
     permutations: np.ndarray
     pairs: np.ndarray
     directions: np.ndarray
+    zero_field_task: bool = False
 
     @property
     def n_tasks(self) -> int:
-        """Number of field gradients to compute (the zero-field one is the reference's)."""
-        return int(self.fields_au.shape[0]) - 1
+        """Number of field gradients to compute (with the zero-field one or not)."""
+        return int(self.fields_au.shape[0]) - (0 if self.zero_field_task else 1)
 
     @property
     def task_fields_au(self) -> np.ndarray:
         """The field vector of each task, shape (n_tasks, 3)."""
-        return self.fields_au[1:]
+        return self.fields_au if self.zero_field_task else self.fields_au[1:]
+
+
+def _field_label(field_au: np.ndarray) -> str:
+    return "F=(" + ", ".join(f"{c:+.4f}" for c in field_au) + ")"
+
+
+def with_zero_field_task(plan: FieldPlan) -> FieldPlan:
+    """``plan`` with the zero-field gradient as its first task (none from the reference)."""
+    if plan.zero_field_task:
+        return plan
+    labels = (_field_label(plan.fields_au[0]), *plan.labels)
+    return replace(plan, labels=labels, zero_field_task=True)
 
 
 def _known(points: list[np.ndarray], ops: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -224,7 +242,7 @@ def field_plan(
                 best = (cost, sigma, points, dirs, pairs)
     assert best is not None  # the 13-point stencil always qualifies
     best_points = np.array(best[2])
-    labels = tuple("F=(" + ", ".join(f"{c:+.4f}" for c in p) + ")" for p in best_points[1:])
+    labels = tuple(_field_label(p) for p in best_points[1:])
     return FieldPlan(
         f, best_points, labels, ops, np.asarray(permutations, dtype=int), best[4], best[3]
     )
@@ -240,11 +258,11 @@ def transform_gradient(matrix: np.ndarray, perm: np.ndarray, grad: np.ndarray) -
 def dalpha_dx_from_gradients(plan: FieldPlan, gradients: np.ndarray) -> np.ndarray:
     """∂α/∂x (3N, 3, 3) in Å² from the gradients of ``plan``'s points.
 
-    ``gradients`` has shape (n_tasks + 1, N, 3) in hartree/bohr: the zero-field gradient
+    ``gradients`` has shape (n_points, N, 3) in hartree/bohr: the zero-field gradient
     first, then one per task.
     """
     g = np.asarray(gradients, dtype=float)
-    n = plan.n_tasks + 1
+    n = len(plan.fields_au)
     if g.ndim != 3 or g.shape[0] != n or g.shape[2] != 3:
         raise ShapeError(f"need gradients of shape ({n}, N, 3), got {g.shape}")
     n_atoms = g.shape[1]

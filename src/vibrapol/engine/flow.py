@@ -169,8 +169,14 @@ class Flow:
             plan_route(m, self.settings, self.runner.backend.workers)
             self._tasks(k)
             return
-        start = None if m.optimization is None else m.optimization.density
-        job = stages.ScfJob(m.atomic_numbers, m.coordinates_ang, spec, dm0=start)
+        opt = m.optimization
+        job = stages.ScfJob(
+            m.atomic_numbers,
+            m.coordinates_ang,
+            spec,
+            dm0=None if opt is None else opt.density,
+            seconds_gradient=None if opt is None else opt.seconds_gradient,
+        )
         self._stage(k, job, self._scf_done)
 
     def _scf_done(self, k: int, scf: stages.ScfResult, seconds: float, reused: bool) -> None:

@@ -19,6 +19,7 @@ checked here whatever the optimiser reports; a larger one is never passed on.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from time import perf_counter
 
 import numpy as np
 
@@ -71,6 +72,10 @@ class OptimizationResult:
     density : ndarray or None
         The converged SCF density at the final geometry (AO basis; (2, n, n) for an open
         shell), the start of the reference SCF; None when not kept (older checkpoints).
+    seconds_gradient : float or None
+        Wall seconds of the last tightly converged analytic gradient (the gradient alone, not
+        its SCF): the measured cost of one gradient at this geometry, which the route choice
+        uses, so the reference stage need not compute one; None when not measured.
     """
 
     coordinates_ang: np.ndarray
@@ -81,6 +86,7 @@ class OptimizationResult:
     optimizer: str = "cartesian-bfgs"
     n_loose: int = 0
     density: np.ndarray | None = None
+    seconds_gradient: float | None = None
 
     def describe(self) -> str:
         """One line for the provenance: optimiser, steps, gradients and final largest force."""
@@ -125,6 +131,7 @@ def _calculator(atomic_numbers: np.ndarray, spec: MethodSpec):
             super().__init__()
             self.density = None
             self.n_gradients = 0
+            self.seconds_gradient: float | None = None
 
         def calculate(self, atoms=None, properties=("energy",), system_changes=all_changes):
             super().calculate(atoms, properties, system_changes)
@@ -138,7 +145,9 @@ def _calculator(atomic_numbers: np.ndarray, spec: MethodSpec):
             self.density = mf.make_rdm1()
             grad = mf.nuc_grad_method()
             grad.verbose = 0
+            start = perf_counter()
             g = np.asarray(grad.kernel())
+            self.seconds_gradient = perf_counter() - start
             self.n_gradients += 1
             self.results = {
                 "energy": float(mf.e_tot) * _HARTREE_EV,
@@ -220,6 +229,7 @@ def _internal(z, xyz, spec, fmax, max_steps, loose) -> OptimizationResult:  # no
         optimizer="internal",
         n_loose=evaluator.n_loose,
         density=evaluator.density,
+        seconds_gradient=evaluator.seconds_gradient,
     )
 
 
@@ -254,4 +264,5 @@ def _bfgs(z, coordinates_ang, spec, fmax_hartree_bohr, max_steps) -> Optimizatio
         n_gradients=calc.n_gradients,
         optimizer="cartesian-bfgs",
         density=calc.density,
+        seconds_gradient=calc.seconds_gradient,
     )

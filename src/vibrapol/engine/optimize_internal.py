@@ -28,6 +28,7 @@ import tempfile
 import threading
 from collections.abc import Iterator
 from dataclasses import dataclass
+from time import perf_counter
 
 import numpy as np
 
@@ -102,6 +103,7 @@ class Evaluator:
         self.n_gradients = 0
         self.n_loose = 0
         self.n_scf_cycles = 0
+        self.seconds_gradient: float | None = None
 
     def _scf(self, mol, dm0, tight: bool):  # noqa: ANN001, ANN202
         def fresh():  # noqa: ANN202
@@ -119,7 +121,10 @@ class Evaluator:
             )
         grad = mf.nuc_grad_method()
         grad.verbose = 0
+        start = perf_counter()
         g = np.asarray(grad.kernel(), dtype=float)
+        if tight:  # the cost of one analytic gradient (the reference stage's cost model)
+            self.seconds_gradient = perf_counter() - start
         self.n_gradients += 1
         self.n_loose += 0 if tight else 1
         return mf, g

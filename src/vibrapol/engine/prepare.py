@@ -349,8 +349,9 @@ def _provenance(
     elif isinstance(plan, FieldPlan):
         how = (
             f"dalpha/dx from analytic gradients in uniform fields (field route), "
-            f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients; dmu/dx from their "
-            "first field differences"
+            f"F = {plan.field_au:g} au, {plan.n_tasks} field gradients"
+            f"{' (the zero-field one among them)' if plan.zero_field_task else ''}; dmu/dx "
+            "from their first field differences"
         )
     else:
         how = (

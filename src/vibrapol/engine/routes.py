@@ -228,14 +228,22 @@ def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> 
     if isinstance(plan, AnalyticPlan):
         return np.asarray(results[0])[:, :3, :]
     if isinstance(plan, FieldPlan):
-        gradients = np.array([ref.gradient_hartree_bohr, *results])
-        return dalpha_dx_from_gradients(plan, gradients)
+        return dalpha_dx_from_gradients(plan, field_gradients(plan, results, ref))
     if isinstance(plan, DisplacementRoutePlan):
         return derivatives(plan.geometries, [r[:4] for r in results], ref)
     stacked = np.array(results)[:, :3]  # α over the dipole (PolarizabilityDipoleJob)
     if isinstance(plan, SymmetricPlan):
         return rebuild_dalpha_dx(plan, stacked)
     return central_differences(plan, stacked)
+
+
+def field_gradients(plan: FieldPlan, results: list[np.ndarray], ref: ReferenceResult) -> np.ndarray:
+    """The gradients of every point of ``plan``, the zero-field one first (N + 1, N, 3)."""
+    if plan.zero_field_task:
+        return np.array(results)
+    if ref.gradient_hartree_bohr is None:
+        raise EngineInputError("the field route needs the zero-field gradient: none was computed")
+    return np.array([ref.gradient_hartree_bohr, *results])
 
 
 def dipole_derivatives(
@@ -249,7 +257,7 @@ def dipole_derivatives(
     if isinstance(plan, AnalyticPlan):
         return np.asarray(results[0])[:, 3, :]
     if isinstance(plan, FieldPlan):
-        return dmu_dx_from_gradients(plan, np.array([ref.gradient_hartree_bohr, *results]))
+        return dmu_dx_from_gradients(plan, field_gradients(plan, results, ref))
     if isinstance(plan, DisplacementRoutePlan):
         return dipole_derivatives(plan.geometries, [r[:4] for r in results], ref, charge)
     dipoles = np.array(results)[:, 3]

@@ -73,15 +73,18 @@ class OptimizeJob:
     @staticmethod
     def pack(result: OptimizationResult) -> dict[str, Any]:
         """The arrays stored in the checkpoint."""
-        return {
+        arrays: dict[str, Any] = {
             "coordinates_ang": result.coordinates_ang,
             "energy_hartree": result.energy_hartree,
             "max_force_hartree_bohr": result.max_force_hartree_bohr,
             "n_steps": result.n_steps,
             "n_gradients": result.n_gradients,
             "n_loose": result.n_loose,
-            **({} if result.density is None else {"density": result.density}),
         }
+        for name in ("density", "seconds_gradient"):  # not known in every result
+            if getattr(result, name) is not None:
+                arrays[name] = getattr(result, name)
+        return arrays
 
     def unpack(self, stored: dict[str, np.ndarray]) -> OptimizationResult | None:
         """The result from a checkpoint row (None when a field is missing)."""
@@ -95,6 +98,9 @@ class OptimizeJob:
                 optimizer=self.optimizer,
                 n_loose=int(stored.get("n_loose", 0)),
                 density=stored.get("density"),
+                seconds_gradient=(
+                    float(stored["seconds_gradient"]) if "seconds_gradient" in stored else None
+                ),
             )
         except KeyError:
             return None
@@ -118,17 +124,23 @@ class ScfResult:
     mo_energy: np.ndarray
 
 
-_SCF_ARRAYS = ("alpha_ang3", "density", "gradient_hartree_bohr")
+_SCF_ARRAYS = ("alpha_ang3", "density")
 _SCF_TIMES = ("seconds_scf", "seconds_alpha", "seconds_gradient")
 _ORBITALS = ("mo_coeff", "mo_occ", "mo_energy")
 
 
 @dataclass(frozen=True, eq=False)
 class ScfJob:
-    """Reference SCF, CPHF α and the zero-field analytic gradient at one geometry.
+    """Reference SCF, CPHF α and (unless its cost is known) the zero-field gradient.
 
     ``dm0``: a starting density (the optimisation's last one), or None for PySCF's guess; the
     SCF is converged to the same tight criteria either way.
+
+    ``seconds_gradient``: the measured wall time of one analytic gradient at (nearly) this
+    geometry, the optimisation's last.  Given, the zero-field gradient is not computed: only
+    the field route needs it, and computes it as one of its tasks (benzene B3LYP/6-31G*: 6 s
+    that every other route would have paid); the route choice takes this time as the
+    gradient's cost.  None: computed here, and its time measured.
     """
 
     atomic_numbers: np.ndarray
@@ -136,18 +148,31 @@ class ScfJob:
     spec: MethodSpec
     threads: int | None = None
     dm0: np.ndarray | None = None
+    seconds_gradient: float | None = None
 
     kind: ClassVar[str] = "reference-scf"
-    label: ClassVar[str] = "reference SCF, polarizability and gradient"
+
+    @property
+    def label(self) -> str:
+        """What the stage computes, for the progress lines."""
+        if self.seconds_gradient is None:
+            return "reference SCF, polarizability and gradient"
+        return "reference SCF and polarizability"
 
     def key(self) -> str:
-        """Checkpoint key."""
+        """Checkpoint key (a stage without the gradient has a key of its own)."""
+        no_gradient = {} if self.seconds_gradient is None else {"zero_field_gradient": False}
         return task_key(
-            "reference-scf", self.atomic_numbers, self.coordinates_ang, self.spec, **REFERENCE_KEY
+            "reference-scf",
+            self.atomic_numbers,
+            self.coordinates_ang,
+            self.spec,
+            **REFERENCE_KEY,
+            **no_gradient,
         )
 
     def run(self) -> ScfResult:
-        """Tight SCF, α (Å³) and gradient, with the wall time of each."""
+        """Tight SCF, α (Å³) and, unless its cost is given, the gradient, each timed."""
         from vibrapol.engine.fieldgrad import field_gradient, run_tight_scf
         from vibrapol.engine.polarizability import cphf_polarizability_response
         from vibrapol.units import BOHR3_TO_ANG3
@@ -164,7 +189,9 @@ class ScfJob:
             alpha_bohr3, density_response = cphf_polarizability_response(mf, solver="block")
             alpha = alpha_bohr3 * BOHR3_TO_ANG3
             t2 = perf_counter()
-            gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
+            gradient = None
+            if self.seconds_gradient is None:
+                gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
             t3 = perf_counter()
         reference = ReferenceResult(
             energy_hartree=float(mf.e_tot),
@@ -174,7 +201,7 @@ class ScfJob:
             gradient_hartree_bohr=gradient,
             seconds_scf=t1 - t0,
             seconds_alpha=t2 - t1,
-            seconds_gradient=t3 - t2,
+            seconds_gradient=t3 - t2 if self.seconds_gradient is None else self.seconds_gradient,
             density_response=density_response,
         )
         return ScfResult(
@@ -187,6 +214,8 @@ class ScfJob:
         ref = result.reference
         arrays: dict[str, Any] = {k: getattr(ref, k) for k in (*_SCF_ARRAYS, *_SCF_TIMES)}
         arrays["energy_hartree"] = ref.energy_hartree
+        if ref.gradient_hartree_bohr is not None:
+            arrays["gradient_hartree_bohr"] = ref.gradient_hartree_bohr
         arrays.update({k: getattr(result, k) for k in _ORBITALS})
         if ref.density_response is not None:  # ∂D/∂F: the start of the field tasks
             arrays["density_response"] = ref.density_response
@@ -202,7 +231,7 @@ class ScfJob:
             hessian_hartree_bohr2=None,
             alpha_ang3=stored["alpha_ang3"],
             density=stored["density"],
-            gradient_hartree_bohr=stored["gradient_hartree_bohr"],
+            gradient_hartree_bohr=stored.get("gradient_hartree_bohr"),
             seconds_scf=float(stored["seconds_scf"]),
             seconds_alpha=float(stored["seconds_alpha"]),
             seconds_gradient=float(stored["seconds_gradient"]),
@@ -367,7 +396,7 @@ def with_hessian(
     return replace(reference, hessian_hartree_bohr2=hessian, seconds_hessian=seconds)
 
 
-_LEGACY_FIELDS = ("hessian_hartree_bohr2", *_SCF_ARRAYS, "energy_hartree")
+_LEGACY_FIELDS = ("hessian_hartree_bohr2", *_SCF_ARRAYS, "gradient_hartree_bohr", "energy_hartree")
 _LEGACY_TIMES = ("seconds_scf", "seconds_hessian", "seconds_alpha", "seconds_gradient")
 
 

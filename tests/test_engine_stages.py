@@ -321,11 +321,17 @@ def test_after_an_optimisation_the_zero_field_gradient_is_a_field_task():
     assert known.key() != measured.key()
     assert measured.label == "reference SCF, polarizability and gradient"
     assert known.label == "reference SCF and polarizability"
-    scf = known.run()
+    scf, tight = known.run(), measured.run()
     ref = scf.reference
     assert ref.gradient_hartree_bohr is None and ref.seconds_gradient == opt.seconds_gradient
     stored = known.unpack({k: np.asarray(v) for k, v in known.pack(scf).items()})
     assert stored is not None and stored.reference.gradient_hartree_bohr is None
+    # Without the gradient the SCF stops at the engine's usual criteria, and the Hessian's key
+    # says which orbitals it was computed from; α moves within those criteria.
+    assert not scf.tight and not stored.tight and tight.tight
+    after = [stages.HessianJob.after(r, water.numbers, x, spec).key() for r in (scf, tight)]
+    assert after[0] != after[1]
+    np.testing.assert_allclose(ref.alpha_ang3, tight.reference.alpha_ang3, atol=1e-8)
 
     optimised = run_engine(water, METHOD, BASIS, route="field", workers=1, progress=False)
     start = water.copy()

@@ -13,9 +13,10 @@
 
 The first three need the analytic Hessian (the "Hessian routes").  Among them ``auto``
 estimates the cost of each as ceil(tasks / workers) × (cost of one task), with the costs of an
-SCF, a CPHF α and a gradient measured at the reference geometry of the molecule itself (times
-the factors below), and takes the cheapest; whether to compute the Hessian at all (against the
-displacement route) is decided before, by :func:`vibrapol.engine.autoroute.choose_family`.
+SCF, a CPHF α and a gradient measured at the reference geometry of the molecule itself (the
+gradient's at the optimisation's last step when there was one; times the factors below),
+and takes the cheapest; whether to compute the Hessian at all (against the displacement route)
+is decided before, by :func:`vibrapol.engine.autoroute.choose_family`.
 """
 
 from __future__ import annotations
@@ -366,7 +367,8 @@ def choose_route(
     when = "serial time" if workers <= 1 else f"time on {workers} workers"
     reason = (
         f"auto: least estimated {when} ({costs}; from SCF {ref.seconds_scf:.2f} s, "
-        f"CPHF {ref.seconds_alpha:.2f} s, gradient {ref.seconds_gradient:.2f} s measured at "
-        "the reference geometry)"
+        f"CPHF {ref.seconds_alpha:.2f} s measured at the reference geometry, gradient "
+        f"{ref.seconds_gradient:.2f} s measured "
+        f"{'in the optimisation' if ref.gradient_hartree_bohr is None else 'there too'})"
     )
     return RouteChoice(best, plans[best].n_tasks, reason, estimates), plans[best]

@@ -31,13 +31,28 @@ from vibrapol.engine.optimize import (
     optimize_geometry,
     optimizer_key,
 )
-from vibrapol.engine.scf import MethodSpec, build_molecule
+from vibrapol.engine.scf import SCF_CONV_TOL, SCF_CONV_TOL_GRAD, MethodSpec, build_molecule
 
-#: The convergence settings of the reference SCF enter the keys of both reference stages.
+#: The convergence settings of the reference SCF enter the keys of both reference stages:
+#: with the zero-field gradient, the field route's tight criteria (that gradient is one of its
+#: points) …
 REFERENCE_KEY = {
     "reference_conv": [FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD],
     "grid_response": True,
 }
+#: … and without it, the engine's usual criteria, as a frequency-only run would use.  Measured
+#: against the tight SCF (6-31G*, from a density 2e-3 Å away): α within 5e-9, ∂α/∂x (analytic)
+#: 2.5e-8, ∂μ/∂x 4.8e-8 and the Hessian 4.3e-9 of their largest elements (ethanol B3LYP and HF,
+#: water B3LYP); 2.6 s of 9.0 s saved on benzene B3LYP (docs/engine-routes.md).
+REFERENCE_KEY_NO_GRADIENT = {
+    "reference_conv": [SCF_CONV_TOL, SCF_CONV_TOL_GRAD],
+    "zero_field_gradient": False,
+}
+
+
+def reference_key(tight: bool) -> dict[str, Any]:
+    """The reference SCF's part of a stage key: tight with the gradient, or the usual one."""
+    return REFERENCE_KEY if tight else REFERENCE_KEY_NO_GRADIENT
 
 
 @dataclass(frozen=True, eq=False)
@@ -116,12 +131,16 @@ class ScfResult:
         With ``hessian_hartree_bohr2`` None and ``seconds_hessian`` 0.
     mo_coeff, mo_occ, mo_energy : ndarray
         The converged orbitals, the input of the Hessian stage.
+    tight : bool
+        Converged to the field route's tight criteria (with the zero-field gradient), else to
+        the engine's usual ones (:func:`reference_key`).
     """
 
     reference: ReferenceResult
     mo_coeff: np.ndarray
     mo_occ: np.ndarray
     mo_energy: np.ndarray
+    tight: bool = True
 
 
 _SCF_ARRAYS = ("alpha_ang3", "density")
@@ -140,7 +159,9 @@ class ScfJob:
     geometry, the optimisation's last.  Given, the zero-field gradient is not computed: only
     the field route needs it, and computes it as one of its tasks (benzene B3LYP/6-31G*: 6 s
     that every other route would have paid); the route choice takes this time as the
-    gradient's cost.  None: computed here, and its time measured.
+    gradient's cost, and the SCF is converged to the engine's usual criteria, not the field
+    route's tighter ones (:data:`REFERENCE_KEY_NO_GRADIENT`).  None: tight SCF, the gradient
+    computed here and its time measured.
     """
 
     atomic_numbers: np.ndarray
@@ -161,26 +182,30 @@ class ScfJob:
 
     def key(self) -> str:
         """Checkpoint key (a stage without the gradient has a key of its own)."""
-        no_gradient = {} if self.seconds_gradient is None else {"zero_field_gradient": False}
         return task_key(
             "reference-scf",
             self.atomic_numbers,
             self.coordinates_ang,
             self.spec,
-            **REFERENCE_KEY,
-            **no_gradient,
+            **reference_key(self.seconds_gradient is None),
         )
 
     def run(self) -> ScfResult:
         """Tight SCF, α (Å³) and, unless its cost is given, the gradient, each timed."""
         from vibrapol.engine.fieldgrad import field_gradient, run_tight_scf
         from vibrapol.engine.polarizability import cphf_polarizability_response
+        from vibrapol.engine.scf import run_scf
         from vibrapol.units import BOHR3_TO_ANG3
 
+        tight = self.seconds_gradient is None
         with threads_limited(self.threads):
             mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
             t0 = perf_counter()
-            mf = run_tight_scf(mol, self.spec, self.dm0)
+            mf = (
+                run_tight_scf(mol, self.spec, self.dm0)
+                if tight
+                else run_scf(mol, self.spec, self.dm0)
+            )
             t1 = perf_counter()
             # The three equations in one shared subspace, to the full tolerance: ∂D/∂F is also
             # where the analytic route's first-order equations start (then solved already).
@@ -190,7 +215,7 @@ class ScfJob:
             alpha = alpha_bohr3 * BOHR3_TO_ANG3
             t2 = perf_counter()
             gradient = None
-            if self.seconds_gradient is None:
+            if tight:
                 gradient = field_gradient(mf, np.zeros(3))  # the field route's zero-field point
             t3 = perf_counter()
         reference = ReferenceResult(
@@ -205,7 +230,11 @@ class ScfJob:
             density_response=density_response,
         )
         return ScfResult(
-            reference, np.asarray(mf.mo_coeff), np.asarray(mf.mo_occ), np.asarray(mf.mo_energy)
+            reference,
+            np.asarray(mf.mo_coeff),
+            np.asarray(mf.mo_occ),
+            np.asarray(mf.mo_energy),
+            tight,
         )
 
     @staticmethod
@@ -214,6 +243,7 @@ class ScfJob:
         ref = result.reference
         arrays: dict[str, Any] = {k: getattr(ref, k) for k in (*_SCF_ARRAYS, *_SCF_TIMES)}
         arrays["energy_hartree"] = ref.energy_hartree
+        arrays["tight_scf"] = result.tight
         if ref.gradient_hartree_bohr is not None:
             arrays["gradient_hartree_bohr"] = ref.gradient_hartree_bohr
         arrays.update({k: getattr(result, k) for k in _ORBITALS})
@@ -237,7 +267,9 @@ class ScfJob:
             seconds_gradient=float(stored["seconds_gradient"]),
             density_response=stored.get("density_response"),
         )
-        return ScfResult(reference, *(stored[k] for k in _ORBITALS))
+        tight = bool(stored.get("tight_scf", True))  # earlier rows were all tight
+        mo_coeff, mo_occ, mo_energy = (stored[k] for k in _ORBITALS)
+        return ScfResult(reference, mo_coeff, mo_occ, mo_energy, tight=tight)
 
 
 @dataclass(frozen=True, eq=False)
@@ -251,6 +283,7 @@ class HessianJob:
     mo_occ: np.ndarray
     mo_energy: np.ndarray
     threads: int | None = None
+    tight_reference: bool = True
 
     kind: ClassVar[str] = "hessian"
     label: ClassVar[str] = "analytic Hessian"
@@ -258,7 +291,15 @@ class HessianJob:
     @classmethod
     def after(cls, scf: ScfResult, atomic_numbers, coordinates_ang, spec) -> Self:  # noqa: ANN001
         """The Hessian job that follows an SCF stage."""
-        return cls(atomic_numbers, coordinates_ang, spec, scf.mo_coeff, scf.mo_occ, scf.mo_energy)
+        return cls(
+            atomic_numbers,
+            coordinates_ang,
+            spec,
+            scf.mo_coeff,
+            scf.mo_occ,
+            scf.mo_energy,
+            tight_reference=scf.tight,
+        )
 
     def key(self) -> str:
         """Checkpoint key (the orbitals are determined by the SCF stage's own key)."""
@@ -269,7 +310,7 @@ class HessianJob:
             self.atomic_numbers,
             self.coordinates_ang,
             self.spec,
-            **REFERENCE_KEY,
+            **reference_key(self.tight_reference),
             **hessian_key(self.spec),
         )
 
@@ -351,7 +392,7 @@ class HessianTensorJob(HessianJob):
             self.coordinates_ang,
             self.spec,
             analytic_conv=[ANALYTIC_RESPONSE_TOL],
-            **REFERENCE_KEY,
+            **reference_key(self.tight_reference),
             **hessian_key(self.spec),
         )
 

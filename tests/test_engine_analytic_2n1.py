@@ -213,16 +213,18 @@ def test_hessian_in_memory_blocks_equals_the_hessian_in_one_block(monkeypatch):
 
 @pytest.mark.parametrize("method", ["hf", "b3lyp"])
 def test_a_solved_first_order_start_costs_no_solver_step(method):
-    # Contract (cost and result): with the reference stage's ∂D/∂F, already solved, as the
-    # start and the Hessian's nuclear responses given, the field derivatives apply the response
+    # Contract (cost and result): with the reference stage's ∂D/∂F (solved to its residual,
+    # REFERENCE_ALPHA_TOL) as the start and the Hessian's nuclear responses given, the field
+    # derivatives apply the response
     # function twice (G[P¹], whose vo block is also the start's residual check, and G of the
     # six second-order densities), where a cold start needs the solver's steps as well; the
     # derivatives agree to the response tolerance (1e-8 residual).
     from vibrapol.engine.polarizability import cphf_polarizability_response
+    from vibrapol.engine.stages import REFERENCE_ALPHA_TOL
 
     mf = tight_scf(WATER, "3-21g", method)
     u = _responses(mf)
-    start = cphf_polarizability_response(mf, solver="block")[1]
+    start = cphf_polarizability_response(mf, solver="block", tol=REFERENCE_ALPHA_TOL)[1]
     build = mf.gen_response
     calls = []
 

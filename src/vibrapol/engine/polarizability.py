@@ -37,7 +37,9 @@ def cphf_polarizability(mf) -> np.ndarray:
 CPHF_SOLVERS = ("cg", "krylov", "block")
 
 
-def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np.ndarray | None]:
+def cphf_polarizability_response(
+    mf, solver: str = "cg", tol: float | None = None
+) -> tuple[np.ndarray, np.ndarray | None]:
     """Static polarizability α (bohr³) and first-order density response ∂D/∂F (AO basis).
 
     Solves the static coupled-perturbed equations for the three components of the dipole
@@ -64,6 +66,9 @@ def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np
         the reference α alone (a relative error of 1e-8) and the start of the field tasks.
         ``block``: :func:`~vibrapol.engine.field_response.solve_response_block`, the three
         equations in one shared subspace, every residual below :data:`CPHF_TOL`.
+    tol : float, optional
+        The residual for the ``cg`` and ``block`` solvers instead of :data:`CPHF_TOL` (α is
+        variational: its error goes as the square of the residual).
 
     Returns
     -------
@@ -101,12 +106,13 @@ def cphf_polarizability_response(mf, solver: str = "cg") -> tuple[np.ndarray, np
         return np.einsum("xpq,pa,qi->xai", v1, orbv, orbo).reshape(x.shape[0], -1)
 
     delta = mo_energy[mo_occ == 0][:, None] - mo_energy[mo_occ > 0][None, :]
+    residual = CPHF_TOL if tol is None else tol
     if solver == "cg":
-        mo1 = solve_response(fvind, delta, h1)
+        mo1 = solve_response(fvind, delta, h1, tol=residual)
     elif solver == "block":
         from vibrapol.engine.field_response import solve_response_block
 
-        mo1 = solve_response_block(fvind, delta, h1, CPHF_TOL)[0]
+        mo1 = solve_response_block(fvind, delta, h1, residual)[0]
     elif solver == "krylov":
         from pyscf.scf import cphf
 

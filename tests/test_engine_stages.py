@@ -340,5 +340,8 @@ def test_after_an_optimisation_the_zero_field_gradient_is_a_field_task():
     assert optimised.tasks.n_tasks == given.tasks.n_tasks + 1 == 5  # water C2v: 4 fields
     assert any("(the zero-field one among them)" in n for n in optimised.modes.provenance.notes)
     assert not any("zero-field one among" in n for n in given.modes.provenance.notes)
+    # the provenance names the reference SCF's criteria where they are the field route's
+    assert any("(reference SCF 1e-12, 1e-09)" in n for n in given.modes.provenance.notes)
+    assert not any("(reference SCF" in n for n in optimised.modes.provenance.notes)
     assert _rel(optimised.modes.dalpha_dx, given.modes.dalpha_dx) < 1e-4
     assert _rel(optimised.modes.ir_intensity_km_mol, given.modes.ir_intensity_km_mol) < 1e-6

@@ -32,6 +32,7 @@ from vibrapol.engine.dipole import ir_intensities_km_mol, project_dmu
 from vibrapol.engine.disproute import HESSIAN_NOTE, DisplacementRoutePlan
 from vibrapol.engine.evaluate import ReferenceResult
 from vibrapol.engine.field_response import ANALYTIC_RESPONSE_TOL
+from vibrapol.engine.fieldgrad import FIELD_SCF_CONV_TOL, FIELD_SCF_CONV_TOL_GRAD
 from vibrapol.engine.fieldplan import FieldPlan
 from vibrapol.engine.hessian import nuclear_solver_note
 from vibrapol.engine.laser import LaserReference
@@ -362,9 +363,15 @@ def _provenance(
     alpha = "CPHF static polarizability"
     if prep.laser is not None and prep.laser.dynamic:
         alpha = f"dynamic polarizability at {prep.laser.laser_nm:g} nm (linear response)"
+    # the reference SCF has the field route's criteria where it computed the zero-field
+    # gradient (stages.reference_key)
+    tight = prep.reference is not None and prep.reference.gradient_hartree_bohr is not None
+    reference = (
+        f" (reference SCF {FIELD_SCF_CONV_TOL:g}, {FIELD_SCF_CONV_TOL_GRAD:g})" if tight else ""
+    )
     notes.append(
         f"{hessian}; {alpha}; {how}; "
-        f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}"
+        f"SCF conv_tol {SCF_CONV_TOL:g}, conv_tol_grad {SCF_CONV_TOL_GRAD:g}{reference}"
     )
     notes.append(IR_NOTE)
     if prep.laser is not None:

@@ -239,7 +239,11 @@ def derivatives(plan: Plan, results: list[np.ndarray], ref: ReferenceResult) -> 
 
 
 def field_gradients(plan: FieldPlan, results: list[np.ndarray], ref: ReferenceResult) -> np.ndarray:
-    """The gradients of every point of ``plan``, the zero-field one first (N + 1, N, 3)."""
+    """The gradients of every point of ``plan``, the zero-field one first (n_points, N, 3).
+
+    From the tasks alone when the zero field is one of them, else the reference stage's
+    gradient first.
+    """
     if plan.zero_field_task:
         return np.array(results)
     if ref.gradient_hartree_bohr is None:

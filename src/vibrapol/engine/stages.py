@@ -161,7 +161,7 @@ class ScfJob:
     """Reference SCF, CPHF α and (unless its cost is known) the zero-field gradient.
 
     ``dm0``: a starting density (the optimisation's last one), or None for PySCF's guess; the
-    SCF is converged to the same tight criteria either way.
+    SCF is converged to the same criteria either way (which ones: ``seconds_gradient``).
 
     ``seconds_gradient``: the measured wall time of one analytic gradient at (nearly) this
     geometry, the optimisation's last.  Given, the zero-field gradient is not computed: only

@@ -70,8 +70,7 @@ def run_engine(
     ``options`` are the other fields of :class:`~vibrapol.engine.settings.EngineSettings`
     (``charge``, ``multiplicity``, ``optimize``, ``step_ang``, ``route``, ``field_au``,
     ``symmetry``, ``cartesian_d``, ``optimizer``, ``solvent``, ``epsilon``,
-    ``epsilon_optical``).
-    ``symmetry``, ``cartesian_d``, ``laser_nm``, ``dynamic``).
+    ``epsilon_optical``, ``laser_nm``, ``dynamic``).
     """
     settings = EngineSettings(method, basis, **options)
     if masses_da is None and callable(getattr(atoms, "has", None)) and atoms.has("masses"):
@@ -138,7 +137,8 @@ def compute_modes(
         ``cartesian``: α at displaced Cartesian coordinates (6N tasks, fewer with symmetry;
         gives ∂α/∂x); ``normal-mode`` (or ``normal``): α along each normal mode (2·n_modes
         tasks; gives ∂α/∂Q only); ``field``: analytic gradients in uniform fields (12 tasks
-        or fewer with symmetry, for any molecule size; gives ∂α/∂x); ``displacement``:
+        or fewer with symmetry, for any molecule size, and the zero field after an
+        optimisation; gives ∂α/∂x); ``displacement``:
         gradient, dipole and α at the Cartesian displaced geometries, the Hessian from the
         gradients instead of the analytic Hessian (:mod:`vibrapol.engine.disproute`);
         ``auto``: the route with the least estimated time on the run's workers

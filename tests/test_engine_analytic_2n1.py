@@ -215,10 +215,9 @@ def test_hessian_in_memory_blocks_equals_the_hessian_in_one_block(monkeypatch):
 def test_a_solved_first_order_start_costs_no_solver_step(method):
     # Contract (cost and result): with the reference stage's ∂D/∂F (solved to its residual,
     # REFERENCE_ALPHA_TOL) as the start and the Hessian's nuclear responses given, the field
-    # derivatives apply the response
-    # function twice (G[P¹], whose vo block is also the start's residual check, and G of the
-    # six second-order densities), where a cold start needs the solver's steps as well; the
-    # derivatives agree to the response tolerance (1e-8 residual).
+    # derivatives apply the response function twice (G[P¹], whose vo block is also the start's
+    # residual check, and G of the six second-order densities), where a cold start needs the
+    # solver's steps as well; the derivatives agree to the response tolerance (1e-8 residual).
     from vibrapol.engine.polarizability import cphf_polarizability_response
     from vibrapol.engine.stages import REFERENCE_ALPHA_TOL
 

@@ -5,8 +5,10 @@ all run on a Dask LocalCluster gives the same ModeSets as serial runs of each mo
 a run stopped during the Hessian stage resumes without redoing the optimisation or the SCF
 (each stage is stored as it finishes); the Hessian of the separate stage equals PySCF's
 Hessian of the SCF object itself (PySCF is the reference); a lone job gets every core, many
-jobs one thread each; progress shows each stage of each molecule.  Molecules: water and
-ammonia, HF/STO-3G (ASE's geometries, optimised here).
+jobs one thread each; progress shows each stage of each molecule; after an optimisation the
+reference stage computes no zero-field gradient and the field route computes it as a task,
+with the same ∂α/∂x within the route's own error.  Molecules: water and ammonia, HF/STO-3G
+(ASE's geometries, optimised here).
 """
 
 from __future__ import annotations

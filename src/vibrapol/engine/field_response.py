@@ -336,6 +336,7 @@ def field_density_derivatives(
         return 2.0 * (c @ m @ c.T)
 
     r_mo = c.T @ dipole_integrals(mf.mol) @ c
+    r_vo = r_mo[:, vir][:, :, occ]
     u1, g1 = None, None
     if first_order_start is not None and np.shape(first_order_start) == (3, *c.shape[:1] * 2):
         # D¹ = 2 C P¹ Cᵀ with P¹_vo = U: U = ½ C_vᵀ S D¹ S C_o (orthonormal MOs)
@@ -344,11 +345,11 @@ def field_density_derivatives(
         # G[P¹] is needed in full below; its vo block is also the start's residual check
         # (the reference stage's start is usually solved already: one response, not two)
         g1 = g_mo(embed(u1))
-        residual = delta * u1 + g1[:, vir][:, :, occ] + r_mo[:, vir][:, :, occ]
+        residual = delta * u1 + g1[:, vir][:, :, occ] + r_vo
         if (np.linalg.norm(residual.reshape(3, -1), axis=1) > ANALYTIC_RESPONSE_TOL).any():
-            u1, g1 = solve(r_mo[:, vir][:, :, occ], u1), None
+            u1, g1 = solve(r_vo, u1), None
     if u1 is None:
-        u1 = solve(r_mo[:, vir][:, :, occ])  # (3, nvir, nocc)
+        u1 = solve(r_vo)  # (3, nvir, nocc)
     p1 = embed(u1)
     f1 = r_mo + (g_mo(p1) if g1 is None else g1)  # (3, nmo, nmo)
     f0 = np.diag(eps)

@@ -182,9 +182,14 @@ class ScfJob:
     kind: ClassVar[str] = "reference-scf"
 
     @property
+    def tight(self) -> bool:
+        """Whether the stage computes the zero-field gradient, and so the tight SCF."""
+        return self.seconds_gradient is None
+
+    @property
     def label(self) -> str:
         """What the stage computes, for the progress lines."""
-        if self.seconds_gradient is None:
+        if self.tight:
             return "reference SCF, polarizability and gradient"
         return "reference SCF and polarizability"
 
@@ -195,7 +200,7 @@ class ScfJob:
             self.atomic_numbers,
             self.coordinates_ang,
             self.spec,
-            **reference_key(self.seconds_gradient is None),
+            **reference_key(self.tight),
         )
 
     def run(self) -> ScfResult:
@@ -205,7 +210,7 @@ class ScfJob:
         from vibrapol.engine.scf import run_scf
         from vibrapol.units import BOHR3_TO_ANG3
 
-        tight = self.seconds_gradient is None
+        tight = self.tight
         with threads_limited(self.threads):
             mol = build_molecule(self.atomic_numbers, self.coordinates_ang, self.spec)
             t0 = perf_counter()

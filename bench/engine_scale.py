@@ -47,9 +47,111 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from batch_model import displacement_route, hessian_route, makespan  # noqa: E402
 
 
+def _tetrahedral_rest(center, neighbours, ref):  # noqa: ANN001, ANN202
+    """Unit vectors from an sp3 centre to its tetrahedral positions not yet taken.
+
+    Two neighbours: the two positions off their plane.  One neighbour: three positions
+    staggered about the bond, the first in the plane of the bond and ``ref``.
+    """
+    import numpy as np
+
+    u = [(n - center) / np.linalg.norm(n - center) for n in neighbours]
+    if len(u) == 2:
+        d = -(u[0] + u[1])
+        d /= np.linalg.norm(d)
+        n = np.cross(u[0], u[1])
+        n /= np.linalg.norm(n)
+        h = np.radians(109.47) / 2
+        return [d * np.cos(h) + n * np.sin(h), d * np.cos(h) - n * np.sin(h)]
+    a = -u[0]
+    p = ref - np.dot(ref, a) * a
+    p /= np.linalg.norm(p)
+    q = np.cross(a, p)
+    t = np.radians(180 - 109.47)
+    return [
+        a * np.cos(t) + np.sin(t) * (p * np.cos(f) + q * np.sin(f))
+        for f in np.radians([0.0, 120.0, 240.0])
+    ]
+
+
+def _octan_2_ol():  # noqa: ANN202
+    """Octan-2-ol (C8H18O, 27 atoms, C1) drawn from ideal values, not a minimum.
+
+    Our own drawn start, as a user's sketch would be: an all-trans chain (C–C 1.53 Å, C–H
+    1.09 Å, C–O 1.43 Å, O–H 0.96 Å), every angle tetrahedral, every torsion staggered.
+    """
+    import numpy as np
+    from ase import Atoms
+
+    cc, ch, co, oh = 1.53, 1.09, 1.43, 0.96
+    half = np.radians(109.47) / 2
+    carbons = [
+        np.array([k * cc * np.sin(half), (k % 2) * cc * np.cos(half), 0.0]) for k in range(8)
+    ]
+    symbols, pos = ["C"] * 8, list(carbons)
+    for k, c in enumerate(carbons):
+        ref = np.array([0.0, 1.0 if k % 2 else -1.0, 0.0])
+        nb = [carbons[j] for j in (k - 1, k + 1) if 0 <= j < 8]
+        for i, d in enumerate(_tetrahedral_rest(c, nb, ref)):
+            if k == 1 and i == 0:  # the hydroxyl on C2
+                o = c + co * d
+                h = o + oh * _tetrahedral_rest(o, [c], carbons[0] - c)[0]
+                symbols += ["O", "H"]
+                pos += [o, h]
+            else:
+                symbols.append("H")
+                pos.append(c + ch * d)
+    return Atoms("".join(symbols), positions=np.array(pos))
+
+
+#: Octan-2-ol as a cheap level leaves it: ``_octan_2_ol()`` optimised by this engine at
+#: HF/STO-3G (46 gradients, 310 s; atoms moved by up to 0.92 Å), rounded to 1e-4 Å.  A start
+#: as a user's force-field or low-level pre-optimisation would give.  The drawn start itself
+#: is "octan-2-ol-drawn" (it took 46 gradients at HF/STO-3G; at B3LYP each costs far more).
+OCTAN_2_OL_STO3G = [
+    ("C", -0.1384, 0.0096, -0.0511),
+    ("C", 1.1349, 0.8929, 0.0071),
+    ("C", 2.4253, 0.0241, -0.0068),
+    ("C", 3.7081, 0.8825, -0.0338),
+    ("C", 4.9916, 0.0243, 0.0195),
+    ("C", 6.2747, 0.8838, -0.0144),
+    ("C", 7.5593, 0.0271, 0.0410),
+    ("C", 8.8397, 0.8842, 0.0076),
+    ("H", -0.1757, -0.6679, 0.7973),
+    ("H", -1.0273, 0.6327, -0.0335),
+    ("H", -0.1472, -0.5813, -0.9614),
+    ("O", 1.1048, 1.7858, 1.1322),
+    ("H", 1.0814, 1.1815, 1.9178),
+    ("H", 1.1453, 1.5404, -0.8763),
+    ("H", 2.3995, -0.6271, -0.8777),
+    ("H", 2.4324, -0.6158, 0.8744),
+    ("H", 3.6934, 1.5700, 0.8094),
+    ("H", 3.7148, 1.4862, -0.9393),
+    ("H", 4.9987, -0.6661, -0.8220),
+    ("H", 4.9854, -0.5767, 0.9270),
+    ("H", 6.2671, 1.5750, 0.8264),
+    ("H", 6.2820, 1.4838, -0.9225),
+    ("H", 7.5671, -0.6638, -0.8001),
+    ("H", 7.5521, -0.5732, 0.9490),
+    ("H", 8.8691, 1.5649, 0.8533),
+    ("H", 9.7230, 0.2535, 0.0480),
+    ("H", 8.8843, 1.4737, -0.9034),
+]
+
+
 def _atoms(system: str):  # noqa: ANN202
-    """Starting structures: ASE's G2 geometries, our own naphthalene model, and biphenyl."""
+    """Starting structures: ASE's G2 geometries, our own naphthalene model, biphenyl and
+    octan-2-ol (drawn, or as HF/STO-3G leaves the drawn start)."""
     from ase.build import molecule
+
+    if system == "octan-2-ol-drawn":
+        return _octan_2_ol()
+    if system == "octan-2-ol":
+        from ase import Atoms
+
+        return Atoms(
+            [s for s, *_ in OCTAN_2_OL_STO3G], positions=[xyz for _, *xyz in OCTAN_2_OL_STO3G]
+        )
 
     if system == "biphenyl":
         import numpy as np
@@ -282,7 +384,7 @@ def main() -> None:
     parser.add_argument("--targets", action="store_true")
     parser.add_argument("--batch-check", action="store_true")
     parser.add_argument("--predict", action="store_true")
-    parser.add_argument("--systems", default="benzene,naphthalene,biphenyl")
+    parser.add_argument("--systems", default="benzene,naphthalene,octan-2-ol")
     parser.add_argument("--bases", default="6-31g*,def2-svp")
     parser.add_argument("--method", default="b3lyp")
     parser.add_argument("--workers", default="2")

@@ -21,10 +21,15 @@ Three parts (each prints a table; the last line of the run is one JSON line with
     The predicted wall time of a batch of 50 conformers on 8, 32 and 128 workers, from the
     stage and task costs measured by ``--targets`` for one molecule, for the Hessian + field
     route and for the displacement route (both measured in that run).
+``--predict-from FILE``
+    The same prediction from the JSON line of an earlier ``--targets`` run of a C1 molecule,
+    without running anything: its own route from its measured stages, the displacement route
+    from tasks estimated as ``auto`` estimates them (see :func:`predict_from_row`).
 
     PYTHONPATH=src python bench/engine_scale.py --targets --systems benzene --bases 6-31g*
     PYTHONPATH=src python bench/engine_scale.py --batch-check
     PYTHONPATH=src python bench/engine_scale.py --targets --predict --systems benzene
+    PYTHONPATH=src python bench/engine_scale.py --predict-from targets.json
 
 Times are wall-clock seconds on this machine; on shared cores they are contended, so each row
 also gives the CPU seconds of both jobs (this process and its reaped workers) and their ratio,
@@ -379,11 +384,57 @@ def predict(row_field: dict, row_disp: dict, conformers: int = 50) -> list[dict]
     return out
 
 
+def predict_from_row(row: dict, conformers: int = 50) -> list[dict]:
+    """Predicted batch wall time from one ``--targets`` row of a C1 molecule.
+
+    The row's own route (``auto``'s choice, usually the analytic one at B3LYP) is modelled
+    from its measured stages: optimisation, reference SCF + α, Hessian, then its tasks (the
+    analytic tensor is one task after the Hessian).  The displacement route was not run at
+    this size (162 tasks of SCF + gradient + dipole + CPHF for 27 atoms would take hours
+    here), so its tasks are *estimated* as ``auto`` estimates them:
+    ``DISPLACEMENT_TASK_FACTOR`` × (SCF + α + gradient) of the same run, with the gradient's
+    time measured in the optimisation; 6N tasks (two per Cartesian coordinate, no symmetry).
+    """
+    from vibrapol.engine.routes import DISPLACEMENT_TASK_FACTOR
+
+    if row["point_group"] != "C1":
+        raise ValueError("the displacement estimate counts 6N tasks: C1 molecules only")
+    s = row["whole_stages"]
+    gradient = s["gradient"] or s["gradient_measured_in_optimisation"]
+    reference = s["scf"] + s["alpha"] + s["gradient"]
+    t_task = DISPLACEMENT_TASK_FACTOR * (s["scf"] + s["alpha"] + gradient)
+    n_disp = 6 * row["n_atoms"]
+    models = (
+        (f"hessian+{row['route']}", "measured",
+         hessian_route(s["optimize"], reference, s["hessian"], s["task_seconds"])),
+        ("displacement", f"estimated: {n_disp} tasks of {t_task:.0f} s",
+         displacement_route(s["optimize"], s["scf"] + s["alpha"], [t_task] * n_disp)),
+    )  # fmt: skip
+    out = []
+    for name, basis, mol in models:
+        for w in (8, 32, 128):
+            out.append(
+                {
+                    "route": name,
+                    "costs": basis,
+                    "workers": w,
+                    "conformers": conformers,
+                    "seconds_predicted": round(makespan([mol] * conformers, w), 1),
+                }
+            )
+    return out
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--targets", action="store_true")
     parser.add_argument("--batch-check", action="store_true")
     parser.add_argument("--predict", action="store_true")
+    parser.add_argument(
+        "--predict-from",
+        metavar="FILE",
+        help="print the 50-conformer predictions from the JSON line of an earlier --targets run",
+    )
     parser.add_argument("--systems", default="benzene,naphthalene,octan-2-ol")
     parser.add_argument("--bases", default="6-31g*,def2-svp")
     parser.add_argument("--method", default="b3lyp")
@@ -435,6 +486,19 @@ def main() -> None:
                         f"{p['seconds_predicted']:>9.1f} s",
                         flush=True,
                     )
+    if args.predict_from:
+        last = Path(args.predict_from).read_text().strip().splitlines()[-1]
+        figures["predict_from"] = args.predict_from
+        figures["predict"] = []
+        for row in json.loads(last)["targets"]:
+            for p in predict_from_row(row):
+                figures["predict"].append({"system": row["system"], "basis": row["basis"], **p})
+                print(
+                    f"50 conformers of {row['system']} {row['method']}/{row['basis']}, "
+                    f"{p['route']:<18} {p['workers']:>4} workers: "
+                    f"{p['seconds_predicted']:>9.1f} s ({p['costs']})",
+                    flush=True,
+                )
     if args.batch_check:
         check = batch_check()
         figures["batch_check"] = check

@@ -1,7 +1,7 @@
 """Benchmark of the engine at real size: the Raman job against the frequency-only job,
 density fitting, workers, and a model of large conformer batches checked on a local cluster.
 
-Three parts (each prints a table; the last line of the run is one JSON line with every figure):
+Four parts (each prints a table; the last line of the run is one JSON line with every figure):
 
 ``--targets``
     For each molecule and basis (B3LYP by default): one whole ``run_engine`` (optimisation from
@@ -110,9 +110,9 @@ def _octan_2_ol():  # noqa: ANN202
 
 
 #: Octan-2-ol as a cheap level leaves it: ``_octan_2_ol()`` optimised by this engine at
-#: HF/STO-3G (46 gradients, 310 s; atoms moved by up to 0.92 Å), rounded to 1e-4 Å.  A start
-#: as a user's force-field or low-level pre-optimisation would give.  The drawn start itself
-#: is "octan-2-ol-drawn" (it took 46 gradients at HF/STO-3G; at B3LYP each costs far more).
+#: HF/STO-3G (46 gradients, 310 s; atoms moved by up to 0.92 Å), rounded to 1e-4 Å: a start
+#: as a user's force field or cheap pre-optimisation would give.  The drawn start itself is
+#: the system "octan-2-ol-drawn".
 OCTAN_2_OL_STO3G = [
     ("C", -0.1384, 0.0096, -0.0511),
     ("C", 1.1349, 0.8929, 0.0071),
@@ -411,12 +411,12 @@ def predict_from_row(row: dict, conformers: int = 50) -> list[dict]:
          displacement_route(s["optimize"], s["scf"] + s["alpha"], [t_task] * n_disp)),
     )  # fmt: skip
     out = []
-    for name, basis, mol in models:
+    for name, costs, mol in models:
         for w in (8, 32, 128):
             out.append(
                 {
                     "route": name,
-                    "costs": basis,
+                    "costs": costs,
                     "workers": w,
                     "conformers": conformers,
                     "seconds_predicted": round(makespan([mol] * conformers, w), 1),

@@ -372,16 +372,21 @@ def predict(row_field: dict, row_disp: dict, conformers: int = 50) -> list[dict]
             mol = displacement_route(s["optimize"], ref, s["task_seconds"])
         else:
             mol = hessian_route(s["optimize"], ref, s["hessian"], s["task_seconds"])
-        for w in (8, 32, 128):
-            out.append(
-                {
-                    "route": name,
-                    "workers": w,
-                    "conformers": conformers,
-                    "seconds_predicted": round(makespan([mol] * conformers, w), 1),
-                }
-            )
+        out += _batch_rows(mol, conformers, route=name)
     return out
+
+
+def _batch_rows(molecule: list, conformers: int, **label: str) -> list[dict]:
+    """The model's wall time of ``conformers`` copies of ``molecule`` on 8, 32 and 128 workers."""
+    return [
+        {
+            **label,
+            "workers": w,
+            "conformers": conformers,
+            "seconds_predicted": round(makespan([molecule] * conformers, w), 1),
+        }
+        for w in (8, 32, 128)
+    ]
 
 
 def predict_from_row(row: dict, conformers: int = 50) -> list[dict]:
@@ -410,19 +415,11 @@ def predict_from_row(row: dict, conformers: int = 50) -> list[dict]:
         ("displacement", f"estimated: {n_disp} tasks of {t_task:.0f} s",
          displacement_route(s["optimize"], s["scf"] + s["alpha"], [t_task] * n_disp)),
     )  # fmt: skip
-    out = []
-    for name, costs, mol in models:
-        for w in (8, 32, 128):
-            out.append(
-                {
-                    "route": name,
-                    "costs": costs,
-                    "workers": w,
-                    "conformers": conformers,
-                    "seconds_predicted": round(makespan([mol] * conformers, w), 1),
-                }
-            )
-    return out
+    return [
+        r
+        for name, costs, mol in models
+        for r in _batch_rows(mol, conformers, route=name, costs=costs)
+    ]
 
 
 def main() -> None:
